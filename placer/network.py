@@ -1,0 +1,522 @@
+"""Network functions H(s) = N(s)/D(s) of a circuit, symbolic and numeric.
+
+Symbolic: the MNA matrix is built with polynomial entries (resistors as
+conductances, s·C for capacitors, inductor branch currents) in a sympy
+polynomial ring, and ``det M`` and the output minor are taken by
+fraction-free (Bareiss) elimination in that ring, with no rational
+functions at any step. The result is shown in the part symbols (R, not G):
+each conductance power is cleared by multiplying N and D by the same
+product of resistances.
+
+Numeric: no symbols. Poles are the finite generalised eigenvalues of the
+pencil (−G, C); zeros those of the same pencil with the output column
+replaced by the excitation; the frequency response solves
+(G + jωC) x = b.
+
+Examples
+--------
+>>> from placer.circuit import Circuit, Element
+>>> rc = Circuit((Element("R1", "resistor", ("vin", "vout"), symbol="R"),
+...               Element("C1", "capacitor", ("vout", "gnd"), symbol="C")))
+>>> nf = network_function(rc)
+>>> nf.expression()
+1/(C*R*s + 1)
+>>> nf.omega0
+1/(C*R)
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from functools import cached_property
+
+import numpy as np
+import scipy.linalg
+import sympy
+from sympy.polys.domains import QQ, ZZ
+from sympy.polys.matrices import DomainMatrix
+
+from .errors import NumericalWarning, TopologyError
+from .mna import layout, numeric_system, stamps
+
+__all__ = [
+    "S",
+    "NetworkFunction",
+    "network_function",
+    "SecondOrderFigures",
+    "circuit_poles",
+    "circuit_zeros",
+    "circuit_gain",
+    "circuit_response",
+]
+
+#: The Laplace variable, rad/s.
+S = sympy.Symbol("s")
+
+
+@dataclass(frozen=True)
+class SecondOrderFigures:
+    """ω0 (rad/s), Q and pass-band gain as arrays (one per sample)."""
+
+    omega0: np.ndarray
+    q: np.ndarray
+    gain: np.ndarray
+
+
+@dataclass(frozen=True)
+class NetworkFunction:
+    """Symbolic H(s) = N(s)/D(s) of a circuit, with numeric evaluators.
+
+    Attributes
+    ----------
+    numerator, denominator : sympy.Poly
+        Polynomials in :data:`S`; coefficients are polynomials in the part
+        symbols (R, C, L, gains).
+    symbols : dict
+        Part symbol name → sympy Symbol.
+    cancelled : sympy.Expr
+        The common factor removed from N and D (1 when none).
+    """
+
+    numerator: sympy.Poly
+    denominator: sympy.Poly
+    symbols: dict
+    cancelled: sympy.Expr = sympy.Integer(1)
+    _cache: dict = field(default_factory=dict, repr=False, compare=False)
+
+    # -- symbolic figures --------------------------------------------------
+    @property
+    def order(self):
+        """Degree of the denominator in s."""
+        return self.denominator.degree()
+
+    def expression(self):
+        """H(s) as one sympy expression."""
+        return sympy.cancel(self.numerator.as_expr() / self.denominator.as_expr())
+
+    @cached_property
+    def numerator_coefficients(self):
+        """Coefficients of N, highest power of s first (sympy expressions)."""
+        return tuple(self.numerator.all_coeffs())
+
+    @cached_property
+    def denominator_coefficients(self):
+        return tuple(self.denominator.all_coeffs())
+
+    @cached_property
+    def gain_kind(self):
+        """Where the pass-band gain is read: "dc", "hf" or "center"."""
+        degrees = [m[0] for m in self.numerator.monoms()]
+        n = self.order
+        if degrees and min(degrees) == max(degrees):
+            k = degrees[0]
+            if k == 0:
+                return "dc"
+            if k == n:
+                return "hf"
+            if n == 2 and k == 1:
+                return "center"
+        if self.numerator.eval(0) != 0:
+            return "dc"
+        return "hf"
+
+    @cached_property
+    def omega0(self):
+        """Natural frequency (rad/s) for first- and second-order D; else None."""
+        a = self.denominator_coefficients
+        if self.order == 1:
+            return sympy.factor(a[1] / a[0])
+        if self.order == 2:
+            return sympy.sqrt(sympy.factor(a[2] / a[0]))
+        return None
+
+    @cached_property
+    def q(self):
+        """Quality factor for a second-order D; else None."""
+        if self.order != 2:
+            return None
+        a2, a1, a0 = self.denominator_coefficients
+        return sympy.sqrt(sympy.factor(a0 * a2)) / sympy.factor(a1)
+
+    @cached_property
+    def gain(self):
+        """Pass-band gain (signed): at DC, at high frequency or at ω0."""
+        b = dict(zip(range(self.numerator.degree(), -1, -1), self.numerator_coefficients))
+        a = dict(zip(range(self.order, -1, -1), self.denominator_coefficients))
+        kind = self.gain_kind
+        if kind == "dc":
+            return sympy.factor(b.get(0, 0) / a[0])
+        if kind == "center":
+            return sympy.factor(b.get(1, 0) / a[1])
+        top = self.numerator.degree()
+        if top < self.order:
+            return sympy.Integer(0)
+        return sympy.factor(b[top] / a[self.order])
+
+    # -- numeric evaluation ------------------------------------------------
+    @cached_property
+    def _evaluators(self):
+        names = list(self.symbols)
+        args = [self.symbols[n] for n in names]
+        num = sympy.lambdify(args, list(self.numerator_coefficients), "numpy", dummify=True)
+        den = sympy.lambdify(args, list(self.denominator_coefficients), "numpy", dummify=True)
+        return names, num, den
+
+    def coefficients(self, values):
+        """Numeric coefficients of N and D, highest power first.
+
+        Parameters
+        ----------
+        values : mapping of str to float or array
+            Every part symbol → its value (SI units). Arrays broadcast, so
+            one call evaluates many samples (Monte Carlo).
+
+        Returns
+        -------
+        (numerator, denominator) : tuple of ndarray
+            Shapes ``(deg N + 1, *sample_shape)`` and ``(deg D + 1, *sample_shape)``.
+        """
+        names, num, den = self._evaluators
+        missing = [n for n in names if n not in values]
+        if missing:
+            raise TopologyError(
+                f"no value for part {missing[0]!r}; every part needs one "
+                f"(parts: {', '.join(names)})"
+            )
+        args = [np.asarray(values[n], dtype=float) for n in names]
+        numerator = num(*args)
+        denominator = den(*args)
+        shape = np.broadcast_shapes(*(np.shape(x) for x in args)) if args else ()
+        numerator = np.stack([np.broadcast_to(np.asarray(c, float), shape) for c in numerator])
+        denominator = np.stack([np.broadcast_to(np.asarray(c, float), shape) for c in denominator])
+        return numerator, denominator
+
+    def second_order_figures(self, values):
+        """ω0 (rad/s), Q and pass-band gain, vectorised over samples."""
+        if self.order != 2:
+            raise TopologyError(
+                f"second_order_figures needs a second-order function, not order {self.order}"
+            )
+        numerator, denominator = self.coefficients(values)
+        a2, a1, a0 = denominator
+        with np.errstate(divide="ignore", invalid="ignore"):
+            omega0 = np.sqrt(a0 / a2)
+            q = np.sqrt(a0 * a2) / a1
+            gain = _gain_from(numerator, denominator, self.gain_kind)
+        return SecondOrderFigures(omega0=omega0, q=q, gain=gain)
+
+    def poles(self, values):
+        """Poles in rad/s for one set of part values."""
+        _, denominator = self.coefficients(values)
+        return _roots(denominator)
+
+    def zeros(self, values):
+        """Finite zeros in rad/s for one set of part values."""
+        numerator, _ = self.coefficients(values)
+        return _roots(numerator)
+
+    def response_at(self, values, omega):
+        """H(jω) for one set of part values; `omega` in rad/s."""
+        numerator, denominator = self.coefficients(values)
+        s = 1j * np.asarray(omega, dtype=float)
+        return np.polyval(numerator, s) / np.polyval(denominator, s)
+
+    def transfer_function(self, values):
+        """A python-control TransferFunction for one set of part values."""
+        import control
+
+        numerator, denominator = self.coefficients(values)
+        numerator = np.trim_zeros(np.asarray(numerator, float), "f")
+        denominator = np.trim_zeros(np.asarray(denominator, float), "f")
+        return control.tf(numerator if numerator.size else [0.0], denominator)
+
+    def latex(self):
+        """H(s) in LaTeX, in the part symbols."""
+        return sympy.latex(self.numerator.as_expr() / self.denominator.as_expr())
+
+
+def _gain_from(numerator, denominator, kind):
+    if kind == "dc":
+        return numerator[-1] / denominator[-1]
+    if kind == "center":
+        return numerator[-2] / denominator[-2] if numerator.shape[0] >= 2 else 0 * denominator[0]
+    top = numerator.shape[0] - 1
+    if top < denominator.shape[0] - 1:
+        return 0 * denominator[0]
+    return numerator[0] / denominator[0]
+
+
+def _roots(coefficients):
+    coefficients = np.trim_zeros(np.asarray(coefficients, dtype=float), "f")
+    if coefficients.size <= 1:
+        return np.array([], dtype=complex)
+    return np.roots(coefficients).astype(complex)
+
+
+# -- symbolic derivation -----------------------------------------------------
+
+def network_function(circuit):
+    """Symbolic network function of `circuit`, output over input voltage.
+
+    Parts that carry a symbol stay symbolic; parts with a value enter as
+    exact rationals of their decimal value.
+
+    Returns
+    -------
+    NetworkFunction
+
+    Raises
+    ------
+    TopologyError
+        If the MNA matrix is singular (the circuit has no unique solution).
+
+    Examples
+    --------
+    >>> from placer.library import get_topology
+    >>> nf = network_function(get_topology("rc-lowpass").circuit)
+    >>> nf.denominator.all_coeffs()
+    [C1*R1, 1]
+    """
+    lay = layout(circuit)
+    by_name = {e.name: e for e in circuit.elements}
+    part_symbols = {}      # part symbol name -> sympy Symbol (R form)
+    generators = [S]       # ring generators (conductances as G__name)
+    generator_of = {}      # (symbol, role) -> generator
+    role_of_symbol = {}
+    for element in circuit.elements:
+        if not element.is_symbolic:
+            continue
+        role = _role(element.kind)
+        known = role_of_symbol.setdefault(element.symbol, role)
+        if known != role:
+            raise TopologyError(
+                f"symbol {element.symbol!r} names parts of different kinds; use one name per kind"
+            )
+        if element.symbol in part_symbols:
+            continue
+        positive = element.kind in ("resistor", "capacitor", "inductor")
+        part = sympy.Symbol(element.symbol, positive=True) if positive else sympy.Symbol(element.symbol)
+        part_symbols[element.symbol] = part
+        generator = sympy.Symbol(f"G__{element.symbol}", positive=True) if role == "conductance" else part
+        generators.append(generator)
+        generator_of[element.symbol] = generator
+
+    # Stamps as (generator index or None, exact number, power of s) terms.
+    terms_at = {}
+    integral = True
+    for stamp in stamps(circuit, lay):
+        number = _rational(stamp.factor)
+        generator = None
+        if stamp.parameter is not None:
+            name, role = stamp.parameter
+            element = by_name[name]
+            if element.is_symbolic:
+                generator = generators.index(generator_of[element.symbol])
+            else:
+                value = _rational(element.parameter)
+                number = number / value if role == "conductance" else number * value
+        integral = integral and number.is_integer
+        terms_at.setdefault((stamp.row, stamp.col), []).append((generator, number, stamp.power))
+    domain = (ZZ if integral else QQ)[tuple(generators)]
+    gens = domain.gens
+    size = lay.size
+    rows = [[domain.zero] * size for _ in range(size)]
+    for (r, c), terms in terms_at.items():
+        entry = domain.zero
+        for generator, number, power in terms:
+            term = domain.convert(number)
+            if generator is not None:
+                term = term * gens[generator]
+            if power:
+                term = term * gens[0]
+            entry = entry + term
+        rows[r][c] = entry
+    matrix = DomainMatrix(rows, (size, size), domain)
+    denominator = matrix.det()
+    if denominator == domain.zero:
+        raise TopologyError(
+            "the MNA matrix is singular: the circuit has no unique solution "
+            "(check for floating nodes, or op-amps with no feedback path)"
+        )
+    replaced = [row[:] for row in rows]
+    for r in range(size):
+        replaced[r][lay.output_index] = domain.one if r == lay.input_row else domain.zero
+    numerator = DomainMatrix(replaced, (size, size), domain).det()
+    common, numerator, denominator = _cancel(domain, numerator, denominator)
+    if _leading_sign(denominator) < 0:
+        numerator, denominator = -numerator, -denominator
+    names = list(generator_of)
+    numerator_poly, denominator_poly = _to_resistances(
+        domain, numerator, denominator, names, role_of_symbol, part_symbols
+    )
+    return NetworkFunction(
+        numerator=numerator_poly,
+        denominator=denominator_poly,
+        symbols=dict(part_symbols),
+        cancelled=domain.to_sympy(common),
+    )
+
+
+def _role(kind):
+    return {
+        "resistor": "conductance",
+        "capacitor": "capacitance",
+        "inductor": "inductance",
+    }.get(kind, "gain")
+
+
+def _rational(number):
+    number = float(number)
+    if number.is_integer():
+        return sympy.Integer(int(number))
+    return sympy.Rational(repr(number))
+
+
+def _cancel(domain, numerator, denominator):
+    if numerator == domain.zero:
+        return domain.one, numerator, denominator
+    common, numerator_part, denominator_part = numerator.cofactors(denominator)
+    return common, numerator_part, denominator_part
+
+
+def _leading_sign(poly):
+    coefficient = poly.LC
+    return -1 if coefficient < 0 else 1
+
+
+def _to_resistances(domain, numerator, denominator, names, role_of, parts):
+    """Replace each conductance G by 1/R and clear denominators in R.
+
+    Ring generator i + 1 belongs to ``names[i]``. Every conductance's
+    highest power over N and D is cleared by the same product of R, so the
+    ratio is unchanged. Returns two sympy Polys in S whose coefficients lie
+    in a polynomial ring over the part symbols.
+    """
+    conductance = [role_of[n] == "conductance" for n in names]
+    degrees = [0] * len(names)
+    for poly in (numerator, denominator):
+        for monom in poly.monoms():
+            for i, flag in enumerate(conductance):
+                if flag:
+                    degrees[i] = max(degrees[i], monom[i + 1])
+    coefficient_ring = domain.domain[tuple(parts[n] for n in names)] if names else domain.domain
+
+    def convert(poly):
+        by_power = {}
+        for monom, coefficient in poly.terms():
+            exponents = tuple(
+                degrees[i] - monom[i + 1] if conductance[i] else monom[i + 1]
+                for i in range(len(names))
+            )
+            by_power.setdefault(monom[0], {})[exponents] = coefficient
+        out = {}
+        for power, terms in by_power.items():
+            if names:
+                out[(power,)] = coefficient_ring.from_dict(terms) if hasattr(coefficient_ring, "from_dict") else coefficient_ring.ring.from_dict(terms)
+            else:
+                out[(power,)] = terms[()]
+        return sympy.Poly.from_dict(out, S, domain=coefficient_ring)
+
+    return convert(numerator), convert(denominator)
+
+
+# -- numeric analysis (no symbols) -------------------------------------------
+
+def _finite_eigenvalues(A, B):
+    """Finite λ with A x = λ B x, after frequency and row/column scaling."""
+    nonzero_a = np.abs(A[A != 0])
+    nonzero_b = np.abs(B[B != 0])
+    if nonzero_b.size == 0:
+        return np.array([], dtype=complex)
+    scale = math.exp(np.mean(np.log(nonzero_a)) - np.mean(np.log(nonzero_b))) if nonzero_a.size else 1.0
+    Bs = B * scale
+    magnitude = np.abs(A) + np.abs(Bs)
+    rows = np.where(magnitude.max(axis=1) > 0, magnitude.max(axis=1), 1.0)
+    A1, B1 = A / rows[:, None], Bs / rows[:, None]
+    magnitude = np.abs(A1) + np.abs(B1)
+    cols = np.where(magnitude.max(axis=0) > 0, magnitude.max(axis=0), 1.0)
+    A1, B1 = A1 / cols[None, :], B1 / cols[None, :]
+    alpha, beta = scipy.linalg.eig(A1, B1, right=False, homogeneous_eigvals=True)
+    finite = np.abs(beta) > 1e-11 * np.maximum(np.abs(alpha), np.abs(beta))
+    values = alpha[finite] / beta[finite] * scale
+    return values[np.abs(values) < 1e12 * scale]
+
+
+def circuit_poles(circuit, values=None):
+    """Poles (rad/s) of a circuit with numeric parts, from the MNA pencil.
+
+    Parameters
+    ----------
+    values : mapping, optional
+        Numbers for parts that carry a symbol.
+    """
+    system = numeric_system(circuit, values)
+    poles = _finite_eigenvalues(-system.G, system.C)
+    zeros = _zeros_of(system)
+    return _cancel_pairs(poles, zeros)[0]
+
+
+def circuit_zeros(circuit, values=None):
+    """Finite zeros (rad/s) of the input-to-output function, numerically."""
+    system = numeric_system(circuit, values)
+    poles = _finite_eigenvalues(-system.G, system.C)
+    return _cancel_pairs(poles, _zeros_of(system))[1]
+
+
+def _zeros_of(system):
+    G = system.G.copy()
+    C = system.C.copy()
+    G[:, system.output] = system.b
+    C[:, system.output] = 0.0
+    return _finite_eigenvalues(-G, C)
+
+
+def _cancel_pairs(poles, zeros, rtol=1e-7):
+    """Drop pole-zero pairs that coincide (uncontrollable or unobservable modes)."""
+    poles = list(poles)
+    kept_zeros = []
+    for z in zeros:
+        if poles:
+            distances = [abs(p - z) for p in poles]
+            i = int(np.argmin(distances))
+            if distances[i] <= rtol * max(abs(z), abs(poles[i]), 1e-30):
+                poles.pop(i)
+                continue
+        kept_zeros.append(z)
+    return np.array(poles, dtype=complex), np.array(kept_zeros, dtype=complex)
+
+
+def circuit_response(circuit, omega, values=None):
+    """H(jω) of a circuit by solving (G + jωC) x = b; `omega` in rad/s."""
+    system = numeric_system(circuit, values)
+    omega = np.atleast_1d(np.asarray(omega, dtype=float))
+    matrices = system.G[None, :, :] + 1j * omega[:, None, None] * system.C[None, :, :]
+    rhs = np.broadcast_to(system.b.astype(complex), (omega.size, system.b.size))[..., None]
+    try:
+        x = np.linalg.solve(matrices, rhs)[..., 0]
+    except np.linalg.LinAlgError:
+        raise TopologyError("the MNA matrix is singular at some frequency of the grid") from None
+    return x[:, system.output]
+
+
+def circuit_gain(circuit, values=None):
+    """The constant k of H(s) = k·Π(s − z)/Π(s − p), numerically."""
+    poles = circuit_poles(circuit, values)
+    zeros = circuit_zeros(circuit, values)
+    scale = max([abs(r) for r in list(poles) + list(zeros)] + [1.0])
+    probe = scale * (0.3 + 1.1j)
+    h = _response_at_s(circuit, probe, values)
+    k = h * np.prod(probe - poles) / np.prod(probe - zeros)
+    if abs(k.imag) > 1e-6 * abs(k):
+        import warnings
+
+        warnings.warn("the gain constant came out complex; roots may be inaccurate",
+                      NumericalWarning, stacklevel=2)
+    return float(k.real)
+
+
+def _response_at_s(circuit, s, values):
+    system = numeric_system(circuit, values)
+    x = np.linalg.solve(system.G + s * system.C, system.b.astype(complex))
+    return x[system.output]
