@@ -29,7 +29,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from functools import cached_property
+from functools import cached_property, lru_cache
 
 import numpy as np
 import scipy.linalg
@@ -256,6 +256,7 @@ def _roots(coefficients):
 
 # -- symbolic derivation -----------------------------------------------------
 
+@lru_cache(maxsize=512)
 def network_function(circuit):
     """Symbolic network function of `circuit`, output over input voltage.
 

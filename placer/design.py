@@ -1,0 +1,378 @@
+"""Orchestration: spec → target → sections → candidates → a Design.
+
+For each section of the target, every candidate topology is solved
+(continuous values) and snapped (preferred values); the best candidate
+wins: smallest error, then fewest parts, then smallest value spread.
+Errors within 0.01 percentage points of each other count as equal, so a
+simpler circuit is not passed over for a difference no one could measure.
+
+The sections are then joined into one cascade circuit (a unity-gain
+buffer is placed after a section whose output is not driven by an
+amplifier, so the next section does not load it), and the cascade's poles
+and zeros are computed from that circuit on its own.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from .circuit import Circuit, Element
+from .errors import SpecError, UnreachableTarget
+from .library import find_topologies, library_topologies, load_folder, resolve_topology
+from .network import circuit_poles, circuit_zeros, network_function
+from .snap import snap
+from .solve import goal_from_section, make_problem, root_errors, solve
+from .targets import split_sections
+
+__all__ = [
+    "Candidate",
+    "SectionDesign",
+    "Design",
+    "PartChoice",
+    "candidate_topologies",
+    "place_section",
+    "design",
+    "cascade_circuit",
+    "value_spread",
+]
+
+ERROR_TIE_PCT = 0.01
+_PART_KINDS = ("resistor", "capacitor", "inductor")
+
+
+@dataclass(frozen=True)
+class PartChoice:
+    """One part of the built circuit: designator, value and where it came from."""
+
+    name: str          # reference designator in the design (R1, C3, …)
+    symbol: str        # the part's name in its topology
+    kind: str
+    value: float       # chosen value, SI
+    series: str        # "E96", … or "" when not snapped (fixed, given)
+    continuous: float  # the continuous solution's value, SI
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """One topology tried for one section."""
+
+    topology: object
+    reachable: bool
+    reason: str = ""
+    problem: object = None
+    solution: object = None
+    snapped: object = None
+    errors: object = None          # RootErrors of the snapped values
+    continuous_errors: object = None
+
+    @property
+    def error_pct(self):
+        """Worst root/figure error after snapping, percent, gain included."""
+        if not self.reachable:
+            return math.inf
+        worst = self.errors.worst_pct
+        if self.errors.gain_db is not None:
+            worst = max(worst, 100 * abs(10 ** (self.errors.gain_db / 20) - 1))
+        return worst
+
+    @property
+    def spread(self):
+        return value_spread(self.topology, self.snapped.values) if self.reachable else {}
+
+
+@dataclass(frozen=True)
+class SectionDesign:
+    """The winning candidate of one section, with its built parts."""
+
+    index: int
+    section: object
+    goal: object
+    candidate: Candidate
+    candidates: tuple
+    parts: tuple            # PartChoice
+    circuit: Circuit        # the section alone, values in, designators as names
+
+    @property
+    def topology(self):
+        return self.candidate.topology
+
+
+@dataclass(frozen=True)
+class Design:
+    """A whole design: target, sections, the cascade circuit, achieved roots."""
+
+    spec: object
+    target: object
+    sections: tuple
+    circuit: Circuit
+    poles: tuple
+    zeros: tuple
+    gain: float
+
+    @property
+    def parts(self):
+        return tuple(p for s in self.sections for p in s.parts)
+
+
+def value_spread(topology, values):
+    """Largest/smallest value ratio among resistors and among capacitors."""
+    out = {}
+    for kind in _PART_KINDS:
+        numbers = [values[e.symbol] for e in topology.circuit.elements
+                   if e.kind == kind and e.symbol in values]
+        numbers += [e.value for e in topology.circuit.elements
+                    if e.kind == kind and e.symbol is None and e.value]
+        if len(numbers) >= 2:
+            out[kind] = max(numbers) / min(numbers)
+    return out
+
+
+def candidate_topologies(section, spec=None):
+    """Topologies to try for a section, and files that failed to load.
+
+    Returns
+    -------
+    (list of Topology, dict path → error message)
+    """
+    errors = {}
+    pool = {}
+    names = spec.candidates if spec is not None else None
+    if names:
+        for name in names:
+            topology = resolve_topology(name)
+            pool[topology.id] = topology
+    if spec is not None and spec.folder:
+        loaded = load_folder(spec.folder)
+        pool.update(loaded["topologies"])
+        errors.update(loaded["errors"])
+    if not names:
+        for topology in find_topologies(response=section.kind, order=section.order):
+            pool.setdefault(topology.id, topology)
+    fitting = [t for t in pool.values() if t.response == section.kind and t.order == section.order]
+    if names and not fitting:
+        fitting = list(pool.values())  # let each say why it cannot
+    return fitting, errors
+
+
+def place_section(section, topology, *, parts=None, seed=0):
+    """Solve and snap one topology for one section.
+
+    Parameters
+    ----------
+    section : placer.targets.Section
+    topology : Topology
+    parts : placer.spec.PartsSpec, optional
+        Series, ranges, fixed parts and constraints.
+    seed : int
+
+    Returns
+    -------
+    Candidate
+        ``reachable`` False with the reason when the topology cannot.
+    """
+    goal = goal_from_section(section)
+    ranges = dict(parts.ranges) if parts is not None else None
+    series = dict(parts.series) if parts is not None else None
+    fixed = {}
+    constraints = ()
+    if parts is not None:
+        fixed = {k: v for k, v in parts.fixed.items() if k in topology.symbols}
+        constraints = tuple(
+            c for c in parts.constraints if c.part in topology.symbols and c.source in topology.symbols
+        )
+    try:
+        problem = make_problem(topology, goal, ranges=ranges, fixed=fixed, constraints=constraints)
+        solution = solve(problem, seed=seed)
+    except UnreachableTarget as reason:
+        return Candidate(topology=topology, reachable=False, reason=reason.reason)
+    snapped = snap(problem, solution, series=series)
+    errors = root_errors(problem.nf, snapped.values, goal)
+    continuous_errors = root_errors(problem.nf, solution.values, goal)
+    return Candidate(
+        topology=topology, reachable=True, problem=problem, solution=solution,
+        snapped=snapped, errors=errors, continuous_errors=continuous_errors,
+    )
+
+
+def _rank_key(candidate):
+    spread = candidate.spread
+    total_spread = sum(math.log(v) for v in spread.values())
+    error = candidate.error_pct
+    return (round(error / ERROR_TIE_PCT), candidate.topology.part_count + candidate.topology.opamp_count,
+            total_spread, candidate.topology.id)
+
+
+def _alternatives_for(section):
+    """Library topologies whose kind and order fit a section, for messages."""
+    return [t.id for t in find_topologies(response=section.kind, order=section.order)
+            if t.opamp_count or section.order == 1 or (section.q or 0) <= 0.5]
+
+
+def design(spec, *, seed=None, progress=None, place=place_section):
+    """Design every section of a spec's target and build the cascade.
+
+    Parameters
+    ----------
+    spec : placer.spec.Spec
+    seed : int, optional
+        Seed of the multi-start solver (default: the spec's tolerance seed).
+    progress : callable, optional
+        ``progress(done, total, label)`` after each candidate.
+
+    Returns
+    -------
+    Design
+
+    Raises
+    ------
+    UnreachableTarget
+        When no candidate reaches a section; the reason lists each
+        candidate's reason and the library topologies that could.
+    """
+    if spec.target is None:
+        raise SpecError(f"{spec.path}: designing a filter needs a [target] table")
+    seed = spec.tolerance.seed if seed is None else seed
+    sections = split_sections(spec.target, ordering=spec.ordering, gain=spec.gain_distribution)
+    plans = [(section, *candidate_topologies(section, spec)) for section in sections]
+    total = sum(len(p[1]) for p in plans)
+    done = 0
+    built = []
+    for index, (section, topologies, load_errors) in enumerate(plans, start=1):
+        candidates = []
+        for topology in topologies:
+            candidates.append(place(section, topology, parts=spec.parts, seed=seed))
+            done += 1
+            if progress:
+                progress(done, total, topology.id)
+        for path, message in load_errors.items():
+            candidates.append(Candidate(topology=_FailedFile(path), reachable=False, reason=message))
+        reachable = [c for c in candidates if c.reachable]
+        if not reachable:
+            reasons = "; ".join(f"{c.topology.id}: {c.reason}" for c in candidates) or "no candidate topology"
+            raise UnreachableTarget(
+                f"section {index} ({section.kind}, f0 {section.f0_hz:.4g} Hz"
+                + (f", Q {section.q:.4g}" if section.q else "") + f") cannot be reached — {reasons}",
+                alternatives=[a for a in _alternatives_for(section)
+                              if a not in {c.topology.id for c in candidates}],
+            )
+        ranked = sorted(reachable, key=_rank_key) + [c for c in candidates if not c.reachable]
+        built.append((index, section, ranked))
+    return _assemble(spec, built)
+
+
+@dataclass(frozen=True)
+class _FailedFile:
+    """Stands in for a user topology file that failed to load."""
+
+    path: str
+
+    @property
+    def id(self):
+        return self.path
+
+    part_count = 0
+    opamp_count = 0
+
+
+def _assemble(spec, built):
+    counters = {}
+    section_designs = []
+    for index, section, ranked in built:
+        best = ranked[0]
+        circuit, parts = _build_section(best, index, counters)
+        section_designs.append(SectionDesign(
+            index=index, section=section, goal=best.problem.goal, candidate=best,
+            candidates=tuple(ranked), parts=tuple(parts), circuit=circuit,
+        ))
+    cascade = cascade_circuit([s.circuit for s in section_designs], counters)
+    poles = tuple(circuit_poles(cascade))
+    zeros = tuple(circuit_zeros(cascade))
+    gain = 1.0
+    for s in section_designs:
+        gain *= s.candidate.errors.gain
+    return Design(spec=spec, target=spec.target, sections=tuple(section_designs),
+                  circuit=cascade, poles=poles, zeros=zeros, gain=gain)
+
+
+_PREFIX = {"resistor": "R", "capacitor": "C", "inductor": "L", "opamp": "U",
+           "vsource": "V", "isource": "I", "vcvs": "E", "vccs": "G", "cccs": "F", "ccvs": "H"}
+
+
+def _build_section(candidate, index, counters):
+    """The section's circuit with values and board designators."""
+    topology = candidate.topology
+    values = candidate.snapped.values
+    renamed = {}
+    for element in topology.circuit.elements:
+        prefix = _PREFIX[element.kind]
+        counters[prefix] = counters.get(prefix, 0) + 1
+        renamed[element.name] = f"{prefix}{counters[prefix]}"
+    elements = []
+    parts = []
+    for element in topology.circuit.elements:
+        new = replace(element, name=renamed[element.name])
+        if element.control:
+            new = replace(new, control=renamed[element.control])
+        if element.symbol is not None and element.symbol in values:
+            new = new.with_parameter(values[element.symbol])
+            new = replace(new, symbol=None)
+        elements.append(new)
+        if element.kind in _PART_KINDS:
+            value = new.value
+            symbol = element.symbol or element.name
+            parts.append(PartChoice(
+                name=new.name, symbol=symbol, kind=element.kind, value=float(value),
+                series=candidate.snapped.series.get(symbol, ""),
+                continuous=float(candidate.snapped.continuous.get(symbol, value)),
+            ))
+    circuit = Circuit(tuple(elements), reference=topology.circuit.reference,
+                      input=topology.circuit.input, output=topology.circuit.output,
+                      name=f"section {index}: {topology.id}")
+    return circuit, parts
+
+
+def _driven(circuit):
+    """True when the output node is driven by an amplifier or a source."""
+    for element in circuit.elements:
+        if element.kind == "opamp" and element.nodes[2] == circuit.output:
+            return True
+        if element.kind in ("vcvs", "ccvs") and circuit.output in element.nodes[:2]:
+            return True
+    return False
+
+
+def cascade_circuit(circuits, counters=None):
+    """Join section circuits in order into one circuit (buffers where needed).
+
+    Node names get the section's number as a suffix; the first section's
+    input is the cascade's ``vin``, the last one's output its ``vout``.
+    """
+    counters = counters if counters is not None else {}
+    elements = []
+    previous = "vin"
+    count = len(circuits)
+    for k, circuit in enumerate(circuits, start=1):
+        last = k == count
+        out_name = "vout" if last else f"s{k}_out"
+
+        def rename(node, circuit=circuit, k=k, out_name=out_name, previous=previous):
+            if node == circuit.reference:
+                return "gnd"
+            if node == circuit.input:
+                return previous
+            if node == circuit.output:
+                return out_name
+            return f"s{k}_{node}"
+
+        for element in circuit.elements:
+            elements.append(replace(element, nodes=tuple(rename(n) for n in element.nodes)))
+        previous = out_name
+        if not _driven(circuit) and not last:
+            counters["U"] = counters.get("U", 0) + 1
+            buffered = "vout" if last else f"s{k}_buf"
+            elements.append(Element(f"U{counters['U']}", "opamp", (previous, buffered, buffered)))
+            previous = buffered
+    return Circuit(tuple(elements), reference="gnd", input="vin", output=previous, name="cascade")

@@ -1,0 +1,359 @@
+"""Discrete placement: part values from IEC 60063 series, chosen together.
+
+Rounding each part to its nearest preferred value on its own throws away
+the freedom a topology has: a unity-gain Sallen–Key has four parts and two
+figures to meet. The search here uses that freedom:
+
+1. The *coarse* parts (the kind whose series has the fewest values per
+   decade, usually the capacitors) are enumerated over their range — every
+   combination, or a window around the continuous solutions when there are
+   too many.
+2. For every combination at once, the *fine* parts (usually resistors)
+   are re-solved continuously (a batched Levenberg–Marquardt in log space),
+   starting from the continuous solution scaled by the combination.
+3. Each fine part is bent to both series neighbours of its solved value;
+   every such candidate is evaluated (vectorised network-function
+   evaluation) on the worst relative error of ω0 and Q (and of the gain
+   when the topology can set it).
+4. The best candidates are polished by a discrete local search that moves
+   any part one series step at a time while that improves the error.
+
+Ties (within 1e-7) go to the smaller value spread.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from .eseries import check_series, series_values
+from .errors import SpecError
+from .eseries import nearest
+from .solve import batched_least_squares, figure_error
+
+__all__ = ["SnapResult", "snap", "round_each", "default_series", "COARSE_BUDGET"]
+
+#: Largest number of coarse-part combinations enumerated in full.
+COARSE_BUDGET = 20000
+#: Largest number of rounded candidates evaluated in one pass.
+CANDIDATE_BUDGET = 400_000
+
+_SERIES_KIND = {"resistor": "resistor", "capacitor": "capacitor", "inductor": "inductor"}
+
+
+def default_series():
+    """E96 resistors, E12 capacitors and E12 inductors (common practice)."""
+    return {"resistor": "E96", "capacitor": "E12", "inductor": "E12"}
+
+
+@dataclass(frozen=True)
+class SnapResult:
+    """Snapped part values and how well they meet the goal.
+
+    Attributes
+    ----------
+    values : dict
+        Every part symbol → chosen value (SI).
+    continuous : dict
+        The continuous solution the search started from.
+    series : dict
+        Part symbol → series name ("" for parts not snapped: gains, fixed parts).
+    error : float
+        Worst relative figure error of the snapped values.
+    candidates : int
+        How many discrete candidates were evaluated.
+    """
+
+    values: dict
+    continuous: dict
+    series: dict
+    error: float
+    candidates: int
+
+
+def _grids(problem, series):
+    """Series values inside each independent part's range (None: continuous)."""
+    grids = []
+    for i, name in enumerate(problem.independent):
+        kind = problem.topology.kind_of(name)
+        if kind not in _SERIES_KIND or kind not in series:
+            grids.append(None)
+            continue
+        name_of_series = check_series(series[kind], field=f"{kind}_series")
+        low, high = math.exp(problem.low[i]), math.exp(problem.high[i])
+        try:
+            grid = series_values(name_of_series, low * (1 - 1e-12), high * (1 + 1e-12))
+        except SpecError:
+            raise SpecError(
+                f"part {name!r}: no {name_of_series} value lies in its range "
+                f"[{low:g}, {high:g}]; widen the range or choose a finer series"
+            ) from None
+        grids.append(np.log(np.asarray(grid, float)))
+    return grids
+
+
+def _per_decade(series_name):
+    return len(series_values(series_name, 1.0, 9.999))
+
+
+def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE_BUDGET):
+    """Choose series values for the free parts of a solved problem.
+
+    Parameters
+    ----------
+    problem : placer.solve.Problem
+    solution : placer.solve.Solution
+        The continuous solution (its alternatives seed the search).
+    series : mapping, optional
+        Element kind → series name, e.g. ``{"resistor": "E96",
+        "capacitor": "E12"}`` (default :func:`default_series`).
+    with_gain : bool, optional
+        Count the gain error in the objective (default: when the
+        continuous solution met the gain).
+
+    Returns
+    -------
+    SnapResult
+    """
+    series = dict(default_series() if series is None else series)
+    if with_gain is None:
+        with_gain = bool(solution.gain_matched)
+    grids = _grids(problem, series)
+    n = len(problem.independent)
+    if n == 0:
+        return SnapResult(dict(solution.values), dict(solution.values), {}, float(solution.error), 0)
+    kinds = [problem.topology.kind_of(name) for name in problem.independent]
+    snapped = [g is not None for g in grids]
+    density = {
+        kind: _per_decade(series[kind]) for kind in set(kinds) if kind in series and kind in _SERIES_KIND
+    }
+    coarse = _coarse_parts(kinds, snapped, density)
+    fine = [i for i in range(n) if i not in coarse]
+
+    def error_of(U):
+        return problem.worst_error(U, with_gain=with_gain)
+
+    starts = [solution.u] + [u for u in solution.alternatives if u is not solution.u]
+    coarse_sets = _coarse_candidates(grids, coarse, starts, coarse_budget)
+    count = 0
+    pool = []
+    if coarse:
+        Uc = coarse_sets                                  # (len(coarse), B)
+        B = Uc.shape[1]
+        bases = [solution.u]
+        if fine and len(starts) > 1:
+            # a second branch: the continuous solution whose fine parts differ most
+            other = max(starts[1:], key=lambda u: float(np.max(np.abs(u[fine] - solution.u[fine]))))
+            if np.max(np.abs(other[fine] - solution.u[fine])) > 0.05:
+                bases.append(other)
+        blocks = []
+        for base in bases:
+            shift = np.mean(Uc - base[coarse][:, None], axis=0)
+            block = np.repeat(base[:, None], B, axis=1)
+            block[coarse] = Uc
+            # impedance scaling: capacitors up by e^c, resistors down by e^c
+            for i in fine:
+                sign = -1.0 if kinds[i] == "resistor" else (1.0 if kinds[i] == "inductor" else 0.0)
+                block[i] = np.clip(base[i] + sign * shift, problem.low[i], problem.high[i])
+            blocks.append(block)
+        U = np.concatenate(blocks, axis=1)
+        if fine:
+            U = _solve_fine(problem, U, coarse, fine, with_gain)
+    else:
+        U = np.array(starts).T
+    # bend every snapped fine part to both of its neighbours
+    candidates = _rounded(U, grids, fine if coarse else list(range(n)), problem)
+    count += candidates.shape[1]
+    errors = error_of(candidates)
+    keep = np.argpartition(errors, 48)[:48] if errors.size > 48 else np.arange(errors.size)
+    pool = candidates[:, keep]
+    pool = _local_search(problem, pool, grids, error_of)
+    count += pool.shape[1] * 2 * n * 4
+    errors = error_of(pool)
+    spreads = np.array([_spread(problem, pool[:, j], kinds) for j in range(pool.shape[1])])
+    rank = np.lexsort((spreads, np.round(errors, 7)))
+    best = pool[:, rank[0]]
+    values = {k: float(np.asarray(v)) for k, v in problem.values(best).items()}
+    values = _snap_tied(problem, values, series)
+    numerator, denominator = problem.nf.coefficients(values)
+    error = float(figure_error(numerator, denominator, problem.goal, with_gain=with_gain))
+    part_series = {}
+    for name in problem.topology.symbols:
+        kind = problem.topology.kind_of(name)
+        in_search = name in problem.independent and grids[problem.independent.index(name)] is not None
+        tied = name in problem.tied and kind in series and kind in _SERIES_KIND
+        part_series[name] = check_series(series[kind]) if (in_search or tied) else ""
+    return SnapResult(
+        values=values, continuous=dict(solution.values), series=part_series,
+        error=error, candidates=int(count),
+    )
+
+
+def _coarse_parts(kinds, snapped, density):
+    """Indices of the parts to enumerate: the sparsest series' kind."""
+    eligible = [i for i, ok in enumerate(snapped) if ok]
+    if not eligible:
+        return []
+    sparsest = min(density[kinds[i]] for i in eligible)
+    chosen = [i for i in eligible if density[kinds[i]] == sparsest]
+    if len(chosen) == len(eligible) and len(eligible) > 1:
+        # one kind only (all resistors): enumerate the parts of smallest count
+        reactive = [i for i in chosen if kinds[i] != "resistor"]
+        chosen = reactive or chosen[: max(1, len(chosen) // 2)]
+    return chosen
+
+
+def _coarse_candidates(grids, coarse, starts, budget):
+    """Combinations of coarse-part values (log), shape (len(coarse), B)."""
+    if not coarse:
+        return np.zeros((0, 1))
+    full = [grids[i] for i in coarse]
+    total = math.prod(len(g) for g in full)
+    if total <= budget:
+        mesh = np.meshgrid(*full, indexing="ij")
+        return np.array([m.ravel() for m in mesh])
+    # a window of series steps around each continuous solution
+    steps = max(1, int((budget / max(1, len(starts))) ** (1 / len(coarse)) // 2))
+    combos = set()
+    for u in starts:
+        ranges = []
+        for i, g in zip(coarse, full):
+            centre = int(np.argmin(np.abs(g - u[i])))
+            lo, hi = max(0, centre - steps), min(len(g), centre + steps + 1)
+            ranges.append(range(lo, hi))
+        for index in itertools.product(*ranges):
+            combos.add(index)
+    combos = sorted(combos)
+    return np.array([[full[k][idx[k]] for idx in combos] for k in range(len(coarse))])
+
+
+def _solve_fine(problem, U, coarse, fine, with_gain):
+    """Re-solve the fine parts for every column of U, coarse parts held."""
+    Uc = U[coarse]
+    B = U.shape[1]
+
+    def fun(Uf, columns):
+        full = np.empty((U.shape[0], Uf.shape[1]))
+        full[coarse] = Uc[:, columns]
+        full[fine] = Uf
+        return problem.residuals(full, with_gain=with_gain)
+
+    Uf = batched_least_squares(
+        fun, U[fine], problem.low[fine], problem.high[fine], iterations=10,
+        cost_tol=1e-20, prune_after=2, prune_cost=1e-3,
+    )
+    out = U.copy()
+    out[fine] = Uf
+    return out
+
+
+def _rounded(U, grids, parts, problem):
+    """Every floor/ceil choice of the snapped `parts` for every column of U."""
+    columns = [U]
+    active = [i for i in parts if grids[i] is not None]
+    if not active:
+        return U
+    lower, upper = {}, {}
+    for i in active:
+        g = grids[i]
+        index = np.clip(np.searchsorted(g, U[i] - 1e-12), 0, len(g) - 1)
+        above = g[index]
+        below = g[np.clip(index - 1, 0, len(g) - 1)]
+        exact = np.abs(above - U[i]) < 1e-9
+        lower[i] = np.where(exact, above, below)
+        upper[i] = above
+    reach = (-1, 0, 1, 2) if len(active) <= 3 else (0, 1)
+    choices = list(itertools.product(reach, repeat=len(active)))
+    budget = max(1, CANDIDATE_BUDGET // len(choices))
+    if U.shape[1] > budget:
+        # keep the columns whose continuous fine solution is best
+        errors = problem.worst_error(U)
+        U = U[:, np.argsort(errors)[:budget]]
+        for i in active:
+            g = grids[i]
+            index = np.clip(np.searchsorted(g, U[i] - 1e-12), 0, len(g) - 1)
+            above = g[index]
+            below = g[np.clip(index - 1, 0, len(g) - 1)]
+            exact = np.abs(above - U[i]) < 1e-9
+            lower[i] = np.where(exact, above, below)
+            upper[i] = above
+    columns = []
+    for choice in choices:
+        V = U.copy()
+        for flag, i in zip(choice, active):
+            g = grids[i]
+            if flag in (0, 1):
+                V[i] = upper[i] if flag else lower[i]
+            else:
+                base = lower[i] if flag < 0 else upper[i]
+                index = np.clip(np.searchsorted(g, base - 1e-12) + (1 if flag > 0 else -1), 0, len(g) - 1)
+                V[i] = g[index]
+        columns.append(V)
+    # parts with no series (gains) stay continuous
+    return np.concatenate(columns, axis=1)
+
+
+def _local_search(problem, pool, grids, error_of, *, rounds=30):
+    """Move single parts one series step while the error improves."""
+    n = pool.shape[0]
+    indices = []
+    for i in range(n):
+        if grids[i] is None:
+            indices.append(None)
+        else:
+            indices.append(np.clip(np.searchsorted(grids[i], pool[i] - 1e-9), 0, len(grids[i]) - 1))
+    current = error_of(pool)
+    for _ in range(rounds):
+        improved = False
+        for i in range(n):
+            if grids[i] is None:
+                continue
+            for step in (-1, 1, -2, 2):
+                trial_index = indices[i] + step
+                valid = (trial_index >= 0) & (trial_index < len(grids[i]))
+                trial = pool.copy()
+                trial[i] = grids[i][np.clip(trial_index, 0, len(grids[i]) - 1)]
+                errors = np.where(valid, error_of(trial), np.inf)
+                better = errors < current - 1e-12
+                if np.any(better):
+                    improved = True
+                    pool = np.where(better[None, :], trial, pool)
+                    current = np.where(better, errors, current)
+                    indices[i] = np.where(better, trial_index, indices[i])
+        if not improved:
+            break
+    return pool
+
+
+def _spread(problem, u, kinds):
+    by_kind = {}
+    for value, kind in zip(u, kinds):
+        by_kind.setdefault(kind, []).append(value)
+    return sum(max(v) - min(v) for v in by_kind.values())
+
+
+def _snap_tied(problem, values, series):
+    """Parts tied to another by a ratio other than 1 take their nearest series value."""
+    out = dict(values)
+    for part, (source, factor) in problem.tied.items():
+        kind = problem.topology.kind_of(part)
+        if factor != 1.0 and kind in series and kind in _SERIES_KIND:
+            out[part] = float(nearest(out[source] * factor, series[kind]))
+    return out
+
+
+def round_each(problem, solution, *, series=None):
+    """The naive baseline: every part rounded to its nearest series value alone."""
+    series = dict(default_series() if series is None else series)
+    values = dict(solution.values)
+    for name in list(problem.independent) + list(problem.tied):
+        kind = problem.topology.kind_of(name)
+        if kind in series and kind in _SERIES_KIND:
+            values[name] = float(nearest(values[name], series[kind]))
+    numerator, denominator = problem.nf.coefficients(values)
+    error = float(figure_error(numerator, denominator, problem.goal, with_gain=solution.gain_matched))
+    return SnapResult(values=values, continuous=dict(solution.values),
+                      series={}, error=error, candidates=1)
