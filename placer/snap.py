@@ -177,7 +177,20 @@ def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE
     rank = np.lexsort((spreads, np.round(errors, 7)))
     best = pool[:, rank[0]]
     values = {k: float(np.asarray(v)) for k, v in problem.values(best).items()}
+    for i, name in enumerate(problem.independent):
+        if grids[i] is not None:
+            values[name] = float(nearest(values[name], series[kinds[i]]))  # exact series value
+    for part, (source, factor) in problem.tied.items():
+        values[part] = values[source] * factor
     values = _snap_tied(problem, values, series)
+    # the continuous solution nearest the chosen values shows what snapping cost
+    near = batched_least_squares(
+        lambda V, _: problem.residuals(V, with_gain=with_gain), best[:, None],
+        problem.low, problem.high, iterations=40,
+    )[:, 0]
+    continuous = {k: float(np.asarray(v)) for k, v in problem.values(near).items()}
+    if float(problem.worst_error(near, with_gain=with_gain)) > max(solution.error, 1e-9) * 10:
+        continuous = dict(solution.values)
     numerator, denominator = problem.nf.coefficients(values)
     error = float(figure_error(numerator, denominator, problem.goal, with_gain=with_gain))
     part_series = {}
@@ -187,7 +200,7 @@ def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE
         tied = name in problem.tied and kind in series and kind in _SERIES_KIND
         part_series[name] = check_series(series[kind]) if (in_search or tied) else ""
     return SnapResult(
-        values=values, continuous=dict(solution.values), series=part_series,
+        values=values, continuous=continuous, series=part_series,
         error=error, candidates=int(count),
     )
 

@@ -1,0 +1,401 @@
+"""The ``placer`` command.
+
+Subcommands: ``analyze`` (H(s) of a topology or circuit file), ``target``
+(poles, zeros and sections of a spec's target), ``design`` (part values
+and evidence), ``compare`` (rank candidate topologies), ``loop``
+(compensator and margins), ``topologies`` (the library).
+
+Bad input prints one line ``error: …`` and exits 2; a target that cannot
+be reached prints the reasons and exits 1.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+import tomllib
+from pathlib import Path
+
+from . import __version__
+from .circuit import circuit_from_dict
+from .errors import PlacerError, SpecError, UnreachableTarget
+from .library import library_topologies, resolve_topology
+from .network import circuit_poles, circuit_zeros, network_function
+from .report.console import Progress, design_text, table, target_text
+from .report.files import check_output_path, write_text
+from .units import format_value, parse_value
+
+__all__ = ["main", "build_parser"]
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with one-line errors and exit status 2."""
+
+    def error(self, message):
+        raise SpecError(message)
+
+
+def build_parser():
+    parser = _Parser(
+        prog="placer",
+        description="From pole-zero targets to a bill of materials: place the roots of an "
+                    "analog filter or compensator with preferred-value parts, with evidence.",
+    )
+    parser.add_argument("--version", action="version", version=f"placer {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    p = sub.add_parser("analyze", help="symbolic and numeric H(s) of a topology or circuit file")
+    p.add_argument("topology", metavar="TOPOLOGY_OR_FILE", help="a library id or a .toml file")
+    p.add_argument("--set", action="append", default=[], metavar="PART=VALUE",
+                   help="give a part a value, e.g. --set R1=10k (repeatable)")
+    p.add_argument("--latex", action="store_true", help="also print H(s) in LaTeX")
+    p.add_argument("--json", nargs="?", const="-", metavar="OUT",
+                   help="write the result as JSON to OUT (or stdout)")
+
+    p = sub.add_parser("target", help="poles, zeros and sections of a spec's target")
+    p.add_argument("spec", metavar="SPEC")
+    p.add_argument("--json", nargs="?", const="-", metavar="OUT", help="write JSON to OUT (or stdout)")
+
+    p = sub.add_parser("design", help="solve and snap part values for a spec's target")
+    p.add_argument("spec", metavar="SPEC")
+    p.add_argument("--json", metavar="OUT", help="write the design as JSON")
+    p.add_argument("--bom", metavar="OUT.csv", help="write a bill of materials (CSV)")
+    p.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report")
+    p.add_argument("--plots", metavar="DIR", help="write each plot as PNG and SVG into DIR")
+    p.add_argument("--samples", type=int, help="Monte Carlo samples (default: the spec's)")
+    p.add_argument("--seed", type=int, help="random seed (default: the spec's, else 0)")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+
+    p = sub.add_parser("compare", help="rank every candidate topology for a spec's target")
+    p.add_argument("spec", metavar="SPEC")
+    p.add_argument("--rank-by", choices=("yield", "error", "parts", "sensitivity"), default="yield",
+                   help="ranking key (default: yield)")
+    p.add_argument("--json", metavar="OUT", help="write the ranking as JSON")
+    p.add_argument("--samples", type=int, help="Monte Carlo samples per candidate")
+    p.add_argument("--workers", type=int, help="worker processes (default: all cores)")
+    p.add_argument("--seed", type=int, help="random seed")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+
+    p = sub.add_parser("loop", help="design a loop compensator and check its margins")
+    p.add_argument("spec", metavar="SPEC")
+    p.add_argument("--json", metavar="OUT", help="write the result as JSON")
+    p.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report")
+    p.add_argument("--plots", metavar="DIR", help="write each plot as PNG and SVG into DIR")
+    p.add_argument("--samples", type=int, help="Monte Carlo samples")
+    p.add_argument("--seed", type=int, help="random seed")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+
+    p = sub.add_parser("topologies", help="list the topology library, or show one")
+    p.add_argument("id", nargs="?", metavar="ID", help="show one topology with its functions")
+    p.add_argument("--folder", metavar="DIR", help="also list the topology files in DIR")
+    p.add_argument("--json", nargs="?", const="-", metavar="OUT", help="write JSON to OUT (or stdout)")
+    return parser
+
+
+def main(argv=None):
+    """Run the command; returns the exit status."""
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+        if not args.command:
+            parser.print_help()
+            return 2
+        return _COMMANDS[args.command](args)
+    except UnreachableTarget as error:
+        print(f"cannot reach the target: {error}", file=sys.stderr)
+        return 1
+    except SpecError as error:
+        print(f"error: {error}", file=sys.stderr)
+        return 2
+    except PlacerError as error:
+        print(f"error: {error}", file=sys.stderr)
+        return 1
+    except KeyboardInterrupt:
+        print("error: interrupted", file=sys.stderr)
+        return 130
+
+
+# -- helpers -------------------------------------------------------------------
+
+def _emit_json(data, destination, *, inputs=(), option="--json"):
+    text = json.dumps(data, indent=2, allow_nan=False) + "\n"
+    if destination in (None, "-"):
+        sys.stdout.write(text)
+    else:
+        write_text(destination, text, inputs=inputs, option=option)
+
+
+def _parse_settings(items):
+    values = {}
+    for item in items:
+        if "=" not in item:
+            raise SpecError(f"--set {item!r}: expected PART=VALUE, for example R1=10k")
+        name, text = item.split("=", 1)
+        name = name.strip()
+        values[name] = parse_value(text.strip(), field=f"--set {name}")
+    return values
+
+
+def _load_analysable(name):
+    """A library id, a topology file, or a plain circuit file."""
+    path = Path(name)
+    if path.suffix == ".toml" and path.is_file():
+        try:
+            data = tomllib.loads(path.read_text(encoding="utf-8"))
+        except tomllib.TOMLDecodeError as error:
+            raise SpecError(f"{name}: not valid TOML ({error})") from None
+        if "id" not in data:
+            return None, circuit_from_dict(data, source=str(path), parse=parse_value)
+    topology = resolve_topology(name)
+    return topology, topology.circuit
+
+
+def _pairs(roots):
+    return [[float(r.real), float(r.imag)] for r in sorted(roots, key=lambda r: (abs(r), r.imag))]
+
+
+# -- analyze -------------------------------------------------------------------
+
+def _cmd_analyze(args):
+    topology, circuit = _load_analysable(args.topology)
+    settings = _parse_settings(args.set)
+    symbols = circuit.symbols
+    for name in settings:
+        if name not in symbols:
+            raise SpecError(
+                f"--set {name}: the circuit has no symbolic part {name!r} "
+                f"(parts: {', '.join(symbols) or 'none'})"
+            )
+    nf = network_function(circuit)
+    values = dict(topology.values) if topology is not None else {}
+    values.update(settings)
+    label = topology.id if topology is not None else args.topology
+    lines = [f"H(s) of {label}" + (f" — {topology.title}" if topology is not None else "") + ":"]
+    lines.append(f"  N(s) = {nf.numerator.as_expr()}")
+    lines.append(f"  D(s) = {nf.denominator.as_expr()}")
+    lines.append(f"  order {nf.order}")
+    data = {"id": label, "numerator": str(nf.numerator.as_expr()),
+            "denominator": str(nf.denominator.as_expr()), "order": nf.order}
+    if nf.order in (1, 2):
+        lines.append(f"  w0 = {nf.omega0}   (rad/s)")
+        if nf.q is not None:
+            lines.append(f"  Q  = {nf.q}")
+        lines.append(f"  gain ({nf.gain_kind}) = {nf.gain}")
+        data.update({"omega0": str(nf.omega0), "q_expression": str(nf.q), "gain_expression": str(nf.gain)})
+    if args.latex:
+        lines.append(f"  LaTeX: H(s) = {nf.latex()}")
+        data["latex"] = nf.latex()
+    missing = [s for s in symbols if s not in values]
+    if not missing:
+        poles = nf.poles(values) if symbols else circuit_poles(circuit)
+        zeros = nf.zeros(values) if symbols else circuit_zeros(circuit)
+        data["poles"] = _pairs(poles)
+        data["zeros"] = _pairs(zeros)
+        lines.append("")
+        lines.append("With values: " + (", ".join(f"{k} = {format_value(v)}" for k, v in values.items()) or "all given in the file"))
+        rows = [["pole", f"{p.real:.6g}", f"{p.imag:+.6g}", format_value(abs(p) / (2 * math.pi), "Hz", digits=4)]
+                for p in sorted(poles, key=lambda r: (abs(r), r.imag))]
+        rows += [["zero", f"{z.real:.6g}", f"{z.imag:+.6g}", format_value(abs(z) / (2 * math.pi), "Hz", digits=4)]
+                 for z in sorted(zeros, key=lambda r: (abs(r), r.imag))]
+        lines.append(table(["root", "re (rad/s)", "im (rad/s)", "|root| (Hz)"], rows))
+        if nf.order == 2:
+            figures = nf.second_order_figures(values)
+            f0 = float(figures.omega0) / (2 * math.pi)
+            q = float(figures.q)
+            gain = float(figures.gain)
+            data.update({"f0_hz": f0, "q": q,
+                         "gain_db": 20 * math.log10(abs(gain)) if gain else None})
+            lines.append(f"  f0 = {format_value(f0, 'Hz', digits=4)}   Q = {q:.4f}   gain = "
+                         + (f"{20 * math.log10(abs(gain)):+.3f} dB" if gain else "0") + (" (inverting)" if gain < 0 else ""))
+        elif nf.order == 1:
+            numerator, denominator = nf.coefficients(values)
+            f0 = float(denominator[1] / denominator[0]) / (2 * math.pi)
+            data["f0_hz"] = f0
+            lines.append(f"  f0 = {format_value(f0, 'Hz', digits=4)}")
+    elif settings:
+        lines.append("")
+        lines.append(f"  (give every part a value for numbers; still missing: {', '.join(missing)})")
+    if args.json:
+        _emit_json(data, args.json, inputs=(args.topology,))
+        if args.json == "-":
+            return 0
+    print("\n".join(lines))
+    return 0
+
+
+# -- target --------------------------------------------------------------------
+
+def _cmd_target(args):
+    from .spec import load_spec
+    from .targets import split_sections, target_to_dict
+
+    spec = load_spec(args.spec)
+    if spec.target is None:
+        raise SpecError(f"{args.spec}: the spec has no [target] table")
+    sections = split_sections(spec.target, ordering=spec.ordering, gain=spec.gain_distribution)
+    if args.json:
+        _emit_json(target_to_dict(spec.target, sections), args.json, inputs=(args.spec,))
+        if args.json == "-":
+            return 0
+    print(target_text(spec.target, sections))
+    return 0
+
+
+# -- design --------------------------------------------------------------------
+
+def _cmd_design(args):
+    from .design import design
+    from .report.bom import bom_csv, bom_rows
+    from .report.data import design_to_dict
+    from .spec import load_spec
+
+    spec = load_spec(args.spec)
+    inputs = (args.spec,)
+    for option, path in (("--json", args.json), ("--bom", args.bom), ("--report", args.report)):
+        if path:
+            check_output_path(path, inputs=inputs, option=option)
+    if args.plots and not Path(args.plots).is_dir():
+        raise SpecError(f"--plots: folder {args.plots!r} does not exist")
+    progress = Progress("designing", quiet=args.quiet)
+    try:
+        result = design(spec, seed=args.seed, progress=progress)
+    finally:
+        progress.close()
+    data = design_to_dict(result)
+    evidence = None
+    try:
+        from .evidence import gather_evidence
+    except ImportError:
+        gather_evidence = None
+    if gather_evidence is not None:
+        progress = Progress("evidence", quiet=args.quiet)
+        try:
+            evidence = gather_evidence(result, samples=args.samples, seed=args.seed, progress=progress)
+        finally:
+            progress.close()
+        data["evidence"] = evidence.to_dict() if hasattr(evidence, "to_dict") else evidence
+    print(design_text(data))
+    if evidence is not None and hasattr(evidence, "text"):
+        print()
+        print(evidence.text())
+    if args.json:
+        _emit_json(data, args.json, inputs=inputs)
+    if args.bom:
+        opamps = [(e.name, "op-amp") for e in result.circuit.elements if e.kind == "opamp"]
+        rows = bom_rows(result.parts, tolerances=spec.tolerance.tolerances, opamps=opamps)
+        write_text(args.bom, bom_csv(rows), inputs=inputs, option="--bom")
+    if args.report or args.plots:
+        from .report.html import write_design_report
+
+        write_design_report(result, data, evidence, html_path=args.report, plots_dir=args.plots,
+                            inputs=inputs)
+    print()
+    print("Caution: these values are a starting point; confirm the design by simulation and on the "
+          "bench. Equipment connected to mains, or used where a failure can hurt someone, must follow "
+          "its applicable safety standards and licensed practice.")
+    return 0
+
+
+# -- compare -------------------------------------------------------------------
+
+def _cmd_compare(args):
+    from .compare import run_compare
+
+    return run_compare(args)
+
+
+# -- loop ----------------------------------------------------------------------
+
+def _cmd_loop(args):
+    from .loop_cli import run_loop_command
+
+    return run_loop_command(args)
+
+
+# -- topologies ----------------------------------------------------------------
+
+def _cmd_topologies(args):
+    from .library import load_folder
+
+    pool = dict(library_topologies())
+    errors = {}
+    if args.folder:
+        loaded = load_folder(args.folder)
+        pool.update(loaded["topologies"])
+        errors = loaded["errors"]
+    if args.id:
+        topology = resolve_topology(args.id) if args.id not in pool else pool[args.id]
+        nf = network_function(topology.circuit)
+        data = {
+            "id": topology.id, "title": topology.title, "response": topology.response,
+            "family": topology.family, "order": topology.order, "inverting": topology.inverting,
+            "parts": list(topology.symbols), "free": list(topology.free),
+            "opamps": topology.opamp_count, "constraints": [str(c) for c in topology.constraints],
+            "ranges": {k: list(v) for k, v in topology.ranges.items()},
+            "numerator": str(nf.numerator.as_expr()), "denominator": str(nf.denominator.as_expr()),
+            "formula": topology.formula, "description": topology.description,
+            "circuit": topology.circuit.to_dict(),
+        }
+        if nf.order in (1, 2):
+            data["omega0"] = str(nf.omega0)
+            data["q"] = None if nf.q is None else str(nf.q)
+            data["gain"] = str(nf.gain)
+        if args.json:
+            _emit_json(data, args.json)
+            if args.json == "-":
+                return 0
+        lines = [f"{topology.id}: {topology.title}",
+                 f"  response {topology.response}" + (f" ({topology.family})" if topology.family else "")
+                 + f", order {topology.order}, {topology.part_count} parts, {topology.opamp_count} op-amps"
+                 + (", inverting" if topology.inverting else ""),
+                 f"  free parts: {', '.join(topology.free)}"]
+        if topology.constraints:
+            lines.append(f"  constraints: {', '.join(str(c) for c in topology.constraints)}")
+        if topology.description:
+            lines.append(f"  {topology.description}")
+        lines.append(f"  N(s) = {data['numerator']}")
+        lines.append(f"  D(s) = {data['denominator']}")
+        if nf.order in (1, 2):
+            lines.append(f"  w0 = {data['omega0']}   (rad/s)")
+            if data["q"]:
+                lines.append(f"  Q  = {data['q']}")
+            lines.append(f"  gain = {data['gain']}")
+        if topology.formula:
+            lines.append(f"  published: {topology.formula}")
+        print("\n".join(lines))
+        return 0
+    rows = []
+    listing = []
+    for topology in sorted(pool.values(), key=lambda t: (t.response, t.order, t.id)):
+        rows.append([topology.id, topology.title, topology.response
+                     + (f"/{topology.family}" if topology.family else ""), topology.order,
+                     topology.part_count, topology.opamp_count])
+        listing.append({"id": topology.id, "title": topology.title, "response": topology.response,
+                        "family": topology.family, "order": topology.order,
+                        "parts": topology.part_count, "opamps": topology.opamp_count})
+    for path, message in errors.items():
+        listing.append({"id": path, "error": message})
+    if args.json:
+        _emit_json(listing, args.json)
+        if args.json == "-":
+            return 0
+    print(table(["id", "title", "response", "order", "parts", "op-amps"], rows))
+    for path, message in errors.items():
+        print(f"  could not load {path}: {message}")
+    return 0
+
+
+_COMMANDS = {
+    "analyze": _cmd_analyze,
+    "target": _cmd_target,
+    "design": _cmd_design,
+    "compare": _cmd_compare,
+    "loop": _cmd_loop,
+    "topologies": _cmd_topologies,
+}
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,1 @@
+"""Reports: console tables, JSON data, bill of materials, HTML with plots."""

@@ -1,0 +1,138 @@
+"""Console tables: every number labelled, with its unit."""
+
+from __future__ import annotations
+
+import math
+import sys
+
+from ..units import format_value
+
+__all__ = ["table", "design_text", "target_text", "Progress", "fmt_pct", "fmt_db", "fmt_hz"]
+
+_UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
+
+
+def table(headers, rows, *, indent="  "):
+    """A plain-text table with columns sized to fit."""
+    cells = [[str(h) for h in headers]] + [["" if c is None else str(c) for c in row] for row in rows]
+    widths = [max(len(row[i]) for row in cells) for i in range(len(headers))]
+    lines = []
+    for k, row in enumerate(cells):
+        lines.append(indent + "  ".join(cell.ljust(w) for cell, w in zip(row, widths)).rstrip())
+        if k == 0:
+            lines.append(indent + "  ".join("-" * w for w in widths))
+    return "\n".join(lines)
+
+
+def fmt_pct(x, digits=3):
+    if x is None or (isinstance(x, float) and not math.isfinite(x)):
+        return "-"
+    return f"{x + 0.0:+.{digits}f} %".replace("-0.000 ", "+0.000 ")
+
+
+def fmt_db(x):
+    if x is None or (isinstance(x, float) and not math.isfinite(x)):
+        return "-"
+    return f"{x + 0.0:+.3f} dB".replace("-0.000 ", "+0.000 ")
+
+
+def fmt_gain(x):
+    """A gain in dB with its sign, '-' when absent."""
+    if x is None:
+        return "-"
+    return f"{x:+.3f} dB".replace("-0.000 ", "+0.000 ")
+
+
+def fmt_hz(x):
+    return "-" if x is None else format_value(x, "Hz", digits=4)
+
+
+def fmt_q(x):
+    return "-" if x is None else f"{x:.4f}"
+
+
+def target_text(target, sections):
+    """The target's poles, zeros and sections as text."""
+    lines = [f"Target: {target.response}" + (f", {target.approximation}" if target.approximation else "")
+             + f", order {target.order}, gain {target.gain_db:+.3f} dB"]
+    rows = []
+    for p in sorted(target.poles, key=lambda r: (abs(r), r.imag)):
+        rows.append(["pole", f"{p.real:.6g}", f"{p.imag:+.6g}", fmt_hz(abs(p) / (2 * math.pi))])
+    for z in sorted(target.zeros, key=lambda r: (abs(r), r.imag)):
+        rows.append(["zero", f"{z.real:.6g}", f"{z.imag:+.6g}", fmt_hz(abs(z) / (2 * math.pi))])
+    lines.append(table(["root", "re (rad/s)", "im (rad/s)", "|root| (Hz)"], rows))
+    lines.append("")
+    lines.append("Sections (cascade order):")
+    rows = []
+    for i, s in enumerate(sections, start=1):
+        rows.append([i, s.kind, s.order, fmt_hz(s.f0_hz), fmt_q(s.q),
+                     fmt_hz(s.zero_f0_hz) if s.zero_omega else "-", f"{s.gain_db:+.3f} dB"])
+    lines.append(table(["#", "kind", "order", "f0", "Q", "zero f0", "gain"], rows))
+    return "\n".join(lines)
+
+
+def design_text(data):
+    """A design (as its JSON dict) as console text."""
+    lines = [f"Design: {data['title']}"]
+    target = data["target"]
+    lines.append(f"  target gain {target['gain_db']:+.3f} dB; {len(data['sections'])} section(s)")
+    for s in data["sections"]:
+        t, a, e = s["target"], s["achieved"], s["error"]
+        lines.append("")
+        lines.append(f"Section {s['index']}: {t['kind']} order {t['order']} — topology {s['topology']}"
+                     f" ({s['title']}){', inverting' if a.get('inverting') else ''}")
+        rows = [["f0", fmt_hz(t["f0_hz"]), fmt_hz(a["f0_hz"]), fmt_pct(e["f0_pct"]),
+                 fmt_hz(s["continuous"]["f0_hz"])]]
+        if t["q"] is not None:
+            rows.append(["Q", fmt_q(t["q"]), fmt_q(a["q"]), fmt_pct(e["q_pct"]), fmt_q(s["continuous"]["q"])])
+        if t["zero_f0_hz"] is not None:
+            rows.append(["zero f0", fmt_hz(t["zero_f0_hz"]), fmt_hz(a["zero_f0_hz"]),
+                         fmt_pct(e["zero_f0_pct"]), fmt_hz(s["continuous"]["zero_f0_hz"])])
+        rows.append(["gain", fmt_gain(t["gain_db"]), fmt_gain(a["gain_db"]), fmt_db(e["gain_db"]),
+                     fmt_gain(s["continuous"]["gain_db"])])
+        lines.append(table(["figure", "target", "achieved (snapped)", "error", "continuous"], rows))
+        rows = []
+        for p in s["parts"]:
+            rows.append([p["name"], p["kind"], format_value(p["value"], _UNIT[p["kind"]]),
+                         p["series"] or "fixed", format_value(p["continuous"], _UNIT[p["kind"]], digits=4)])
+        lines.append("")
+        lines.append(table(["part", "kind", "value", "series", "continuous value"], rows))
+        if s.get("amplifier"):
+            amp = s["amplifier"]
+            lines.append("")
+            lines.append("  with the op-amp model: " + ", ".join(f"{k} {v}" for k, v in amp.items()))
+        others = [c for c in s["candidates"] if c["topology"] != s["topology"]]
+        if others:
+            lines.append("  other candidates: " + "; ".join(
+                f"{c['topology']} {c['error_pct']:.3f} %" if c["reachable"]
+                else f"{c['topology']} (cannot: {c['reason']})" for c in others[:8]))
+    achieved = data["achieved"]
+    lines.append("")
+    lines.append(f"Whole cascade: {len(achieved['poles'])} poles, {len(achieved['zeros'])} zeros, "
+                 f"gain {achieved['gain_db']:+.3f} dB{' (inverting)' if achieved['inverting'] else ''}")
+    return "\n".join(lines)
+
+
+class Progress:
+    """A one-line progress bar on a terminal; silent otherwise or when quiet."""
+
+    def __init__(self, label, *, quiet=False, stream=None):
+        self.stream = stream or sys.stderr
+        self.enabled = not quiet and hasattr(self.stream, "isatty") and self.stream.isatty()
+        self.label = label
+        self.shown = False
+
+    def __call__(self, done, total, note=""):
+        if not self.enabled or total <= 0:
+            return
+        width = 30
+        filled = int(width * done / total)
+        self.stream.write(f"\r{self.label} [{'#' * filled}{'.' * (width - filled)}] "
+                          f"{done}/{total} {note[:30]:<30}")
+        self.stream.flush()
+        self.shown = True
+
+    def close(self):
+        if self.shown:
+            self.stream.write("\r" + " " * 90 + "\r")
+            self.stream.flush()

@@ -1,0 +1,141 @@
+"""Results as JSON-ready dicts (the DESIGN.md schema for circuits).
+
+Every number is a float in SI units; frequencies people read are in hertz
+(``f0_hz``), roots are ``[re, im]`` pairs in rad/s.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..targets import target_to_dict
+
+__all__ = ["roots_to_list", "section_figures", "design_to_dict", "finite"]
+
+
+def finite(x):
+    """A float, or None for inf/nan (JSON has neither)."""
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+def roots_to_list(roots):
+    """Complex roots (rad/s) as sorted ``[re, im]`` pairs."""
+    items = sorted((complex(r) for r in roots), key=lambda r: (abs(r), r.imag))
+    return [[float(r.real), float(r.imag)] for r in items]
+
+
+def section_figures(nf, values, goal):
+    """f0 (Hz), Q, gain (dB) and notch zero f0 of one section's function."""
+    numerator, denominator = nf.coefficients(values)
+    numerator = np.asarray(numerator, float)
+    denominator = np.asarray(denominator, float)
+    out = {"f0_hz": None, "q": None, "gain_db": None, "zero_f0_hz": None}
+    if denominator.shape[0] == 3:
+        a2, a1, a0 = denominator
+        out["f0_hz"] = math.sqrt(a0 / a2) / (2 * math.pi)
+        out["q"] = math.sqrt(a0 * a2) / abs(a1)
+    elif denominator.shape[0] == 2:
+        out["f0_hz"] = denominator[1] / denominator[0] / (2 * math.pi)
+    elif goal is not None and goal.omega0:
+        out["f0_hz"] = goal.omega0 / (2 * math.pi)
+    from ..solve import _gain  # the same gain reading the solver matched
+
+    gain = float(_gain(numerator, denominator, goal.gain_kind if goal else "dc"))
+    out["gain_db"] = 20 * math.log10(abs(gain)) if gain else None
+    out["inverting"] = gain < 0
+    if goal is not None and goal.zero_omega and numerator.shape[0] == 3 and numerator[0]:
+        out["zero_f0_hz"] = math.sqrt(abs(numerator[2] / numerator[0])) / (2 * math.pi)
+    return out
+
+
+def _errors(errors):
+    return {
+        "f0_pct": finite(errors.f0_pct),
+        "q_pct": finite(errors.q_pct),
+        "zero_f0_pct": finite(errors.zero_f0_pct),
+        "gain_db": finite(errors.gain_db),
+        "worst_root_pct": finite(errors.worst_root_pct),
+        "worst_pct": finite(errors.worst_pct),
+    }
+
+
+def _section_target(section):
+    return {
+        "kind": section.kind,
+        "order": section.order,
+        "f0_hz": float(section.f0_hz),
+        "q": None if section.q is None else float(section.q),
+        "gain_db": float(section.gain_db),
+        "zero_f0_hz": None if section.zero_omega is None else float(section.zero_f0_hz),
+        "poles": roots_to_list(section.poles),
+        "zeros": roots_to_list(section.zeros),
+    }
+
+
+def candidate_to_dict(candidate):
+    out = {
+        "topology": candidate.topology.id,
+        "reachable": bool(candidate.reachable),
+    }
+    if candidate.reachable:
+        out["error_pct"] = finite(candidate.error_pct)
+        out["parts"] = int(candidate.topology.part_count)
+        out["opamps"] = int(candidate.topology.opamp_count)
+        out["spread"] = {k: float(v) for k, v in candidate.spread.items()}
+    else:
+        out["reason"] = candidate.reason
+    return out
+
+
+def design_to_dict(design, *, evidence=None):
+    """The whole design as a JSON-ready dict."""
+    target = design.target
+    sections = []
+    for s in design.sections:
+        c = s.candidate
+        achieved = section_figures(c.problem.nf, c.snapped.values, s.goal)
+        continuous = section_figures(c.problem.nf, c.solution.values, s.goal)
+        achieved["poles"] = roots_to_list(c.errors.poles)
+        achieved["zeros"] = roots_to_list(c.errors.zeros)
+        entry = {
+            "index": s.index,
+            "topology": s.topology.id,
+            "title": s.topology.title,
+            "target": _section_target(s.section),
+            "achieved": achieved,
+            "continuous": continuous,
+            "error": _errors(c.errors),
+            "continuous_error": _errors(c.continuous_errors),
+            "parts": [
+                {"name": p.name, "symbol": p.symbol, "kind": p.kind, "value": float(p.value),
+                 "series": p.series, "continuous": float(p.continuous)}
+                for p in s.parts
+            ],
+            "opamps": int(s.topology.opamp_count),
+            "circuit": s.circuit.to_dict(),
+            "candidates": [candidate_to_dict(k) for k in s.candidates],
+        }
+        sections.append(entry)
+    overall_gain = design.gain
+    out = {
+        "title": design.spec.title,
+        "spec": design.spec.path,
+        "target": target_to_dict(target, tuple(s.section for s in design.sections)),
+        "sections": sections,
+        "circuit": design.circuit.to_dict(),
+        "achieved": {
+            "poles": roots_to_list(design.poles),
+            "zeros": roots_to_list(design.zeros),
+            "gain_db": 20 * math.log10(abs(overall_gain)) if overall_gain else None,
+            "inverting": overall_gain < 0,
+        },
+        "units": {"frequency": "Hz", "roots": "rad/s", "values": "SI (ohm, farad, henry)"},
+    }
+    if evidence is not None:
+        out["evidence"] = evidence
+    return out
