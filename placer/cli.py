@@ -112,6 +112,9 @@ def main(argv=None):
     except PlacerError as error:
         print(f"error: {error}", file=sys.stderr)
         return 1
+    except BrokenPipeError:  # output piped into a pager or head that closed early
+        sys.stderr.close()
+        return 0
     except KeyboardInterrupt:
         print("error: interrupted", file=sys.stderr)
         return 130

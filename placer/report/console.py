@@ -54,7 +54,7 @@ def fmt_q(x):
 def target_text(target, sections):
     """The target's poles, zeros and sections as text."""
     lines = [f"Target: {target.response}" + (f", {target.approximation}" if target.approximation else "")
-             + f", order {target.order}, gain {target.gain_db:+.3f} dB"]
+             + f", order {target.order}, gain {fmt_gain(target.gain_db)}"]
     rows = []
     for p in sorted(target.poles, key=lambda r: (abs(r), r.imag)):
         rows.append(["pole", f"{p.real:.6g}", f"{p.imag:+.6g}", fmt_hz(abs(p) / (2 * math.pi))])
@@ -66,7 +66,7 @@ def target_text(target, sections):
     rows = []
     for i, s in enumerate(sections, start=1):
         rows.append([i, s.kind, s.order, fmt_hz(s.f0_hz), fmt_q(s.q),
-                     fmt_hz(s.zero_f0_hz) if s.zero_omega else "-", f"{s.gain_db:+.3f} dB"])
+                     fmt_hz(s.zero_f0_hz) if s.zero_omega else "-", fmt_gain(s.gain_db)])
     lines.append(table(["#", "kind", "order", "f0", "Q", "zero f0", "gain"], rows))
     return "\n".join(lines)
 

@@ -1,0 +1,307 @@
+"""Evidence for a design: responses, sensitivities and tolerance spread.
+
+Everything is computed on the designed circuit's network functions with
+the chosen values, never on the target: python-control step and
+frequency figures of the snapped and the continuous designs beside the
+target's, the classical sensitivities of every section, and a Monte Carlo
+of every section over the part tolerances (plus a magnitude envelope of
+the whole cascade for the plots).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .tolerance import monte_carlo, sensitivities
+from .verify import Response, verify
+
+__all__ = ["SectionEvidence", "Evidence", "gather_evidence", "part_tolerances"]
+
+ENVELOPE_SAMPLES = 200
+
+
+def part_tolerances(topology, symbols, by_kind):
+    """Part symbol → tolerance fraction, from per-kind tolerances."""
+    out = {}
+    for symbol in symbols:
+        kind = topology.kind_of(symbol)
+        if kind in by_kind and by_kind[kind]:
+            out[symbol] = float(by_kind[kind])
+    return out
+
+
+@dataclass(frozen=True, eq=False)
+class SectionEvidence:
+    """Sensitivities and Monte Carlo of one section."""
+
+    index: int
+    sensitivities: object
+    monte_carlo: object
+    tolerances: dict
+    designators: dict   # part symbol -> reference designator
+
+
+@dataclass(frozen=True, eq=False)
+class Evidence:
+    """All evidence for a design.
+
+    Attributes
+    ----------
+    verification : placer.verify.Verification
+    sections : tuple of SectionEvidence
+    envelope : dict
+        ``frequency_hz``, ``low_db``, ``high_db``: the cascade's magnitude
+        range over Monte Carlo builds.
+    samples, seed, distribution
+    """
+
+    verification: object
+    sections: tuple
+    envelope: dict = field(repr=False)
+    samples: int = 0
+    seed: int = 0
+    distribution: str = "uniform"
+
+    def to_dict(self):
+        v = self.verification
+
+        def step(f):
+            s = f.step
+            return {"overshoot_pct": _f(s.overshoot_pct), "rise_time_s": _f(s.rise_time_s),
+                    "settling_time_s": _f(s.settling_time_s), "final_value": _f(s.final_value),
+                    "peak": _f(s.peak), "peak_time_s": _f(s.peak_time_s), "notes": list(s.notes)}
+
+        def freq(f):
+            q = f.frequency
+            return {"kind": q.kind, "gain_db": _f(q.gain_db), "f3db_hz": _f(q.f3db_hz),
+                    "band_low_hz": _f(q.band_low_hz), "band_high_hz": _f(q.band_high_hz),
+                    "peak_db": _f(q.peak_db), "peak_hz": _f(q.peak_hz), "notes": list(q.notes)}
+
+        def dev(d):
+            if d is None:
+                return None
+            return {"magnitude_db": _f(d.magnitude_db), "magnitude_at_hz": _f(d.magnitude_at_hz),
+                    "phase_deg": _f(d.phase_deg), "phase_at_hz": _f(d.phase_at_hz),
+                    "inverted": bool(d.inverted), "band_hz": [float(b) for b in d.band_hz]}
+
+        out = {
+            "responses": {
+                name: {"step": step(fig), "frequency": freq(fig)}
+                for name, fig in (("target", v.target), ("snapped", v.design), ("continuous", v.continuous))
+                if fig is not None
+            },
+            "deviation": dev(v.deviation),
+            "continuous_deviation": dev(v.continuous_deviation),
+            "snapping_deviation": dev(v.snapping_deviation),
+            "band_hz": [float(b) for b in v.band_hz],
+            "monte_carlo": {"samples": self.samples, "seed": self.seed,
+                            "distribution": self.distribution},
+            "sections": [],
+        }
+        for s in self.sections:
+            sens = s.sensitivities
+            mc = s.monte_carlo
+            rows = {}
+            for symbol in sens.omega0:
+                rows[s.designators.get(symbol, symbol)] = {
+                    "symbol": symbol,
+                    "w0": _f(sens.omega0[symbol]),
+                    "q": None if sens.q is None else _f(sens.q.get(symbol)),
+                    "gain": _f(sens.gain.get(symbol)),
+                    "tolerance": s.tolerances.get(symbol, 0.0),
+                }
+            stats = {k: {"mean": _f(st.mean), "std": _f(st.std), "min": _f(st.minimum), "max": _f(st.maximum),
+                         "p01": _f(st.p01), "p99": _f(st.p99)} for k, st in mc.statistics.items()}
+            out["sections"].append({
+                "index": s.index,
+                "sensitivity_method": sens.method,
+                "sensitivities": rows,
+                "monte_carlo": {
+                    "nominal_f0_hz": _f(mc.nominal_f0_hz), "nominal_q": _f(mc.nominal_q),
+                    "nominal_gain_db": _f(mc.nominal_gain_db), "statistics": stats,
+                    "windows": mc.windows, "window_yield_pct": (
+                        {k: 100 * float(v) for k, v in mc.window_yield.items()} if mc.window_yield else None),
+                    "yield_pct": None if mc.yield_fraction is None else 100 * float(mc.yield_fraction),
+                    "dominant": {k: [s.designators.get(p, p) for p in v[:3]] for k, v in mc.ranking.items()},
+                },
+            })
+        return out
+
+    def text(self):
+        """Console text: responses, then per-section sensitivity and spread."""
+        from .report.console import fmt_gain, fmt_hz, table
+
+        v = self.verification
+        lines = ["Evidence (python-control, on the designed circuit):"]
+        rows = []
+        for name, fig in (("target", v.target), ("snapped", v.design), ("continuous", v.continuous)):
+            if fig is None:
+                continue
+            f, s = fig.frequency, fig.step
+            edge = f.f3db_hz if f.f3db_hz is not None else f.band_low_hz
+            rows.append([name, fmt_gain(f.gain_db), fmt_hz(edge),
+                         fmt_gain(f.peak_db), fmt_hz(f.peak_hz) if f.peak_hz else "DC",
+                         "-" if s.overshoot_pct is None else f"{s.overshoot_pct:.2f} %",
+                         _seconds(s.rise_time_s), _seconds(s.settling_time_s)])
+        lines.append(table(["response", "gain", "-3 dB", "peak", "at", "overshoot",
+                            "rise 10-90 %", "settle 2 %"], rows))
+        d = v.deviation
+        lines.append(f"  worst deviation from the target over {fmt_hz(v.band_hz[0])} – {fmt_hz(v.band_hz[1])}: "
+                     f"{d.magnitude_db:.3f} dB (at {fmt_hz(d.magnitude_at_hz)}), "
+                     f"{d.phase_deg:.2f}° phase (at {fmt_hz(d.phase_at_hz)})"
+                     + (" — output inverted" if d.inverted else ""))
+        if v.snapping_deviation is not None:
+            lines.append(f"  cost of preferred values (snapped vs continuous): "
+                         f"{v.snapping_deviation.magnitude_db:.3f} dB, {v.snapping_deviation.phase_deg:.2f}°")
+        for s in self.sections:
+            mc = s.monte_carlo
+            lines.append("")
+            lines.append(f"Section {s.index}: Monte Carlo, {mc.samples} builds ({mc.distribution}), "
+                         + ", ".join(f"{s.designators.get(k, k)} ±{100 * t:g} %" for k, t in s.tolerances.items()))
+            st = mc.statistics
+            rows = [["f0", fmt_hz(mc.nominal_f0_hz), fmt_hz(st["f0_hz"].mean),
+                     f"{100 * st['f0_hz'].std / mc.nominal_f0_hz:.3f} %",
+                     f"{fmt_hz(st['f0_hz'].p01)} – {fmt_hz(st['f0_hz'].p99)}"]]
+            if mc.nominal_q is not None and "q" in st:
+                rows.append(["Q", f"{mc.nominal_q:.4f}", f"{st['q'].mean:.4f}",
+                             f"{100 * st['q'].std / mc.nominal_q:.3f} %",
+                             f"{st['q'].p01:.4f} – {st['q'].p99:.4f}"])
+            if "gain_db" in st:
+                rows.append(["gain", fmt_gain(mc.nominal_gain_db), fmt_gain(st["gain_db"].mean),
+                             f"{st['gain_db'].std:.3f} dB",
+                             f"{fmt_gain(st['gain_db'].p01)} – {fmt_gain(st['gain_db'].p99)}"])
+            lines.append(table(["figure", "nominal", "mean", "std dev", "1 % – 99 %"], rows))
+            if mc.yield_fraction is not None:
+                windows = ", ".join(
+                    f"{k} ±{100 * w:g} %" if k != "gain_db" else f"gain ±{w:g} dB" for k, w in mc.windows.items())
+                lines.append(f"  yield ({windows}): {100 * mc.yield_fraction:.1f} %")
+            ranking = mc.ranking.get("f0", [])
+            if ranking:
+                lines.append("  f0 spread dominated by: " + ", ".join(
+                    f"{s.designators.get(p, p)} ({100 * mc.contributions['f0'][p]:.0f} %)" for p in ranking[:3]))
+            sens = s.sensitivities
+            rows = []
+            for symbol in sens.omega0:
+                rows.append([s.designators.get(symbol, symbol), f"{sens.omega0[symbol]:+.3f}",
+                             "-" if sens.q is None else f"{sens.q[symbol]:+.3f}",
+                             f"{sens.gain[symbol]:+.3f}"])
+            lines.append(f"  sensitivities ({sens.method}):")
+            lines.append(table(["part", "S w0", "S Q", "S gain"], rows, indent="    "))
+        return "\n".join(lines)
+
+
+def _f(x):
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+def _seconds(x):
+    if x is None:
+        return "-"
+    from .units import format_value
+
+    return format_value(x, "s")
+
+
+def _response(sections_tf):
+    return Response.from_sections(sections_tf)
+
+
+def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=None):
+    """Verify a design and run its tolerance analysis.
+
+    Parameters
+    ----------
+    design : placer.design.Design
+    samples : int, optional
+        Monte Carlo samples per section (default: the spec's).
+    seed : int, optional
+        Default: the spec's tolerance seed.
+    progress : callable, optional
+        ``progress(done, total, label)``.
+    band_hz : (float, float), optional
+        Band of the deviation check, Hz (default: verify's).
+
+    Returns
+    -------
+    Evidence
+    """
+    spec = design.spec
+    samples = spec.tolerance.samples if samples is None else samples
+    seed = spec.tolerance.seed if seed is None else seed
+    zeros, poles, k = design.target.zpk()
+    target = Response.from_zpk(zeros, poles, k)
+    snapped = _response([s.candidate.problem.nf.transfer_function(s.candidate.snapped.values)
+                         for s in design.sections])
+    continuous = _response([s.candidate.problem.nf.transfer_function(s.candidate.snapped.continuous)
+                            for s in design.sections])
+    verification = verify(snapped, target, band_hz=band_hz, continuous=continuous)
+    seeds = np.random.SeedSequence(seed).spawn(len(design.sections) + 1)
+    sections = []
+    total = len(design.sections)
+    for i, s in enumerate(design.sections):
+        candidate = s.candidate
+        nf = candidate.problem.nf
+        values = candidate.snapped.values
+        varied = [p for p in nf.symbols if _is_part(candidate.topology, p)]
+        tolerances = part_tolerances(candidate.topology, varied, spec.tolerance.tolerances)
+        sens = sensitivities(nf, values)
+        windows = dict(spec.tolerance.windows)
+        if nf.order == 1:
+            windows.pop("q", None)
+        mc = monte_carlo(nf, values, tolerances, samples=samples,
+                         distribution=spec.tolerance.distribution, seed=seeds[i], windows=windows)
+        designators = {p.symbol: p.name for p in s.parts}
+        sections.append(SectionEvidence(index=s.index, sensitivities=sens, monte_carlo=mc,
+                                        tolerances=tolerances, designators=designators))
+        if progress:
+            progress(i + 1, total, f"section {s.index}")
+    envelope = _envelope(design, spec, verification, seeds[-1])
+    return Evidence(verification=verification, sections=tuple(sections), envelope=envelope,
+                    samples=samples, seed=seed, distribution=spec.tolerance.distribution)
+
+
+def _is_part(topology, symbol):
+    try:
+        return topology.kind_of(symbol) in ("resistor", "capacitor", "inductor")
+    except KeyError:
+        return False
+
+
+def _envelope(design, spec, verification, seed):
+    """Min and max cascade magnitude (dB) over Monte Carlo builds."""
+    frequency = np.asarray(verification.design.frequency.frequency_hz, float)
+    omega = 2 * np.pi * frequency
+    s = 1j * omega
+    rng = np.random.default_rng(seed)
+    total = np.ones((ENVELOPE_SAMPLES, omega.size), dtype=complex)
+    for section in design.sections:
+        candidate = section.candidate
+        nf = candidate.problem.nf
+        values = dict(candidate.snapped.values)
+        tolerances = part_tolerances(candidate.topology,
+                                     [p for p in nf.symbols if _is_part(candidate.topology, p)],
+                                     spec.tolerance.tolerances)
+        sampled = {}
+        for name, value in values.items():
+            t = tolerances.get(name, 0.0)
+            if spec.tolerance.distribution == "gaussian":
+                factor = 1 + rng.normal(0.0, t / 3, ENVELOPE_SAMPLES)
+            else:
+                factor = 1 + rng.uniform(-t, t, ENVELOPE_SAMPLES)
+            sampled[name] = value * factor
+        numerator, denominator = nf.coefficients(sampled)
+        num = np.zeros((ENVELOPE_SAMPLES, omega.size), dtype=complex)
+        den = np.zeros((ENVELOPE_SAMPLES, omega.size), dtype=complex)
+        for c in numerator:
+            num = num * s[None, :] + c[:, None]
+        for c in denominator:
+            den = den * s[None, :] + c[:, None]
+        total *= num / den
+    magnitude = 20 * np.log10(np.maximum(np.abs(total), 1e-300))
+    return {"frequency_hz": frequency, "low_db": magnitude.min(axis=0), "high_db": magnitude.max(axis=0)}
