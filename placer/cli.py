@@ -312,9 +312,88 @@ def _cmd_compare(args):
 # -- loop ----------------------------------------------------------------------
 
 def _cmd_loop(args):
-    from .loop_cli import run_loop_command
+    from .loop import loop_to_dict, run_loop
+    from .spec import load_spec
 
-    return run_loop_command(args)
+    spec = load_spec(args.spec)
+    if spec.loop is None:
+        raise SpecError(f"{args.spec}: the spec has no [loop] table")
+    inputs = (args.spec,)
+    for option, path in (("--json", args.json), ("--report", args.report)):
+        if path:
+            check_output_path(path, inputs=inputs, option=option)
+    if args.plots and not Path(args.plots).is_dir():
+        raise SpecError(f"--plots: folder {args.plots!r} does not exist")
+    samples = spec.tolerance.samples if args.samples is None else args.samples
+    if samples < 0:
+        raise SpecError(f"--samples {samples}: give a whole number >= 0 (0 skips the Monte Carlo)")
+    seed = spec.tolerance.seed if args.seed is None else args.seed
+    tolerances = dict(spec.tolerance.tolerances)
+    result = run_loop(spec.loop, source=args.spec, samples=samples, seed=seed,
+                      tolerances=tolerances, distribution=spec.tolerance.distribution)
+    data = loop_to_dict(result)
+    print(_loop_text(data))
+    if args.json:
+        _emit_json(data, args.json, inputs=inputs)
+    if args.report or args.plots:
+        from .report.html import write_loop_report
+
+        write_loop_report(result, data, html_path=args.report, plots_dir=args.plots, inputs=inputs)
+    print()
+    print("Caution: power converters and anything connected to mains can hurt people. These values "
+          "are a starting point: confirm the loop by simulation and on the bench, and follow the "
+          "applicable safety standards and licensed practice.")
+    return 0
+
+
+def _loop_text(data):
+    def margin_row(label, m):
+        return [label, format_value(m["crossover_hz"], "Hz", digits=4) if m.get("crossover_hz") else "none",
+                f"{m['phase_margin_deg']:.2f}°" if m.get("phase_margin_deg") is not None else "-",
+                f"{m['gain_margin_db']:.2f} dB" if m.get("gain_margin_db") is not None else "none",
+                format_value(m["phase_crossover_hz"], "Hz", digits=4) if m.get("phase_crossover_hz") else "-"]
+
+    target = data["target"]
+    lines = [f"Loop: {data['plant'].get('description', 'plant')}",
+             f"  target crossover {format_value(target['crossover_hz'], 'Hz', digits=4)}, "
+             f"phase margin {target['phase_margin_deg']:.1f}°; compensator "
+             f"{data['compensator']['family']} ({data['compensator']['topology']})"]
+    k = data["k_factor"]
+    lines.append(f"  K factor {k['k']:.3g}, boost {k['boost_deg']:.1f}° (plant phase at crossover "
+                 f"{k['plant_phase_deg']:.1f}°, plant gain {k['plant_gain_db']:.2f} dB)")
+    lines.append(table(["loop", "crossover", "phase margin", "gain margin", "phase crossover"],
+                       [margin_row("continuous", data["continuous"]), margin_row("snapped", data)]))
+    unit = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
+    rows = [[p["name"], p["kind"], format_value(p["value"], unit.get(p["kind"], "")), p["series"],
+             format_value(p["continuous"], unit.get(p["kind"], ""), digits=4)] for p in data["parts"]]
+    lines.append("")
+    lines.append(table(["part", "kind", "value", "series", "continuous value"], rows))
+    mc = data.get("monte_carlo")
+    if mc:
+        lines.append("")
+        labels = {"samples": ("builds", ""), "phase_margin_worst_deg": ("worst phase margin", "°"),
+                  "phase_margin_median_deg": ("median phase margin", "°"),
+                  "gain_margin_worst_db": ("worst gain margin", " dB"),
+                  "crossover_min_hz": ("crossover from", " Hz"), "crossover_max_hz": ("to", " Hz"),
+                  "unstable_samples": ("unstable builds", ""),
+                  "margin_floor_deg": ("phase-margin floor", "°")}
+        parts = []
+        for key, (label, unit) in labels.items():
+            if key in mc:
+                value = mc[key]
+                parts.append(f"{label} {'none' if value is None else _plain(value)}{unit if value is not None else ''}")
+        if mc.get("yield") is not None:
+            parts.append(f"yield {100 * mc['yield']:.1f} % (phase margin at or above the floor)")
+        lines.append("Monte Carlo (" + mc.get("distribution", "") + "): " + ", ".join(parts))
+    for note in data.get("notes", []):
+        lines.append(f"  note: {note}")
+    return "\n".join(lines)
+
+
+def _plain(value):
+    if isinstance(value, float):
+        return f"{value:.4g}"
+    return str(value)
 
 
 # -- topologies ----------------------------------------------------------------
