@@ -1,0 +1,726 @@
+"""Sensitivities and tolerance Monte Carlo of a network function.
+
+The classical normalised sensitivity of a figure y to a part x is
+
+    S_x^y = (x / y) (∂y / ∂x) = ∂ ln|y| / ∂ ln|x|,
+
+so a 1 % change of x moves y by about S_x^y %. For first- and
+second-order networks it is taken symbolically from the network's ω0, Q
+and gain expressions; for higher orders numerically, by central
+differences in log space of the *dominant pole pair* (the complex pair
+with the highest Q; with only real poles, the two slowest real poles taken
+as a pair) and of the gain at the reference.
+
+The Monte Carlo draws every toleranced part independently, evaluates the
+coefficient polynomials for all samples at once through
+:meth:`NetworkFunction.coefficients` (no Python loop over samples) and
+reads f0 (Hz), Q and the gain off them.
+
+Examples
+--------
+>>> from placer.circuit import Circuit, Element
+>>> from placer.network import network_function
+>>> rc = Circuit((Element("R1", "resistor", ("vin", "vout"), symbol="R1"),
+...               Element("C1", "capacitor", ("vout", "gnd"), symbol="C1")))
+>>> nf = network_function(rc)
+>>> sensitivities(nf, {"R1": 1e3, "C1": 1e-6}).omega0
+{'R1': -1.0, 'C1': -1.0}
+>>> result = monte_carlo(nf, {"R1": 1e3, "C1": 1e-6}, {"R1": 0.01, "C1": 0.05},
+...                      samples=1000, seed=1)
+>>> round(result.nominal_f0_hz, 2), result.ranking["f0"]
+(159.15, ('C1', 'R1'))
+
+References
+----------
+R. Schaumann and M. E. Van Valkenburg, *Design of Analog Filters*,
+Oxford University Press, 2001 (sensitivity chapter).
+"""
+
+from __future__ import annotations
+
+import math
+import numbers
+import warnings
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+import sympy
+
+from .errors import NumericalWarning, SpecError, TopologyError
+
+__all__ = [
+    "DISTRIBUTIONS",
+    "WINDOW_KEYS",
+    "MAX_SAMPLES",
+    "CHUNK",
+    "Sensitivities",
+    "Statistics",
+    "MonteCarloResult",
+    "CascadeMonteCarloResult",
+    "sensitivities",
+    "monte_carlo",
+    "cascade_monte_carlo",
+]
+
+#: Accepted values of ``distribution``.
+DISTRIBUTIONS = ("uniform", "gaussian")
+#: Accepted keys of ``windows``.
+WINDOW_KEYS = ("f0", "q", "gain_db")
+#: Upper limit on Monte Carlo samples; larger requests are capped.
+MAX_SAMPLES = 1_000_000
+#: Samples per chunk when a progress callback is given.
+CHUNK = 2_000
+#: Log-space step of the numeric sensitivities.
+_LOG_STEP = 1e-4
+
+
+@dataclass(frozen=True)
+class Sensitivities:
+    """Normalised sensitivities S_x^y of ω0, Q and gain to each part.
+
+    Attributes
+    ----------
+    omega0, gain : dict
+        Part symbol → S_x^ω0, S_x^gain.
+    q : dict or None
+        Part symbol → S_x^Q; None for a first-order network.
+    method : str
+        "symbolic" (sympy derivatives) or "numeric" (central differences).
+    figure : str
+        What ω0 and Q describe: "first order", "second order" or
+        "dominant pole pair".
+    """
+
+    omega0: dict
+    q: dict | None
+    gain: dict
+    method: str
+    figure: str
+
+
+@dataclass(frozen=True)
+class Statistics:
+    """Summary of one Monte Carlo figure (population std, ddof = 0)."""
+
+    mean: float
+    std: float
+    minimum: float
+    maximum: float
+    p01: float
+    p99: float
+
+    @classmethod
+    def of(cls, samples):
+        """Statistics of a sample array."""
+        samples = np.asarray(samples, dtype=float)
+        low, high = float(np.min(samples)), float(np.max(samples))
+        if low == high:     # constant: exact, without summation round-off
+            return cls(low, 0.0, low, high, low, high)
+        p01, p99 = np.percentile(samples, [1.0, 99.0])
+        return cls(float(np.mean(samples)), float(np.std(samples)), low, high,
+                   float(p01), float(p99))
+
+
+@dataclass(frozen=True, eq=False)
+class MonteCarloResult:
+    """Samples and statistics of f0, Q and gain under part tolerances.
+
+    Attributes
+    ----------
+    samples, distribution, tolerances
+        As applied (tolerances: part → fraction; parts absent are exact).
+    nominal_f0_hz, nominal_q, nominal_gain : float
+        Figures at the nominal values (``nominal_q`` None for first order).
+    gain_reference : str
+        Where the gain is read: "dc", "hf", "center" (signed), or
+        "|H| at <f> Hz" when the network has none of those (e.g. 4th-order
+        band-pass): the magnitude at the reference frequency.
+    f0_hz, q, gain : ndarray
+        One value per sample (read-only); ``q`` None for first order.
+    statistics : dict
+        "f0_hz", "q", "gain", "gain_db" → :class:`Statistics`.
+    windows, window_yield, yield_fraction, passed
+        The yield windows ("f0", "q" relative: 0.02 = ±2 % of nominal;
+        "gain_db" absolute, dB), the fraction inside each window alone,
+        inside all at once, and the per-sample pass mask (None without
+        windows).
+    contributions, ranking : dict
+        "f0", "q", "gain" → {part: share of the variance} from first-order
+        sensitivity × tolerance (sums to 1; all 0 when nothing varies), and
+        → parts sorted by falling share.
+    sensitivities : Sensitivities
+    """
+
+    samples: int
+    distribution: str
+    tolerances: dict
+    nominal_f0_hz: float
+    nominal_q: float | None
+    nominal_gain: float
+    gain_reference: str
+    f0_hz: np.ndarray
+    q: np.ndarray | None
+    gain: np.ndarray
+    statistics: dict
+    windows: dict | None
+    window_yield: dict | None
+    yield_fraction: float | None
+    passed: np.ndarray | None
+    contributions: dict
+    ranking: dict
+    sensitivities: Sensitivities
+
+    @property
+    def gain_db(self):
+        """20·log10|gain| per sample, dB."""
+        return _db(self.gain)
+
+    @property
+    def nominal_gain_db(self):
+        """20·log10|nominal gain|, dB."""
+        return float(_db(self.nominal_gain))
+
+
+@dataclass(frozen=True, eq=False)
+class CascadeMonteCarloResult:
+    """Monte Carlo of a cascade: per-section results and the overall gain.
+
+    Attributes
+    ----------
+    sections : tuple of MonteCarloResult
+    gain : ndarray
+        Product of the section gains per sample (signed).
+    nominal_gain : float
+    statistics : dict
+        "gain", "gain_db" → :class:`Statistics` of the overall gain.
+    yield_fraction : float or None
+        Fraction of samples where every section is inside its "f0" and "q"
+        windows and the *overall* gain inside the "gain_db" window.
+    passed : ndarray of bool or None
+    """
+
+    sections: tuple
+    gain: np.ndarray
+    nominal_gain: float
+    statistics: dict
+    windows: dict | None
+    yield_fraction: float | None
+    passed: np.ndarray | None
+
+    @property
+    def gain_db(self):
+        """20·log10|overall gain| per sample, dB."""
+        return _db(self.gain)
+
+
+# -- validation -------------------------------------------------------------
+
+def _db(x):
+    with np.errstate(divide="ignore"):
+        return 20.0 * np.log10(np.abs(x))
+
+
+def _percent(fraction):
+    return f"{fraction * 100:g} %"
+
+
+def _check_order(nf):
+    if nf.order < 1:
+        raise TopologyError("the network has no poles (order 0): no ω0, Q or sensitivities")
+
+
+def _is_number(x):
+    return isinstance(x, numbers.Real) and not isinstance(x, bool)
+
+
+def _nominal_values(nf, values):
+    out = {}
+    for name in nf.symbols:
+        if name not in values:
+            raise SpecError(
+                f"no value for part {name!r}; every part needs one (parts: {', '.join(nf.symbols)})"
+            )
+        if not (_is_number(values[name]) and math.isfinite(values[name])):
+            raise SpecError(f"value of {name!r} must be a finite number in SI units, "
+                            f"not {values[name]!r}")
+        out[name] = float(values[name])
+    return out
+
+
+def _check_tolerances(tolerances, names, allow_zero):
+    if _is_number(tolerances):
+        tolerances = {name: tolerances for name in names}
+    if not isinstance(tolerances, Mapping):
+        raise SpecError(
+            f"tolerances must map part names to fractions (0.01 = 1 %), not {tolerances!r}"
+        )
+    out = {}
+    for name, tolerance in tolerances.items():
+        if name not in names:
+            raise SpecError(
+                f"tolerance given for {name!r}, which is not a part of this network "
+                f"(parts: {', '.join(names)})"
+            )
+        if not _is_number(tolerance):
+            raise SpecError(f"tolerance of {name!r} must be a number (0.01 = 1 %), not {tolerance!r}")
+        tolerance = float(tolerance)
+        low_ok = tolerance >= 0 if allow_zero else tolerance > 0
+        if not (math.isfinite(tolerance) and low_ok and tolerance < 1):
+            shown = _percent(tolerance) if math.isfinite(tolerance) else repr(tolerance)
+            raise SpecError(f"tolerance of {name!r} must be between 0 and 100 %, not {shown}")
+        out[name] = tolerance
+    return {name: out[name] for name in names if name in out}
+
+
+def _check_samples(samples):
+    if not (_is_number(samples) and isinstance(samples, numbers.Integral)):
+        raise SpecError(f"samples must be a whole number of at least 1, not {samples!r}")
+    if samples < 1:
+        raise SpecError(f"samples must be at least 1, not {samples}")
+    if samples > MAX_SAMPLES:
+        warnings.warn(
+            f"{samples} Monte Carlo samples requested; capped at {MAX_SAMPLES:,}",
+            NumericalWarning, stacklevel=3,
+        )
+        return MAX_SAMPLES
+    return int(samples)
+
+
+def _choices(options):
+    return "{" + ", ".join(repr(o) for o in options) + "}"
+
+
+def _check_windows(windows, order):
+    if windows is None:
+        return None
+    if not isinstance(windows, Mapping):
+        raise SpecError(f"windows must map {set(WINDOW_KEYS)} to widths, not {windows!r}")
+    out = {}
+    for key, width in windows.items():
+        if key not in WINDOW_KEYS:
+            raise SpecError(f"window key must be one of {_choices(WINDOW_KEYS)}, not {key!r}")
+        if key == "q" and order == 1:
+            raise SpecError("window 'q' given, but a first-order network has no Q")
+        if not (_is_number(width) and math.isfinite(width) and width > 0):
+            raise SpecError(f"window {key!r} must be a positive number, not {width!r}")
+        out[key] = float(width)
+    return out
+
+
+# -- figures from coefficient arrays ----------------------------------------
+
+@dataclass(frozen=True)
+class _Reference:
+    """How figures are read for one network (fixed at the nominal values)."""
+
+    order: int
+    gain_kind: str
+    omega_ref: float      # rad/s, scales the root finding; the reference frequency
+    gain_label: str
+
+
+def _reference(nf, nominal):
+    numerator, denominator = nf.coefficients(nominal)
+    order = denominator.shape[0] - 1
+    omega_ref = float(abs(denominator[-1] / denominator[0]) ** (1.0 / order))
+    if not (math.isfinite(omega_ref) and omega_ref > 0):
+        omega_ref = 1.0
+    kind = nf.gain_kind
+    label = kind
+    if kind == "hf" and numerator.shape[0] - 1 < order:
+        kind = "reference"
+        label = f"|H| at {omega_ref / (2 * math.pi):.6g} Hz"
+    return _Reference(order, kind, omega_ref, label)
+
+
+def _figures(numerator, denominator, ref):
+    """(ω0 rad/s, Q or None, gain) arrays from coefficient arrays (..., N)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if ref.order == 1:
+            omega0, q = denominator[1] / denominator[0], None
+        elif ref.order == 2:
+            # The same expressions as NetworkFunction.omega0 and .q.
+            omega0 = np.sqrt(denominator[2] / denominator[0])
+            q = np.sqrt(denominator[0] * denominator[2]) / denominator[1]
+        else:
+            omega0, q = _dominant_pair(denominator, ref.omega_ref)
+        gain = _gain(numerator, denominator, ref)
+    return omega0, q, gain
+
+
+def _gain(numerator, denominator, ref):
+    if ref.gain_kind == "dc":
+        return numerator[-1] / denominator[-1]
+    if ref.gain_kind == "center":
+        return numerator[-2] / denominator[-2]
+    if ref.gain_kind == "hf":
+        return numerator[0] / denominator[0]
+    s = 1j * ref.omega_ref
+    top = np.zeros(numerator.shape[1:], complex)
+    for c in numerator:
+        top = top * s + c
+    bottom = np.zeros(denominator.shape[1:], complex)
+    for c in denominator:
+        bottom = bottom * s + c
+    return np.abs(top / bottom)
+
+
+def _batched_roots(denominator, omega_ref):
+    """Roots (N, n) of the polynomials in the columns of `denominator`."""
+    n = denominator.shape[0] - 1
+    # In s' = s/omega_ref the coefficients are of one size: better conditioned.
+    scaled = denominator[1:] / denominator[0] / omega_ref ** np.arange(1, n + 1)[:, None]
+    companion = np.zeros((denominator.shape[1], n, n))
+    companion[:, 0, :] = -scaled.T
+    companion[:, np.arange(1, n), np.arange(n - 1)] = 1.0
+    return np.linalg.eigvals(companion) * omega_ref
+
+
+def _dominant_pair(denominator, omega_ref):
+    """ω0 and Q of the complex pair with the highest Q, per column.
+
+    With no complex pair, the two real poles nearest the origin are taken
+    as a pair (ω0 = √(p1 p2), Q = ω0 / −(p1 + p2)).
+    """
+    roots = _batched_roots(denominator, omega_ref)
+    magnitude = np.abs(roots)
+    upper = roots.imag > 1e-9 * magnitude
+    damping = np.where(upper, np.abs(roots.real) / np.where(magnitude > 0, magnitude, 1.0), np.inf)
+    rows = np.arange(roots.shape[0])
+    pole = roots[rows, np.argmin(damping, axis=1)]
+    omega_complex = np.abs(pole)
+    q_complex = omega_complex / (-2.0 * pole.real)
+    real_magnitude = np.where(upper | (roots.imag < -1e-9 * magnitude), np.inf, magnitude)
+    nearest = np.argsort(real_magnitude, axis=1)[:, :2]
+    p1 = roots[rows, nearest[:, 0]].real
+    p2 = roots[rows, nearest[:, 1]].real
+    omega_real = np.sqrt(p1 * p2)
+    q_real = omega_real / -(p1 + p2)
+    has_pair = upper.any(axis=1)
+    return np.where(has_pair, omega_complex, omega_real), np.where(has_pair, q_complex, q_real)
+
+
+# -- sensitivities ----------------------------------------------------------
+
+def sensitivities(nf, values):
+    """Normalised sensitivities of ω0, Q and gain to every part.
+
+    Parameters
+    ----------
+    nf : NetworkFunction
+    values : mapping of str to float
+        Every part symbol → its value (SI units).
+
+    Returns
+    -------
+    Sensitivities
+        Symbolic for order 1 and 2 (ω0 and gain; Q for order 2), numeric
+        (central differences in ln x, step 1e-4) of the dominant pole pair
+        and the reference gain for higher orders.
+
+    Raises
+    ------
+    SpecError
+        If a part has no value, or a value is not a finite number.
+
+    Examples
+    --------
+    >>> from placer.library import get_topology
+    >>> from placer.network import network_function
+    >>> nf = network_function(get_topology("rc-lowpass").circuit)
+    >>> s = sensitivities(nf, {"R1": 1e3, "C1": 1e-9})
+    >>> s.omega0["R1"], s.gain["R1"], s.q
+    (-1.0, 0.0, None)
+    """
+    _check_order(nf)
+    nominal = _nominal_values(nf, values)
+    if nf.order <= 2:
+        return _symbolic_sensitivities(nf, nominal)
+    return _numeric_sensitivities(nf, nominal, _reference(nf, nominal))
+
+
+def _symbolic_sensitivities(nf, nominal):
+    substitution = {nf.symbols[name]: value for name, value in nominal.items()}
+    figures = {"omega0": nf.omega0, "gain": nf.gain}
+    if nf.order == 2:
+        figures["q"] = nf.q
+    out = {"q": None}
+    for key, expression in figures.items():
+        expression = sympy.sympify(expression)
+        if expression == 0:
+            out[key] = {name: math.nan for name in nf.symbols}
+            continue
+        # x ∂ln y/∂x on the expanded logarithm: monomial figures give exact numbers.
+        log_figure = sympy.expand_log(sympy.log(expression), force=True)
+        per_part = {}
+        for name, symbol in nf.symbols.items():
+            derivative = sympy.diff(log_figure, symbol) * symbol
+            if derivative == 0:
+                per_part[name] = 0.0
+            else:
+                per_part[name] = float(complex(derivative.evalf(subs=substitution)).real)
+        out[key] = per_part
+    figure = "second order" if nf.order == 2 else "first order"
+    return Sensitivities(out["omega0"], out["q"], out["gain"], "symbolic", figure)
+
+
+def _numeric_sensitivities(nf, nominal, ref):
+    names = list(nf.symbols)
+    # Columns: x·e^{+h} and x·e^{-h} for each part in turn.
+    factors = np.ones((len(names), 2 * len(names)))
+    for i in range(len(names)):
+        factors[i, 2 * i] = math.exp(_LOG_STEP)
+        factors[i, 2 * i + 1] = math.exp(-_LOG_STEP)
+    columns = {name: nominal[name] * factors[i] for i, name in enumerate(names)}
+    omega0, q, gain = _figures(*nf.coefficients(columns), ref)
+    out = {}
+    for key, figure in (("omega0", omega0), ("q", q), ("gain", gain)):
+        with np.errstate(divide="ignore", invalid="ignore"):
+            logs = np.log(np.abs(figure))
+        slopes = (logs[0::2] - logs[1::2]) / (2 * _LOG_STEP)
+        out[key] = {name: float(slopes[i]) if nominal[name] != 0 else 0.0
+                    for i, name in enumerate(names)}
+    return Sensitivities(out["omega0"], out["q"], out["gain"], "numeric", "dominant pole pair")
+
+
+# -- Monte Carlo ------------------------------------------------------------
+
+def _draw(rng, tolerances, samples, distribution):
+    """Multipliers (parts, samples) around 1."""
+    widths = np.array(list(tolerances.values()))[:, None]
+    if distribution == "uniform":
+        return 1.0 + widths * rng.uniform(-1.0, 1.0, size=(len(tolerances), samples))
+    sigma = widths / 3.0
+    multipliers = 1.0 + sigma * rng.standard_normal(size=(len(tolerances), samples))
+    # A part cannot change sign; redraw the (astronomically rare) ones that would.
+    bad = multipliers <= 0
+    while bad.any():
+        redraw = 1.0 + (sigma * rng.standard_normal(size=multipliers.shape))
+        multipliers = np.where(bad, redraw, multipliers)
+        bad = multipliers <= 0
+    return multipliers
+
+
+def _window_masks(windows, f0, q, gain_db, nominal_f0, nominal_q, nominal_gain_db):
+    masks = {}
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if "f0" in windows:
+            masks["f0"] = np.abs(f0 / nominal_f0 - 1.0) <= windows["f0"]
+        if "q" in windows and q is not None:
+            masks["q"] = np.abs(q / nominal_q - 1.0) <= windows["q"]
+        if "gain_db" in windows:
+            masks["gain_db"] = np.abs(gain_db - nominal_gain_db) <= windows["gain_db"]
+    return masks
+
+
+def _contributions(sens, tolerances):
+    contributions, ranking = {}, {}
+    for key, per_part in (("f0", sens.omega0), ("q", sens.q), ("gain", sens.gain)):
+        if per_part is None:
+            continue
+        variance = {name: (per_part[name] * tolerances[name]) ** 2 for name in tolerances}
+        total = sum(variance.values())
+        shares = {name: (v / total if total > 0 else 0.0) for name, v in variance.items()}
+        contributions[key] = shares
+        ranking[key] = tuple(sorted(shares, key=lambda n: (-shares[n], n)))
+    return contributions, ranking
+
+
+def _readonly(array):
+    array = np.asarray(array)
+    array.flags.writeable = False
+    return array
+
+
+def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform", seed=0,
+                windows=None, progress=None, allow_zero=False):
+    """Tolerance Monte Carlo of f0, Q and gain, vectorised over samples.
+
+    Parameters
+    ----------
+    nf : NetworkFunction
+    values : mapping of str to float
+        Nominal value of every part symbol (SI units).
+    tolerances : mapping of str to float, or float
+        Part → tolerance as a fraction (0.01 = ±1 %); one float applies to
+        every part. Parts absent are exact.
+    samples : int, optional
+        Number of samples, 1 … 1,000,000 (more is capped with a warning).
+    distribution : {"uniform", "gaussian"}, optional
+        "uniform": each part uniform within ±tolerance; "gaussian": normal
+        with 3σ = tolerance, not truncated (a value that would come out
+        ≤ 0 is redrawn, which matters only for tolerances above ~30 %).
+    seed : int, numpy.random.SeedSequence or numpy.random.Generator, optional
+    windows : mapping, optional
+        Yield windows around nominal: {"f0": 0.02, "q": 0.05, "gain_db": 0.5}
+        means f0 within ±2 %, Q within ±5 %, gain within ±0.5 dB.
+    progress : callable, optional
+        ``progress(done, total)``, called after each chunk of 2,000 samples.
+        Without it all samples are evaluated in one call.
+    allow_zero : bool, optional
+        Accept tolerances of exactly 0 (a check that samples equal nominal).
+
+    Returns
+    -------
+    MonteCarloResult
+        Figures: second order — f0 = ω0/2π, Q, gain of the network; first
+        order — f0 of the pole and the gain; higher orders — f0 and Q of
+        the dominant pole pair (see :func:`sensitivities`) and the gain at
+        the reference.
+
+    Raises
+    ------
+    SpecError
+        For a missing value, a tolerance outside (0, 100 %), samples < 1,
+        an unknown distribution or window key.
+
+    Examples
+    --------
+    >>> from placer.library import get_topology
+    >>> from placer.network import network_function
+    >>> nf = network_function(get_topology("rc-lowpass").circuit)
+    >>> r = monte_carlo(nf, {"R1": 1e3, "C1": 1e-9}, {"R1": 0.01, "C1": 0.05},
+    ...                 samples=20000, windows={"f0": 0.05})
+    >>> round(r.yield_fraction, 2), r.contributions["f0"]["C1"] > 0.9
+    (0.95, True)
+    """
+    _check_order(nf)
+    nominal = _nominal_values(nf, values)
+    names = list(nf.symbols)
+    tolerances = _check_tolerances(tolerances, names, allow_zero)
+    samples = _check_samples(samples)
+    if distribution not in DISTRIBUTIONS:
+        raise SpecError(f"distribution must be one of {_choices(DISTRIBUTIONS)}, "
+                        f"not {distribution!r}")
+    windows = _check_windows(windows, nf.order)
+    rng = np.random.default_rng(seed)
+    ref = _reference(nf, nominal)
+
+    multipliers = _draw(rng, tolerances, samples, distribution)
+    # Column 0 is the nominal itself, so nominal and samples share one code path.
+    multipliers = np.concatenate([np.ones((len(tolerances), 1)), multipliers], axis=1)
+    total = samples + 1
+    chunk = CHUNK if progress is not None else total
+    omega0 = np.empty(total)
+    q = np.empty(total) if nf.order >= 2 else None
+    gain = np.empty(total)
+    index = {name: i for i, name in enumerate(tolerances)}
+    for start in range(0, total, chunk):
+        stop = min(start + chunk, total)
+        columns = {
+            name: (nominal[name] * multipliers[index[name], start:stop] if name in index
+                   else np.full(stop - start, nominal[name]))
+            for name in names
+        }
+        w, quality, k = _figures(*nf.coefficients(columns), ref)
+        omega0[start:stop] = w
+        if q is not None:
+            q[start:stop] = quality
+        gain[start:stop] = k
+        if progress is not None:
+            progress(stop - 1, samples)
+    if not (np.all(np.isfinite(omega0)) and np.all(np.isfinite(gain))):
+        warnings.warn("some Monte Carlo samples gave non-finite figures (NaN or inf)",
+                      NumericalWarning, stacklevel=2)
+
+    f0 = omega0 / (2 * math.pi)
+    nominal_f0, f0 = float(f0[0]), _readonly(f0[1:])
+    nominal_gain, gain = float(gain[0]), _readonly(gain[1:])
+    nominal_q = None
+    if q is not None:
+        nominal_q, q = float(q[0]), _readonly(q[1:])
+    statistics = {"f0_hz": Statistics.of(f0), "gain": Statistics.of(gain),
+                  "gain_db": Statistics.of(_db(gain))}
+    if q is not None:
+        statistics["q"] = Statistics.of(q)
+
+    window_yield = yield_fraction = passed = None
+    if windows is not None:
+        masks = _window_masks(windows, f0, q, _db(gain), nominal_f0, nominal_q,
+                              float(_db(nominal_gain)))
+        window_yield = {key: float(mask.mean()) for key, mask in masks.items()}
+        passed = _readonly(np.logical_and.reduce(list(masks.values())) if masks
+                           else np.ones(samples, bool))
+        yield_fraction = float(passed.mean())
+
+    sens = (_symbolic_sensitivities(nf, nominal) if nf.order <= 2
+            else _numeric_sensitivities(nf, nominal, ref))
+    contributions, ranking = _contributions(sens, tolerances)
+    return MonteCarloResult(
+        samples=samples, distribution=distribution, tolerances=dict(tolerances),
+        nominal_f0_hz=nominal_f0, nominal_q=nominal_q, nominal_gain=nominal_gain,
+        gain_reference=ref.gain_label, f0_hz=f0, q=q, gain=gain, statistics=statistics,
+        windows=windows, window_yield=window_yield, yield_fraction=yield_fraction,
+        passed=passed, contributions=contributions, ranking=ranking, sensitivities=sens,
+    )
+
+
+def cascade_monte_carlo(sections, *, samples=10_000, distribution="uniform", seed=0,
+                        windows=None, progress=None, allow_zero=False):
+    """Monte Carlo of a cascade, each section sampled independently.
+
+    Parameters
+    ----------
+    sections : sequence of (NetworkFunction, values, tolerances)
+    samples, distribution, windows, allow_zero
+        As in :func:`monte_carlo`; the windows apply to every section.
+    seed : int, SeedSequence or Generator, optional
+        One generator; each section gets its own child stream
+        (``Generator.spawn``), so sections are independent and the whole
+        is reproducible.
+    progress : callable, optional
+        ``progress(done, total)`` over all sections' samples.
+
+    Returns
+    -------
+    CascadeMonteCarloResult
+        The overall gain is the product of the section gains; its yield
+        needs every section inside its "f0"/"q" windows and the overall
+        gain inside "gain_db".
+
+    Examples
+    --------
+    >>> from placer.library import get_topology
+    >>> from placer.network import network_function
+    >>> nf = network_function(get_topology("rc-lowpass").circuit)
+    >>> part = (nf, {"R1": 1e3, "C1": 1e-9}, {"R1": 0.01, "C1": 0.01})
+    >>> r = cascade_monte_carlo([part, part], samples=500)
+    >>> len(r.sections), r.nominal_gain
+    (2, 1.0)
+    """
+    sections = list(sections)
+    if not sections:
+        raise SpecError("a cascade needs at least one section")
+    for i, section in enumerate(sections):
+        if not (isinstance(section, (tuple, list)) and len(section) == 3):
+            raise SpecError(
+                f"cascade section {i} must be (network function, values, tolerances), "
+                f"not {section!r}"
+            )
+    samples = _check_samples(samples)
+    streams = np.random.default_rng(seed).spawn(len(sections))
+    results = []
+    for i, ((nf, values, tolerances), stream) in enumerate(zip(sections, streams)):
+        report = None
+        if progress is not None:
+            def report(done, total, _offset=i * samples):
+                progress(_offset + done, len(sections) * samples)
+        results.append(monte_carlo(nf, values, tolerances, samples=samples,
+                                   distribution=distribution, seed=stream, windows=windows,
+                                   progress=report, allow_zero=allow_zero))
+    gain = _readonly(np.prod([r.gain for r in results], axis=0))
+    nominal_gain = float(np.prod([r.nominal_gain for r in results]))
+    statistics = {"gain": Statistics.of(gain), "gain_db": Statistics.of(_db(gain))}
+    yield_fraction = passed = None
+    checked = results[0].windows
+    if checked is not None:
+        shape = {k: v for k, v in checked.items() if k != "gain_db"}
+        masks = [m for r in results for m in _window_masks(
+            shape, r.f0_hz, r.q, None, r.nominal_f0_hz, r.nominal_q, None).values()]
+        if "gain_db" in checked:
+            masks.append(np.abs(_db(gain) - _db(nominal_gain)) <= checked["gain_db"])
+        passed = _readonly(np.logical_and.reduce(masks) if masks else np.ones(samples, bool))
+        yield_fraction = float(passed.mean())
+    return CascadeMonteCarloResult(tuple(results), gain, nominal_gain, statistics, checked,
+                                   yield_fraction, passed)
