@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .tolerance import monte_carlo, sensitivities
+from .tolerance import monte_carlo
 from .verify import Response, verify
 
 __all__ = ["SectionEvidence", "Evidence", "gather_evidence", "part_tolerances"]
@@ -250,12 +250,12 @@ def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=N
         values = candidate.snapped.values
         varied = [p for p in nf.symbols if _is_part(candidate.topology, p)]
         tolerances = part_tolerances(candidate.topology, varied, spec.tolerance.tolerances)
-        sens = sensitivities(nf, values)
         windows = dict(spec.tolerance.windows)
         if nf.order == 1:
             windows.pop("q", None)
         mc = monte_carlo(nf, values, tolerances, samples=samples,
                          distribution=spec.tolerance.distribution, seed=seeds[i], windows=windows)
+        sens = mc.sensitivities
         designators = {p.symbol: p.name for p in s.parts}
         sections.append(SectionEvidence(index=s.index, sensitivities=sens, monte_carlo=mc,
                                         tolerances=tolerances, designators=designators))
