@@ -9,39 +9,55 @@ responses, tolerance spread, op-amp effects and loop margins.
 The analysis underneath is modified nodal analysis (MNA): symbolic
 network functions by fraction-free determinants in a polynomial ring,
 and numeric poles, zeros and responses from the matrix pencil.
+
+The public names below load their module on first use, so that
+``import placer`` (and the ``placer`` command's ``--help``) stays quick.
 """
+
+import importlib
 
 __version__ = "0.1.0"
 
-from .errors import NumericalWarning, PlacerError, SpecError, TopologyError, UnreachableTarget
-from .units import format_value, parse_quantity, parse_value
-from .eseries import SERIES_NAMES, nearest, neighbours, series_values, usual_tolerance
-from .circuit import Circuit, Element, circuit_from_dict
-from .topology import Topology, load_topology
-from .library import find_topologies, get_topology, library_topologies, resolve_topology
-from .network import (
-    NetworkFunction,
-    circuit_poles,
-    circuit_response,
-    circuit_zeros,
-    network_function,
-)
-from .targets import Section, Target, split_sections, target_from_table
-from .solve import goal_from_section, make_problem, solve
-from .snap import snap
-from .spec import Spec, load_spec
-from .design import Design, design
+#: Public name → module that defines it.
+_EXPORTS = {
+    "PlacerError": "errors", "SpecError": "errors", "TopologyError": "errors",
+    "UnreachableTarget": "errors", "NumericalWarning": "errors",
+    "parse_quantity": "units", "parse_value": "units", "format_value": "units",
+    "SERIES_NAMES": "eseries", "series_values": "eseries", "nearest": "eseries",
+    "neighbours": "eseries", "usual_tolerance": "eseries",
+    "Element": "circuit", "Circuit": "circuit", "circuit_from_dict": "circuit",
+    "Topology": "topology", "load_topology": "topology",
+    "library_topologies": "library", "get_topology": "library",
+    "resolve_topology": "library", "find_topologies": "library",
+    "NetworkFunction": "network", "network_function": "network",
+    "circuit_poles": "network", "circuit_zeros": "network", "circuit_response": "network",
+    "Target": "targets", "Section": "targets", "make_section": "targets",
+    "design_target": "targets", "target_from_roots": "targets",
+    "split_sections": "sections", "target_from_table": "target_table",
+    "estimate_orders": "approximations",
+    "goal_from_section": "solve", "make_problem": "solve", "solve": "solve",
+    "snap": "snap", "round_each": "snap",
+    "sensitivities": "tolerance", "monte_carlo": "tolerance",
+    "Response": "verify", "verify": "verify", "margins": "verify",
+    "Plant": "plants", "buck_plant": "plants", "boost_plant": "plants",
+    "design_compensator": "loop",
+    "Spec": "spec", "load_spec": "spec",
+    "Design": "design", "design": "design", "place_section": "design",
+    "gather_evidence": "evidence",
+    "compare": "compare",
+}
 
-__all__ = [
-    "__version__",
-    "NumericalWarning", "PlacerError", "SpecError", "TopologyError", "UnreachableTarget",
-    "format_value", "parse_quantity", "parse_value",
-    "SERIES_NAMES", "nearest", "neighbours", "series_values", "usual_tolerance",
-    "Circuit", "Element", "circuit_from_dict",
-    "Topology", "load_topology",
-    "find_topologies", "get_topology", "library_topologies", "resolve_topology",
-    "NetworkFunction", "circuit_poles", "circuit_response", "circuit_zeros", "network_function",
-    "Section", "Target", "split_sections", "target_from_table",
-    "goal_from_section", "make_problem", "solve", "snap",
-    "Spec", "load_spec", "Design", "design",
-]
+__all__ = ["__version__", *_EXPORTS]
+
+
+def __getattr__(name):
+    module = _EXPORTS.get(name)
+    if module is None:
+        raise AttributeError(f"module 'placer' has no attribute {name!r}")
+    value = getattr(importlib.import_module(f".{module}", __name__), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__():
+    return sorted(__all__)

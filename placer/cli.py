@@ -19,13 +19,12 @@ import tomllib
 from pathlib import Path
 
 from . import __version__
-from .circuit import circuit_from_dict
 from .errors import PlacerError, SpecError, UnreachableTarget
-from .library import library_topologies, resolve_topology
-from .network import circuit_poles, circuit_zeros, network_function
-from .report.console import Progress, design_text, table, target_text
 from .report.files import check_output_path, write_text
 from .units import format_value, parse_value
+
+# The analysis stack (sympy, scipy, python-control) loads inside the
+# commands, so `placer --help` answers at once.
 
 __all__ = ["main", "build_parser"]
 
@@ -143,6 +142,9 @@ def _parse_settings(items):
 
 def _load_analysable(name):
     """A library id, a topology file, or a plain circuit file."""
+    from .circuit import circuit_from_dict
+    from .library import resolve_topology
+
     path = Path(name)
     if path.suffix == ".toml" and path.is_file():
         try:
@@ -162,6 +164,9 @@ def _pairs(roots):
 # -- analyze -------------------------------------------------------------------
 
 def _cmd_analyze(args):
+    from .network import circuit_poles, circuit_zeros, network_function
+    from .report.console import table
+
     topology, circuit = _load_analysable(args.topology)
     settings = _parse_settings(args.set)
     symbols = circuit.symbols
@@ -231,6 +236,7 @@ def _cmd_analyze(args):
 # -- target --------------------------------------------------------------------
 
 def _cmd_target(args):
+    from .report.console import target_text
     from .spec import load_spec
     from .targets import split_sections, target_to_dict
 
@@ -249,6 +255,7 @@ def _cmd_target(args):
 # -- design --------------------------------------------------------------------
 
 def _cmd_design(args):
+    from .report.console import Progress, design_text
     from .design import design
     from .report.bom import bom_csv, bom_rows
     from .report.data import design_to_dict
@@ -312,6 +319,7 @@ def _cmd_compare(args):
 # -- loop ----------------------------------------------------------------------
 
 def _cmd_loop(args):
+    from .report.console import table
     from .loop import loop_to_dict, run_loop
     from .spec import load_spec
 
@@ -347,6 +355,8 @@ def _cmd_loop(args):
 
 
 def _loop_text(data):
+    from .report.console import table
+
     def margin_row(label, m):
         return [label, format_value(m["crossover_hz"], "Hz", digits=4) if m.get("crossover_hz") else "none",
                 f"{m['phase_margin_deg']:.2f}°" if m.get("phase_margin_deg") is not None else "-",
@@ -399,7 +409,9 @@ def _plain(value):
 # -- topologies ----------------------------------------------------------------
 
 def _cmd_topologies(args):
-    from .library import load_folder
+    from .library import library_topologies, load_folder, resolve_topology
+    from .network import network_function
+    from .report.console import table
 
     pool = dict(library_topologies())
     errors = {}
