@@ -383,7 +383,7 @@ class Solution:
     gain_matched: bool = False  # the pass-band gain is on target too
 
 
-def solve(problem, *, starts=12, seed=0, tolerance=1e-6):
+def solve(problem, *, starts=12, seed=0, tolerance=1e-6, initial=()):
     """Continuous part values meeting the goal, multi-start in log space.
 
     Parameters
@@ -395,6 +395,10 @@ def solve(problem, *, starts=12, seed=0, tolerance=1e-6):
         Seed of the scrambled Sobol sequence (deterministic for a seed).
     tolerance : float
         Worst relative figure error accepted as "on target".
+    initial : sequence of ndarray, optional
+        Extra starting points (log values of the independent parts), tried
+        before the Sobol points: for example the solution of the same
+        topology with ideal op-amps, when re-solving with a real op-amp model.
 
     Returns
     -------
@@ -423,6 +427,10 @@ def solve(problem, *, starts=12, seed=0, tolerance=1e-6):
     margin = 1e-6 * (problem.high - problem.low)
     starts_u = np.clip(problem.low + points * (problem.high - problem.low),
                        problem.low + margin, problem.high - margin)
+    if len(initial):
+        given = np.clip(np.atleast_2d(np.asarray(initial, dtype=float)),
+                        problem.low + margin, problem.high - margin)
+        starts_u = np.vstack([given, starts_u])
     U = batched_least_squares(lambda V, _: problem.residuals(V), starts_u.T, problem.low, problem.high)
     gain_errors = problem.worst_error(U)
     use_gain = problem.gain_adjustable and float(np.min(gain_errors)) <= max(tolerance, 1e-6)
