@@ -1,0 +1,557 @@
+"""Ranking candidate topologies for every section of a target.
+
+For each section of a spec's target, every candidate topology (see
+:func:`placer.design.candidate_topologies`) is solved and snapped
+(:func:`placer.design.place_section`) and, when it reaches the section,
+measured on what a designer weighs when choosing a circuit:
+
+* parts (resistors, capacitors, inductors) and op-amps;
+* worst root/figure error after snapping, percent (gain included);
+* value spread: largest/smallest value among the resistors and among the
+  capacitors;
+* the largest |S| of ω0 and of Q to any part, S = ∂ln y/∂ln x
+  (:func:`placer.tolerance.sensitivities` at the snapped values);
+* the op-amp gain-bandwidth the stage needs, Hz (see :data:`GBW_METHODS`);
+* Monte Carlo yield: the share of samples whose f0 and Q stay within the
+  spec's windows around nominal, every part drawn within the spec's
+  tolerance for its kind (:func:`placer.tolerance.monte_carlo`).
+
+Candidates are evaluated in worker processes, one candidate (section ×
+topology) per task. Each candidate's solver and Monte Carlo seeds come
+from ``(seed, section index, topology id)`` alone (:func:`candidate_seeds`)
+and results are gathered in submission order, so one worker and many give
+the same comparison.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import sys
+import zlib
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from dataclasses import asdict, dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from .design import candidate_topologies, place_section, value_spread
+from .errors import SpecError
+from .report.console import Progress, table
+from .report.files import check_output_path, write_text
+from .spec import load_spec
+from .sections import split_sections
+from .tolerance import monte_carlo
+from .units import format_value
+
+try:  # the op-amp model is optional at this layer
+    from .amplifier import required_gbw as _required_gbw
+except ModuleNotFoundError as _missing:
+    if _missing.name != f"{__package__}.amplifier":
+        raise
+    _required_gbw = None
+
+__all__ = [
+    "RANK_KEYS", "GBW_METHODS", "CandidateResult", "SectionComparison", "Comparison",
+    "candidate_seeds", "rank_candidates", "compare", "comparison_to_dict", "comparison_text",
+    "run_compare",
+]
+
+#: Ranking keys and what each orders by; unreachable candidates always come last.
+RANK_KEYS = {
+    "yield": "Monte Carlo yield (high first), then error (low first), then parts (few first)",
+    "error": "worst error after snapping (low first), then parts (few first)",
+    "parts": "parts (few first), then error (low first)",
+    "sensitivity": "largest |S| of ω0 or Q to any part (low first), then error (low first)",
+}
+#: Ways to state the gain-bandwidth a stage needs.
+GBW_METHODS = ("rule", "model")
+#: Error bound (percent) the op-amp model's GBW requirement is computed for.
+GBW_ERROR_PCT = 1.0
+#: The rule-of-thumb factor: GBW >= GBW_FACTOR · f0 · Q.
+GBW_FACTOR = 100.0
+
+_PART_KINDS = ("resistor", "capacitor", "inductor")
+_RULE_FAMILIES = ("sallen-key", "mfb-")
+_SOURCES = {
+    "practice": "common practice (no source): GBW >= 100·f0·Q for Sallen–Key and "
+                "multiple-feedback stages",
+    "thumb": "rule of thumb: GBW >= 100·f0·Q, the Sallen–Key/MFB practice applied to "
+             "a topology it was not stated for",
+    "passive": "no op-amp",
+}
+_SHORT = {"practice": "100·f0·Q (common practice)", "thumb": "100·f0·Q (rule of thumb)",
+          "passive": "-", "model": "op-amp model"}
+
+
+@dataclass(frozen=True)
+class CandidateResult:
+    """One topology measured for one section (plain data, picklable).
+
+    Attributes
+    ----------
+    section : int
+        Section index, from 1 in cascade order.
+    topology, title : str
+        Topology id (or the path of a user file that failed to load), title.
+    reachable : bool
+    reason : str
+        Why not, when not reachable; the numbers are then None.
+    parts, opamps : int
+        Resistors, capacitors and inductors; op-amps.
+    error_pct : float
+        Worst root/figure error after snapping, percent, gain included.
+    yield_pct : float
+        Monte Carlo samples inside every yield window around nominal, percent.
+    spread : dict
+        "resistor", "capacitor", "inductor" → largest/smallest value.
+    max_sensitivity_w0, max_sensitivity_q : float
+        Largest |S_x^ω0| and |S_x^Q| over the parts x (Q: None for first order).
+    gbw_hz, gbw_source : float, str
+        Op-amp GBW the stage needs, Hz (None: no op-amp, or never met), and
+        where the figure comes from, in words.
+    gain : float
+        Achieved signed pass-band gain, V/V (negative: inverting).
+    values : dict
+        Part symbol → snapped value, SI units.
+    """
+
+    section: int
+    topology: str
+    title: str = ""
+    reachable: bool = False
+    reason: str = ""
+    parts: int | None = None
+    opamps: int | None = None
+    error_pct: float | None = None
+    yield_pct: float | None = None
+    spread: dict = field(default_factory=dict)
+    max_sensitivity_w0: float | None = None
+    max_sensitivity_q: float | None = None
+    gbw_hz: float | None = None
+    gbw_source: str = ""
+    gain: float | None = None
+    values: dict = field(default_factory=dict)
+
+    @property
+    def max_sensitivity(self):
+        """The larger of the ω0 and Q figures (inf when unknown)."""
+        known = [_finite(x) for x in (self.max_sensitivity_w0, self.max_sensitivity_q)
+                 if x is not None]
+        return max(known) if known else math.inf
+
+
+@dataclass(frozen=True)
+class SectionComparison:
+    """The ranked candidates of one section."""
+
+    index: int
+    section: object
+    candidates: tuple
+
+    @property
+    def reachable(self):
+        """True when at least one candidate reaches the section."""
+        return any(c.reachable for c in self.candidates)
+
+    @property
+    def best(self):
+        """The first-ranked reachable candidate, or None."""
+        return self.candidates[0] if self.reachable else None
+
+
+@dataclass(frozen=True)
+class Comparison:
+    """Every section's ranking, with the settings that produced it."""
+
+    spec: object
+    rank_by: str
+    samples: int
+    seed: int
+    gbw: str
+    sections: tuple
+
+
+def candidate_seeds(seed, section_index, topology_id):
+    """Solver seed and Monte Carlo seed of one candidate, from its identity.
+
+    Parameters
+    ----------
+    seed : int
+        The run's seed, >= 0.
+    section_index : int
+    topology_id : str
+
+    Returns
+    -------
+    (int, numpy.random.SeedSequence)
+        The multi-start solver's seed and the Monte Carlo's seed sequence,
+        from ``SeedSequence([seed, section_index, crc32(topology_id)])``.
+
+    Examples
+    --------
+    >>> a, _ = candidate_seeds(0, 1, "mfb-lowpass")
+    >>> b, _ = candidate_seeds(0, 2, "mfb-lowpass")
+    >>> a == candidate_seeds(0, 1, "mfb-lowpass")[0], a == b
+    (True, False)
+    """
+    root = np.random.SeedSequence([int(seed), int(section_index),
+                                   zlib.crc32(str(topology_id).encode("utf-8"))])
+    solver, sampler = root.spawn(2)
+    return int(solver.generate_state(1)[0]), sampler
+
+
+def _finite(x):
+    return x if x is not None and math.isfinite(x) else math.inf
+
+
+def _rank_key(rank_by):
+    if rank_by == "yield":
+        return lambda c: (-(c.yield_pct if c.yield_pct is not None else -1.0),
+                          _finite(c.error_pct), c.parts, c.topology)
+    if rank_by == "error":
+        return lambda c: (_finite(c.error_pct), c.parts, c.topology)
+    if rank_by == "parts":
+        return lambda c: (c.parts, _finite(c.error_pct), c.topology)
+    return lambda c: (c.max_sensitivity, _finite(c.error_pct), c.topology)
+
+
+def _check_choice(value, valid, name):
+    if value not in valid:
+        raise SpecError(f"{name} must be one of {{{', '.join(repr(v) for v in valid)}}}, "
+                        f"not {value!r}")
+
+
+def rank_candidates(candidates, rank_by="yield"):
+    """Candidates in rank order; unreachable ones last, in the order given.
+
+    Parameters
+    ----------
+    candidates : iterable of CandidateResult
+    rank_by : {"yield", "error", "parts", "sensitivity"}
+        See :data:`RANK_KEYS`; the topology id breaks remaining ties.
+
+    Returns
+    -------
+    tuple of CandidateResult
+    """
+    _check_choice(rank_by, tuple(RANK_KEYS), "rank_by")
+    candidates = list(candidates)
+    reachable = sorted((c for c in candidates if c.reachable), key=_rank_key(rank_by))
+    return tuple(reachable) + tuple(c for c in candidates if not c.reachable)
+
+
+# -- one candidate (runs in a worker) -----------------------------------------
+
+@dataclass(frozen=True)
+class _Task:
+    spec: object
+    index: int
+    section: object
+    topology: object
+    samples: int
+    seed: int
+    gbw: str
+
+
+def _gbw_needed(section, topology, spec, method):
+    """(GBW in Hz or None, source in words) for one reachable candidate."""
+    if topology.opamp_count == 0:
+        return None, _SOURCES["passive"]
+    if method == "model" and _required_gbw is not None:
+        need = _required_gbw(section, topology, error_pct=GBW_ERROR_PCT, parts=spec.parts,
+                             amplifier_gain=spec.amplifier.gain)
+        # The design compared is the ideal-op-amp one as snapped: what it needs as built.
+        figure = getattr(need, "uncorrected_gbw_hz", need.gbw_hz)
+        source = (f"op-amp model (placer.amplifier.required_gbw): the snapped ideal-op-amp "
+                  f"design, as built, within {GBW_ERROR_PCT:g} % error")
+        if figure != need.gbw_hz and math.isfinite(need.gbw_hz):
+            source += f"; re-solved for the op-amp, {format_value(need.gbw_hz, 'Hz')} would do"
+        elif not math.isfinite(figure) and need.note:
+            source += f"; {need.note}"
+        return (figure if math.isfinite(figure) else None), source
+    q = section.q if section.q is not None else 1.0
+    kind = "practice" if topology.id.startswith(_RULE_FAMILIES) else "thumb"
+    source = _SOURCES[kind]
+    if method == "model":
+        source += " (the op-amp model, placer.amplifier, is not installed)"
+    if section.q is None:
+        source += "; Q taken as 1 for a first-order stage"
+    return GBW_FACTOR * section.f0_hz * q, source
+
+
+def _largest(per_part, symbols):
+    if per_part is None:
+        return None
+    numbers = [abs(per_part[s]) for s in symbols if s in per_part and math.isfinite(per_part[s])]
+    return max(numbers) if numbers else None
+
+
+def _evaluate(task):
+    """Measure one candidate; a plain :class:`CandidateResult` comes back."""
+    topology, spec = task.topology, task.spec
+    solver_seed, sampler_seed = candidate_seeds(task.seed, task.index, topology.id)
+    try:
+        candidate = place_section(task.section, topology, parts=spec.parts, seed=solver_seed)
+        if not candidate.reachable:
+            return CandidateResult(task.index, topology.id, topology.title, reason=candidate.reason)
+        nf = candidate.problem.nf
+        values = candidate.snapped.values
+        kinds = {s: topology.kind_of(s) for s in nf.symbols}
+        tolerances = {s: spec.tolerance.tolerances[k] for s, k in kinds.items()
+                      if k in spec.tolerance.tolerances}
+        windows = dict(spec.tolerance.windows)
+        if nf.order < 2:
+            windows.pop("q", None)
+        result = monte_carlo(nf, values, tolerances, samples=task.samples,
+                             distribution=spec.tolerance.distribution, seed=sampler_seed,
+                             windows=windows)
+        # monte_carlo's sensitivities are sensitivities(nf, values) at these nominal values
+        sens = result.sensitivities
+        parts = [s for s, k in kinds.items() if k in _PART_KINDS]
+        gbw_hz, gbw_source = _gbw_needed(task.section, topology, spec, task.gbw)
+    except SpecError as error:
+        return CandidateResult(task.index, topology.id, topology.title, reason=f"bad input: {error}")
+    return CandidateResult(
+        section=task.index, topology=topology.id, title=topology.title, reachable=True,
+        parts=topology.part_count, opamps=topology.opamp_count,
+        error_pct=float(candidate.error_pct),
+        yield_pct=None if result.yield_fraction is None else 100.0 * result.yield_fraction,
+        spread=value_spread(topology, values),
+        max_sensitivity_w0=_largest(sens.omega0, parts), max_sensitivity_q=_largest(sens.q, parts),
+        gbw_hz=gbw_hz, gbw_source=gbw_source, gain=float(candidate.errors.gain),
+        values={k: float(v) for k, v in values.items()},
+    )
+
+
+def _run(tasks, workers, progress):
+    """Evaluate tasks in-process or in a process pool; results in task order."""
+    total = len(tasks)
+    results = [None] * total
+    if workers == 1 or total <= 1:
+        for i, task in enumerate(tasks):
+            results[i] = _evaluate(task)
+            if progress:
+                progress(i + 1, total, task.topology.id)
+        return results
+    with ProcessPoolExecutor(max_workers=min(workers, total)) as pool:
+        futures = {pool.submit(_evaluate, task): i for i, task in enumerate(tasks)}
+        try:
+            for done, future in enumerate(as_completed(futures), start=1):
+                i = futures[future]
+                results[i] = future.result()
+                if progress:
+                    progress(done, total, tasks[i].topology.id)
+        except BaseException:
+            pool.shutdown(wait=False, cancel_futures=True)
+            raise
+    return results
+
+
+def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, progress=None,
+            gbw="rule"):
+    """Rank every candidate topology for every section of a spec's target.
+
+    Parameters
+    ----------
+    spec : placer.spec.Spec
+    rank_by : {"yield", "error", "parts", "sensitivity"}
+        Ranking key, see :data:`RANK_KEYS`.
+    samples : int, optional
+        Monte Carlo samples per candidate (default: the spec's).
+    workers : int, optional
+        Worker processes (default: ``os.cpu_count()``); 1 runs in-process.
+        The result does not depend on it.
+    seed : int, optional
+        Seed of every solve and Monte Carlo (default: the spec's), >= 0.
+    progress : callable, optional
+        ``progress(done, total, topology_id)`` after each candidate.
+    gbw : {"rule", "model"}
+        "rule": GBW >= 100·f0·Q (f0 in Hz), common practice for Sallen–Key
+        and multiple-feedback stages, a labelled rule of thumb for other
+        active ones. "model": :func:`placer.amplifier.required_gbw` on each
+        candidate (tens of seconds per candidate), falling back to the rule
+        when that module is absent.
+
+    Returns
+    -------
+    Comparison
+
+    Raises
+    ------
+    SpecError
+        No target, a bad option, or a candidate list that names an unknown
+        topology. A user topology file that fails to load, or a candidate
+        whose parts settings do not fit it, is listed with its reason.
+    """
+    if spec.target is None:
+        raise SpecError(f"{spec.path}: comparing topologies needs a [target] table")
+    _check_choice(rank_by, tuple(RANK_KEYS), "rank_by")
+    _check_choice(gbw, GBW_METHODS, "gbw")
+    samples = spec.tolerance.samples if samples is None else samples
+    seed = spec.tolerance.seed if seed is None else seed
+    workers = (os.cpu_count() or 1) if workers is None else workers
+    for name, value, low in (("samples", samples, 1), ("seed", seed, 0), ("workers", workers, 1)):
+        if not isinstance(value, int) or isinstance(value, bool) or value < low:
+            raise SpecError(f"{name} must be a whole number >= {low}, not {value!r}")
+    sections = split_sections(spec.target, ordering=spec.ordering, gain=spec.gain_distribution)
+    tasks, failed = [], []
+    for index, section in enumerate(sections, start=1):
+        topologies, load_errors = candidate_topologies(section, spec)
+        for topology in sorted(topologies, key=lambda t: t.id):
+            tasks.append(_Task(spec, index, section, topology, samples, seed, gbw))
+        failed.append([CandidateResult(index, path, reason=message)
+                       for path, message in sorted(load_errors.items())])
+    results = _run(tasks, workers, progress)
+    ranked = []
+    for index, section in enumerate(sections, start=1):
+        own = [r for r in results if r.section == index] + failed[index - 1]
+        ranked.append(SectionComparison(index, section, rank_candidates(own, rank_by)))
+    return Comparison(spec=spec, rank_by=rank_by, samples=samples, seed=seed, gbw=gbw,
+                      sections=tuple(ranked))
+
+
+# -- output ------------------------------------------------------------------
+
+def _clean(x):
+    """JSON-safe: non-finite floats become None."""
+    if isinstance(x, float):
+        return x if math.isfinite(x) else None
+    if isinstance(x, dict):
+        return {k: _clean(v) for k, v in x.items()}
+    return x
+
+
+def _candidate_dict(candidate, rank):
+    out = {"rank": rank, **asdict(candidate)}
+    if candidate.reachable:
+        del out["reason"]
+    out["inverting"] = None if candidate.gain is None else candidate.gain < 0
+    return _clean(out)
+
+
+def comparison_to_dict(comparison):
+    """A comparison as JSON-ready data (SI units, frequencies in Hz).
+
+    Returns
+    -------
+    dict
+        ``sections`` (each with ``index``, ``target`` {kind, order, f0_hz,
+        q, gain_db}, ``reachable`` and ``candidates`` in rank order), a flat
+        ``candidates`` list (every section's, each section in rank order,
+        with a ``section`` index), ``rank_by``, ``rank_key``, ``samples``,
+        ``seed``, ``gbw``, ``windows`` and ``tolerances``.
+    """
+    sections, flat = [], []
+    for s in comparison.sections:
+        items = [_candidate_dict(c, rank if c.reachable else None)
+                 for rank, c in enumerate(s.candidates, start=1)]
+        sec = s.section
+        sections.append({
+            "index": s.index, "reachable": s.reachable, "candidates": items,
+            "target": _clean({"kind": sec.kind, "order": sec.order, "f0_hz": float(sec.f0_hz),
+                              "q": None if sec.q is None else float(sec.q),
+                              "gain_db": float(sec.gain_db)}),
+        })
+        flat.extend(items)
+    spec = comparison.spec
+    return {
+        "spec": spec.path, "title": spec.title, "rank_by": comparison.rank_by,
+        "rank_key": RANK_KEYS[comparison.rank_by], "samples": comparison.samples,
+        "seed": comparison.seed, "gbw": comparison.gbw,
+        "distribution": spec.tolerance.distribution,
+        "windows": dict(spec.tolerance.windows), "tolerances": dict(spec.tolerance.tolerances),
+        "sections": sections, "candidates": flat,
+    }
+
+
+def _number(x, digits=3):
+    return "-" if x is None or not math.isfinite(x) else f"{x:.{digits}g}"
+
+
+def _short_source(source):
+    for key, text in _SOURCES.items():
+        if source.startswith(text):
+            return _SHORT[key]
+    return _SHORT["model"] if source else "-"
+
+
+def comparison_text(comparison):
+    """One console table per section, then the unreachable ones with reasons."""
+    spec = comparison.spec
+    windows = ", ".join(f"{k} ±{100 * v:g} %" if k != "gain_db" else f"gain ±{v:g} dB"
+                        for k, v in spec.tolerance.windows.items())
+    tolerances = ", ".join(f"{k} {100 * v:g} %" for k, v in spec.tolerance.tolerances.items())
+    lines = [f"Compare: {spec.title} — ranked by {comparison.rank_by}: {RANK_KEYS[comparison.rank_by]}",
+             f"  yield: {comparison.samples} Monte Carlo samples per candidate "
+             f"({spec.tolerance.distribution}; {tolerances}) inside {windows} of nominal; "
+             f"seed {comparison.seed}"
+             + ("" if "gain_db" in spec.tolerance.windows
+                else " (the gain counts only with a tolerance.gain window)")]
+    headers = ["rank", "topology", "parts", "op-amps", "error (%)", "yield (%)",
+               "R spread (max/min)", "C spread (max/min)", "max|S ω0|", "max|S Q|",
+               "GBW needed (Hz)", "GBW source"]
+    sources = set()
+    for s in comparison.sections:
+        sec = s.section
+        lines.append("")
+        lines.append(f"Section {s.index}: {sec.kind}, order {sec.order}, f0 "
+                     f"{format_value(sec.f0_hz, 'Hz', digits=4)}"
+                     + (f", Q {sec.q:.4g}" if sec.q is not None else "")
+                     + f", gain {sec.gain_db + 0.0:+.3f} dB".replace("-0.000 ", "+0.000 "))
+        rows = []
+        for rank, c in enumerate((c for c in s.candidates if c.reachable), start=1):
+            sources.add(c.gbw_source)
+            rows.append([rank, c.topology, c.parts, c.opamps, f"{c.error_pct:.3f}",
+                         f"{c.yield_pct:.1f}", _number(c.spread.get("resistor")),
+                         _number(c.spread.get("capacitor")), _number(c.max_sensitivity_w0),
+                         _number(c.max_sensitivity_q),
+                         "-" if c.gbw_hz is None else format_value(c.gbw_hz, "Hz"),
+                         _short_source(c.gbw_source)])
+        lines.append(table(headers, rows) if rows else "  no candidate reaches this section")
+        unreachable = [c for c in s.candidates if not c.reachable]
+        if unreachable:
+            lines.append("  cannot reach it:")
+            lines.extend(f"    {c.topology}: {c.reason}" for c in unreachable)
+    notes = sorted(x for x in sources if x and x != _SOURCES["passive"])
+    if notes:
+        lines += ["", "GBW needed:"] + [f"  {note}" for note in notes]
+    return "\n".join(lines)
+
+
+def _inputs(spec):
+    """Files a run reads, which an output must not overwrite."""
+    items = [spec.path] + [c for c in (spec.candidates or ()) if c.endswith(".toml")]
+    if spec.folder:
+        items += [str(p) for p in Path(spec.folder).glob("*.toml")]
+    return items
+
+
+def run_compare(args):
+    """The ``placer compare`` command; returns the exit status.
+
+    Prints the ranking of every section; ``--json OUT`` writes
+    :func:`comparison_to_dict` atomically (never over an input). Returns 0,
+    or 1 when no candidate reaches some section (the reasons are printed).
+    """
+    spec = load_spec(args.spec)
+    if args.json:
+        check_output_path(args.json, inputs=_inputs(spec), option="--json")
+    progress = Progress("compare", quiet=args.quiet)
+    try:
+        comparison = compare(spec, rank_by=args.rank_by, samples=args.samples,
+                             workers=args.workers, seed=args.seed, progress=progress,
+                             gbw=getattr(args, "gbw", None) or "rule")
+    finally:
+        progress.close()
+    print(comparison_text(comparison))
+    if args.json:
+        text = json.dumps(comparison_to_dict(comparison), indent=2, allow_nan=False) + "\n"
+        write_text(args.json, text, inputs=_inputs(spec), option="--json")
+    missed = [s for s in comparison.sections if not s.reachable]
+    for s in missed:
+        reasons = "; ".join(f"{c.topology}: {c.reason}" for c in s.candidates) or "no candidate topology"
+        print(f"cannot reach section {s.index} ({s.section.kind}, f0 "
+              f"{format_value(s.section.f0_hz, 'Hz', digits=4)}): {reasons}", file=sys.stderr)
+    return 1 if missed else 0
