@@ -52,6 +52,8 @@ __all__ = [
     "estimate_order",
     "estimate_orders",
     "suggest",
+    "check_choice",
+    "check_order",
 ]
 
 APPROXIMATIONS = (
@@ -104,7 +106,29 @@ def suggest(name, valid):
     return f"; did you mean {' or '.join(map(repr, close))}?" if close else ""
 
 
-def _choice(value, valid, field):
+def check_choice(value, valid, field):
+    """Return *value* if it is one of *valid*, else raise naming both.
+
+    Parameters
+    ----------
+    value : object
+        What was given.
+    valid : sequence of str
+        The accepted names.
+    field : str
+        The name of the option, for the message.
+
+    Raises
+    ------
+    SpecError
+        ``"<field> = <value> is not one of ..."``, with the nearest valid
+        name (see :func:`suggest`).
+
+    Examples
+    --------
+    >>> check_choice("bessel", APPROXIMATIONS, "approximation")
+    'bessel'
+    """
     if value not in valid:
         raise SpecError(
             f"{field} = {value!r} is not one of {', '.join(valid)}"
@@ -113,7 +137,29 @@ def _choice(value, valid, field):
     return value
 
 
-def _check_order(order, approximation):
+def check_order(order, approximation):
+    """Return *order* as an int if the family can have it, else raise.
+
+    A prototype order is a whole number from :data:`MIN_ORDER` to
+    :data:`MAX_ORDER`, and even for ``"linkwitz-riley"``.
+
+    Parameters
+    ----------
+    order : int
+        Prototype order.
+    approximation : str
+        One of :data:`APPROXIMATIONS`.
+
+    Raises
+    ------
+    SpecError
+        Naming the order and the range (or the evenness) accepted.
+
+    Examples
+    --------
+    >>> check_order(4, "linkwitz-riley")
+    4
+    """
     if isinstance(order, bool) or not isinstance(order, (int, np.integer)):
         raise SpecError(f"order = {order!r} must be a whole number from "
                         f"{MIN_ORDER} to {MAX_ORDER}")
@@ -297,10 +343,10 @@ def lowpass_prototype(approximation, order, *, ripple_db=None,
     >>> sorted(f"{r:.4f}" for r in p)
     ['-1.5000+0.8660j', '-1.5000-0.8660j']
     """
-    _choice(approximation, APPROXIMATIONS, "approximation")
-    order = _check_order(order, approximation)
-    _choice(normalisation, NORMALISATIONS, "normalisation")
-    _choice(bessel_norm, BESSEL_NORMS, "bessel_norm")
+    check_choice(approximation, APPROXIMATIONS, "approximation")
+    order = check_order(order, approximation)
+    check_choice(normalisation, NORMALISATIONS, "normalisation")
+    check_choice(bessel_norm, BESSEL_NORMS, "bessel_norm")
     if approximation in ("chebyshev1", "elliptic"):
         ripple_db = _check_level(ripple_db, "ripple", f"a {approximation} response")
     if approximation in ("chebyshev2", "elliptic"):
@@ -579,8 +625,8 @@ def estimate_order(approximation, passband_edge_hz, ripple_db,
     >>> estimate_order("linkwitz-riley", 1000.0, 3.0, 3000.0, 30.0).order
     4
     """
-    _choice(approximation, APPROXIMATIONS, "approximation")
-    _choice(response, ("lowpass", "highpass", "bandpass"), "response")
+    check_choice(approximation, APPROXIMATIONS, "approximation")
+    check_choice(response, ("lowpass", "highpass", "bandpass"), "response")
     passband, stopband = _check_mask(passband_edge_hz, ripple_db,
                                      stopband_edge_hz, attenuation_db, response)
     nat = _selectivity(passband, stopband, response)

@@ -238,7 +238,8 @@ def _cmd_analyze(args):
 def _cmd_target(args):
     from .report.console import target_text
     from .spec import load_spec
-    from .targets import split_sections, target_to_dict
+    from .sections import split_sections
+    from .target_table import target_to_dict
 
     spec = load_spec(args.spec)
     if spec.target is None:

@@ -25,7 +25,7 @@ from .library import find_topologies, library_topologies, load_folder, resolve_t
 from .network import circuit_poles, circuit_zeros, network_function
 from .snap import snap
 from .solve import goal_from_section, make_problem, root_errors, solve
-from .targets import split_sections
+from .sections import split_sections
 
 __all__ = [
     "Candidate",

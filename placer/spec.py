@@ -4,7 +4,7 @@ A spec is TOML with these tables (every value may be a number or an
 engineering string read by :mod:`placer.units`):
 
 ``[target]``
-    What to realise: see :func:`placer.targets.target_from_table`.
+    What to realise: see :func:`placer.target_table.target_from_table`.
 ``[cascade]``
     ``ordering`` ("ascending-q", "descending-q", "as-given") and
     ``gain_distribution`` ("headroom", "first", "equal").
@@ -38,7 +38,7 @@ from pathlib import Path
 
 from .errors import SpecError
 from .eseries import check_series, usual_tolerance
-from .targets import target_from_table
+from .target_table import target_from_table
 from .topology import parse_constraint
 from .units import parse_quantity, parse_value
 

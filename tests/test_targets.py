@@ -1,4 +1,4 @@
-"""Tests of placer.targets and placer.approximations.
+"""Tests of placer.targets, placer.sections, placer.target_table and placer.approximations.
 
 Outside references: handbook pole and Q tables (Williams & Taylor,
 *Electronic Filter Design Handbook*, recalled from memory and each checked
@@ -23,17 +23,16 @@ from placer.approximations import (
     lowpass_prototype,
 )
 from placer.errors import SpecError
+from placer.sections import split_sections
+from placer.target_table import target_from_table, target_to_dict
 from placer.targets import (
     Section,
     Target,
     design_target,
     make_section,
     reference_omega_for,
-    split_sections,
     target_from_roots,
     target_from_sections,
-    target_from_table,
-    target_to_dict,
 )
 
 TWO_PI = 2.0 * math.pi

@@ -10,7 +10,7 @@ import math
 
 import numpy as np
 
-from ..targets import target_to_dict
+from ..target_table import target_to_dict
 
 __all__ = ["roots_to_list", "section_figures", "design_to_dict", "finite"]
 
