@@ -1,0 +1,603 @@
+"""Self-contained HTML reports of a filter design or a compensated loop.
+
+One file per report: the styles are inline, every plot is an inline SVG
+(text drawn as paths, so no font is needed), and nothing refers to a
+network resource, so the page reads the same offline and in ten years.
+With a plots folder each plot is also written as PNG and SVG files.
+
+No report overwrites its inputs: the spec file (and any topology file the
+design came from) is always among the paths an output may not be.
+"""
+
+from __future__ import annotations
+
+import html
+import math
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+import control
+import numpy as np
+
+from .. import __version__
+from ..errors import SpecError
+from ..units import format_value
+from .console import fmt_db, fmt_gain, fmt_hz, fmt_pct, fmt_q
+from .files import check_output_path, write_text
+from .plots import (bode_figure, figure_svg, histogram_figure, loop_bode_figure,
+                    pole_zero_figure, save_figure, step_figure)
+
+__all__ = ["CAUTION", "POWER_CAUTION", "ReportFiles", "inline_svg",
+           "write_design_report", "write_loop_report"]
+
+#: The closing caution of every report.
+CAUTION = ("These values are a starting point: confirm the design by simulation and on the "
+           "bench. Equipment connected to mains, or used where a failure can hurt someone, "
+           "must follow its applicable safety standards and licensed practice.")
+#: The extra caution of a loop report.
+POWER_CAUTION = ("Power converters can hurt people: they store energy in inductors and "
+                 "capacitors, often work from mains or high voltages, and an unstable loop can "
+                 "destroy parts. Check the loop on the real converter (for example with a "
+                 "network analyser injection measurement) before it carries power unattended.")
+
+_UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
+_STYLE = """
+body { font-family: system-ui, -apple-system, "Segoe UI", Roboto, sans-serif; margin: 2em auto;
+       max-width: 60em; padding: 0 1em; color: #222; line-height: 1.45; }
+h1 { font-size: 1.6em; border-bottom: 2px solid #36c; padding-bottom: .2em; }
+h2 { font-size: 1.25em; margin-top: 1.8em; border-bottom: 1px solid #ccc; }
+h3 { font-size: 1.05em; }
+table { border-collapse: collapse; margin: .6em 0 1em; font-size: .92em; }
+th, td { border: 1px solid #ccc; padding: .25em .6em; text-align: left; vertical-align: top; }
+th { background: #eef2f8; }
+td.n { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+pre { background: #f6f6f6; border: 1px solid #ddd; padding: .7em; overflow-x: auto; }
+figure { margin: 1em 0; }
+figure svg { max-width: 100%; height: auto; }
+figcaption { font-size: .9em; color: #555; }
+.caution { border: 2px solid #c60; background: #fff6ec; padding: .6em 1em; }
+.note { color: #555; font-size: .92em; }
+"""
+
+
+@dataclass(frozen=True)
+class ReportFiles:
+    """What a report writer wrote: the HTML file and the plot files."""
+
+    html: Path | None
+    plots: tuple
+
+
+def inline_svg(svg, prefix):
+    """An SVG document made fit to sit inside HTML next to other SVGs.
+
+    The XML prolog, the DOCTYPE and the namespace declarations go (the
+    HTML parser puts ``<svg>`` in the SVG namespace itself), and every id
+    and reference to an id gets `prefix`, so two plots never share an id.
+
+    Examples
+    --------
+    >>> inline_svg('<?xml version="1.0"?>\\n<svg xmlns="http://www.w3.org/2000/svg">'
+    ...            '<path id="a"/><use xlink:href="#a"/></svg>', "p1-")
+    '<svg><path id="p1-a"/><use xlink:href="#p1-a"/></svg>'
+    """
+    text = re.sub(r"<\?xml[^>]*\?>\s*", "", svg)
+    text = re.sub(r"<!DOCTYPE[^>]*>\s*", "", text)
+    text = re.sub(r'\s+xmlns(:\w+)?="[^"]*"', "", text)
+    text = re.sub(r'\bid="([^"]+)"', lambda m: f'id="{prefix}{m.group(1)}"', text)
+    text = re.sub(r'href="#([^"]+)"', lambda m: f'href="#{prefix}{m.group(1)}"', text)
+    text = re.sub(r"url\(#([^)]+)\)", lambda m: f"url(#{prefix}{m.group(1)})", text)
+    return text.strip()
+
+
+# -- small HTML pieces ---------------------------------------------------------
+
+def _e(text):
+    return html.escape(str(text), quote=True)
+
+
+def _table(headers, rows, *, numeric_from=1):
+    """An HTML table; cells from column `numeric_from` on are right-aligned."""
+    head = "".join(f"<th>{_e(h)}</th>" for h in headers)
+    body = []
+    for row in rows:
+        cells = "".join(
+            f'<td class="n">{_e(c)}</td>' if i >= numeric_from else f"<td>{_e(c)}</td>"
+            for i, c in enumerate(row))
+        body.append(f"<tr>{cells}</tr>")
+    return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>"
+
+
+def _p(text, cls=None):
+    return f'<p class="{cls}">{_e(text)}</p>' if cls else f"<p>{_e(text)}</p>"
+
+
+def _page(title, parts):
+    return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
+            f"<title>{_e(title)}</title>\n"
+            f"<meta name=\"generator\" content=\"placer {__version__}\">\n"
+            f"<style>{_STYLE}</style>\n</head>\n<body>\n" + "\n".join(parts)
+            + "\n</body>\n</html>\n")
+
+
+def _spec_block(path):
+    if not path:
+        return _p("(no spec file: the design was built in code)", "note")
+    try:
+        text = Path(path).read_text(encoding="utf-8")
+    except OSError as error:
+        return _p(f"(the spec file {path} could not be read: {error})", "note")
+    return f"<p>From <code>{_e(path)}</code>:</p>\n<pre>{_e(text)}</pre>"
+
+
+def _caution(extra=None):
+    parts = ['<h2>Before you build it</h2>', '<div class="caution">', _p(CAUTION)]
+    if extra:
+        parts.append(_p(extra))
+    parts.append("</div>")
+    return "\n".join(parts)
+
+
+def _number(x, fmt):
+    return "-" if x is None or (isinstance(x, float) and not math.isfinite(x)) else fmt(x)
+
+
+class _Plots:
+    """Turns figures into inline SVG blocks and, with a folder, into files."""
+
+    def __init__(self, folder, inputs):
+        self.folder, self.inputs, self.written, self.count = folder, inputs, [], 0
+
+    def block(self, stem, fig, caption):
+        self.count += 1
+        if self.folder is not None:
+            self.written += save_figure(fig, self.folder, stem, inputs=self.inputs)
+        svg = inline_svg(figure_svg(fig), f"p{self.count}-")
+        svg = svg.replace("<svg", f'<svg role="img" aria-label="{_e(caption)}"', 1)
+        return f"<figure>\n{svg}\n<figcaption>{_e(caption)}</figcaption>\n</figure>"
+
+
+def _prepare(html_path, plots_dir, inputs):
+    """Check every output before any work; returns the inputs as a tuple."""
+    inputs = tuple(str(i) for i in inputs if i)
+    if html_path is not None:
+        check_output_path(html_path, inputs=inputs, option="--report")
+    if plots_dir is not None and not Path(plots_dir).is_dir():
+        raise SpecError(f"--plots: folder {str(plots_dir)!r} does not exist")
+    return inputs
+
+
+def _finish(title, parts, html_path, plots, inputs):
+    written = None
+    if html_path is not None:
+        written = write_text(html_path, _page(title, parts), inputs=inputs, option="--report")
+    return ReportFiles(written, tuple(plots.written))
+
+
+def _on_grid(grid, frequency, values):
+    """`values` given on `frequency` (Hz), interpolated onto `grid` in log f; NaN outside."""
+    frequency = np.asarray(frequency, float)
+    return np.interp(np.log(grid), np.log(frequency), np.asarray(values, float),
+                     left=np.nan, right=np.nan)
+
+
+def _aligned_phases(curves, reference):
+    """Shift each phase by whole turns to start where the reference does.
+
+    Unwrapping starts each curve on its own branch; a 360° offset between
+    two curves that agree says nothing, so it is taken out (a 180° offset,
+    an inversion, stays).
+    """
+    base = curves[reference][1]
+    out = {}
+    for label, (magnitude, phase) in curves.items():
+        both = np.nonzero(np.isfinite(base) & np.isfinite(phase))[0]
+        turns = round((base[both[0]] - phase[both[0]]) / 360.0) if both.size else 0
+        out[label] = (magnitude, phase + 360.0 * turns)
+    return out
+
+
+def _root_rows(label, roots):
+    rows = []
+    for re_, im in sorted(roots, key=lambda r: (math.hypot(*r), r[1])):
+        rows.append([label, f"{re_:.6g}", f"{im:+.6g}", fmt_hz(math.hypot(re_, im) / (2 * math.pi)),
+                     f"{math.hypot(re_, im) / (2 * abs(re_)):.4f}" if im and re_ else "-"])
+    return rows
+
+
+_ROOT_HEADERS = ["root", "real part (rad/s)", "imaginary part (rad/s)", "|root| / 2π (Hz)",
+                 "Q of the pair"]
+
+
+# -- the design report -----------------------------------------------------------
+
+def write_design_report(design, data, evidence, *, html_path=None, plots_dir=None, inputs=()):
+    """Write the HTML report of a filter design, and its plots.
+
+    Parameters
+    ----------
+    design : placer.design.Design
+    data : dict
+        :func:`placer.report.data.design_to_dict` of the design.
+    evidence : placer.evidence.Evidence or None
+        Responses, sensitivities and Monte Carlo; None leaves those out.
+    html_path : str or Path, optional
+        The HTML file to write (one self-contained file).
+    plots_dir : str or Path, optional
+        An existing folder for each plot as PNG and SVG: ``pole-zero``,
+        ``bode``, ``step``, ``section<i>-f0-histogram``,
+        ``section<i>-q-histogram``.
+    inputs : sequence of str
+        The run's input files, never overwritten (the spec and the
+        topology files are added to them).
+
+    Returns
+    -------
+    ReportFiles
+
+    Raises
+    ------
+    SpecError
+        When an output folder does not exist or an output is an input;
+        raised before anything is computed or written.
+    """
+    spec_path = getattr(design.spec, "path", None)
+    extra = [spec_path] + [getattr(s.topology, "path", "") for s in design.sections]
+    inputs = _prepare(html_path, plots_dir, tuple(inputs) + tuple(extra))
+    plots = _Plots(plots_dir, inputs)
+    title = data.get("title") or "placer design"
+    parts_count = sum(len(s["parts"]) for s in data["sections"])
+    opamps = [e for e in data["circuit"]["elements"] if e["kind"] == "opamp"]
+    parts = [f"<h1>Design report: {_e(title)}</h1>",
+             _p(f"{len(data['sections'])} filter section(s) in cascade, {parts_count} passive "
+                f"parts and {len(opamps)} op-amp(s). Made by placer {__version__}. Frequencies "
+                "are in hertz; roots of the transfer function in rad/s."),
+             "<h2>What was asked for</h2>", _spec_block(spec_path)]
+    parts += _section_tables(data)
+    parts.append("<h2>Where the poles and zeros sit</h2>")
+    parts.append(plots.block("pole-zero", pole_zero_figure(
+        design.target.poles, design.target.zeros, design.poles, design.zeros),
+        "The s-plane: poles are crosses, zeros circles; the target in large grey marks, the "
+        "achieved design (preferred values) in smaller coloured marks."))
+    roots = _root_rows("target pole", data["target"]["poles"]) + \
+        _root_rows("target zero", data["target"]["zeros"]) + \
+        _root_rows("achieved pole", data["achieved"]["poles"]) + \
+        _root_rows("achieved zero", data["achieved"]["zeros"])
+    parts.append(_table(_ROOT_HEADERS, roots))
+    if evidence is None:
+        parts.append(_p("No responses, sensitivities or tolerance analysis were computed for "
+                        "this report.", "note"))
+    else:
+        parts += _evidence_parts(evidence, plots)
+    parts += _parts_list(data, design)
+    parts += _candidates(data)
+    parts.append(_caution())
+    return _finish(f"Design report: {title}", parts, html_path, plots, inputs)
+
+
+def _section_tables(data):
+    out = ["<h2>Target and achieved, section by section</h2>",
+           _p("“Continuous” is the exact solution before snapping; “preferred values” is the "
+              "built design. Errors are of the preferred-value design against the target.",
+              "note")]
+    for s in data["sections"]:
+        t, a, c, e = s["target"], s["achieved"], s["continuous"], s["error"]
+        out.append(f"<h3>Section {s['index']}: {_e(t['kind'])}, order {t['order']} — "
+                   f"{_e(s['title'])} (<code>{_e(s['topology'])}</code>)"
+                   f"{', inverting' if a.get('inverting') else ''}</h3>")
+        rows = [["f0 (Hz)", fmt_hz(t["f0_hz"]), fmt_hz(c["f0_hz"]), fmt_hz(a["f0_hz"]),
+                 fmt_pct(e["f0_pct"])]]
+        if t["q"] is not None:
+            rows.append(["Q (dimensionless)", fmt_q(t["q"]), fmt_q(c["q"]), fmt_q(a["q"]),
+                         fmt_pct(e["q_pct"])])
+        if t["zero_f0_hz"] is not None:
+            rows.append(["zero f0 (Hz)", fmt_hz(t["zero_f0_hz"]), fmt_hz(c["zero_f0_hz"]),
+                         fmt_hz(a["zero_f0_hz"]), fmt_pct(e["zero_f0_pct"])])
+        rows.append(["gain (dB)", fmt_gain(t["gain_db"]), fmt_gain(c["gain_db"]),
+                     fmt_gain(a["gain_db"]), fmt_db(e["gain_db"])])
+        out.append(_table(["figure", "target", "continuous", "preferred values", "error"], rows))
+    achieved = data["achieved"]
+    out.append(_p(f"Whole cascade: target gain {fmt_gain(data['target']['gain_db'])}, achieved "
+                  f"{fmt_gain(achieved['gain_db'])}"
+                  f"{' (inverting)' if achieved.get('inverting') else ''}; "
+                  f"{len(achieved['poles'])} poles, {len(achieved['zeros'])} finite zeros."))
+    return out
+
+
+def _evidence_parts(evidence, plots):
+    v = evidence.verification
+    grid = np.asarray(evidence.envelope["frequency_hz"], float)
+    named = (("target", v.target), ("preferred values", v.design),
+             ("continuous values", v.continuous))
+    curves = {name: (_on_grid(grid, f.frequency.frequency_hz, f.frequency.magnitude_db),
+                     _on_grid(grid, f.frequency.frequency_hz, f.frequency.phase_deg))
+              for name, f in named if f is not None}
+    curves = _aligned_phases(curves, "target")
+    inverted = (" The design inverts: its phase sits 180° from the target's."
+                if v.deviation.inverted else "")
+    out = ["<h2>Frequency response</h2>", plots.block("bode", bode_figure(
+        grid, curves, envelope=(evidence.envelope["low_db"], evidence.envelope["high_db"]),
+        reference="target"),
+        f"Magnitude (dB) and phase (degrees) against frequency (Hz): the target, the design "
+        f"with its continuous values and with preferred values, and the range of the "
+        f"magnitude over Monte Carlo builds of the whole cascade (shaded); the middle panel "
+        f"shows each less the target's magnitude.{inverted}")]
+    rows, steps = [], []
+    for name, f in named:
+        if f is None:
+            continue
+        q, s = f.frequency, f.step
+        edge = q.f3db_hz if q.f3db_hz is not None else q.band_low_hz
+        rows.append([name, q.kind, fmt_gain(q.gain_db), fmt_hz(edge), fmt_gain(q.peak_db),
+                     fmt_hz(q.peak_hz) if q.peak_hz else "DC"])
+        steps.append([name, _number(s.overshoot_pct, lambda x: f"{x:.2f} %"),
+                      _number(s.rise_time_s, lambda x: format_value(x, "s")),
+                      _number(s.settling_time_s, lambda x: format_value(x, "s")),
+                      _number(s.final_value, lambda x: f"{x:.4g} V/V")])
+    out.append(_table(["response", "kind", "gain (dB)", "−3 dB edge (Hz)", "peak (dB)",
+                       "peak at (Hz)"], rows, numeric_from=2))
+    d = v.deviation
+    out.append(_p(f"Worst deviation of the preferred-value design from the target between "
+                  f"{fmt_hz(v.band_hz[0])} and {fmt_hz(v.band_hz[1])}: {d.magnitude_db:.3f} dB "
+                  f"(at {fmt_hz(d.magnitude_at_hz)}) and {d.phase_deg:.2f}° of phase (at "
+                  f"{fmt_hz(d.phase_at_hz)})"
+                  + ("; the output is inverted." if d.inverted else ".")))
+    out.append("<h2>Step response</h2>")
+    out.append(plots.block("step", step_figure(
+        {name: (f.step.time_s, f.step.output) for name, f in named if f is not None}),
+        "Output for a 1 V input step against time: target, preferred values, continuous "
+        "values." + (" The design inverts, so its step goes the other way." if inverted else "")))
+    out.append(_table(["response", "overshoot (%)", "rise time 10–90 %", "settling time (2 %)",
+                       "final value"], steps))
+    out += _monte_carlo_parts(evidence, plots)
+    out += _sensitivity_parts(evidence)
+    return out
+
+
+def _monte_carlo_parts(evidence, plots):
+    out = ["<h2>Tolerance spread (Monte Carlo)</h2>",
+           _p(f"Each section is rebuilt {evidence.samples} times with every part drawn "
+              f"({evidence.distribution} distribution, seed {evidence.seed}) within its "
+              "tolerance.")]
+    for s in evidence.sections:
+        mc = s.monte_carlo
+        windows = mc.windows or {}
+        tolerances = ", ".join(f"{s.designators.get(k, k)} ±{100 * t:g} %"
+                               for k, t in s.tolerances.items()) or "none"
+        out.append(f"<h3>Section {s.index}</h3>")
+        out.append(_p(f"Tolerances: {tolerances}."))
+        width = windows.get("f0")
+        window = (mc.nominal_f0_hz * (1 - width), mc.nominal_f0_hz * (1 + width)) if width else None
+        out.append(plots.block(f"section{s.index}-f0-histogram", histogram_figure(
+            mc.f0_hz, mc.nominal_f0_hz, label="f0", unit="Hz", window=window,
+            title=f"Section {s.index}: spread of f0"),
+            f"Section {s.index}: f0 (Hz) over {mc.samples} builds, the nominal value (line)"
+            + (f" and the ±{100 * width:g} % window (shaded)." if width else ".")))
+        if mc.q is not None and mc.nominal_q is not None:
+            width = windows.get("q")
+            window = (mc.nominal_q * (1 - width), mc.nominal_q * (1 + width)) if width else None
+            out.append(plots.block(f"section{s.index}-q-histogram", histogram_figure(
+                mc.q, mc.nominal_q, label="Q", unit="", window=window,
+                title=f"Section {s.index}: spread of Q"),
+                f"Section {s.index}: Q over {mc.samples} builds, the nominal value (line)"
+                + (f" and the ±{100 * width:g} % window (shaded)." if width else ".")))
+        st = mc.statistics
+        rows = [["f0 (Hz)", fmt_hz(mc.nominal_f0_hz), fmt_hz(st["f0_hz"].mean),
+                 fmt_hz(st["f0_hz"].std),
+                 f"{fmt_hz(st['f0_hz'].p01)} – {fmt_hz(st['f0_hz'].p99)}"]]
+        if mc.nominal_q is not None and "q" in st:
+            rows.append(["Q (dimensionless)", fmt_q(mc.nominal_q), fmt_q(st["q"].mean),
+                         fmt_q(st["q"].std), f"{fmt_q(st['q'].p01)} – {fmt_q(st['q'].p99)}"])
+        if "gain_db" in st:
+            rows.append(["gain (dB)", fmt_gain(mc.nominal_gain_db), fmt_gain(st["gain_db"].mean),
+                         f"{st['gain_db'].std:.3f} dB",
+                         f"{fmt_gain(st['gain_db'].p01)} – {fmt_gain(st['gain_db'].p99)}"])
+        out.append(_table(["figure", "nominal", "mean", "standard deviation",
+                           "1 % – 99 % of builds"], rows))
+        if mc.yield_fraction is not None:
+            shown = ", ".join(f"gain ±{w:g} dB" if k == "gain_db" else
+                              f"{ {'q': 'Q'}.get(k, k)} ±{100 * w:g} %"
+                              for k, w in windows.items())
+            out.append(_p(f"Yield: {100 * mc.yield_fraction:.1f} % of builds fall inside every "
+                          f"window ({shown})."))
+    return out
+
+
+def _sensitivity_parts(evidence):
+    out = ["<h2>Sensitivity: how much each part moves each section</h2>",
+           _p("Classical sensitivities S = (∂y/y)/(∂x/x): the percentage change of ω0, Q or the "
+              "gain for a 1 % change of the part (dimensionless, % per %).",
+              "note")]
+    for s in evidence.sections:
+        sens = s.sensitivities
+        rows = [[s.designators.get(symbol, symbol), f"{sens.omega0[symbol]:+.3f}",
+                 "-" if sens.q is None else f"{sens.q.get(symbol, 0.0):+.3f}",
+                 f"{sens.gain.get(symbol, 0.0):+.3f}",
+                 f"±{100 * s.tolerances[symbol]:g} %" if symbol in s.tolerances else "exact"]
+                for symbol in sens.omega0]
+        out.append(f"<h3>Section {s.index} ({_e(sens.method)})</h3>")
+        out.append(_table(["part", "S ω0 (%/%)", "S Q (%/%)", "S gain (%/%)", "tolerance"], rows))
+    return out
+
+
+def _parts_list(data, design):
+    tolerances = dict(getattr(getattr(design.spec, "tolerance", None), "tolerances", {}) or {})
+    rows = []
+    for s in data["sections"]:
+        for p in s["parts"]:
+            unit = _UNIT.get(p["kind"], "")
+            tol = tolerances.get(p["kind"])
+            rows.append([p["name"], s["index"], p["kind"], format_value(p["value"], unit),
+                         p["series"] or "fixed", format_value(p["continuous"], unit, digits=4),
+                         f"±{100 * tol:g} %" if tol else "-"])
+    for e in data["circuit"]["elements"]:
+        if e["kind"] == "opamp":
+            model = ", ".join(x for x in (
+                f"open-loop gain {20 * math.log10(e['gain']):.0f} dB" if e.get("gain") else "",
+                f"GBW {format_value(e['gbw'], 'Hz')}" if e.get("gbw") else "") if x)
+            rows.append([e["name"], "-", "op-amp", model or "ideal in the analysis", "-", "-", "-"])
+    return ["<h2>Parts list</h2>",
+            _table(["designator", "section", "kind", "value", "series", "continuous value",
+                    "tolerance"], rows, numeric_from=3)]
+
+
+def _candidates(data):
+    out = ["<h2>Topologies tried</h2>"]
+    for s in data["sections"]:
+        rows = [[c["topology"], "chosen" if c["topology"] == s["topology"] else "",
+                 fmt_pct(c["error_pct"]) if c["reachable"] else "cannot reach",
+                 c.get("parts", "-"), c.get("opamps", "-")] if c["reachable"]
+                else [c["topology"], "", "cannot reach", "-", c.get("reason", "")]
+                for c in s["candidates"]]
+        out.append(f"<h3>Section {s['index']}</h3>")
+        out.append(_table(["topology", "", "worst error (%)", "parts", "op-amps / reason"], rows,
+                          numeric_from=2))
+    return out
+
+
+# -- the loop report -------------------------------------------------------------
+
+def loop_frequency_response(transfer_function, crossover_hz, *, also_hz=(), per_decade=200):
+    """Loop gain on a log grid around the crossover: Hz, dB, degrees (unwrapped).
+
+    The grid spans three decades either side of `crossover_hz`, widened
+    to a decade beyond every frequency in `also_hz`; the response comes
+    from ``control.frequency_response``.
+    """
+    low, high = crossover_hz / 1e3, crossover_hz * 1e3
+    for f in also_hz:
+        if f:
+            low, high = min(low, f / 10), max(high, f * 10)
+    count = int(per_decade * math.log10(high / low)) + 1
+    omega = 2 * math.pi * np.geomspace(low, high, count)
+    response = control.frequency_response(transfer_function, omega)
+    magnitude = np.ravel(np.abs(response.magnitude))
+    with np.errstate(divide="ignore"):
+        magnitude_db = 20 * np.log10(magnitude)
+    phase_deg = np.degrees(np.unwrap(np.ravel(response.phase)))
+    return np.ravel(response.omega) / (2 * math.pi), magnitude_db, phase_deg
+
+
+def _degrees(x):
+    return f"{x:.2f}°"
+
+
+def _gain_margin(x):
+    return "unbounded (no phase crossover)" if x is None else _number(x, lambda v: f"{v:.2f} dB")
+
+
+def _margin_row(label, m):
+    return [label, fmt_hz(m.get("crossover_hz")), _number(m.get("phase_margin_deg"), _degrees),
+            _gain_margin(m.get("gain_margin_db")), fmt_hz(m.get("phase_crossover_hz")),
+            "-" if m.get("stable") is None else ("yes" if m["stable"] else "NO")]
+
+
+def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=(), spec_path=None):
+    """Write the HTML report of a compensated loop, and its plots.
+
+    Parameters
+    ----------
+    result : placer.loop.LoopResult
+    data : dict
+        :func:`placer.loop.loop_to_dict` of the result.
+    html_path, plots_dir, inputs
+        As for :func:`write_design_report`; the plots are ``loop-gain``
+        and ``phase-margin-histogram``.
+    spec_path : str, optional
+        The spec file shown in the report (default: ``data["spec"]``,
+        else the first of `inputs`).
+
+    Returns
+    -------
+    ReportFiles
+
+    Raises
+    ------
+    SpecError
+        When an output folder does not exist or an output is an input.
+    """
+    spec_path = spec_path or data.get("spec") or (inputs[0] if inputs else None)
+    topology = result.design.topology
+    inputs = _prepare(html_path, plots_dir,
+                      tuple(inputs) + (spec_path, getattr(topology, "path", "")))
+    plots = _Plots(plots_dir, inputs)
+    plant, k, mc = data["plant"], data["k_factor"], data.get("monte_carlo")
+    title = f"Loop compensation report: {data['compensator']['family']} compensator"
+    parts = [f"<h1>{_e(title)}</h1>",
+             _p(f"Made by placer {__version__}. Frequencies in hertz, angles in degrees, "
+                "roots in rad/s."),
+             "<h2>What was asked for</h2>", _spec_block(spec_path),
+             "<h2>The plant</h2>", _p(plant.get("description") or "(no description)"),
+             _p(f"G(s) = k·Π(s − z)/Π(s − p) with k = {plant['gain']:.6g}."),
+             _table(_ROOT_HEADERS, _root_rows("pole", plant["poles"]) +
+                    _root_rows("zero", plant["zeros"])),
+             "<h2>The compensator</h2>",
+             _p(f"{topology.title} (library topology {topology.id}), placed by Venable's K "
+                "factor (H. D. Venable, “The K Factor”, Proc. Powercon 10, 1983)."),
+             _table(["quantity", "value"], [
+                 ["K factor (dimensionless)", f"{k['k']:.4g}"],
+                 ["phase boost needed / placed (degrees)",
+                  f"{k['required_boost_deg']:.2f}° / {k['boost_deg']:.2f}°"],
+                 ["plant phase at the crossover (degrees)", f"{k['plant_phase_deg']:.2f}°"],
+                 ["plant gain at the crossover (dB)", fmt_gain(k["plant_gain_db"])],
+                 ["compensator zero(s) (Hz)", fmt_hz(k["zero_hz"])],
+                 ["compensator pole(s) (Hz)", fmt_hz(k["pole_hz"])],
+                 ["integrator ωi (rad/s)", f"{k['integrator_rad_s']:.6g} rad/s"]])]
+    fc = data.get("crossover_hz") or data["target"]["crossover_hz"]
+    frequency, magnitude, phase = loop_frequency_response(
+        result.design.loop_transfer_function(snapped=True), fc,
+        also_hz=(data.get("phase_crossover_hz"),))
+    parts += ["<h2>Loop gain and margins</h2>", plots.block("loop-gain", loop_bode_figure(
+        frequency, magnitude, phase, crossover_hz=data.get("crossover_hz"),
+        phase_margin_deg=data.get("phase_margin_deg"), gain_margin_db=data.get("gain_margin_db"),
+        phase_crossover_hz=data.get("phase_crossover_hz")),
+        "Loop gain L = compensator × plant with preferred-value parts: magnitude (dB) and "
+        "phase (degrees) against frequency (Hz), the phase margin at the 0 dB crossover and the "
+        "gain margin at the −180° crossing marked."),
+        _table(["loop", "crossover", "phase margin", "gain margin", "phase crossover",
+                "closed loop stable"],
+               [["target", fmt_hz(data["target"]["crossover_hz"]),
+                 f"{data['target']['phase_margin_deg']:.2f}°", "-", "-", "-"],
+                _margin_row("continuous values", data["continuous"]),
+                _margin_row("preferred values", data)])]
+    if mc:
+        parts += _loop_monte_carlo_parts(result, data, mc, plots)
+    tolerances = mc["tolerances"] if mc else {}
+    rows = [[p["name"], p["kind"], format_value(p["value"], _UNIT.get(p["kind"], "")),
+             p["series"] or "fixed",
+             format_value(p["continuous"], _UNIT.get(p["kind"], ""), digits=4),
+             f"±{100 * tolerances[p['name']]:g} %" if p["name"] in tolerances else "-"]
+            for p in data["parts"]]
+    parts += ["<h2>Parts list</h2>",
+              _table(["designator", "kind", "value", "series", "continuous value", "tolerance"],
+                     rows, numeric_from=2)]
+    if data.get("notes"):
+        parts.append("<h2>Notes</h2>")
+        parts.append("<ul>" + "".join(f"<li>{_e(n)}</li>" for n in data["notes"]) + "</ul>")
+    parts.append(_caution(POWER_CAUTION))
+    return _finish(title, parts, html_path, plots, inputs)
+
+
+def _loop_monte_carlo_parts(result, data, mc, plots):
+    floor = mc["margin_floor_deg"]
+    rows = [["phase margin, worst (degrees)", _number(mc["phase_margin_worst_deg"], _degrees)],
+            ["phase margin, median (degrees)", _number(mc["phase_margin_median_deg"], _degrees)],
+            ["gain margin, worst (dB)", _gain_margin(mc["gain_margin_worst_db"])],
+            ["crossover, lowest – highest (Hz)",
+             f"{fmt_hz(mc['crossover_min_hz'])} – {fmt_hz(mc['crossover_max_hz'])}"],
+            ["unstable builds", f"{mc['unstable_samples']} of {mc['samples']}"],
+            [f"yield: stable with phase margin ≥ {floor:g}°", f"{100 * mc['yield']:.1f} %"]]
+    tolerances = ", ".join(f"{k} ±{100 * v:g} %" for k, v in mc["tolerances"].items())
+    out = ["<h2>Tolerance spread (Monte Carlo)</h2>",
+           _p(f"{mc['samples']} builds, {mc['distribution']} distribution, seed {mc['seed']}; "
+              f"tolerances: {tolerances}."),
+           _table(["figure", "value"], rows)]
+    samples = getattr(result.monte_carlo, "phase_margin_deg", None)
+    if samples is not None:
+        out.append(plots.block("phase-margin-histogram", histogram_figure(
+            samples, data.get("phase_margin_deg"), label="phase margin", unit="deg",
+            window=(floor, None), title="Spread of the phase margin"),
+            f"Phase margin (degrees) over {mc['samples']} builds, the nominal value (line) and "
+            f"the region at or above the {floor:g}° floor (shaded)."))
+    return out

@@ -1,0 +1,558 @@
+"""Plots of a design or a loop, from plain arrays.
+
+Every function takes NumPy arrays (or sequences) and returns a
+:class:`matplotlib.figure.Figure` built without pyplot, so nothing here
+touches matplotlib's global figure manager or needs a display; rendering
+goes through the Agg (PNG) and SVG canvases. Frequencies on the axes are
+in hertz, roots in rad/s (scaled to krad/s, Mrad/s … as the numbers
+need), times in seconds with an SI prefix.
+
+Examples
+--------
+>>> import numpy as np
+>>> fig = pole_zero_figure([-1 + 1j, -1 - 1j], [], [-1.1 + 1j, -1.1 - 1j], [])
+>>> figure_svg(fig).startswith("<?xml")
+True
+>>> figure_png(fig)[:4] == b"\\x89PNG"
+True
+"""
+
+from __future__ import annotations
+
+import io
+import math
+from pathlib import Path
+
+import matplotlib
+import numpy as np
+from matplotlib.figure import Figure
+from matplotlib.ticker import MultipleLocator
+
+from ..errors import SpecError
+from ..units import format_value
+from .files import check_output_path, write_bytes, write_text
+
+__all__ = [
+    "pole_zero_figure",
+    "bode_figure",
+    "step_figure",
+    "histogram_figure",
+    "loop_bode_figure",
+    "engineering_scale",
+    "figure_svg",
+    "figure_png",
+    "save_figure",
+]
+
+_PREFIXES = {-15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T"}
+_TARGET = {"color": "0.55"}
+_ACHIEVED = {"color": "C0"}
+_COLOURS = (dict(color="C0", linewidth=1.4), dict(color="C3", linewidth=1.4, linestyle="--"),
+            dict(color="C2", linewidth=1.2, linestyle="-."), dict(color="C4", linewidth=1.2))
+_DPI = 120
+
+
+def engineering_scale(largest):
+    """Factor and SI prefix that bring `largest` into [1, 1000).
+
+    Parameters
+    ----------
+    largest : float
+        The largest magnitude on the axis, in SI units.
+
+    Returns
+    -------
+    (float, str)
+        Divide the data by the factor and put the prefix before the unit.
+
+    Examples
+    --------
+    >>> engineering_scale(0.0025), engineering_scale(29e3), engineering_scale(0.0)
+    ((0.001, 'm'), (1000.0, 'k'), (1.0, ''))
+    """
+    largest = abs(float(largest))
+    if not math.isfinite(largest) or largest == 0.0:
+        return 1.0, ""
+    power = int(math.floor(math.log10(largest) / 3.0)) * 3
+    power = min(max(power, -15), 12)
+    return 10.0 ** power, _PREFIXES[power]
+
+
+def _new_figure(width=7.0, height=4.5):
+    return Figure(figsize=(width, height), dpi=_DPI, layout="constrained")
+
+
+def _curve_style(label, colours):
+    """A wide grey line under the others for a target, else the next style."""
+    if "target" in label.lower():
+        return dict(color="0.6", linewidth=3.5, zorder=1.5)
+    return next(colours, dict(color="C6", linewidth=1.2))
+
+
+def _roots(values):
+    return np.asarray(values if values is not None else [], dtype=complex).ravel()
+
+
+def pole_zero_figure(target_poles, target_zeros, achieved_poles, achieved_zeros, *, title=None):
+    """The s-plane: poles as crosses (x), zeros as circles (o).
+
+    Parameters
+    ----------
+    target_poles, target_zeros, achieved_poles, achieved_zeros : array_like of complex
+        Roots in rad/s. Target roots are drawn large and grey, achieved
+        roots smaller and in colour, so both show where they coincide.
+    title : str, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        A repeated root carries its multiplicity in parentheses. One
+        axes: σ (real part) across, jω (imaginary part) up, both in
+        the same scaled rad/s unit and the same scale (equal aspect); the
+        jω axis and the real axis drawn.
+    """
+    groups = {"target poles": _roots(target_poles), "target zeros": _roots(target_zeros),
+              "achieved poles": _roots(achieved_poles), "achieved zeros": _roots(achieved_zeros)}
+    every = np.concatenate(list(groups.values()))
+    factor, prefix = engineering_scale(np.max(np.abs(every)) if every.size else 0.0)
+    fig = _new_figure(6.5, 5.5)
+    ax = fig.subplots()
+    ax.axhline(0.0, color="0.3", linewidth=0.8, zorder=1)
+    ax.axvline(0.0, color="0.3", linewidth=0.8, zorder=1)
+    styles = {
+        "target poles": dict(marker="x", markersize=13, markeredgewidth=1.4, **_TARGET),
+        "target zeros": dict(marker="o", markersize=13, markeredgewidth=1.4,
+                             markerfacecolor="none", **_TARGET),
+        "achieved poles": dict(marker="x", markersize=8, markeredgewidth=2.0, **_ACHIEVED),
+        "achieved zeros": dict(marker="o", markersize=8, markeredgewidth=2.0,
+                               markerfacecolor="none", **_ACHIEVED),
+    }
+    for label, roots in groups.items():
+        if roots.size:
+            ax.plot(roots.real / factor, roots.imag / factor, linestyle="none", label=label,
+                    zorder=2 if label.startswith("target") else 3, **styles[label])
+    scale = float(np.max(np.abs(every))) if every.size else 1.0
+    for kind in ("poles", "zeros"):
+        achieved = groups[f"achieved {kind}"]
+        for label in (f"achieved {kind}", f"target {kind}"):
+            for root, count in _clusters(groups[label], 1e-4 * scale):
+                if label.startswith("target") and achieved.size and \
+                        np.min(np.abs(achieved - root)) <= 1e-2 * scale:
+                    continue  # the achieved mark already carries the count
+                if count > 1:
+                    ax.annotate(f"({count})", (root.real / factor, root.imag / factor),
+                                xytext=(7, 5), textcoords="offset points", fontsize=9,
+                                color=styles[label]["color"])
+    if not groups["target zeros"].size and not groups["achieved zeros"].size:
+        ax.text(0.02, 0.02, "no finite zeros", transform=ax.transAxes, color="0.4", fontsize=9)
+    span = np.max(np.abs(every)) / factor * 1.15 if every.size else 1.0
+    left = min(np.min(every.real) / factor * 1.15 if every.size else -1.0, -0.1 * span)
+    right = max(np.max(every.real) / factor * 1.15 if every.size else 0.0, 0.1 * span)
+    # The corners as data, not fixed limits: equal aspect then widens the short side.
+    ax.update_datalim([(left, -span), (right, span)])
+    ax.set_aspect("equal", adjustable="datalim")
+    ax.autoscale_view()
+    ax.set_xlabel(f"σ, real part ({prefix}rad/s)")
+    ax.set_ylabel(f"jω, imaginary part ({prefix}rad/s)")
+    ax.set_title(title or "Poles (×) and zeros (○) in the s-plane")
+    ax.grid(True, color="0.9")
+    if every.size:
+        fig.legend(loc="outside lower center", ncols=4, fontsize=9, frameon=False)
+    return fig
+
+
+def _clusters(roots, tolerance):
+    """Repeated roots: (representative root, multiplicity) for each place."""
+    out = []
+    for root in roots:
+        for k, (place, count) in enumerate(out):
+            if abs(root - place) <= tolerance:
+                out[k] = (place, count + 1)
+                break
+        else:
+            out.append((root, 1))
+    return out
+
+
+def _magnitude_limits(arrays):
+    values = np.concatenate([np.asarray(a, float)[np.isfinite(a)] for a in arrays])
+    if not values.size:
+        return None
+    top = float(values.max())
+    bottom = max(float(values.min()), top - 120.0)
+    pad = max(0.05 * (top - bottom), 1.0)
+    return bottom - pad, top + pad
+
+
+def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=None):
+    """Magnitude (dB) and phase (degrees) against log frequency (Hz).
+
+    Parameters
+    ----------
+    frequency_hz : array_like
+        The common frequency grid, Hz.
+    curves : dict
+        Label → ``(magnitude_db, phase_deg)`` arrays on that grid, drawn
+        in order (for example "target", "preferred values", "continuous
+        values"); NaN where a curve has no data. A label containing
+        "target" is drawn as a wide grey line under the others.
+    envelope : (array_like, array_like), optional
+        ``(low_db, high_db)`` on the grid: shaded as the Monte Carlo
+        envelope of the magnitude.
+    reference : str, optional
+        A label of `curves`. With it a middle panel shows every other
+        curve and the envelope minus that curve (dB), scaled to the band
+        where the reference lies within 20 dB of its peak: the part of the
+        plot where small differences matter.
+    title : str, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        Axes sharing the frequency axis: magnitude, (difference), phase.
+        The magnitude axis shows at most 120 dB below the highest point.
+    """
+    frequency = np.asarray(frequency_hz, float)
+    if reference is not None and reference not in curves:
+        raise SpecError(f"reference must be one of the curves {sorted(curves)}, not {reference!r}")
+    rows = 3 if reference is not None else 2
+    fig = _new_figure(7.5, 7.5 if rows == 3 else 6.0)
+    axes = fig.subplots(rows, 1, sharex=True, height_ratios=(3, 2, 2)[:rows] if rows == 3
+                        else (3, 2))
+    magnitude_ax, phase_ax = axes[0], axes[-1]
+    shown = []
+    colours = iter(_COLOURS)
+    if envelope is not None:
+        low, high = (np.asarray(a, float) for a in envelope)
+        magnitude_ax.fill_between(frequency, low, high, color="C1", alpha=0.35, linewidth=0,
+                                  label="Monte Carlo envelope")
+        shown += [low, high]
+    for label, (magnitude, phase) in curves.items():
+        style = _curve_style(label, colours)
+        magnitude_ax.semilogx(frequency, magnitude, label=label, **style)
+        phase_ax.semilogx(frequency, phase, label=label, **style)
+        shown.append(np.asarray(magnitude, float))
+    if reference is not None:
+        _difference_panel(axes[1], frequency, curves, reference, envelope)
+    limits = _magnitude_limits(shown) if shown else None
+    if limits:
+        magnitude_ax.set_ylim(*limits)
+    magnitude_ax.set_ylabel("magnitude (dB)")
+    phase_ax.set_ylabel("phase (degrees)")
+    phase_ax.set_xlabel("frequency (Hz)")
+    phases = [np.asarray(p, float) for _, p in curves.values()]
+    finite = np.concatenate([p[np.isfinite(p)] for p in phases]) if phases else np.array([])
+    if finite.size:
+        spread = finite.max() - finite.min()
+        phase_ax.yaxis.set_major_locator(MultipleLocator(90 if spread > 270 else 45))
+    for ax in axes:
+        ax.grid(True, which="major", color="0.85")
+        ax.grid(True, which="minor", color="0.94")
+    if frequency.size:
+        magnitude_ax.set_xlim(frequency.min(), frequency.max())
+    magnitude_ax.legend(loc="best", fontsize=9)   # the difference panel keeps the same styles
+    magnitude_ax.set_title(title or "Frequency response")
+    return fig
+
+
+def _difference_panel(ax, frequency, curves, reference, envelope):
+    """Curves and envelope minus the reference magnitude (dB)."""
+    base = np.asarray(curves[reference][0], float)
+    finite = np.isfinite(base)
+    band = finite & (base >= (base[finite].max() - 20.0 if finite.any() else 0.0))
+    values = [np.zeros(1)]
+    if envelope is not None:
+        low, high = (np.asarray(a, float) - base for a in envelope)
+        ax.fill_between(frequency, low, high, color="C1", alpha=0.35, linewidth=0,
+                        label="Monte Carlo envelope")
+        values += [low[band], high[band]]
+    colours = iter(_COLOURS)
+    for label, (magnitude, _) in curves.items():
+        style = _curve_style(label, colours)
+        if label == reference:
+            continue
+        difference = np.asarray(magnitude, float) - base
+        ax.semilogx(frequency, difference, label=label, **style)
+        values.append(difference[band])
+    ax.axhline(0.0, color="0.45", linewidth=0.8, zorder=1)
+    every = np.concatenate(values)
+    every = every[np.isfinite(every)]
+    top = max(float(np.max(np.abs(every))) * 1.15, 0.05)
+    ax.set_ylim(-top, top)
+    ax.set_ylabel(f"difference from\n{reference} (dB)")
+
+
+def step_figure(curves, *, title=None):
+    """Unit-step responses against time (with an SI prefix on seconds).
+
+    Parameters
+    ----------
+    curves : dict
+        Label → ``(time_s, output)`` arrays (each curve its own grid). A
+        label containing "target" is drawn as a wide grey line.
+    title : str, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    ends = [float(np.max(t)) for t, _ in curves.values() if np.size(t)]
+    factor, prefix = engineering_scale(max(ends) if ends else 0.0)
+    fig = _new_figure(7.5, 4.2)
+    ax = fig.subplots()
+    colours = iter(_COLOURS)
+    for label, (time, output) in curves.items():
+        style = _curve_style(label, colours)
+        ax.plot(np.asarray(time, float) / factor, output, label=label, **style)
+    ax.axhline(0.0, color="0.3", linewidth=0.6)
+    ax.set_xlabel(f"time ({prefix}s)")
+    ax.set_ylabel("output (V per 1 V input step)")
+    if ends:
+        ax.set_xlim(0.0, max(ends) / factor)
+    ax.grid(True, color="0.9")
+    ax.legend(loc="best", fontsize=9)
+    ax.set_title(title or "Step response")
+    return fig
+
+
+def histogram_figure(samples, nominal, *, label, unit="", window=None, title=None):
+    """Histogram of Monte Carlo samples, nominal line and window shaded.
+
+    Parameters
+    ----------
+    samples : array_like
+        One value per build, SI units (NaN ignored).
+    nominal : float or None
+        The value with nominal parts: a solid vertical line.
+    label : str
+        What the samples are, for example "f0" or "Q".
+    unit : str
+        {"Hz", "deg", "dB", ""} or another unit from :mod:`placer.units`;
+        Hz and other prefixable units get an SI prefix on the axis.
+    window : (float or None, float or None), optional
+        Absolute bounds of the acceptance window (same unit as the
+        samples), shaded; None on one side for a one-sided window.
+    title : str, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    values = np.asarray(samples, float).ravel()
+    values = values[np.isfinite(values)]
+    plain = unit in ("", "deg", "dB", "%")
+    largest = max(np.max(np.abs(values)) if values.size else 0.0,
+                  abs(nominal) if nominal is not None else 0.0)
+    factor, prefix = (1.0, "") if plain else engineering_scale(largest)
+    shown = {"deg": "degrees", "": ""}.get(unit, f"{prefix}{unit}")
+    fig = _new_figure(6.0, 3.8)
+    ax = fig.subplots()
+    if values.size:
+        bins = int(np.clip(round(math.sqrt(values.size)), 10, 60))
+        ax.hist(values / factor, bins=bins, color="C0", alpha=0.8, zorder=2,
+                label=f"{values.size} builds")
+        lo, hi = values.min() / factor, values.max() / factor
+        pad = 0.15 * (hi - lo) if hi > lo else max(abs(lo) * 0.01, 1e-12)
+        xs = [lo - pad, hi + pad]
+        if window is not None:
+            xs += [w / factor for w in window if w is not None]
+        if nominal is not None:
+            xs.append(nominal / factor)
+        width = max(xs) - min(xs)
+        ax.set_xlim(min(xs) - 0.05 * width, max(xs) + 0.05 * width)
+    else:
+        ax.text(0.5, 0.5, "no finite samples", transform=ax.transAxes, ha="center")
+    if window is not None:
+        ax.axvspan(*_window_span(ax, window, factor), color="C2", alpha=0.15, zorder=1,
+                   label=_window_label(window, unit, values))
+    if nominal is not None and math.isfinite(nominal):
+        ax.axvline(nominal / factor, color="black", linewidth=1.5,
+                   label=f"nominal {_format(nominal, unit)}")
+    ax.set_xlabel(f"{label} ({shown})" if shown else label)
+    ax.set_ylabel("builds")
+    ax.grid(True, axis="y", color="0.9")
+    ax.set_ylim(0.0, ax.get_ylim()[1] * 1.35)   # room for the legend above the bars
+    ax.legend(loc="upper right", fontsize=8)
+    ax.set_title(title or f"Monte Carlo spread of {label}")
+    return fig
+
+
+def _format(x, unit):
+    """A value for a legend: engineering notation, plain for a bare number."""
+    return f"{x:.4g}" if unit == "" else format_value(x, unit, digits=4)
+
+
+def _window_span(ax, window, factor):
+    """The window's ends in axis units; an open end runs to the axis edge."""
+    left, right = ax.get_xlim()
+    low, high = window
+    return (left if low is None else low / factor), (right if high is None else high / factor)
+
+
+def _window_label(window, unit, values):
+    low, high = (None if w is None else _format(w, unit) for w in window)
+    text = (f"window {low} – {high}" if low is not None and high is not None
+            else f"window ≥ {low}" if low is not None else f"window ≤ {high}")
+    if values.size:
+        inside = np.ones(values.size, bool)
+        if window[0] is not None:
+            inside &= values >= window[0]
+        if window[1] is not None:
+            inside &= values <= window[1]
+        text += f" ({100 * inside.mean():.1f} % inside)"
+    return text
+
+
+def _at(frequency, values, where):
+    return float(np.interp(math.log(where), np.log(frequency), values))
+
+
+def loop_bode_figure(frequency_hz, magnitude_db, phase_deg, *, crossover_hz, phase_margin_deg,
+                     gain_margin_db, phase_crossover_hz, title=None):
+    """Loop gain with its margins marked.
+
+    Parameters
+    ----------
+    frequency_hz, magnitude_db, phase_deg : array_like
+        The loop gain L(j2πf): Hz, dB, degrees (unwrapped). The phase is
+        shifted by whole turns so the mark at the crossover sits 0–360°
+        below 0° (a stable loop's phase at crossover reads −180° + PM).
+    crossover_hz, phase_margin_deg : float or None
+        Gain crossover (|L| = 0 dB) and the phase margin there; None when
+        |L| never crosses 0 dB.
+    gain_margin_db, phase_crossover_hz : float or None
+        Gain margin at the phase crossover (phase −180°); None when the
+        phase never reaches −180°.
+    title : str, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        Magnitude above with the 0 dB line, phase below with the −180°
+        line, the phase margin drawn as an arrow at the crossover and the
+        gain margin as an arrow at the phase crossover, or a note saying
+        there is none.
+    """
+    frequency = np.asarray(frequency_hz, float)
+    magnitude = np.asarray(magnitude_db, float)
+    phase = np.asarray(phase_deg, float)
+    if crossover_hz is not None:
+        shift = -360.0 * math.floor(_at(frequency, phase, crossover_hz) / 360.0 + 1.0)
+    elif phase_crossover_hz is not None:
+        shift = -360.0 * round((_at(frequency, phase, phase_crossover_hz) + 180.0) / 360.0)
+    else:
+        shift = -360.0 * math.floor((phase[0] + 270.0) / 360.0) if phase.size else 0.0
+    phase = phase + shift
+    fig = _new_figure(7.5, 6.0)
+    magnitude_ax, phase_ax = fig.subplots(2, 1, sharex=True)
+    magnitude_ax.semilogx(frequency, magnitude, color="C0", linewidth=1.5, label="|L|")
+    phase_ax.semilogx(frequency, phase, color="C0", linewidth=1.5, label="∠L")
+    magnitude_ax.axhline(0.0, color="0.3", linewidth=0.9, linestyle="--")
+    phase_ax.axhline(-180.0, color="0.3", linewidth=0.9, linestyle="--")
+    arrow = dict(arrowstyle="<->", color="C3", linewidth=1.5)
+    notes = []
+    if crossover_hz is not None and phase_margin_deg is not None:
+        for ax in (magnitude_ax, phase_ax):
+            ax.axvline(crossover_hz, color="C3", linewidth=0.8, linestyle=":")
+        at = -180.0 + phase_margin_deg
+        phase_ax.annotate("", xy=(crossover_hz, at), xytext=(crossover_hz, -180.0),
+                          arrowprops=arrow)
+        phase_ax.annotate(f"phase margin {phase_margin_deg:.1f}°\nat "
+                          f"{format_value(crossover_hz, 'Hz', digits=4)}",
+                          xy=(crossover_hz, (at - 180.0) / 2), xytext=(8, 0),
+                          textcoords="offset points", color="C3", fontsize=9, va="center")
+    else:
+        notes.append("no gain crossover: |L| never crosses 0 dB, the phase margin is undefined")
+    if phase_crossover_hz is not None and gain_margin_db is not None:
+        for ax in (magnitude_ax, phase_ax):
+            ax.axvline(phase_crossover_hz, color="C4", linewidth=0.8, linestyle=":")
+        gm_arrow = dict(arrow, color="C4")
+        magnitude_ax.annotate("", xy=(phase_crossover_hz, -gain_margin_db),
+                              xytext=(phase_crossover_hz, 0.0), arrowprops=gm_arrow)
+        magnitude_ax.annotate(f"gain margin {gain_margin_db:.1f} dB\nat "
+                              f"{format_value(phase_crossover_hz, 'Hz', digits=4)}",
+                              xy=(phase_crossover_hz, -gain_margin_db / 2), xytext=(8, 0),
+                              textcoords="offset points", color="C4", fontsize=9, va="center")
+    else:
+        notes.append("no phase crossover: the phase never reaches −180°, "
+                     "the gain margin is unbounded")
+    if notes:
+        magnitude_ax.text(0.01, 0.03, "\n".join(notes), transform=magnitude_ax.transAxes,
+                          fontsize=8, color="0.25", va="bottom",
+                          bbox=dict(facecolor="white", edgecolor="0.8", alpha=0.9))
+    limits = _magnitude_limits([magnitude, np.array([0.0])])
+    if limits:
+        magnitude_ax.set_ylim(*limits)
+    finite = phase[np.isfinite(phase)]
+    if finite.size:
+        low, high = min(finite.min(), -180.0), max(finite.max(), -180.0)
+        phase_ax.set_ylim(low - 15.0, high + 15.0)
+        phase_ax.yaxis.set_major_locator(MultipleLocator(90 if high - low > 270 else 45))
+    magnitude_ax.set_ylabel("loop gain |L| (dB)")
+    phase_ax.set_ylabel("loop phase ∠L (degrees)")
+    phase_ax.set_xlabel("frequency (Hz)")
+    for ax in (magnitude_ax, phase_ax):
+        ax.grid(True, which="major", color="0.85")
+        ax.grid(True, which="minor", color="0.94")
+    if frequency.size:
+        magnitude_ax.set_xlim(frequency.min(), frequency.max())
+    magnitude_ax.set_title(title or "Loop gain L(s) with its margins")
+    return fig
+
+
+def figure_svg(fig):
+    """The figure as an SVG document (text as paths, no date: reproducible).
+
+    Returns
+    -------
+    str
+    """
+    buffer = io.StringIO()
+    with matplotlib.rc_context({"svg.hashsalt": "placer", "svg.fonttype": "path"}):
+        fig.savefig(buffer, format="svg",
+                    metadata={"Date": None, "Creator": None, "Format": None, "Type": None})
+    return buffer.getvalue()
+
+
+def figure_png(fig, *, dpi=_DPI):
+    """The figure as PNG bytes (Agg canvas).
+
+    Returns
+    -------
+    bytes
+    """
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format="png", dpi=dpi, metadata={"Software": None})
+    return buffer.getvalue()
+
+
+def save_figure(fig, folder, stem, *, inputs=()):
+    """Write ``<stem>.png`` and ``<stem>.svg`` into `folder`, atomically.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+    folder : str or Path
+        An existing folder.
+    stem : str
+        File name without suffix, for example "bode".
+    inputs : sequence of str
+        The run's input files; neither output may be one of them.
+
+    Returns
+    -------
+    tuple of Path
+        The PNG and SVG paths.
+
+    Raises
+    ------
+    SpecError
+        When the folder does not exist or an output path is an input.
+    """
+    folder = Path(folder)
+    png, svg = folder / f"{stem}.png", folder / f"{stem}.svg"
+    for path in (png, svg):
+        check_output_path(path, inputs=inputs, option="--plots")
+    write_bytes(png, figure_png(fig), inputs=inputs, option="--plots")
+    write_text(svg, figure_svg(fig), inputs=inputs, option="--plots")
+    return png, svg
