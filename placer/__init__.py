@@ -44,7 +44,7 @@ _EXPORTS = {
     "Spec": "spec", "load_spec": "spec",
     "Design": "design", "design": "design", "place_section": "design",
     "gather_evidence": "evidence",
-    "compare": "compare",
+    "compare": "compare", "comparison_to_dict": "compare",
 }
 
 __all__ = ["__version__", *_EXPORTS]

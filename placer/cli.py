@@ -74,6 +74,9 @@ def build_parser():
     p.add_argument("--json", metavar="OUT", help="write the ranking as JSON")
     p.add_argument("--samples", type=int, help="Monte Carlo samples per candidate")
     p.add_argument("--workers", type=int, help="worker processes (default: all cores)")
+    p.add_argument("--gbw", choices=("rule", "model"), default="rule",
+                   help="op-amp GBW each candidate needs: the 100·f0·Q rule of thumb (default) "
+                        "or the finite-GBW model (slower)")
     p.add_argument("--seed", type=int, help="random seed")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
 
@@ -312,16 +315,39 @@ def _cmd_design(args):
 # -- compare -------------------------------------------------------------------
 
 def _cmd_compare(args):
-    from .compare import run_compare
+    from .compare import compare, comparison_to_dict
+    from .report.comparison import comparison_text
+    from .report.console import Progress
+    from .spec import load_spec
 
-    return run_compare(args)
+    spec = load_spec(args.spec)
+    inputs = [spec.path] + [c for c in (spec.candidates or ()) if c.endswith(".toml")]
+    if spec.folder:
+        inputs += [str(p) for p in Path(spec.folder).glob("*.toml")]
+    if args.json:
+        check_output_path(args.json, inputs=inputs, option="--json")
+    progress = Progress("compare", quiet=args.quiet)
+    try:
+        comparison = compare(spec, rank_by=args.rank_by, samples=args.samples,
+                             workers=args.workers, seed=args.seed, progress=progress, gbw=args.gbw)
+    finally:
+        progress.close()
+    print(comparison_text(comparison))
+    if args.json:
+        _emit_json(comparison_to_dict(comparison), args.json, inputs=inputs)
+    missed = [s for s in comparison.sections if not s.reachable]
+    for s in missed:
+        reasons = "; ".join(f"{c.topology}: {c.reason}" for c in s.candidates) or "no candidate topology"
+        print(f"cannot reach section {s.index} ({s.section.kind}, f0 "
+              f"{format_value(s.section.f0_hz, 'Hz', digits=4)}): {reasons}", file=sys.stderr)
+    return 1 if missed else 0
 
 
 # -- loop ----------------------------------------------------------------------
 
 def _cmd_loop(args):
     from .report.console import table
-    from .loop import loop_to_dict, run_loop
+    from .loop_spec import loop_to_dict, run_loop
     from .spec import load_spec
 
     spec = load_spec(args.spec)

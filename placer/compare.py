@@ -25,10 +25,8 @@ the same comparison.
 
 from __future__ import annotations
 
-import json
 import math
 import os
-import sys
 import zlib
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import asdict, dataclass, field
@@ -38,9 +36,6 @@ import numpy as np
 
 from .design import candidate_topologies, place_section, value_spread
 from .errors import SpecError
-from .report.console import Progress, table
-from .report.files import check_output_path, write_text
-from .spec import load_spec
 from .sections import split_sections
 from .tolerance import monte_carlo
 from .units import format_value
@@ -54,8 +49,7 @@ except ModuleNotFoundError as _missing:
 
 __all__ = [
     "RANK_KEYS", "GBW_METHODS", "CandidateResult", "SectionComparison", "Comparison",
-    "candidate_seeds", "rank_candidates", "compare", "comparison_to_dict", "comparison_text",
-    "run_compare",
+    "candidate_seeds", "rank_candidates", "compare", "comparison_to_dict",
 ]
 
 #: Ranking keys and what each orders by; unreachable candidates always come last.
@@ -307,6 +301,7 @@ def _evaluate(task):
         result = monte_carlo(nf, values, tolerances, samples=task.samples,
                              distribution=spec.tolerance.distribution, seed=sampler_seed,
                              windows=windows)
+        target_yield = _target_yield(task.section, result, spec.tolerance.windows)
         # monte_carlo's sensitivities are sensitivities(nf, values) at these nominal values
         sens = result.sensitivities
         parts = [s for s, k in kinds.items() if k in _PART_KINDS]
@@ -317,12 +312,36 @@ def _evaluate(task):
         section=task.index, topology=topology.id, title=topology.title, reachable=True,
         parts=topology.part_count, opamps=topology.opamp_count,
         error_pct=float(candidate.error_pct),
-        yield_pct=None if result.yield_fraction is None else 100.0 * result.yield_fraction,
+        yield_pct=100.0 * target_yield,
         spread=value_spread(topology, values),
         max_sensitivity_w0=_largest(sens.omega0, parts), max_sensitivity_q=_largest(sens.q, parts),
         gbw_hz=gbw_hz, gbw_source=gbw_source, gain=float(candidate.errors.gain),
         values={k: float(v) for k, v in values.items()},
     )
+
+
+#: Gain window (dB) of the yield when the spec sets none.
+DEFAULT_GAIN_WINDOW_DB = 0.5
+
+
+def _target_yield(section, result, windows):
+    """Fraction of builds whose f0, Q and gain lie within the windows of the TARGET.
+
+    Measured against the section's target (not the candidate's own nominal),
+    so a candidate that misses the target — a fixed gain of −6 dB, a Q it
+    cannot set — does not earn yield. The gain window defaults to
+    ±DEFAULT_GAIN_WINDOW_DB dB; the magnitude is compared (the sign of an
+    inverting stage does not count against it).
+    """
+    passed = np.ones(np.shape(result.f0_hz), dtype=bool)
+    if "f0" in windows:
+        passed &= np.abs(result.f0_hz / section.f0_hz - 1) <= windows["f0"]
+    if "q" in windows and section.q is not None and result.q is not None:
+        passed &= np.abs(result.q / section.q - 1) <= windows["q"]
+    gain_window = windows.get("gain_db", DEFAULT_GAIN_WINDOW_DB)
+    gain_db = 20 * np.log10(np.maximum(np.abs(result.gain), 1e-300))
+    passed &= np.abs(gain_db - section.gain_db) <= gain_window
+    return float(np.mean(passed))
 
 
 def _run(tasks, workers, progress):
@@ -464,94 +483,3 @@ def comparison_to_dict(comparison):
         "windows": dict(spec.tolerance.windows), "tolerances": dict(spec.tolerance.tolerances),
         "sections": sections, "candidates": flat,
     }
-
-
-def _number(x, digits=3):
-    return "-" if x is None or not math.isfinite(x) else f"{x:.{digits}g}"
-
-
-def _short_source(source):
-    for key, text in _SOURCES.items():
-        if source.startswith(text):
-            return _SHORT[key]
-    return _SHORT["model"] if source else "-"
-
-
-def comparison_text(comparison):
-    """One console table per section, then the unreachable ones with reasons."""
-    spec = comparison.spec
-    windows = ", ".join(f"{k} ±{100 * v:g} %" if k != "gain_db" else f"gain ±{v:g} dB"
-                        for k, v in spec.tolerance.windows.items())
-    tolerances = ", ".join(f"{k} {100 * v:g} %" for k, v in spec.tolerance.tolerances.items())
-    lines = [f"Compare: {spec.title} — ranked by {comparison.rank_by}: {RANK_KEYS[comparison.rank_by]}",
-             f"  yield: {comparison.samples} Monte Carlo samples per candidate "
-             f"({spec.tolerance.distribution}; {tolerances}) inside {windows} of nominal; "
-             f"seed {comparison.seed}"
-             + ("" if "gain_db" in spec.tolerance.windows
-                else " (the gain counts only with a tolerance.gain window)")]
-    headers = ["rank", "topology", "parts", "op-amps", "error (%)", "yield (%)",
-               "R spread (max/min)", "C spread (max/min)", "max|S ω0|", "max|S Q|",
-               "GBW needed (Hz)", "GBW source"]
-    sources = set()
-    for s in comparison.sections:
-        sec = s.section
-        lines.append("")
-        lines.append(f"Section {s.index}: {sec.kind}, order {sec.order}, f0 "
-                     f"{format_value(sec.f0_hz, 'Hz', digits=4)}"
-                     + (f", Q {sec.q:.4g}" if sec.q is not None else "")
-                     + f", gain {sec.gain_db + 0.0:+.3f} dB".replace("-0.000 ", "+0.000 "))
-        rows = []
-        for rank, c in enumerate((c for c in s.candidates if c.reachable), start=1):
-            sources.add(c.gbw_source)
-            rows.append([rank, c.topology, c.parts, c.opamps, f"{c.error_pct:.3f}",
-                         f"{c.yield_pct:.1f}", _number(c.spread.get("resistor")),
-                         _number(c.spread.get("capacitor")), _number(c.max_sensitivity_w0),
-                         _number(c.max_sensitivity_q),
-                         "-" if c.gbw_hz is None else format_value(c.gbw_hz, "Hz"),
-                         _short_source(c.gbw_source)])
-        lines.append(table(headers, rows) if rows else "  no candidate reaches this section")
-        unreachable = [c for c in s.candidates if not c.reachable]
-        if unreachable:
-            lines.append("  cannot reach it:")
-            lines.extend(f"    {c.topology}: {c.reason}" for c in unreachable)
-    notes = sorted(x for x in sources if x and x != _SOURCES["passive"])
-    if notes:
-        lines += ["", "GBW needed:"] + [f"  {note}" for note in notes]
-    return "\n".join(lines)
-
-
-def _inputs(spec):
-    """Files a run reads, which an output must not overwrite."""
-    items = [spec.path] + [c for c in (spec.candidates or ()) if c.endswith(".toml")]
-    if spec.folder:
-        items += [str(p) for p in Path(spec.folder).glob("*.toml")]
-    return items
-
-
-def run_compare(args):
-    """The ``placer compare`` command; returns the exit status.
-
-    Prints the ranking of every section; ``--json OUT`` writes
-    :func:`comparison_to_dict` atomically (never over an input). Returns 0,
-    or 1 when no candidate reaches some section (the reasons are printed).
-    """
-    spec = load_spec(args.spec)
-    if args.json:
-        check_output_path(args.json, inputs=_inputs(spec), option="--json")
-    progress = Progress("compare", quiet=args.quiet)
-    try:
-        comparison = compare(spec, rank_by=args.rank_by, samples=args.samples,
-                             workers=args.workers, seed=args.seed, progress=progress,
-                             gbw=getattr(args, "gbw", None) or "rule")
-    finally:
-        progress.close()
-    print(comparison_text(comparison))
-    if args.json:
-        text = json.dumps(comparison_to_dict(comparison), indent=2, allow_nan=False) + "\n"
-        write_text(args.json, text, inputs=_inputs(spec), option="--json")
-    missed = [s for s in comparison.sections if not s.reachable]
-    for s in missed:
-        reasons = "; ".join(f"{c.topology}: {c.reason}" for c in s.candidates) or "no candidate topology"
-        print(f"cannot reach section {s.index} ({s.section.kind}, f0 "
-              f"{format_value(s.section.f0_hz, 'Hz', digits=4)}): {reasons}", file=sys.stderr)
-    return 1 if missed else 0

@@ -1,0 +1,64 @@
+"""Console text of a topology comparison."""
+
+from __future__ import annotations
+
+import math
+
+from ..compare import _SHORT, _SOURCES, RANK_KEYS
+from ..units import format_value
+from .console import table
+
+__all__ = ["comparison_text"]
+
+
+def _number(x, digits=3):
+    return "-" if x is None or not math.isfinite(x) else f"{x:.{digits}g}"
+
+
+def _short_source(source):
+    for key, text in _SOURCES.items():
+        if source.startswith(text):
+            return _SHORT[key]
+    return _SHORT["model"] if source else "-"
+
+
+def comparison_text(comparison):
+    """One console table per section, then the unreachable ones with reasons."""
+    spec = comparison.spec
+    windows = ", ".join(f"{k} ±{100 * v:g} %" if k != "gain_db" else f"gain ±{v:g} dB"
+                        for k, v in spec.tolerance.windows.items())
+    tolerances = ", ".join(f"{k} {100 * v:g} %" for k, v in spec.tolerance.tolerances.items())
+    lines = [f"Compare: {spec.title} — ranked by {comparison.rank_by}: {RANK_KEYS[comparison.rank_by]}",
+             f"  yield: {comparison.samples} Monte Carlo samples per candidate "
+             f"({spec.tolerance.distribution}; {tolerances}) inside {windows} of the TARGET"
+             + ("" if "gain_db" in spec.tolerance.windows else ", gain ±0.5 dB")
+             + f"; seed {comparison.seed}"]
+    headers = ["rank", "topology", "parts", "op-amps", "error (%)", "yield (%)",
+               "R spread (max/min)", "C spread (max/min)", "max|S ω0|", "max|S Q|",
+               "GBW needed (Hz)", "GBW source"]
+    sources = set()
+    for s in comparison.sections:
+        sec = s.section
+        lines.append("")
+        lines.append(f"Section {s.index}: {sec.kind}, order {sec.order}, f0 "
+                     f"{format_value(sec.f0_hz, 'Hz', digits=4)}"
+                     + (f", Q {sec.q:.4g}" if sec.q is not None else "")
+                     + f", gain {sec.gain_db + 0.0:+.3f} dB".replace("-0.000 ", "+0.000 "))
+        rows = []
+        for rank, c in enumerate((c for c in s.candidates if c.reachable), start=1):
+            sources.add(c.gbw_source)
+            rows.append([rank, c.topology, c.parts, c.opamps, f"{c.error_pct:.3f}",
+                         f"{c.yield_pct:.1f}", _number(c.spread.get("resistor")),
+                         _number(c.spread.get("capacitor")), _number(c.max_sensitivity_w0),
+                         _number(c.max_sensitivity_q),
+                         "-" if c.gbw_hz is None else format_value(c.gbw_hz, "Hz"),
+                         _short_source(c.gbw_source)])
+        lines.append(table(headers, rows) if rows else "  no candidate reaches this section")
+        unreachable = [c for c in s.candidates if not c.reachable]
+        if unreachable:
+            lines.append("  cannot reach it:")
+            lines.extend(f"    {c.topology}: {c.reason}" for c in unreachable)
+    notes = sorted(x for x in sources if x and x != _SOURCES["passive"])
+    if notes:
+        lines += ["", "GBW needed:"] + [f"  {note}" for note in notes]
+    return "\n".join(lines)
