@@ -142,18 +142,36 @@ def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE
     pool = []
     if coarse:
         Uc = coarse_sets                                  # (len(coarse), B)
-        B = Uc.shape[1]
-        bases = [solution.u]
+        bases = [(solution.u, Uc)]
+        other_index = None
         if fine and len(starts) > 1:
             # a second branch: the continuous solution whose fine parts differ most
-            other = max(starts[1:], key=lambda u: float(np.max(np.abs(u[fine] - solution.u[fine]))))
+            other_index = 1 + max(range(len(starts) - 1), key=lambda k: float(
+                np.max(np.abs(starts[k + 1][fine] - solution.u[fine]))))
+            other = starts[other_index]
             if np.max(np.abs(other[fine] - solution.u[fine])) > 0.05:
-                bases.append(other)
+                bases.append((other, Uc))
+            else:
+                other_index = None
+            # and per combination, the continuous solution whose coarse parts
+            # are in the most similar ratios (impedance scaling leaves the
+            # roots alone, so only the ratios matter): its fine parts start
+            # near the combination's own answer, where the first two bases
+            # may be too far off for the few iterations _solve_fine allows
+            S = np.array(starts).T                                  # (n, k)
+            shape_c = Uc - np.mean(Uc, axis=0)
+            shape_s = S[coarse] - np.mean(S[coarse], axis=0)
+            distance = np.sum((shape_c[:, :, None] - shape_s[:, None, :]) ** 2, axis=0)
+            nearest_start = np.argmin(distance, axis=1)
+            fresh = (nearest_start != 0) & (nearest_start != other_index)
+            if np.any(fresh):
+                bases.append((S[:, nearest_start[fresh]], Uc[:, fresh]))
         blocks = []
-        for base in bases:
-            shift = np.mean(Uc - base[coarse][:, None], axis=0)
-            block = np.repeat(base[:, None], B, axis=1)
-            block[coarse] = Uc
+        for base, combos in bases:
+            base = base if base.ndim == 2 else np.repeat(base[:, None], combos.shape[1], axis=1)
+            shift = np.mean(combos - base[coarse], axis=0)
+            block = base.copy()
+            block[coarse] = combos
             # impedance scaling: capacitors up by e^c, resistors down by e^c
             for i in fine:
                 sign = -1.0 if kinds[i] == "resistor" else (1.0 if kinds[i] == "inductor" else 0.0)

@@ -25,7 +25,7 @@ engineering string read by :mod:`placer.units`):
     The op-amp model: ``gbw`` (Hz), ``gain`` (DC, dB or V/V),
     ``output_resistance`` (ohm), or ``preset`` (see :data:`AMPLIFIER_PRESETS`).
 ``[loop]``
-    A control loop (see :func:`placer.loop.loop_from_table`).
+    A control loop (see :func:`placer.loop_spec.loop_from_table`).
 """
 
 from __future__ import annotations
@@ -38,6 +38,7 @@ from pathlib import Path
 
 from .errors import SpecError
 from .eseries import check_series, usual_tolerance
+from .library import load_folder, resolve_topology
 from .target_table import target_from_table
 from .topology import parse_constraint
 from .units import parse_quantity, parse_value
@@ -171,6 +172,8 @@ def spec_from_dict(data, *, source="spec"):
     _choice(distribution, ("headroom", "first", "equal"), f"{source}: cascade.gain_distribution")
     parts = _parts(_table(data, "parts", source), source)
     candidates, folder = _candidates(_table(data, "candidates", source), source)
+    if candidates:
+        _check_named_parts(parts, candidates, folder, source)
     tolerance = _tolerance(_table(data, "tolerance", source), parts, source)
     amplifier = amplifier_from_table(_table(data, "amplifier", source), source=source)
     loop = data.get("loop")
@@ -263,6 +266,10 @@ def _candidates(table, source):
         for item in topologies:
             if item.endswith(".toml") and not Path(item).is_absolute():
                 item = str(base / item)
+            try:  # an unknown id or a bad file is bad input here, not at design time
+                resolve_topology(item)
+            except SpecError as error:
+                raise SpecError(f"{source}: candidates.topologies: {error}") from None
             resolved.append(item)
         topologies = tuple(resolved)
     folder = table.get("folder")
@@ -276,6 +283,27 @@ def _candidates(table, source):
             raise SpecError(f"{source}: candidates.folder {folder!r} does not exist")
         folder = str(path)
     return topologies, folder
+
+
+def _check_named_parts(parts, candidates, folder, source):
+    """Constraints and fixed parts must name parts of some named candidate."""
+    topologies = [resolve_topology(item) for item in candidates]
+    if folder is not None:
+        topologies += list(load_folder(folder)["topologies"].values())
+    where = ", ".join(f"{t.id} ({', '.join(t.symbols)})" for t in topologies)
+    for constraint in parts.constraints:
+        for name in (constraint.part, constraint.source):
+            if not any(name in t.symbols for t in topologies):
+                raise SpecError(
+                    f"{source}: parts.constraints: '{constraint}' names {name!r}, which no "
+                    f"candidate topology has (parts: {where})"
+                )
+    for name in parts.fixed:
+        if not any(name in t.symbols for t in topologies):
+            raise SpecError(
+                f"{source}: parts.fixed.{name}: no candidate topology has a part {name!r} "
+                f"(parts: {where})"
+            )
 
 
 def _fraction(raw, where):
