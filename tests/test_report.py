@@ -384,3 +384,16 @@ def test_cli_refuses_the_spec_as_report(tmp_path, capsys):
     assert main(["design", str(spec_copy), "--report", str(spec_copy), "--quiet"]) == 2
     assert "input file" in capsys.readouterr().err
     assert spec_copy.read_bytes() == before
+
+
+def test_cli_loop_writes_report_and_plots(tmp_path):
+    out = tmp_path / "loop.html"
+    status = main(["loop", str(BUCK_SPEC), "--report", str(out), "--plots", str(tmp_path),
+                   "--quiet", "--samples", "100"])
+    assert status == 0
+    text = out.read_text(encoding="utf-8")
+    assert _external_references(text) == [] and "<svg" in text
+    assert "crossover = &quot;20 kHz&quot;" in text       # the spec, found from the inputs
+    assert {p.name for p in tmp_path.iterdir()} == {"loop.html", "loop-gain.png", "loop-gain.svg",
+                                                    "phase-margin-histogram.png",
+                                                    "phase-margin-histogram.svg"}
