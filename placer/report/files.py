@@ -46,6 +46,9 @@ def write_bytes(path, data, *, inputs=(), option="output"):
     try:
         with os.fdopen(handle, "wb") as stream:
             stream.write(data)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(temporary, 0o666 & ~umask)  # mkstemp makes 0600; outputs are ordinary files
         os.replace(temporary, target)
     except BaseException:
         if os.path.exists(temporary):
