@@ -3,8 +3,12 @@
 The job: a plant G(s) (:mod:`placer.plants`), a crossover frequency fc and a
 phase margin PM in; an op-amp error amplifier of the library (``family =
 "type2"`` or ``"type3"``) with preferred-value parts out, with the gain and
-phase margins of the loop before and after the parts are snapped, and a
-tolerance Monte Carlo of the loop.
+phase margins of the loop before and after the parts are snapped. The
+snapping search judges part sets by the loop itself, evaluated on a
+frequency grid for many sets at once
+(:func:`placer.loop_tolerance.grid_margins`, which also runs the
+tolerance Monte Carlo of a designed loop); the ``[loop]`` table of a spec
+file is :mod:`placer.loop_spec`.
 
 Sign convention. The error amplifier inverts: H(s) = −Zf/Zin. That
 inversion *is* the loop's negative-feedback sign, so the loop gain is
@@ -48,25 +52,24 @@ import difflib
 import itertools
 import math
 import numbers
-from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
 
-from .eseries import check_series, series_values, usual_tolerance
+from .eseries import check_series, series_values
 from .errors import SpecError, TopologyError, UnreachableTarget
 from .library import find_topologies
+from .loop_tolerance import GridLoop, frequency_grid, grid_margins
 from .network import NetworkFunction, network_function
-from .plants import Plant, check_keys, plant_from_table
+from .plants import Plant
 from .topology import Topology
-from .units import format_value, parse_value
+from .units import format_value
 from .verify import Margins, margins
 
 __all__ = [
     "COMPENSATOR_FAMILIES", "MAX_BOOST_DEG", "MIN_BOOST_DEG", "LOW_GAIN_MARGIN_DB",
-    "DISTRIBUTIONS", "KFactorPlacement", "LoopDesign", "LoopMonteCarlo",
-    "LoopSpec", "LoopResult", "k_factor", "k_factor_placement",
-    "design_compensator", "loop_monte_carlo", "loop_from_table", "run_loop", "loop_to_dict",
+    "KFactorPlacement", "LoopDesign", "check_compensator", "k_factor", "k_factor_placement",
+    "design_compensator",
 ]
 
 COMPENSATOR_FAMILIES = ("type2", "type3")
@@ -76,15 +79,8 @@ MAX_BOOST_DEG = {"type2": 70.0, "type3": 150.0}
 MIN_BOOST_DEG = 10.0
 #: Gain margins below this get a note (common practice, no source).
 LOW_GAIN_MARGIN_DB = 6.0
-DISTRIBUTIONS = ("uniform", "gaussian")
 _ROLES = {"type2": ("R1", "R2", "C1", "C2"), "type3": ("R1", "R2", "R3", "C1", "C2", "C3")}
 _KINDS = {"R": "resistor", "C": "capacitor"}
-_DECADES, _PER_DECADE, _CHUNK = 3, 200, 512
-
-
-def _wrap(degrees):
-    """Angles into [−180°, 180°), the convention of python-control's PM."""
-    return np.remainder(np.asarray(degrees) + 180.0, 360.0) - 180.0
 
 
 def k_factor(boost_deg, family):
@@ -95,7 +91,7 @@ def k_factor(boost_deg, family):
     >>> round(k_factor(60.0, "type2"), 6), round(k_factor(90.0, "type3"), 6)
     (3.732051, 5.828427)
     """
-    family = _family(family)
+    family = check_compensator(family)
     quarter = 2 if family == "type2" else 4
     return math.tan(math.radians(boost_deg / quarter + 45.0)) ** (quarter // 2)
 
@@ -161,7 +157,7 @@ def k_factor_placement(plant, crossover_hz, phase_margin_deg, *, compensator="ty
     ----------
     H. D. Venable, "The K Factor", Proc. Powercon 10, 1983.
     """
-    family = _family(compensator)
+    family = check_compensator(compensator)
     fc = _positive_number(crossover_hz, "crossover")
     pm = float(phase_margin_deg)
     if not 0 < pm < 180:
@@ -250,116 +246,6 @@ def _span(bounds, unit):
     return f"{format_value(bounds[0], unit)}–{format_value(bounds[1], unit)}"
 
 
-# -- the loop on a frequency grid, for many part sets at once ----------------
-
-@dataclass(frozen=True)
-class _GridMargins:
-    """Per part set: crossover (rad/s), PM (deg), GM (dB), NaN for none; stable."""
-
-    crossover: np.ndarray
-    phase_margin: np.ndarray
-    gain_margin_db: np.ndarray
-    stable: np.ndarray
-
-
-def _grid(crossover):
-    return crossover * np.logspace(-_DECADES, _DECADES, 2 * _DECADES * _PER_DECADE + 1)
-
-
-def _polyval(coefficients, s):
-    """Horner on (degree+1, n) coefficients and (m,) points: (n, m)."""
-    out = np.zeros((coefficients.shape[1], s.size), dtype=complex)
-    for c in coefficients:
-        out = out * s[None, :] + c[:, None]
-    return out
-
-
-def _scaled(coefficients, scale):
-    """p(scale·x) from p(s): coefficient of s^j times scale^j."""
-    powers = np.arange(coefficients.shape[0] - 1, -1, -1, dtype=float)
-    return coefficients * (scale ** powers).reshape((-1,) + (1,) * (coefficients.ndim - 1))
-
-
-def _polymul(batched, fixed):
-    out = np.zeros((batched.shape[0] + fixed.size - 1, batched.shape[1]))
-    for j, b in enumerate(fixed):
-        out[j:j + batched.shape[0]] += b * batched
-    return out
-
-
-def _margins_on_grid(omega, loop):
-    """Crossover (rad/s), PM and GM of each row of `loop` (n, m), interpolated.
-
-    Crossings are located between grid points (log-linear interpolation);
-    per row the smallest PM and the GM nearest 0 dB are kept, the rules of
-    :func:`placer.verify.margins`. NaN where a row has no crossing.
-    """
-    logw = np.log(omega)
-    with np.errstate(divide="ignore"):
-        magnitude = np.log(np.abs(loop))
-    a, b = magnitude[:, :-1], magnitude[:, 1:]
-    rows, cols = np.nonzero((a > 0) != (b > 0))
-    t = a[rows, cols] / (a[rows, cols] - b[rows, cols])
-    pa = np.degrees(np.angle(-loop[rows, cols]))
-    pb = np.degrees(np.angle(-loop[rows, cols + 1]))
-    pm = _wrap(pa + t * _wrap(pb - pa))
-    crossover = np.exp(logw[cols] + t * (logw[cols + 1] - logw[cols]))
-    crossover, phase_margin = _pick(loop.shape[0], rows, pm, pm, crossover)
-    # Phase crossovers: Im L changes sign while Re L < 0 (the negative real axis).
-    im, re = loop.imag, loop.real
-    turn = ((im[:, :-1] > 0) != (im[:, 1:] > 0)) & (re[:, :-1] < 0) & (re[:, 1:] < 0)
-    rows, cols = np.nonzero(turn)
-    u = im[rows, cols] / (im[rows, cols] - im[rows, cols + 1])
-    gm = -20 / math.log(10) * (a[rows, cols] + u * (b[rows, cols] - a[rows, cols]))
-    _, gain_margin = _pick(loop.shape[0], rows, np.abs(gm), gm, gm)
-    return crossover, phase_margin, gain_margin
-
-
-def _pick(count, rows, rank, key, other):
-    """Per row, (other, key) at the entry of lowest `rank`; NaN for rows with none."""
-    out_other, out_key = np.full(count, np.nan), np.full(count, np.nan)
-    if rows.size:
-        order = np.lexsort((rank, rows))
-        first = order[np.unique(rows[order], return_index=True)[1]]
-        out_other[rows[first]], out_key[rows[first]] = other[first], key[first]
-    return out_other, out_key
-
-
-def _evaluate(design_parts, values):
-    """_GridMargins of the loop for part values given as (n,) arrays."""
-    nf, sign, plant, omega = design_parts
-    numerator, denominator = nf.coefficients(values)
-    numerator = numerator.reshape(numerator.shape[0], -1)
-    denominator = denominator.reshape(denominator.shape[0], -1)
-    s = 1j * omega
-    loop = sign * _polyval(numerator, s) / _polyval(denominator, s) * plant.response(omega)
-    crossover, phase_margin, gain_margin = _margins_on_grid(omega, loop)
-    # Closed-loop poles: roots of D_H·D_G + sign·N_H·N_G, in x = s/ωc for conditioning.
-    scale = math.sqrt(omega[0] * omega[-1])
-    plant_num, plant_den = (_scaled(np.atleast_1d(np.real(np.poly(r))), scale)
-                            for r in (plant.zeros, plant.poles))
-    char = _polymul(_scaled(denominator, scale), plant_den)
-    extra = sign * plant.gain * _polymul(_scaled(numerator, scale), plant_num)
-    char[char.shape[0] - extra.shape[0]:] += extra
-    monic = (char[1:] / char[0]).T
-    degree = monic.shape[1]
-    companion = np.zeros((monic.shape[0], degree, degree))
-    companion[:, 0, :] = -monic
-    companion[:, np.arange(1, degree), np.arange(degree - 1)] = 1.0
-    with np.errstate(all="ignore"):
-        stable = np.all(np.linalg.eigvals(companion).real < 0, axis=1) if degree else \
-            np.ones(monic.shape[0], bool)
-    return _GridMargins(crossover, phase_margin, gain_margin, stable & np.isfinite(monic).all(1))
-
-
-def _evaluate_chunked(parts, arrays):
-    count = len(next(iter(arrays.values())))
-    results = [_evaluate(parts, {k: v[i:i + _CHUNK] for k, v in arrays.items()})
-               for i in range(0, count, _CHUNK)]
-    return _GridMargins(*(np.concatenate([getattr(r, f) for r in results])
-                          for f in ("crossover", "phase_margin", "gain_margin_db", "stable")))
-
-
 # -- design --------------------------------------------------------------------
 
 @dataclass(frozen=True)
@@ -398,7 +284,19 @@ def _loop_tf(nf, sign, plant, values):
     return sign * nf.transfer_function(values) * plant.transfer_function()
 
 
-def _family(compensator):
+def check_compensator(compensator):
+    """Return *compensator* if it names a family, {"type2", "type3"}, else raise.
+
+    Raises
+    ------
+    SpecError
+        Naming the value and the families, with the nearest one.
+
+    Examples
+    --------
+    >>> check_compensator("type3")
+    'type3'
+    """
     if compensator in COMPENSATOR_FAMILIES:
         return compensator
     close = difflib.get_close_matches(str(compensator), COMPENSATOR_FAMILIES, n=1)
@@ -444,8 +342,8 @@ def _roles_of(topology, family):
 
 def _compensator_topology(compensator, topologies):
     if isinstance(compensator, Topology):
-        return compensator, _family(compensator.family)
-    family = _family(compensator)
+        return compensator, check_compensator(compensator.family)
+    family = check_compensator(compensator)
     found = sorted(find_topologies(response="compensator", family=family, topologies=topologies),
                    key=lambda t: (t.opamp_count, t.part_count, t.id))
     if not found:
@@ -500,7 +398,7 @@ def _search(parts, options, fixed, target):
     grid = np.array(list(itertools.product(*(options[n] for n in names))), dtype=float)
     arrays = {n: grid[:, i] for i, n in enumerate(names)}
     arrays.update({k: np.full(grid.shape[0], v) for k, v in fixed.items()})
-    index = _choose(_evaluate_chunked(parts, arrays), *target)
+    index = _choose(grid_margins(parts, arrays), *target)
     return {**fixed, **{n: float(grid[index, i]) for i, n in enumerate(names)}}
 
 
@@ -590,7 +488,7 @@ def design_compensator(plant, crossover_hz, phase_margin_deg, *, compensator="ty
             "(or an unstable plant) spoil the placement; choose another crossover"
         )
     part_series = {s: series[r[0]] for r, s in roles.items()}
-    parts = (nf, sign, plant, _grid(placement.crossover))
+    parts = GridLoop(nf, sign, plant, frequency_grid(placement.crossover))
     snapped = _snap(parts, roles, continuous, part_series, ranges, placement)
     after = margins(_loop_tf(nf, sign, plant, snapped))
     if after.phase_margin_deg is None or after.phase_margin_deg < pm:
@@ -609,265 +507,3 @@ def design_compensator(plant, crossover_hz, phase_margin_deg, *, compensator="ty
                      f"(at {format_value(after.phase_crossover_hz, 'Hz')})")
     return LoopDesign(plant, topology, placement, roles, continuous, snapped, part_series, sign,
                       cont, after, tuple(notes), nf)
-
-
-# -- Monte Carlo ---------------------------------------------------------------
-
-@dataclass(frozen=True)
-class LoopMonteCarlo:
-    """Margins of the snapped loop over part tolerances (arrays per sample).
-
-    Crossings are found on a grid from fc/1000 to 1000·fc (200 points a
-    decade) by interpolation; NaN where a sample has none there.
-    """
-
-    samples: int
-    seed: int
-    distribution: str
-    tolerances: dict
-    margin_floor_deg: float
-    crossover_hz: np.ndarray = field(repr=False, compare=False)
-    phase_margin_deg: np.ndarray = field(repr=False, compare=False)
-    gain_margin_db: np.ndarray = field(repr=False, compare=False)
-    stable: np.ndarray = field(repr=False, compare=False)
-
-    @property
-    def passed(self):
-        """Samples that are stable with PM at or above the floor."""
-        with np.errstate(invalid="ignore"):
-            return self.stable & (self.phase_margin_deg >= self.margin_floor_deg)
-
-    @property
-    def yield_fraction(self):
-        return float(np.mean(self.passed))
-
-    def summary(self):
-        """Worst cases, spreads and yield, JSON-ready (None for no data)."""
-        def stat(function, array):
-            finite = array[np.isfinite(array)]
-            return float(function(finite)) if finite.size else None
-        return {
-            "samples": self.samples, "seed": self.seed, "distribution": self.distribution,
-            "tolerances": dict(self.tolerances), "margin_floor_deg": self.margin_floor_deg,
-            "phase_margin_worst_deg": stat(np.min, self.phase_margin_deg),
-            "phase_margin_median_deg": stat(np.median, self.phase_margin_deg),
-            "gain_margin_worst_db": stat(np.min, self.gain_margin_db),
-            "crossover_min_hz": stat(np.min, self.crossover_hz),
-            "crossover_max_hz": stat(np.max, self.crossover_hz),
-            "unstable_samples": int(np.sum(~self.stable)),
-            "yield": self.yield_fraction,
-        }
-
-
-def loop_monte_carlo(design, tolerances=None, *, samples=1000, seed=0, distribution="uniform",
-                     margin_floor_deg=None):
-    """Tolerance Monte Carlo of a designed loop, vectorised over samples.
-
-    Parameters
-    ----------
-    design : LoopDesign
-    tolerances : mapping or float, optional
-        Part symbol or kind ("resistor", "capacitor") → fraction (0.01 = 1 %),
-        or one fraction for every part.
-        Default: the usual tolerance of each part's series (E96 1 %, E12 10 %).
-    samples, seed : int
-    distribution : {"uniform", "gaussian"}
-        Uniform within ±tolerance, or Gaussian with σ = tolerance/3.
-    margin_floor_deg : float, optional
-        Phase margin a sample must keep to count toward the yield; default
-        the target minus 10°.
-
-    Returns
-    -------
-    LoopMonteCarlo
-    """
-    if distribution not in DISTRIBUTIONS:
-        raise SpecError(f"distribution must be one of {{'uniform', 'gaussian'}}, not {distribution!r}")
-    if isinstance(samples, bool) or not isinstance(samples, numbers.Integral) or samples < 1:
-        raise SpecError(f"samples must be a whole number of at least 1, not {samples!r}")
-    kinds = {s: design.topology.kind_of(s) for s in design.roles.values()}
-    chosen = {s: usual_tolerance(design.series[s]) for s in kinds}
-    if isinstance(tolerances, numbers.Real) and not isinstance(tolerances, bool):
-        tolerances = dict.fromkeys(kinds, tolerances)
-    for key, value in dict(tolerances or {}).items():
-        targets = [s for s, k in kinds.items() if key in (s, k)]
-        if not targets and key not in ("resistor", "capacitor", "inductor"):
-            raise SpecError(f"tolerance given for {key!r}, which is neither a part nor a kind "
-                            f"of this compensator (parts: {', '.join(kinds)})")
-        if isinstance(value, bool) or not isinstance(value, numbers.Real) or not 0 <= value < 1:
-            raise SpecError(f"tolerance of {key!r} must be a fraction from 0 to 1, not {value!r}")
-        chosen.update({s: float(value) for s in targets})
-    rng = np.random.default_rng(seed)
-    arrays = {k: np.full(samples, v) for k, v in design.snapped.items()}
-    for symbol, width in chosen.items():
-        if distribution == "uniform":
-            factor = 1.0 + width * rng.uniform(-1.0, 1.0, samples)
-        else:
-            factor = np.maximum(1.0 + width / 3.0 * rng.standard_normal(samples), 1e-6)
-        arrays[symbol] = design.snapped[symbol] * factor
-    parts = (design.network, design.sign, design.plant, _grid(design.placement.crossover))
-    margins = _evaluate_chunked(parts, arrays)
-    floor = (design.placement.phase_margin_deg - 10.0 if margin_floor_deg is None
-             else float(margin_floor_deg))
-    return LoopMonteCarlo(int(samples), seed, distribution, chosen, floor,
-                          margins.crossover / (2 * math.pi), margins.phase_margin,
-                          margins.gain_margin_db, margins.stable)
-
-
-# -- spec files and results ----------------------------------------------------
-
-_LOOP_KEYS = ("plant", "crossover", "phase_margin", "compensator", "margin_floor", "r1",
-              "resistor_series", "capacitor_series")
-
-
-@dataclass(frozen=True)
-class LoopSpec:
-    """A ``[loop]`` table, read and checked."""
-
-    plant: Plant
-    crossover_hz: float
-    phase_margin_deg: float
-    compensator: str = "type2"
-    margin_floor_deg: float | None = None
-    r1: float = 10e3
-    resistor_series: str = "E96"
-    capacitor_series: str = "E12"
-
-
-@dataclass(frozen=True)
-class LoopResult:
-    """What :func:`run_loop` returns: the spec, the design, the Monte Carlo."""
-
-    spec: LoopSpec
-    design: LoopDesign
-    monte_carlo: LoopMonteCarlo | None
-
-
-def loop_from_table(table, *, source="spec"):
-    """Read the ``[loop]`` table of a parsed spec file.
-
-    Parameters
-    ----------
-    table : mapping
-        The parsed file (with a ``loop`` table) or the ``[loop]`` table
-        itself. Keys: ``plant`` (see :func:`placer.plants.plant_from_table`),
-        ``crossover`` ("20 kHz"), ``phase_margin`` ("60 deg" or a number),
-        and optional ``compensator`` {"type2", "type3"} (default "type2"),
-        ``margin_floor`` (degrees), ``r1`` (Ω), ``resistor_series``,
-        ``capacitor_series``.
-    source : str
-        The file name, used in messages.
-
-    Raises
-    ------
-    SpecError
-        Naming the key and the value at fault.
-
-    Examples
-    --------
-    >>> spec = loop_from_table({"loop": {"crossover": "2 kHz", "phase_margin": "45 deg",
-    ...     "plant": {"type": "roots", "poles": [-100, -1000], "dc_gain": 10}}})
-    >>> spec.crossover_hz, spec.phase_margin_deg, spec.compensator
-    (2000.0, 45.0, 'type2')
-    """
-    where = f"{source}: loop"
-    if not isinstance(table, Mapping):
-        raise SpecError(f"{source}: a spec must be a table, not {type(table).__name__}")
-    if "loop" in table:
-        loop = table["loop"]
-    elif "plant" in table or "crossover" in table:
-        loop = table
-    else:
-        raise SpecError(f"{source}: no [loop] table (keys: {', '.join(map(str, table)) or 'none'})")
-    if not isinstance(loop, Mapping):
-        raise SpecError(f"{where} must be a table, not {loop!r}")
-    check_keys(loop, _LOOP_KEYS, where)
-    for key in ("plant", "crossover", "phase_margin"):
-        if key not in loop:
-            raise SpecError(f"{where}: missing key {key!r}")
-    crossover = parse_value(loop["crossover"], unit="Hz", field=f"{where}.crossover")
-    if not crossover > 0:
-        raise SpecError(f"{where}.crossover must be a positive frequency, not {loop['crossover']!r}")
-    pm = parse_value(loop["phase_margin"], unit="deg", field=f"{where}.phase_margin")
-    if not 0 < pm < 180:
-        raise SpecError(f"{where}.phase_margin must lie between 0 and 180 deg, "
-                        f"not {loop['phase_margin']!r}")
-    compensator = loop.get("compensator", "type2")
-    try:
-        _family(compensator)
-    except SpecError as error:
-        raise SpecError(f"{where}.{error}") from None
-    floor = loop.get("margin_floor")
-    if floor is not None:
-        floor = parse_value(floor, unit="deg", field=f"{where}.margin_floor")
-    r1 = parse_value(loop.get("r1", 10e3), unit="ohm", field=f"{where}.r1")
-    series = {}
-    for key, default in (("resistor_series", "E96"), ("capacitor_series", "E12")):
-        series[key] = check_series(loop.get(key, default), field=f"{where}.{key}")
-    return LoopSpec(plant_from_table(loop["plant"], source=f"{where}.plant"), crossover, pm,
-                    compensator, floor, r1, **series)
-
-
-def run_loop(spec_table, *, source="spec", samples=1000, seed=0, tolerances=None,
-             distribution="uniform", topologies=None):
-    """Read a ``[loop]`` spec, design the compensator, run the Monte Carlo.
-
-    Parameters
-    ----------
-    spec_table : mapping
-        The parsed spec file, see :func:`loop_from_table`.
-    source : str
-        The file name, for messages.
-    samples, seed : int
-        Monte Carlo size (0 skips it) and seed.
-    tolerances, distribution
-        As for :func:`loop_monte_carlo` (default: each series' usual tolerance).
-    topologies : mapping, optional
-        Where to look the compensator up (default: the library).
-
-    Returns
-    -------
-    LoopResult
-    """
-    spec = loop_from_table(spec_table, source=source)
-    design = design_compensator(
-        spec.plant, spec.crossover_hz, spec.phase_margin_deg, compensator=spec.compensator,
-        resistor_series=spec.resistor_series, capacitor_series=spec.capacitor_series,
-        r1=spec.r1, topologies=topologies)
-    monte_carlo = (loop_monte_carlo(design, tolerances, samples=samples, seed=seed,
-                                    distribution=distribution,
-                                    margin_floor_deg=spec.margin_floor_deg) if samples else None)
-    return LoopResult(spec, design, monte_carlo)
-
-
-def _margins_dict(m):
-    return {"crossover_hz": m.crossover_hz, "phase_margin_deg": m.phase_margin_deg,
-            "gain_margin_db": m.gain_margin_db, "phase_crossover_hz": m.phase_crossover_hz,
-            "stable": m.stable}
-
-
-def loop_to_dict(result):
-    """A LoopResult as JSON-ready data (SI units, Hz, degrees, dB, rad/s roots)."""
-    design = result.design
-    placement = design.placement
-    parts = [{"name": e.name, "kind": e.kind, "value": design.snapped[e.symbol],
-              "series": design.series[e.symbol], "continuous": design.continuous[e.symbol]}
-             for e in design.topology.circuit.elements if e.symbol in design.series]
-    return {
-        **_margins_dict(design.snapped_margins),
-        "target": {"crossover_hz": placement.crossover_hz,
-                   "phase_margin_deg": placement.phase_margin_deg},
-        "continuous": _margins_dict(design.continuous_margins),
-        "plant": design.plant.to_dict(),
-        "k_factor": {"k": placement.k, "boost_deg": placement.boost_deg,
-                     "required_boost_deg": placement.required_boost_deg,
-                     "plant_phase_deg": placement.plant_phase_deg,
-                     "plant_gain_db": 20 * math.log10(placement.plant_gain),
-                     "zero_hz": placement.zero_hz, "pole_hz": placement.pole_hz,
-                     "integrator_rad_s": placement.integrator},
-        "compensator": {"family": placement.family, "topology": design.topology.id,
-                        "circuit": design.circuit().to_dict()},
-        "parts": parts,
-        "monte_carlo": result.monte_carlo.summary() if result.monte_carlo else None,
-        "notes": list(design.notes) + list(design.snapped_margins.notes),
-    }

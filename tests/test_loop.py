@@ -1,4 +1,7 @@
-"""Tests of placer.loop and placer.plants: K-factor design, margins, Monte Carlo."""
+"""Tests of placer.loop, placer.loop_tolerance, placer.loop_spec and placer.plants.
+
+K-factor design, margins, Monte Carlo, [loop] specs.
+"""
 
 import dataclasses
 import json
@@ -14,16 +17,9 @@ from placer.circuit import Circuit, Element, circuit_from_dict
 from placer.errors import SpecError, UnreachableTarget
 from placer.eseries import nearest
 from placer.library import find_topologies
-from placer.loop import (
-    MAX_BOOST_DEG,
-    design_compensator,
-    k_factor,
-    k_factor_placement,
-    loop_from_table,
-    loop_monte_carlo,
-    loop_to_dict,
-    run_loop,
-)
+from placer.loop import MAX_BOOST_DEG, design_compensator, k_factor, k_factor_placement
+from placer.loop_spec import loop_from_table, loop_to_dict, run_loop
+from placer.loop_tolerance import loop_monte_carlo
 from placer.network import circuit_response
 from placer.plants import (
     boost_plant,
