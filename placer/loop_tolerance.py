@@ -33,16 +33,15 @@ import numpy as np
 
 from .eseries import usual_tolerance
 from .errors import SpecError
-from .network import NetworkFunction
+from .network import NetworkFunction, batched_roots
 from .plants import Plant
+from .tolerance import DISTRIBUTIONS
 
 __all__ = [
-    "DISTRIBUTIONS", "GridLoop", "GridMargins", "LoopMonteCarlo",
-    "frequency_grid", "grid_margins", "loop_monte_carlo",
+    "GridLoop", "GridMargins", "LoopMonteCarlo", "frequency_grid", "grid_margins",
+    "loop_monte_carlo",
 ]
 
-#: Accepted values of ``distribution``.
-DISTRIBUTIONS = ("uniform", "gaussian")
 _DECADES, _PER_DECADE, _CHUNK = 3, 200, 512
 
 
@@ -159,15 +158,10 @@ def _evaluate(grid_loop, values):
     char = _polymul(_scaled(denominator, scale), plant_den)
     extra = sign * plant.gain * _polymul(_scaled(numerator, scale), plant_num)
     char[char.shape[0] - extra.shape[0]:] += extra
-    monic = (char[1:] / char[0]).T
-    degree = monic.shape[1]
-    companion = np.zeros((monic.shape[0], degree, degree))
-    companion[:, 0, :] = -monic
-    companion[:, np.arange(1, degree), np.arange(degree - 1)] = 1.0
-    with np.errstate(all="ignore"):
-        stable = np.all(np.linalg.eigvals(companion).real < 0, axis=1) if degree else \
-            np.ones(monic.shape[0], bool)
-    return GridMargins(crossover, phase_margin, gain_margin, stable & np.isfinite(monic).all(1))
+    with np.errstate(invalid="ignore"):
+        # A set whose polynomial is not finite has NaN roots: not stable.
+        stable = np.all(batched_roots(char).real < 0, axis=1)
+    return GridMargins(crossover, phase_margin, gain_margin, stable)
 
 
 def grid_margins(loop, arrays):

@@ -49,6 +49,7 @@ __all__ = [
     "circuit_zeros",
     "circuit_gain",
     "circuit_response",
+    "batched_roots",
 ]
 
 #: The Laplace variable, rad/s.
@@ -252,6 +253,61 @@ def _roots(coefficients):
     if coefficients.size <= 1:
         return np.array([], dtype=complex)
     return np.roots(coefficients).astype(complex)
+
+
+def batched_roots(coefficients, *, scale=1.0):
+    """Roots of many polynomials at once, from companion matrices.
+
+    Parameters
+    ----------
+    coefficients : array_like, shape (degree + 1, batch)
+        One real polynomial per column, highest power first (the layout
+        :meth:`NetworkFunction.coefficients` returns for arrays of parts).
+    scale : float, optional
+        Roots are found in x = s/scale and returned in s. With *scale*
+        near the roots' size (rad/s) the companion entries are of one
+        size, which keeps the eigenvalues accurate. Default 1.
+
+    Returns
+    -------
+    ndarray of complex, shape (batch, degree)
+        Each column's roots, in no particular order. Leading rows that
+        are zero in every column are dropped first (as :func:`numpy.roots`
+        drops leading zeros), so *degree* is the highest degree any column
+        has; a column whose own leading coefficient is then zero, or that
+        holds a NaN or inf, gets NaN roots.
+
+    Raises
+    ------
+    ValueError
+        If *coefficients* is not two-dimensional.
+
+    Examples
+    --------
+    s² + 3s + 2 = (s + 1)(s + 2) and s² + 4 = (s − 2j)(s + 2j):
+
+    >>> roots = batched_roots([[1.0, 1.0], [3.0, 0.0], [2.0, 4.0]])
+    >>> (np.sort_complex(roots).round(9) + 0.0).tolist()
+    [[(-2+0j), (-1+0j)], [-2j, 2j]]
+    """
+    coefficients = np.asarray(coefficients, dtype=float)
+    if coefficients.ndim != 2:
+        raise ValueError(f"coefficients must have shape (degree + 1, batch), not "
+                         f"{coefficients.shape}")
+    used = np.flatnonzero(np.any(coefficients != 0, axis=1))
+    coefficients = coefficients[used[0]:] if used.size else coefficients[-1:]
+    degree, batch = coefficients.shape[0] - 1, coefficients.shape[1]
+    roots = np.full((batch, degree), complex(math.nan, math.nan))
+    if degree == 0:
+        return roots
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        monic = coefficients[1:] / coefficients[0] / scale ** np.arange(1, degree + 1)[:, None]
+    finite = np.isfinite(monic).all(axis=0)
+    companion = np.zeros((int(np.count_nonzero(finite)), degree, degree))
+    companion[:, 0, :] = -monic[:, finite].T
+    companion[:, np.arange(1, degree), np.arange(degree - 1)] = 1.0
+    roots[finite] = np.linalg.eigvals(companion) * scale
+    return roots
 
 
 # -- symbolic derivation -----------------------------------------------------

@@ -48,6 +48,7 @@ import numpy as np
 import sympy
 
 from .errors import NumericalWarning, SpecError, TopologyError
+from .network import batched_roots
 
 __all__ = [
     "DISTRIBUTIONS",
@@ -366,24 +367,13 @@ def _gain(numerator, denominator, ref):
     return np.abs(top / bottom)
 
 
-def _batched_roots(denominator, omega_ref):
-    """Roots (N, n) of the polynomials in the columns of `denominator`."""
-    n = denominator.shape[0] - 1
-    # In s' = s/omega_ref the coefficients are of one size: better conditioned.
-    scaled = denominator[1:] / denominator[0] / omega_ref ** np.arange(1, n + 1)[:, None]
-    companion = np.zeros((denominator.shape[1], n, n))
-    companion[:, 0, :] = -scaled.T
-    companion[:, np.arange(1, n), np.arange(n - 1)] = 1.0
-    return np.linalg.eigvals(companion) * omega_ref
-
-
 def _dominant_pair(denominator, omega_ref):
     """ω0 and Q of the complex pair with the highest Q, per column.
 
     With no complex pair, the two real poles nearest the origin are taken
     as a pair (ω0 = √(p1 p2), Q = ω0 / −(p1 + p2)).
     """
-    roots = _batched_roots(denominator, omega_ref)
+    roots = batched_roots(denominator, scale=omega_ref)
     magnitude = np.abs(roots)
     upper = roots.imag > 1e-9 * magnitude
     damping = np.where(upper, np.abs(roots.real) / np.where(magnitude > 0, magnitude, 1.0), np.inf)
