@@ -299,6 +299,12 @@ class Circuit:
                     f"{where}element {element.name!r}: control {element.control!r} "
                     "is not the name of a vsource in the circuit"
                 )
+        for label, node in (("input", self.input), ("output", self.output)):
+            if node == self.reference:
+                raise TopologyError(
+                    f"{where}{label} node {node!r} cannot be the reference node; "
+                    "name a node other than the reference"
+                )
         touched = {}
         for element in self.elements:
             for node in element.nodes:

@@ -509,6 +509,7 @@ def circuit_poles(circuit, values=None):
         Numbers for parts that carry a symbol.
     """
     system = numeric_system(circuit, values)
+    _require_regular(system)
     poles = _finite_eigenvalues(-system.G, system.C)
     zeros = _zeros_of(system)
     return _cancel_pairs(poles, zeros)[0]
@@ -517,8 +518,37 @@ def circuit_poles(circuit, values=None):
 def circuit_zeros(circuit, values=None):
     """Finite zeros (rad/s) of the input-to-output function, numerically."""
     system = numeric_system(circuit, values)
+    _require_regular(system)
     poles = _finite_eigenvalues(-system.G, system.C)
     return _cancel_pairs(poles, _zeros_of(system))[1]
+
+
+def _require_regular(system):
+    """Raise TopologyError when det(G + sC) vanishes for every s.
+
+    A singular pencil (an op-amp with no feedback path, a floating
+    sub-circuit) has no poles; its QZ decomposition would return arbitrary
+    numbers. Probed at two points on the circuit's own frequency scale,
+    after row and column equilibration.
+    """
+    G, C = system.G, system.C
+    nonzero_g, nonzero_c = np.abs(G[G != 0]), np.abs(C[C != 0])
+    scale = 1.0
+    if nonzero_g.size and nonzero_c.size:
+        scale = math.exp(np.mean(np.log(nonzero_g)) - np.mean(np.log(nonzero_c)))
+    for probe in (0.31 + 1.13j, -0.71 + 2.37j):
+        matrix = G + probe * scale * C
+        rows = np.abs(matrix).max(axis=1)
+        matrix = matrix / np.where(rows > 0, rows, 1.0)[:, None]
+        cols = np.abs(matrix).max(axis=0)
+        matrix = matrix / np.where(cols > 0, cols, 1.0)[None, :]
+        singular = np.linalg.svd(matrix, compute_uv=False)
+        if singular[-1] > 1e-13 * singular[0]:
+            return
+    raise TopologyError(
+        "the MNA matrix is singular: the circuit has no unique solution "
+        "(check for floating nodes, or op-amps with no feedback path)"
+    )
 
 
 def _zeros_of(system):
