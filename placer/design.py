@@ -16,9 +16,11 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
+from functools import partial
 
 import numpy as np
 
+from .amplifier import apply_amplifier, check_amplifier, place_section_with_amplifier
 from .circuit import Circuit, Element
 from .errors import SpecError, UnreachableTarget
 from .library import find_topologies, library_topologies, load_folder, resolve_topology
@@ -231,11 +233,27 @@ def design(spec, *, seed=None, progress=None, place=place_section):
     UnreachableTarget
         When no candidate reaches a section; the reason lists each
         candidate's reason and the library topologies that could.
+    SpecError
+        When the spec's [amplifier] has a GBW at or below a section's f0.
+
+    Notes
+    -----
+    With a real op-amp model in ``spec.amplifier`` (GBW and/or DC gain),
+    each candidate is placed by
+    :func:`placer.amplifier.place_section_with_amplifier` (unless `place`
+    is given): the dominant roots are solved onto the target with every
+    op-amp modelled, and the section circuits carry the model.
     """
     if spec.target is None:
         raise SpecError(f"{spec.path}: designing a filter needs a [target] table")
     seed = spec.tolerance.seed if seed is None else seed
     sections = split_sections(spec.target, ordering=spec.ordering, gain=spec.gain_distribution)
+    amplifier = _real_amplifier(spec)
+    if amplifier is not None:
+        for index, section in enumerate(sections, start=1):
+            check_amplifier(amplifier, section, index=index)
+        if place is place_section:
+            place = partial(place_section_with_amplifier, amplifier=amplifier)
     plans = [(section, *candidate_topologies(section, spec)) for section in sections]
     total = sum(len(p[1]) for p in plans)
     done = 0
@@ -263,6 +281,12 @@ def design(spec, *, seed=None, progress=None, place=place_section):
     return _assemble(spec, built)
 
 
+def _real_amplifier(spec):
+    """The spec's op-amp model when it is not ideal, else None."""
+    amplifier = getattr(spec, "amplifier", None)
+    return None if amplifier is None or amplifier.is_ideal else amplifier
+
+
 @dataclass(frozen=True)
 class _FailedFile:
     """Stands in for a user topology file that failed to load."""
@@ -280,14 +304,23 @@ class _FailedFile:
 def _assemble(spec, built):
     counters = {}
     section_designs = []
+    unmodelled = []
     for index, section, ranked in built:
         best = ranked[0]
         circuit, parts = _build_section(best, index, counters)
+        unmodelled.append(circuit)
+        if getattr(best, "amplifier", None) is not None:
+            # placed with a real op-amp model: the built circuit carries it
+            circuit = apply_amplifier(circuit, best.amplifier)
         section_designs.append(SectionDesign(
             index=index, section=section, goal=best.problem.goal, candidate=best,
             candidates=tuple(ranked), parts=tuple(parts), circuit=circuit,
         ))
-    cascade = cascade_circuit([s.circuit for s in section_designs], counters)
+    # buffers go where a section's own output is not driven, so join the
+    # sections as designed, then model every op-amp (sections' and buffers')
+    cascade = cascade_circuit(unmodelled, counters)
+    if _real_amplifier(spec) is not None:
+        cascade = apply_amplifier(cascade, _real_amplifier(spec))
     poles = tuple(circuit_poles(cascade))
     zeros = tuple(circuit_zeros(cascade))
     gain = 1.0
