@@ -152,7 +152,8 @@ def candidate_topologies(section, spec=None):
         errors.update(loaded["errors"])
     if not names:
         for topology in find_topologies(response=section.kind, order=section.order):
-            pool.setdefault(topology.id, topology)
+            if topology.family != "ladder":  # a whole-filter ladder, with its -6 dB ends
+                pool.setdefault(topology.id, topology)
     fitting = [t for t in pool.values() if t.response == section.kind and t.order == section.order]
     if names and not fitting:
         fitting = list(pool.values())  # let each say why it cannot

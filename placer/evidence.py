@@ -208,6 +208,11 @@ def _seconds(x):
     return format_value(x, "s")
 
 
+def _full(candidate):
+    """The section's whole network function (with a real op-amp: its parasitic poles too)."""
+    return getattr(candidate.problem.nf, "full", candidate.problem.nf)
+
+
 def _response(sections_tf):
     return Response.from_sections(sections_tf)
 
@@ -236,9 +241,9 @@ def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=N
     seed = spec.tolerance.seed if seed is None else seed
     zeros, poles, k = design.target.zpk()
     target = Response.from_zpk(zeros, poles, k)
-    snapped = _response([s.candidate.problem.nf.transfer_function(s.candidate.snapped.values)
+    snapped = _response([_full(s.candidate).transfer_function(s.candidate.snapped.values)
                          for s in design.sections])
-    continuous = _response([s.candidate.problem.nf.transfer_function(s.candidate.snapped.continuous)
+    continuous = _response([_full(s.candidate).transfer_function(s.candidate.snapped.continuous)
                             for s in design.sections])
     verification = verify(snapped, target, band_hz=band_hz, continuous=continuous)
     seeds = np.random.SeedSequence(seed).spawn(len(design.sections) + 1)
@@ -246,7 +251,7 @@ def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=N
     total = len(design.sections)
     for i, s in enumerate(design.sections):
         candidate = s.candidate
-        nf = candidate.problem.nf
+        nf = _full(candidate)
         values = candidate.snapped.values
         varied = [p for p in nf.symbols if _is_part(candidate.topology, p)]
         tolerances = part_tolerances(candidate.topology, varied, spec.tolerance.tolerances)
@@ -282,7 +287,7 @@ def _envelope(design, spec, verification, seed):
     total = np.ones((ENVELOPE_SAMPLES, omega.size), dtype=complex)
     for section in design.sections:
         candidate = section.candidate
-        nf = candidate.problem.nf
+        nf = _full(candidate)
         values = dict(candidate.snapped.values)
         tolerances = part_tolerances(candidate.topology,
                                      [p for p in nf.symbols if _is_part(candidate.topology, p)],

@@ -98,9 +98,8 @@ def design_text(data):
         lines.append("")
         lines.append(table(["part", "kind", "value", "series", "continuous value"], rows))
         if s.get("amplifier"):
-            amp = s["amplifier"]
             lines.append("")
-            lines.append("  with the op-amp model: " + ", ".join(f"{k} {v}" for k, v in amp.items()))
+            lines.extend(_amplifier_lines(s["amplifier"]))
         others = [c for c in s["candidates"] if c["topology"] != s["topology"]]
         if others:
             lines.append("  other candidates: " + "; ".join(
@@ -109,8 +108,32 @@ def design_text(data):
     achieved = data["achieved"]
     lines.append("")
     lines.append(f"Whole cascade: {len(achieved['poles'])} poles, {len(achieved['zeros'])} zeros, "
-                 f"gain {achieved['gain_db']:+.3f} dB{' (inverting)' if achieved['inverting'] else ''}")
+                 f"gain {fmt_gain(achieved['gain_db'])}{' (inverting)' if achieved['inverting'] else ''}")
     return "\n".join(lines)
+
+
+def _amplifier_lines(amp):
+    """The op-amp model's effect on one section: ideal vs corrected design."""
+    model = amp["amplifier"]
+    described = [f"GBW {format_value(model['gbw_hz'], 'Hz')}" if model.get("gbw_hz") else "infinite GBW"]
+    if model.get("gain"):
+        described.append(f"A0 {20 * math.log10(model['gain']):.0f} dB")
+    if model.get("output_resistance_ohm"):
+        described.append(f"Ro {format_value(model['output_resistance_ohm'], 'ohm')}")
+    lines = [f"  with a real op-amp ({', '.join(described)}):"]
+    rows = []
+    for label, key in (("ideal-op-amp design, built", "ideal_design"),
+                       ("corrected design", "corrected_design"),
+                       ("corrected design, GBW 25 % low", "corrected_design_at_low_gbw")):
+        figures = amp.get(key)
+        if figures:
+            rows.append([label, fmt_pct(figures["f0_error_pct"]), fmt_pct(figures["q_error_pct"])])
+    lines.append(table(["design", "f0 error", "Q error"], rows, indent="    "))
+    if amp.get("parasitic_poles_hz"):
+        lines.append("    parasitic poles: " + ", ".join(fmt_hz(f) for f in amp["parasitic_poles_hz"]))
+    if amp.get("note"):
+        lines.append(f"    note: {amp['note']}")
+    return lines
 
 
 class Progress:

@@ -10,6 +10,7 @@ import math
 
 import numpy as np
 
+from ..amplifier import amplifier_summary
 from ..target_table import target_to_dict
 
 __all__ = ["roots_to_list", "section_figures", "design_to_dict", "finite"]
@@ -120,6 +121,9 @@ def design_to_dict(design, *, evidence=None):
             "circuit": s.circuit.to_dict(),
             "candidates": [candidate_to_dict(k) for k in s.candidates],
         }
+        amplifier = amplifier_summary(s)
+        if amplifier is not None:
+            entry["amplifier"] = amplifier
         sections.append(entry)
     overall_gain = design.gain
     out = {
