@@ -118,9 +118,9 @@ class NetworkFunction:
                 return "hf"
             if n == 2 and k == 1:
                 return "center"
-        if self.numerator.eval(0) != 0:
+        if self.numerator.eval(0) != 0 and self.denominator.eval(0) != 0:
             return "dc"
-        return "hf"
+        return "hf"  # a zero at the origin, or an integrator (pole at the origin)
 
     @cached_property
     def omega0(self):
