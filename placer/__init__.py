@@ -42,6 +42,8 @@ _EXPORTS = {
     "Plant": "plants", "buck_plant": "plants", "boost_plant": "plants",
     "design_compensator": "loop",
     "Spec": "spec", "load_spec": "spec",
+    "apply_amplifier": "amplifier", "place_section_with_amplifier": "amplifier",
+    "required_gbw": "gbw",
     "Design": "design", "design": "design", "place_section": "design",
     "gather_evidence": "evidence",
     "compare": "compare", "comparison_to_dict": "compare",

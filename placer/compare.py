@@ -34,16 +34,17 @@ from pathlib import Path
 
 import numpy as np
 
-from .design import candidate_topologies, place_section, value_spread
+from .design import candidate_topologies, place_section
 from .errors import SpecError
+from .placement import value_spread
 from .sections import split_sections
 from .tolerance import monte_carlo
 from .units import format_value
 
 try:  # the op-amp model is optional at this layer
-    from .amplifier import required_gbw as _required_gbw
+    from .gbw import required_gbw as _required_gbw
 except ModuleNotFoundError as _missing:
-    if _missing.name != f"{__package__}.amplifier":
+    if _missing.name != f"{__package__}.gbw":
         raise
     _required_gbw = None
 
@@ -258,7 +259,7 @@ def _gbw_needed(section, topology, spec, method):
                              amplifier_gain=spec.amplifier.gain)
         # The design compared is the ideal-op-amp one as snapped: what it needs as built.
         figure = getattr(need, "uncorrected_gbw_hz", need.gbw_hz)
-        source = (f"op-amp model (placer.amplifier.required_gbw): the snapped ideal-op-amp "
+        source = (f"op-amp model (placer.gbw.required_gbw): the snapped ideal-op-amp "
                   f"design, as built, within {GBW_ERROR_PCT:g} % error")
         if figure != need.gbw_hz and math.isfinite(need.gbw_hz):
             source += f"; re-solved for the op-amp, {format_value(need.gbw_hz, 'Hz')} would do"
@@ -269,7 +270,7 @@ def _gbw_needed(section, topology, spec, method):
     kind = "practice" if topology.id.startswith(_RULE_FAMILIES) else "thumb"
     source = _SOURCES[kind]
     if method == "model":
-        source += " (the op-amp model, placer.amplifier, is not installed)"
+        source += " (the op-amp model, placer.gbw, is not installed)"
     if section.q is None:
         source += "; Q taken as 1 for a first-order stage"
     return GBW_FACTOR * section.f0_hz * q, source
@@ -389,7 +390,7 @@ def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, pro
     gbw : {"rule", "model"}
         "rule": GBW >= 100·f0·Q (f0 in Hz), common practice for Sallen–Key
         and multiple-feedback stages, a labelled rule of thumb for other
-        active ones. "model": :func:`placer.amplifier.required_gbw` on each
+        active ones. "model": :func:`placer.gbw.required_gbw` on each
         candidate (tens of seconds per candidate), falling back to the rule
         when that module is absent.
 

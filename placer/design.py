@@ -25,8 +25,7 @@ from .circuit import Circuit, Element
 from .errors import SpecError, UnreachableTarget
 from .library import find_topologies, library_topologies, load_folder, resolve_topology
 from .network import circuit_poles, circuit_zeros, network_function
-from .snap import snap
-from .solve import goal_from_section, make_problem, root_errors, solve
+from .placement import PART_KINDS, place_ideal, value_spread, worst_error_pct
 from .sections import split_sections
 
 __all__ = [
@@ -38,11 +37,9 @@ __all__ = [
     "place_section",
     "design",
     "cascade_circuit",
-    "value_spread",
 ]
 
 ERROR_TIE_PCT = 0.01
-_PART_KINDS = ("resistor", "capacitor", "inductor")
 
 
 @dataclass(frozen=True)
@@ -73,12 +70,7 @@ class Candidate:
     @property
     def error_pct(self):
         """Worst root/figure error after snapping, percent, gain included."""
-        if not self.reachable:
-            return math.inf
-        worst = self.errors.worst_pct
-        if self.errors.gain_db is not None:
-            worst = max(worst, 100 * abs(10 ** (self.errors.gain_db / 20) - 1))
-        return worst
+        return worst_error_pct(self.errors) if self.reachable else math.inf
 
     @property
     def spread(self):
@@ -119,19 +111,6 @@ class Design:
         return tuple(p for s in self.sections for p in s.parts)
 
 
-def value_spread(topology, values):
-    """Largest/smallest value ratio among resistors and among capacitors."""
-    out = {}
-    for kind in _PART_KINDS:
-        numbers = [values[e.symbol] for e in topology.circuit.elements
-                   if e.kind == kind and e.symbol in values]
-        numbers += [e.value for e in topology.circuit.elements
-                    if e.kind == kind and e.symbol is None and e.value]
-        if len(numbers) >= 2:
-            out[kind] = max(numbers) / min(numbers)
-    return out
-
-
 def candidate_topologies(section, spec=None):
     """Topologies to try for a section, and files that failed to load.
 
@@ -161,7 +140,11 @@ def candidate_topologies(section, spec=None):
 
 
 def place_section(section, topology, *, parts=None, seed=0):
-    """Solve and snap one topology for one section.
+    """Solve and snap one topology for one section, as a Candidate.
+
+    The placement is :func:`placer.placement.place_ideal`'s (ideal op-amps;
+    the same `parts` and `seed`); a topology that cannot reach the section
+    becomes an unreachable candidate instead of an error.
 
     Parameters
     ----------
@@ -176,27 +159,13 @@ def place_section(section, topology, *, parts=None, seed=0):
     Candidate
         ``reachable`` False with the reason when the topology cannot.
     """
-    goal = goal_from_section(section)
-    ranges = dict(parts.ranges) if parts is not None else None
-    series = dict(parts.series) if parts is not None else None
-    fixed = {}
-    constraints = ()
-    if parts is not None:
-        fixed = {k: v for k, v in parts.fixed.items() if k in topology.symbols}
-        constraints = tuple(
-            c for c in parts.constraints if c.part in topology.symbols and c.source in topology.symbols
-        )
     try:
-        problem = make_problem(topology, goal, ranges=ranges, fixed=fixed, constraints=constraints)
-        solution = solve(problem, seed=seed)
+        placed = place_ideal(section, topology, parts=parts, seed=seed)
     except UnreachableTarget as reason:
         return Candidate(topology=topology, reachable=False, reason=reason.reason)
-    snapped = snap(problem, solution, series=series)
-    errors = root_errors(problem.nf, snapped.values, goal)
-    continuous_errors = root_errors(problem.nf, solution.values, goal)
     return Candidate(
-        topology=topology, reachable=True, problem=problem, solution=solution,
-        snapped=snapped, errors=errors, continuous_errors=continuous_errors,
+        topology=topology, reachable=True, problem=placed.problem, solution=placed.solution,
+        snapped=placed.snapped, errors=placed.errors, continuous_errors=placed.continuous_errors,
     )
 
 
@@ -354,7 +323,7 @@ def _build_section(candidate, index, counters):
             new = new.with_parameter(values[element.symbol])
             new = replace(new, symbol=None)
         elements.append(new)
-        if element.kind in _PART_KINDS:
+        if element.kind in PART_KINDS:
             value = new.value
             symbol = element.symbol or element.name
             parts.append(PartChoice(

@@ -1,4 +1,5 @@
-"""Tests of placer.amplifier: op-amp models, dominant roots, correction, GBW.
+"""Tests of placer.amplifier, placer.dominant and placer.gbw: op-amp models,
+dominant roots, correction, GBW.
 
 Outside references are named beside each check.
 """
@@ -10,17 +11,16 @@ import pytest
 
 from placer.amplifier import (
     AmplifiedCandidate,
-    DominantFunction,
     amplifier_summary,
     apply_amplifier,
-    batched_roots,
     check_amplifier,
     place_section_with_amplifier,
-    required_gbw,
 )
 from placer.circuit import Circuit, Element, circuit_from_dict
 from placer.design import design
+from placer.dominant import DominantFunction, polished_roots
 from placer.errors import SpecError
+from placer.gbw import required_gbw
 from placer.library import get_topology
 from placer.network import circuit_poles, network_function
 from placer.solve import goal_from_section
@@ -133,19 +133,19 @@ def test_design_refuses_a_gbw_below_a_later_sections_f0():
 
 # -- roots -----------------------------------------------------------------------
 
-def test_batched_roots_agree_with_numpy_roots():
+def test_polished_roots_agree_with_numpy_roots():
     # reference: numpy.roots (companion-matrix eigenvalues, one polynomial at a time)
     rng = np.random.default_rng(3)
     for degree in (1, 2, 3, 4, 6):
         coefficients = rng.normal(size=(degree + 1, 200))
-        ours = batched_roots(coefficients, omega_ref=1.7)
+        ours = polished_roots(coefficients, omega_ref=1.7)
         for j in range(coefficients.shape[1]):
             expected = np.roots(coefficients[:, j])
             for root in expected:
                 assert np.min(np.abs(ours[j] - root)) <= 1e-7 * max(1.0, abs(root))
 
 
-def test_batched_roots_with_a_hint_find_spread_roots():
+def test_polished_roots_with_a_hint_find_spread_roots():
     # dominant pair near 1, parasitic roots 20..2000 times higher: numpy.roots as reference
     rng = np.random.default_rng(4)
     poles = []
@@ -154,7 +154,7 @@ def test_batched_roots_with_a_hint_find_spread_roots():
         pair = -w / (2 * q) + 1j * w * math.sqrt(max(1 - 1 / (4 * q * q), 0))
         poles.append([pair, pair.conjugate(), -rng.uniform(20, 2000), -rng.uniform(20, 2000)])
     coefficients = np.array([np.real(np.poly(p)) for p in poles]).T
-    ours = batched_roots(coefficients, near=[-0.1 + 1j, -0.1 - 1j])
+    ours = polished_roots(coefficients, near=[-0.1 + 1j, -0.1 - 1j])
     for j, expected in enumerate(poles):
         for root in expected:
             assert np.min(np.abs(ours[j] - root)) <= 1e-8 * abs(root)
