@@ -35,7 +35,6 @@ import numpy as np
 import scipy.linalg
 import sympy
 from sympy.polys.domains import QQ, ZZ
-from sympy.polys.matrices import DomainMatrix
 
 from .errors import NumericalWarning, TopologyError
 from .mna import layout, numeric_system, stamps
@@ -50,6 +49,7 @@ __all__ = [
     "circuit_gain",
     "circuit_response",
     "batched_roots",
+    "fraction_free_det",
 ]
 
 #: The Laplace variable, rad/s.
@@ -389,8 +389,7 @@ def network_function(circuit):
                 term = term * gens[0]
             entry = entry + term
         rows[r][c] = entry
-    matrix = DomainMatrix(rows, (size, size), domain)
-    denominator = matrix.det()
+    denominator = fraction_free_det(rows, domain)
     if denominator == domain.zero:
         raise TopologyError(
             "the MNA matrix is singular: the circuit has no unique solution "
@@ -399,7 +398,7 @@ def network_function(circuit):
     replaced = [row[:] for row in rows]
     for r in range(size):
         replaced[r][lay.output_index] = domain.one if r == lay.input_row else domain.zero
-    numerator = DomainMatrix(replaced, (size, size), domain).det()
+    numerator = fraction_free_det(replaced, domain)
     common, numerator, denominator = _cancel(domain, numerator, denominator)
     if _leading_sign(denominator) < 0:
         numerator, denominator = -numerator, -denominator
@@ -413,6 +412,81 @@ def network_function(circuit):
         symbols=dict(part_symbols),
         cancelled=domain.to_sympy(common),
     )
+
+
+def fraction_free_det(rows, domain):
+    """Determinant of a square matrix over a polynomial ring, by Bareiss.
+
+    Fraction-free elimination: every division is exact in the ring, so no
+    rational function ever appears. The pivot at each step is the nonzero
+    entry with the fewest terms (complete pivoting on size; a row or column
+    swap only flips the sign), which keeps the intermediate polynomials
+    small — several times faster than a fixed pivot order on MNA matrices.
+
+    Parameters
+    ----------
+    rows : list of lists
+        Entries, elements of `domain` (a sympy PolynomialRing domain).
+    domain : sympy domain
+
+    Returns
+    -------
+    domain element
+
+    References
+    ----------
+    E. H. Bareiss, "Sylvester's identity and multistep integer-preserving
+    Gaussian elimination", Mathematics of Computation 22(103), 1968,
+    doi:10.1090/S0025-5718-1968-0226829-0.
+
+    Examples
+    --------
+    >>> from sympy.polys.domains import ZZ
+    >>> K = ZZ["x"]
+    >>> x = K.gens[0]
+    >>> fraction_free_det([[x, K.one], [K.one, x]], K) == x**2 - 1
+    True
+    """
+    matrix = [list(row) for row in rows]
+    n = len(matrix)
+    if n == 0:
+        return domain.one
+    sign = 1
+    previous = domain.one
+    for k in range(n - 1):
+        best = None
+        for i in range(k, n):
+            row = matrix[i]
+            for j in range(k, n):
+                entry = row[j]
+                if entry and (best is None or len(entry) < best[0]):
+                    best = (len(entry), i, j)
+            if best is not None and best[0] == 1:
+                break
+        if best is None:
+            return domain.zero
+        _, i, j = best
+        if i != k:
+            matrix[k], matrix[i] = matrix[i], matrix[k]
+            sign = -sign
+        if j != k:
+            for row in matrix:
+                row[k], row[j] = row[j], row[k]
+            sign = -sign
+        pivot = matrix[k][k]
+        pivot_row = matrix[k]
+        for i in range(k + 1, n):
+            row = matrix[i]
+            factor = row[k]
+            for j in range(k + 1, n):
+                if factor:
+                    row[j] = domain.exquo(row[j] * pivot - factor * pivot_row[j], previous)
+                elif row[j]:
+                    row[j] = domain.exquo(row[j] * pivot, previous)
+            row[k] = domain.zero
+        previous = pivot
+    determinant = matrix[n - 1][n - 1]
+    return determinant if sign > 0 else -determinant
 
 
 def _role(kind):
