@@ -117,12 +117,22 @@ class Element:
                 raise TopologyError(f"{where}: node names must be non-empty strings, not {node!r}")
         if self.symbol is not None:
             check_symbol(self.symbol, where=where)
+        for label in ("value", "gain", "gbw"):
+            number = getattr(self, label)
+            if number is not None and (isinstance(number, bool) or not isinstance(number, (int, float))):
+                raise TopologyError(
+                    f"{where}: {label} must be a number in SI units, not {number!r} "
+                    "(strings such as '10k' are read by circuit_from_dict)"
+                )
         if self.kind in PASSIVE_KINDS:
             if self.value is None and self.symbol is None:
-                raise TopologyError(f"{where}: a {self.kind} needs a value or a symbol")
+                raise TopologyError(
+                    f"{where}: {'an' if self.kind[0] in 'aeiou' else 'a'} {self.kind} needs a value or a symbol"
+                )
             if self.value is not None and not (math.isfinite(self.value) and self.value > 0):
                 raise TopologyError(
-                    f"{where}: a {self.kind} value must be a positive finite number, "
+                    f"{where}: {'an' if self.kind[0] in 'aeiou' else 'a'} {self.kind} value must be "
+                    "a positive finite number, "
                     f"not {self.value!r}"
                 )
         if self.kind in ("vsource", "isource") and self.value is None and self.symbol is None:
