@@ -346,7 +346,7 @@ def _cmd_compare(args):
 # -- loop ----------------------------------------------------------------------
 
 def _cmd_loop(args):
-    from .report.console import table
+    from .report.console import Progress
     from .loop_spec import loop_to_dict, run_loop
     from .spec import load_spec
 
@@ -364,8 +364,14 @@ def _cmd_loop(args):
         raise SpecError(f"--samples {samples}: give a whole number >= 0 (0 skips the Monte Carlo)")
     seed = spec.tolerance.seed if args.seed is None else args.seed
     tolerances = dict(spec.tolerance.tolerances)
-    result = run_loop(spec.loop, source=args.spec, samples=samples, seed=seed,
-                      tolerances=tolerances, distribution=spec.tolerance.distribution)
+    progress = Progress("loop", quiet=args.quiet)
+    progress(0, 1, f"compensator and {samples} Monte Carlo builds")
+    try:
+        result = run_loop(spec.loop, source=args.spec, samples=samples, seed=seed,
+                          tolerances=tolerances, distribution=spec.tolerance.distribution)
+        progress(1, 1, "done")
+    finally:
+        progress.close()
     data = loop_to_dict(result)
     print(_loop_text(data))
     if args.json:

@@ -34,7 +34,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .errors import NumericalWarning, SpecError
-from .units import parse_value
+from .units import format_value, parse_value
 
 __all__ = [
     "Plant",
@@ -333,8 +333,9 @@ def buck_plant(vin, inductance, capacitance, esr, load, ramp):
     zeros, k = (), vin / ramp / a2
     if r > 0:
         zeros, k = (complex(-1.0 / (r * C)),), k * r * C
-    description = (f"buck {vin:g} V in, L {L:g} H, C {C:g} F, ESR {r:g} ohm, "
-                   f"load {R:g} ohm, ramp {ramp:g} V")
+    description = (f"buck {format_value(vin, 'V')} in, L {format_value(L, 'H')}, "
+                   f"C {format_value(C, 'F')}, ESR {format_value(r, 'ohm')}, "
+                   f"load {format_value(R, 'ohm')}, ramp {format_value(ramp, 'V')}")
     return plant_from_roots(poles, zeros, k, description=description)
 
 
@@ -395,8 +396,9 @@ def boost_plant(vin, *, duty=None, vout=None, inductance, capacitance, esr, load
     if r > 0:
         zeros.append(complex(-1.0 / (r * C)))
         k *= r * C
-    description = (f"boost {vin:g} V in, D {duty:.4g}, L {L:g} H, C {C:g} F, "
-                   f"ESR {r:g} ohm, load {R:g} ohm, ramp {ramp:g} V")
+    description = (f"boost {format_value(vin, 'V')} in, duty {duty:.4g}, L {format_value(L, 'H')}, "
+                   f"C {format_value(C, 'F')}, ESR {format_value(r, 'ohm')}, "
+                   f"load {format_value(R, 'ohm')}, ramp {format_value(ramp, 'V')}")
     return plant_from_roots(poles, zeros, k, description=description)
 
 
