@@ -281,21 +281,19 @@ def _solve_fine(problem, U, coarse, fine, with_gain):
     return out
 
 
+def _neighbours(grid, u):
+    """Series values (log) just below and at-or-above each of `u`."""
+    index = np.clip(np.searchsorted(grid, u - 1e-12), 0, len(grid) - 1)
+    above = grid[index]
+    below = grid[np.clip(index - 1, 0, len(grid) - 1)]
+    return np.where(np.abs(above - u) < 1e-9, above, below), above
+
+
 def _rounded(U, grids, parts, problem):
     """Every floor/ceil choice of the snapped `parts` for every column of U."""
-    columns = [U]
     active = [i for i in parts if grids[i] is not None]
     if not active:
         return U
-    lower, upper = {}, {}
-    for i in active:
-        g = grids[i]
-        index = np.clip(np.searchsorted(g, U[i] - 1e-12), 0, len(g) - 1)
-        above = g[index]
-        below = g[np.clip(index - 1, 0, len(g) - 1)]
-        exact = np.abs(above - U[i]) < 1e-9
-        lower[i] = np.where(exact, above, below)
-        upper[i] = above
     reach = (-1, 0, 1, 2) if len(active) <= 3 else (0, 1)
     choices = list(itertools.product(reach, repeat=len(active)))
     budget = max(1, CANDIDATE_BUDGET // len(choices))
@@ -303,14 +301,9 @@ def _rounded(U, grids, parts, problem):
         # keep the columns whose continuous fine solution is best
         errors = problem.worst_error(U)
         U = U[:, np.argsort(errors)[:budget]]
-        for i in active:
-            g = grids[i]
-            index = np.clip(np.searchsorted(g, U[i] - 1e-12), 0, len(g) - 1)
-            above = g[index]
-            below = g[np.clip(index - 1, 0, len(g) - 1)]
-            exact = np.abs(above - U[i]) < 1e-9
-            lower[i] = np.where(exact, above, below)
-            upper[i] = above
+    lower, upper = {}, {}
+    for i in active:
+        lower[i], upper[i] = _neighbours(grids[i], U[i])
     columns = []
     for choice in choices:
         V = U.copy()
