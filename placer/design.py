@@ -3,7 +3,7 @@
 For each section of the target, every candidate topology is solved
 (continuous values) and snapped (preferred values); the best candidate
 wins: smallest error, then fewest parts, then smallest value spread.
-Errors within 0.01 percentage points of each other count as equal, so a
+Errors within 0.05 percentage points of the best count as equal, so a
 simpler circuit is not passed over for a difference no one could measure.
 
 The sections are then joined into one cascade circuit (a unity-gain
@@ -30,6 +30,7 @@ from .sections import split_sections
 
 __all__ = [
     "Candidate",
+    "rank_candidates",
     "SectionDesign",
     "Design",
     "PartChoice",
@@ -39,7 +40,7 @@ __all__ = [
     "cascade_circuit",
 ]
 
-ERROR_TIE_PCT = 0.01
+ERROR_TIE_PCT = 0.05
 
 
 @dataclass(frozen=True)
@@ -169,12 +170,25 @@ def place_section(section, topology, *, parts=None, seed=0):
     )
 
 
-def _rank_key(candidate):
-    spread = candidate.spread
-    total_spread = sum(math.log(v) for v in spread.values())
-    error = candidate.error_pct
-    return (round(error / ERROR_TIE_PCT), candidate.topology.part_count + candidate.topology.opamp_count,
-            total_spread, candidate.topology.id)
+def rank_candidates(candidates):
+    """Reachable candidates best first: error, then parts, then spread.
+
+    Errors within :data:`ERROR_TIE_PCT` percentage points of the best count
+    as equal — far below any part tolerance — so among those the circuit
+    with the fewest parts and op-amps wins, then the smallest value spread.
+    """
+    if not candidates:
+        return []
+    best = min(c.error_pct for c in candidates)
+
+    def key(candidate):
+        spread = sum(math.log(v) for v in candidate.spread.values())
+        size = candidate.topology.part_count + candidate.topology.opamp_count
+        if candidate.error_pct <= best + ERROR_TIE_PCT:
+            return (0, size, spread, candidate.error_pct, candidate.topology.id)
+        return (1, candidate.error_pct, size, spread, candidate.topology.id)
+
+    return sorted(candidates, key=key)
 
 
 def _alternatives_for(section):
@@ -246,7 +260,7 @@ def design(spec, *, seed=None, progress=None, place=place_section):
                 alternatives=[a for a in _alternatives_for(section)
                               if a not in {c.topology.id for c in candidates}],
             )
-        ranked = sorted(reachable, key=_rank_key) + [c for c in candidates if not c.reachable]
+        ranked = rank_candidates(reachable) + [c for c in candidates if not c.reachable]
         built.append((index, section, ranked))
     return _assemble(spec, built)
 
