@@ -239,6 +239,7 @@ def design(spec, *, seed=None, progress=None, place=place_section):
         if place is place_section:
             place = partial(place_section_with_amplifier, amplifier=amplifier)
     plans = [(section, *candidate_topologies(section, spec)) for section in sections]
+    _check_part_names(spec, [t for p in plans for t in p[1]])
     total = sum(len(p[1]) for p in plans)
     done = 0
     built = []
@@ -269,6 +270,25 @@ def _real_amplifier(spec):
     """The spec's op-amp model when it is not ideal, else None."""
     amplifier = getattr(spec, "amplifier", None)
     return None if amplifier is None or amplifier.is_ideal else amplifier
+
+
+def _check_part_names(spec, topologies):
+    """A fixed part or constraint must name a part of some candidate."""
+    names = {symbol for t in topologies for symbol in t.symbols}
+    where = f"{spec.path}: parts"
+    for name in spec.parts.fixed:
+        if name not in names:
+            raise SpecError(
+                f"{where}.fixed.{name}: no candidate topology has a part {name!r} "
+                f"(`placer topologies ID` shows a topology's parts)"
+            )
+    for constraint in spec.parts.constraints:
+        for name in (constraint.part, constraint.source):
+            if name not in names:
+                raise SpecError(
+                    f"{where}.constraints: '{constraint}' names {name!r}, which no candidate "
+                    f"topology has (`placer topologies ID` shows a topology's parts)"
+                )
 
 
 @dataclass(frozen=True)
