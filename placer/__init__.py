@@ -38,7 +38,7 @@ _EXPORTS = {
     "goal_from_section": "solve", "make_problem": "solve", "solve": "solve",
     "snap": "snap", "round_each": "snap",
     "sensitivities": "tolerance", "monte_carlo": "tolerance",
-    "Response": "verify", "verify": "verify", "margins": "verify",
+    "Response": "response", "verify": "verify", "margins": "verify",
     "Plant": "plants", "buck_plant": "plants", "boost_plant": "plants",
     "design_compensator": "loop",
     "Spec": "spec", "load_spec": "spec",

@@ -15,8 +15,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .response import Response
 from .tolerance import monte_carlo
-from .verify import Response, verify
+from .verify import verify
 
 __all__ = ["SectionEvidence", "Evidence", "gather_evidence", "part_tolerances"]
 

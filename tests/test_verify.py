@@ -8,9 +8,9 @@ import pytest
 import scipy.signal
 
 from placer.errors import SpecError
+from placer.response import Response
 from placer.verify import (
     HALF_POWER_DB,
-    Response,
     deviation,
     frequency_figures,
     margins,
