@@ -37,7 +37,7 @@ _EXPORTS = {
     "estimate_orders": "approximations",
     "goal_from_section": "solve", "make_problem": "solve", "solve": "solve",
     "snap": "snap", "round_each": "snap",
-    "sensitivities": "tolerance", "monte_carlo": "tolerance",
+    "sensitivities": "sensitivity", "monte_carlo": "tolerance",
     "Response": "response", "verify": "verify", "margins": "verify",
     "Plant": "plants", "buck_plant": "plants", "boost_plant": "plants",
     "design_compensator": "loop",

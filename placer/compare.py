@@ -10,7 +10,7 @@ measured on what a designer weighs when choosing a circuit:
 * value spread: largest/smallest value among the resistors and among the
   capacitors;
 * the largest |S| of ω0 and of Q to any part, S = ∂ln y/∂ln x
-  (:func:`placer.tolerance.sensitivities` at the snapped values);
+  (:func:`placer.sensitivity.sensitivities` at the snapped values);
 * the op-amp gain-bandwidth the stage needs, Hz (see :data:`GBW_METHODS`);
 * Monte Carlo yield: the share of samples whose f0 and Q stay within the
   spec's windows around nominal, every part drawn within the spec's

@@ -1,4 +1,4 @@
-"""Tests of placer.tolerance: sensitivities and Monte Carlo."""
+"""Tests of placer.sensitivity and placer.tolerance: sensitivities and Monte Carlo."""
 
 import math
 import warnings
@@ -9,11 +9,11 @@ import pytest
 from placer.circuit import Circuit, Element
 from placer.errors import NumericalWarning, SpecError
 from placer.network import circuit_poles, network_function
+from placer.sensitivity import sensitivities
 from placer.tolerance import (
     MAX_SAMPLES,
     cascade_monte_carlo,
     monte_carlo,
-    sensitivities,
 )
 
 
