@@ -194,7 +194,8 @@ def _cmd_analyze(args):
         if nf.q is not None:
             lines.append(f"  Q  = {nf.q}")
         lines.append(f"  gain ({nf.gain_kind}) = {nf.gain}")
-        data.update({"omega0": str(nf.omega0), "q_expression": str(nf.q), "gain_expression": str(nf.gain)})
+        data.update({"omega0": str(nf.omega0), "q_expression": None if nf.q is None else str(nf.q),
+                     "gain_expression": str(nf.gain)})
     if args.latex:
         lines.append(f"  LaTeX: H(s) = {nf.latex()}")
         data["latex"] = nf.latex()
