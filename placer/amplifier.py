@@ -45,10 +45,11 @@ from .network import circuit_poles, network_function
 from .placement import place_ideal, problem_options, value_spread, worst_error_pct
 from .snap import COARSE_BUDGET, snap
 from .solve import make_problem, root_errors, solve
-from .spec import AmplifierSpec
 from .units import format_value
 
 __all__ = [
+    "AMPLIFIER_PRESETS",
+    "AmplifierSpec",
     "apply_amplifier",
     "check_amplifier",
     "Drift",
@@ -57,6 +58,27 @@ __all__ = [
     "amplifier_summary",
     "GBW_SPREAD",
 ]
+
+#: Generic op-amp models named by their figures only.
+AMPLIFIER_PRESETS = {
+    "1 MHz general purpose": {"gbw": 1e6, "gain": 10 ** (100 / 20), "output_resistance": 75.0},
+    "10 MHz": {"gbw": 10e6, "gain": 10 ** (110 / 20), "output_resistance": 50.0},
+    "100 MHz": {"gbw": 100e6, "gain": 10 ** (90 / 20), "output_resistance": 30.0},
+}
+
+
+@dataclass(frozen=True)
+class AmplifierSpec:
+    """A real op-amp model: GBW in Hz, DC gain in V/V, output resistance in ohm."""
+
+    gbw: float | None = None
+    gain: float | None = None
+    output_resistance: float | None = None
+    preset: str = ""
+
+    @property
+    def is_ideal(self):
+        return self.gbw is None and self.gain is None
 
 #: Relative spread of an op-amp's GBW around its typical value (process and
 #: temperature) that a corrected design should bear (common practice, no source).
@@ -103,7 +125,7 @@ def apply_amplifier(circuit, amplifier):
     Parameters
     ----------
     circuit : Circuit
-    amplifier : placer.spec.AmplifierSpec
+    amplifier : AmplifierSpec
         ``gbw`` (Hz), ``gain`` (DC open-loop, V/V), ``output_resistance``
         (ohm); None fields stay ideal.
 
@@ -172,7 +194,7 @@ def check_amplifier(amplifier, section, *, index=None):
 
     Parameters
     ----------
-    amplifier : placer.spec.AmplifierSpec
+    amplifier : AmplifierSpec
     section : placer.targets.Section
     index : int, optional
         The section's number in the cascade, for the message.
@@ -230,7 +252,7 @@ class AmplifiedCandidate:
 
     Attributes
     ----------
-    amplifier : placer.spec.AmplifierSpec
+    amplifier : AmplifierSpec
     circuit : Circuit
         The topology's circuit with the model applied (parts symbolic).
     ideal_snapped : placer.snap.SnapResult
@@ -350,7 +372,7 @@ def place_section_with_amplifier(section, topology, amplifier, *, parts=None, se
     ----------
     section : placer.targets.Section
     topology : Topology
-    amplifier : placer.spec.AmplifierSpec
+    amplifier : AmplifierSpec
         GBW in Hz, DC gain in V/V, output resistance in ohm.
     parts : placer.spec.PartsSpec, optional
     seed : int

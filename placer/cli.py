@@ -260,8 +260,9 @@ def _cmd_target(args):
 # -- design --------------------------------------------------------------------
 
 def _cmd_design(args):
-    from .report.console import Progress, design_text
     from .design import design
+    from .evidence import gather_evidence
+    from .report.console import Progress, design_text, evidence_text
     from .report.bom import bom_csv, bom_rows
     from .report.data import design_to_dict
     from .spec import load_spec
@@ -278,23 +279,15 @@ def _cmd_design(args):
         result = design(spec, seed=args.seed, progress=progress)
     finally:
         progress.close()
-    data = design_to_dict(result)
-    evidence = None
+    progress = Progress("evidence", quiet=args.quiet)
     try:
-        from .evidence import gather_evidence
-    except ImportError:
-        gather_evidence = None
-    if gather_evidence is not None:
-        progress = Progress("evidence", quiet=args.quiet)
-        try:
-            evidence = gather_evidence(result, samples=args.samples, seed=args.seed, progress=progress)
-        finally:
-            progress.close()
-        data["evidence"] = evidence.to_dict() if hasattr(evidence, "to_dict") else evidence
+        evidence = gather_evidence(result, samples=args.samples, seed=args.seed, progress=progress)
+    finally:
+        progress.close()
+    data = design_to_dict(result, evidence=evidence.to_dict())
     print(design_text(data))
-    if evidence is not None and hasattr(evidence, "text"):
-        print()
-        print(evidence.text())
+    print()
+    print(evidence_text(evidence))
     if args.json:
         _emit_json(data, args.json, inputs=inputs)
     if args.bom:

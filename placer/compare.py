@@ -30,23 +30,17 @@ import os
 import zlib
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import asdict, dataclass, field
-from pathlib import Path
 
 import numpy as np
 
 from .design import candidate_topologies, place_section
 from .errors import SpecError
+from .gbw import required_gbw
 from .placement import value_spread
 from .sections import split_sections
 from .tolerance import monte_carlo
-from .units import format_value
+from .units import finite_or_none, format_value
 
-try:  # the op-amp model is optional at this layer
-    from .gbw import required_gbw as _required_gbw
-except ModuleNotFoundError as _missing:
-    if _missing.name != f"{__package__}.gbw":
-        raise
-    _required_gbw = None
 
 __all__ = [
     "RANK_KEYS", "GBW_METHODS", "CandidateResult", "SectionComparison", "Comparison",
@@ -254,11 +248,11 @@ def _gbw_needed(section, topology, spec, method):
     """(GBW in Hz or None, source in words) for one reachable candidate."""
     if topology.opamp_count == 0:
         return None, _SOURCES["passive"]
-    if method == "model" and _required_gbw is not None:
-        need = _required_gbw(section, topology, error_pct=GBW_ERROR_PCT, parts=spec.parts,
+    if method == "model":
+        need = required_gbw(section, topology, error_pct=GBW_ERROR_PCT, parts=spec.parts,
                              amplifier_gain=spec.amplifier.gain)
         # The design compared is the ideal-op-amp one as snapped: what it needs as built.
-        figure = getattr(need, "uncorrected_gbw_hz", need.gbw_hz)
+        figure = need.uncorrected_gbw_hz
         source = (f"op-amp model (placer.gbw.required_gbw): the snapped ideal-op-amp "
                   f"design, as built, within {GBW_ERROR_PCT:g} % error")
         if figure != need.gbw_hz and math.isfinite(need.gbw_hz):
@@ -269,8 +263,6 @@ def _gbw_needed(section, topology, spec, method):
     q = section.q if section.q is not None else 1.0
     kind = "practice" if topology.id.startswith(_RULE_FAMILIES) else "thumb"
     source = _SOURCES[kind]
-    if method == "model":
-        source += " (the op-amp model, placer.gbw, is not installed)"
     if section.q is None:
         source += "; Q taken as 1 for a first-order stage"
     return GBW_FACTOR * section.f0_hz * q, source
@@ -437,7 +429,7 @@ def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, pro
 def _clean(x):
     """JSON-safe: non-finite floats become None."""
     if isinstance(x, float):
-        return x if math.isfinite(x) else None
+        return finite_or_none(x)
     if isinstance(x, dict):
         return {k: _clean(v) for k, v in x.items()}
     return x

@@ -18,13 +18,11 @@ import math
 from dataclasses import dataclass, replace
 from functools import partial
 
-import numpy as np
-
 from .amplifier import apply_amplifier, check_amplifier, place_section_with_amplifier
 from .circuit import Circuit, Element
 from .errors import SpecError, UnreachableTarget
-from .library import find_topologies, library_topologies, load_folder, resolve_topology
-from .network import circuit_poles, circuit_zeros, network_function
+from .library import find_topologies, load_folder, resolve_topology
+from .network import circuit_roots
 from .placement import PART_KINDS, place_ideal, value_spread, worst_error_pct
 from .sections import split_sections
 
@@ -325,8 +323,8 @@ def _assemble(spec, built):
     cascade = cascade_circuit(unmodelled, counters)
     if _real_amplifier(spec) is not None:
         cascade = apply_amplifier(cascade, _real_amplifier(spec))
-    poles = tuple(circuit_poles(cascade))
-    zeros = tuple(circuit_zeros(cascade))
+    roots = circuit_roots(cascade)
+    poles, zeros = tuple(roots.poles), tuple(roots.zeros)
     gain = 1.0
     for s in section_designs:
         gain *= s.candidate.errors.gain

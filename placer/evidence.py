@@ -10,13 +10,13 @@ the whole cascade for the plots).
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from .response import Response
 from .tolerance import monte_carlo
+from .units import finite_or_none
 from .verify import verify
 
 __all__ = ["SectionEvidence", "Evidence", "gather_evidence", "part_tolerances"]
@@ -71,21 +71,21 @@ class Evidence:
 
         def step(f):
             s = f.step
-            return {"overshoot_pct": _f(s.overshoot_pct), "rise_time_s": _f(s.rise_time_s),
-                    "settling_time_s": _f(s.settling_time_s), "final_value": _f(s.final_value),
-                    "peak": _f(s.peak), "peak_time_s": _f(s.peak_time_s), "notes": list(s.notes)}
+            return {"overshoot_pct": finite_or_none(s.overshoot_pct), "rise_time_s": finite_or_none(s.rise_time_s),
+                    "settling_time_s": finite_or_none(s.settling_time_s), "final_value": finite_or_none(s.final_value),
+                    "peak": finite_or_none(s.peak), "peak_time_s": finite_or_none(s.peak_time_s), "notes": list(s.notes)}
 
         def freq(f):
             q = f.frequency
-            return {"kind": q.kind, "gain_db": _f(q.gain_db), "f3db_hz": _f(q.f3db_hz),
-                    "band_low_hz": _f(q.band_low_hz), "band_high_hz": _f(q.band_high_hz),
-                    "peak_db": _f(q.peak_db), "peak_hz": _f(q.peak_hz), "notes": list(q.notes)}
+            return {"kind": q.kind, "gain_db": finite_or_none(q.gain_db), "f3db_hz": finite_or_none(q.f3db_hz),
+                    "band_low_hz": finite_or_none(q.band_low_hz), "band_high_hz": finite_or_none(q.band_high_hz),
+                    "peak_db": finite_or_none(q.peak_db), "peak_hz": finite_or_none(q.peak_hz), "notes": list(q.notes)}
 
         def dev(d):
             if d is None:
                 return None
-            return {"magnitude_db": _f(d.magnitude_db), "magnitude_at_hz": _f(d.magnitude_at_hz),
-                    "phase_deg": _f(d.phase_deg), "phase_at_hz": _f(d.phase_at_hz),
+            return {"magnitude_db": finite_or_none(d.magnitude_db), "magnitude_at_hz": finite_or_none(d.magnitude_at_hz),
+                    "phase_deg": finite_or_none(d.phase_deg), "phase_at_hz": finite_or_none(d.phase_at_hz),
                     "inverted": bool(d.inverted), "band_hz": [float(b) for b in d.band_hz]}
 
         out = {
@@ -109,20 +109,20 @@ class Evidence:
             for symbol in sens.omega0:
                 rows[s.designators.get(symbol, symbol)] = {
                     "symbol": symbol,
-                    "w0": _f(sens.omega0[symbol]),
-                    "q": None if sens.q is None else _f(sens.q.get(symbol)),
-                    "gain": _f(sens.gain.get(symbol)),
+                    "w0": finite_or_none(sens.omega0[symbol]),
+                    "q": None if sens.q is None else finite_or_none(sens.q.get(symbol)),
+                    "gain": finite_or_none(sens.gain.get(symbol)),
                     "tolerance": s.tolerances.get(symbol, 0.0),
                 }
-            stats = {k: {"mean": _f(st.mean), "std": _f(st.std), "min": _f(st.minimum), "max": _f(st.maximum),
-                         "p01": _f(st.p01), "p99": _f(st.p99)} for k, st in mc.statistics.items()}
+            stats = {k: {"mean": finite_or_none(st.mean), "std": finite_or_none(st.std), "min": finite_or_none(st.minimum), "max": finite_or_none(st.maximum),
+                         "p01": finite_or_none(st.p01), "p99": finite_or_none(st.p99)} for k, st in mc.statistics.items()}
             out["sections"].append({
                 "index": s.index,
                 "sensitivity_method": sens.method,
                 "sensitivities": rows,
                 "monte_carlo": {
-                    "nominal_f0_hz": _f(mc.nominal_f0_hz), "nominal_q": _f(mc.nominal_q),
-                    "nominal_gain_db": _f(mc.nominal_gain_db), "statistics": stats,
+                    "nominal_f0_hz": finite_or_none(mc.nominal_f0_hz), "nominal_q": finite_or_none(mc.nominal_q),
+                    "nominal_gain_db": finite_or_none(mc.nominal_gain_db), "statistics": stats,
                     "windows": mc.windows, "window_yield_pct": (
                         {k: 100 * float(v) for k, v in mc.window_yield.items()} if mc.window_yield else None),
                     "yield_pct": None if mc.yield_fraction is None else 100 * float(mc.yield_fraction),
@@ -130,83 +130,6 @@ class Evidence:
                 },
             })
         return out
-
-    def text(self):
-        """Console text: responses, then per-section sensitivity and spread."""
-        from .report.console import fmt_gain, fmt_hz, table
-
-        v = self.verification
-        lines = ["Evidence (python-control, on the designed circuit):"]
-        rows = []
-        for name, fig in (("target", v.target), ("snapped", v.design), ("continuous", v.continuous)):
-            if fig is None:
-                continue
-            f, s = fig.frequency, fig.step
-            edge = f.f3db_hz if f.f3db_hz is not None else f.band_low_hz
-            rows.append([name, fmt_gain(f.gain_db), fmt_hz(edge),
-                         fmt_gain(f.peak_db), fmt_hz(f.peak_hz) if f.peak_hz else "DC",
-                         "-" if s.overshoot_pct is None else f"{s.overshoot_pct:.2f} %",
-                         _seconds(s.rise_time_s), _seconds(s.settling_time_s)])
-        lines.append(table(["response", "gain", "-3 dB", "peak", "at", "overshoot",
-                            "rise 10-90 %", "settle 2 %"], rows))
-        d = v.deviation
-        lines.append(f"  worst deviation from the target over {fmt_hz(v.band_hz[0])} – {fmt_hz(v.band_hz[1])}: "
-                     f"{d.magnitude_db:.3f} dB (at {fmt_hz(d.magnitude_at_hz)}), "
-                     f"{d.phase_deg:.2f}° phase (at {fmt_hz(d.phase_at_hz)})"
-                     + (" — output inverted" if d.inverted else ""))
-        if v.snapping_deviation is not None:
-            lines.append(f"  cost of preferred values (snapped vs continuous): "
-                         f"{v.snapping_deviation.magnitude_db:.3f} dB, {v.snapping_deviation.phase_deg:.2f}°")
-        for s in self.sections:
-            mc = s.monte_carlo
-            lines.append("")
-            lines.append(f"Section {s.index}: Monte Carlo, {mc.samples} builds ({mc.distribution}), "
-                         + ", ".join(f"{s.designators.get(k, k)} ±{100 * t:g} %" for k, t in s.tolerances.items()))
-            st = mc.statistics
-            rows = [["f0", fmt_hz(mc.nominal_f0_hz), fmt_hz(st["f0_hz"].mean),
-                     f"{100 * st['f0_hz'].std / mc.nominal_f0_hz:.3f} %",
-                     f"{fmt_hz(st['f0_hz'].p01)} – {fmt_hz(st['f0_hz'].p99)}"]]
-            if mc.nominal_q is not None and "q" in st:
-                rows.append(["Q", f"{mc.nominal_q:.4f}", f"{st['q'].mean:.4f}",
-                             f"{100 * st['q'].std / mc.nominal_q:.3f} %",
-                             f"{st['q'].p01:.4f} – {st['q'].p99:.4f}"])
-            if "gain_db" in st:
-                rows.append(["gain", fmt_gain(mc.nominal_gain_db), fmt_gain(st["gain_db"].mean),
-                             f"{st['gain_db'].std:.3f} dB",
-                             f"{fmt_gain(st['gain_db'].p01)} – {fmt_gain(st['gain_db'].p99)}"])
-            lines.append(table(["figure", "nominal", "mean", "std dev", "1 % – 99 %"], rows))
-            if mc.yield_fraction is not None:
-                windows = ", ".join(
-                    f"{k} ±{100 * w:g} %" if k != "gain_db" else f"gain ±{w:g} dB" for k, w in mc.windows.items())
-                lines.append(f"  yield ({windows}): {100 * mc.yield_fraction:.1f} %")
-            ranking = mc.ranking.get("f0", [])
-            if ranking:
-                lines.append("  f0 spread dominated by: " + ", ".join(
-                    f"{s.designators.get(p, p)} ({100 * mc.contributions['f0'][p]:.0f} %)" for p in ranking[:3]))
-            sens = s.sensitivities
-            rows = []
-            for symbol in sens.omega0:
-                rows.append([s.designators.get(symbol, symbol), f"{sens.omega0[symbol]:+.3f}",
-                             "-" if sens.q is None else f"{sens.q[symbol]:+.3f}",
-                             f"{sens.gain[symbol]:+.3f}"])
-            lines.append(f"  sensitivities ({sens.method}):")
-            lines.append(table(["part", "S w0", "S Q", "S gain"], rows, indent="    "))
-        return "\n".join(lines)
-
-
-def _f(x):
-    if x is None:
-        return None
-    x = float(x)
-    return x if math.isfinite(x) else None
-
-
-def _seconds(x):
-    if x is None:
-        return "-"
-    from .units import format_value
-
-    return format_value(x, "s")
 
 
 def _full(candidate):

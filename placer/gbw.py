@@ -20,13 +20,18 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from .amplifier import GBW_SPREAD, apply_amplifier, check_amplifier, place_section_with_amplifier
+from .amplifier import (
+    GBW_SPREAD,
+    AmplifierSpec,
+    apply_amplifier,
+    check_amplifier,
+    place_section_with_amplifier,
+)
 from .dominant import DominantFunction
 from .errors import SpecError, UnreachableTarget
 from .network import network_function
 from .placement import place_ideal, worst_error_pct
 from .solve import root_errors
-from .spec import AmplifierSpec
 from .units import format_value
 
 __all__ = [

@@ -19,6 +19,7 @@ from functools import lru_cache
 from pathlib import Path
 
 from .errors import SpecError
+from .ladders import generated_topologies
 from .topology import load_topology
 
 __all__ = [
@@ -47,10 +48,6 @@ def _bundled():
 def library_topologies():
     """Every library topology, id → Topology, bundled files then generated."""
     found = dict(_bundled())
-    try:
-        from .ladders import generated_topologies
-    except ImportError:  # the ladder family is optional at this layer
-        return found
     for topology in generated_topologies():
         found.setdefault(topology.id, topology)
     return found

@@ -28,9 +28,11 @@ Examples
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass, field
 from functools import cached_property, lru_cache
 
+import control
 import numpy as np
 import scipy.linalg
 import sympy
@@ -47,6 +49,8 @@ __all__ = [
     "circuit_poles",
     "circuit_zeros",
     "circuit_gain",
+    "circuit_roots",
+    "CircuitRoots",
     "circuit_response",
     "batched_roots",
     "fraction_free_det",
@@ -225,8 +229,6 @@ class NetworkFunction:
 
     def transfer_function(self, values):
         """A python-control TransferFunction for one set of part values."""
-        import control
-
         numerator, denominator = self.coefficients(values)
         numerator = np.trim_zeros(np.asarray(numerator, float), "f")
         denominator = np.trim_zeros(np.asarray(denominator, float), "f")
@@ -574,27 +576,61 @@ def _finite_eigenvalues(A, B):
     return values[np.abs(values) < 1e12 * scale]
 
 
-def circuit_poles(circuit, values=None):
-    """Poles (rad/s) of a circuit with numeric parts, from the MNA pencil.
+@dataclass(frozen=True)
+class CircuitRoots:
+    """Poles and finite zeros (rad/s) and the constant k of a numeric circuit.
+
+    H(s) = k·Π(s − z)/Π(s − p); coinciding pole–zero pairs are cancelled.
+    ``gain_imaginary`` is |Im k|/|k| as computed: far from 0 means the
+    roots lost accuracy (:func:`circuit_gain` warns then).
+    """
+
+    poles: np.ndarray
+    zeros: np.ndarray
+    gain: float
+    gain_imaginary: float = 0.0
+
+
+def circuit_roots(circuit, values=None):
+    """Poles, zeros and gain constant from the MNA pencil, in one pass.
 
     Parameters
     ----------
     values : mapping, optional
         Numbers for parts that carry a symbol.
+
+    Returns
+    -------
+    CircuitRoots
     """
     system = numeric_system(circuit, values)
     _require_regular(system)
-    poles = _finite_eigenvalues(-system.G, system.C)
-    zeros = _zeros_of(system)
-    return _cancel_pairs(poles, zeros)[0]
+    poles, zeros = _cancel_pairs(_finite_eigenvalues(-system.G, system.C), _zeros_of(system))
+    scale = max([abs(r) for r in list(poles) + list(zeros)] + [1.0])
+    probe = scale * (0.3 + 1.1j)
+    h = np.linalg.solve(system.G + probe * system.C, system.b.astype(complex))[system.output]
+    k = h * np.prod(probe - poles) / np.prod(probe - zeros)
+    return CircuitRoots(poles=poles, zeros=zeros, gain=float(k.real),
+                        gain_imaginary=float(abs(k.imag) / abs(k)) if k else 0.0)
+
+
+def circuit_poles(circuit, values=None):
+    """Poles (rad/s) of a circuit with numeric parts, from the MNA pencil."""
+    return circuit_roots(circuit, values).poles
 
 
 def circuit_zeros(circuit, values=None):
     """Finite zeros (rad/s) of the input-to-output function, numerically."""
-    system = numeric_system(circuit, values)
-    _require_regular(system)
-    poles = _finite_eigenvalues(-system.G, system.C)
-    return _cancel_pairs(poles, _zeros_of(system))[1]
+    return circuit_roots(circuit, values).zeros
+
+
+def circuit_gain(circuit, values=None):
+    """The constant k of H(s) = k·Π(s − z)/Π(s − p), numerically."""
+    roots = circuit_roots(circuit, values)
+    if roots.gain_imaginary > 1e-6:
+        warnings.warn("the gain constant came out complex; roots may be inaccurate",
+                      NumericalWarning, stacklevel=2)
+    return roots.gain
 
 
 def _require_regular(system):
@@ -659,25 +695,3 @@ def circuit_response(circuit, omega, values=None):
     except np.linalg.LinAlgError:
         raise TopologyError("the MNA matrix is singular at some frequency of the grid") from None
     return x[:, system.output]
-
-
-def circuit_gain(circuit, values=None):
-    """The constant k of H(s) = k·Π(s − z)/Π(s − p), numerically."""
-    poles = circuit_poles(circuit, values)
-    zeros = circuit_zeros(circuit, values)
-    scale = max([abs(r) for r in list(poles) + list(zeros)] + [1.0])
-    probe = scale * (0.3 + 1.1j)
-    h = _response_at_s(circuit, probe, values)
-    k = h * np.prod(probe - poles) / np.prod(probe - zeros)
-    if abs(k.imag) > 1e-6 * abs(k):
-        import warnings
-
-        warnings.warn("the gain constant came out complex; roots may be inaccurate",
-                      NumericalWarning, stacklevel=2)
-    return float(k.real)
-
-
-def _response_at_s(circuit, s, values):
-    system = numeric_system(circuit, values)
-    x = np.linalg.solve(system.G + s * system.C, system.b.astype(complex))
-    return x[system.output]

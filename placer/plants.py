@@ -29,8 +29,10 @@ from __future__ import annotations
 
 import difflib
 import math
+import warnings
 from dataclasses import dataclass
 
+import control
 import numpy as np
 
 from .errors import NumericalWarning, SpecError
@@ -141,8 +143,6 @@ class Plant:
         Built as the series connection of the sections of :meth:`sections`,
         so no polynomial of the whole plant is ever factored.
         """
-        import control
-
         system = control.tf([float(self.gain)], [1.0])
         for numerator, denominator in self.sections():
             system = system * control.tf(numerator, denominator)
@@ -251,8 +251,6 @@ def plant_from_coefficients(numerator, denominator, *, description=""):
         arrays.append(array)
     numerator, denominator = arrays
     if denominator.size > 9:
-        import warnings
-
         warnings.warn(
             f"a plant denominator of order {denominator.size - 1} in polynomial form "
             "loses accuracy in the root finder; give poles and zeros instead",

@@ -29,9 +29,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .eseries import check_series, series_values
 from .errors import SpecError
-from .eseries import nearest
+from .eseries import check_series, nearest, series_values
 from .solve import batched_least_squares, figure_error
 
 __all__ = ["SnapResult", "snap", "round_each", "default_series", "COARSE_BUDGET"]
@@ -138,8 +137,6 @@ def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE
 
     starts = [solution.u] + [u for u in solution.alternatives if u is not solution.u]
     coarse_sets = _coarse_candidates(grids, coarse, starts, coarse_budget)
-    count = 0
-    pool = []
     if coarse:
         Uc = coarse_sets                                  # (len(coarse), B)
         bases = [(solution.u, Uc)]
@@ -184,12 +181,10 @@ def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE
         U = np.array(starts).T
     # bend every snapped fine part to both of its neighbours
     candidates = _rounded(U, grids, fine if coarse else list(range(n)), problem)
-    count += candidates.shape[1]
     errors = error_of(candidates)
     keep = np.argpartition(errors, 48)[:48] if errors.size > 48 else np.arange(errors.size)
-    pool = candidates[:, keep]
-    pool = _local_search(problem, pool, grids, error_of)
-    count += pool.shape[1] * 2 * n * 4
+    pool, trials = _local_search(candidates[:, keep], grids, error_of)
+    count = candidates.shape[1] + trials
     errors = error_of(pool)
     spreads = np.array([_spread(problem, pool[:, j], kinds) for j in range(pool.shape[1])])
     rank = np.lexsort((spreads, np.round(errors, 7)))
@@ -264,7 +259,6 @@ def _coarse_candidates(grids, coarse, starts, budget):
 def _solve_fine(problem, U, coarse, fine, with_gain):
     """Re-solve the fine parts for every column of U, coarse parts held."""
     Uc = U[coarse]
-    B = U.shape[1]
 
     def fun(Uf, columns):
         full = np.empty((U.shape[0], Uf.shape[1]))
@@ -320,8 +314,11 @@ def _rounded(U, grids, parts, problem):
     return np.concatenate(columns, axis=1)
 
 
-def _local_search(problem, pool, grids, error_of, *, rounds=30):
-    """Move single parts one series step while the error improves."""
+def _local_search(pool, grids, error_of, *, rounds=30):
+    """Move single parts one or two series steps while the error improves.
+
+    Returns the improved pool and how many trial candidates were evaluated.
+    """
     n = pool.shape[0]
     indices = []
     for i in range(n):
@@ -330,6 +327,7 @@ def _local_search(problem, pool, grids, error_of, *, rounds=30):
         else:
             indices.append(np.clip(np.searchsorted(grids[i], pool[i] - 1e-9), 0, len(grids[i]) - 1))
     current = error_of(pool)
+    trials = 0
     for _ in range(rounds):
         improved = False
         for i in range(n):
@@ -341,6 +339,7 @@ def _local_search(problem, pool, grids, error_of, *, rounds=30):
                 trial = pool.copy()
                 trial[i] = grids[i][np.clip(trial_index, 0, len(grids[i]) - 1)]
                 errors = np.where(valid, error_of(trial), np.inf)
+                trials += trial.shape[1]
                 better = errors < current - 1e-12
                 if np.any(better):
                     improved = True
@@ -349,7 +348,7 @@ def _local_search(problem, pool, grids, error_of, *, rounds=30):
                     indices[i] = np.where(better, trial_index, indices[i])
         if not improved:
             break
-    return pool
+    return pool, trials
 
 
 def _spread(problem, u, kinds):

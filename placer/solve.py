@@ -22,7 +22,7 @@ fixed parts keep their values. A target a topology cannot reach raises
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 from scipy.optimize import least_squares
@@ -42,6 +42,9 @@ __all__ = [
     "RootErrors",
     "root_errors",
     "structural_reason",
+    "passband_gain",
+    "batched_least_squares",
+    "figure_error",
 ]
 
 GAIN_WEIGHT = 0.1
@@ -216,13 +219,20 @@ def residuals_from(numerator, denominator, goal, *, with_gain=True):
             use = np.sum(direct**2, axis=0) <= np.sum(flipped**2, axis=0)
             rows.extend(list(np.where(use, direct, flipped)))
         if with_gain and goal.gain is not None and goal.gain > 0:
-            gain = np.abs(_gain(numerator, denominator, goal.gain_kind))
+            gain = np.abs(passband_gain(numerator, denominator, goal.gain_kind))
             rows.append(GAIN_WEIGHT * np.log(gain / goal.gain))
     out = np.array(rows)
     return np.where(np.isfinite(out), out, 1e3)
 
 
-def _gain(numerator, denominator, kind):
+def passband_gain(numerator, denominator, kind):
+    """Signed pass-band gain from coefficient arrays (highest power first).
+
+    `kind` says where it is read: "dc" (N(0)/D(0)), "center" (b1/a1 of a
+    second-order band-pass, the gain at ω0) or "hf" (the leading
+    coefficients' ratio; 0 when N has lower degree than D). Vectorised
+    over trailing sample axes.
+    """
     if kind == "dc":
         return numerator[-1] / denominator[-1]
     if kind == "center" and denominator.shape[0] == 3:
@@ -259,7 +269,7 @@ def figure_error(numerator, denominator, goal, *, with_gain=True):
             shape_rows = residuals_from(numerator, denominator, goal, with_gain=False)[n:]
             errors.extend(list(np.abs(shape_rows)))
         if with_gain and goal.gain:
-            gain = np.abs(_gain(numerator, denominator, goal.gain_kind))
+            gain = np.abs(passband_gain(numerator, denominator, goal.gain_kind))
             errors.append(np.abs(gain / goal.gain - 1))
     worst = np.max(np.array(errors), axis=0)
     return np.where(np.isfinite(worst), worst, np.inf)
@@ -347,11 +357,7 @@ def make_problem(topology, goal, *, ranges=None, fixed=None, constraints=None, n
         topology=topology, nf=nf, goal=goal, independent=independent, tied=tied,
         fixed=values, low=low, high=high,
     )
-    adjustable = _gain_is_adjustable(problem)
-    return Problem(
-        topology=topology, nf=nf, goal=goal, independent=independent, tied=tied,
-        fixed=values, low=low, high=high, gain_adjustable=adjustable,
-    )
+    return replace(problem, gain_adjustable=_gain_is_adjustable(problem))
 
 
 def _gain_is_adjustable(problem):
@@ -367,7 +373,7 @@ def _gain_is_adjustable(problem):
             if i < len(u):
                 v[i] += 0.1
             numerator, denominator = problem.nf.coefficients(problem.values(v))
-            gains.append(abs(float(_gain(numerator, denominator, problem.goal.gain_kind))))
+            gains.append(abs(float(passband_gain(numerator, denominator, problem.goal.gain_kind))))
     gains = np.array(gains)
     return bool(np.ptp(np.log(gains[gains > 0])) > 1e-9) if np.any(gains > 0) else False
 
@@ -642,7 +648,7 @@ def root_errors(nf, values, goal):
     denominator = np.asarray(denominator, float)
     poles = nf.poles(values)
     zeros = nf.zeros(values)
-    gain = float(_gain(numerator, denominator, goal.gain_kind))
+    gain = float(passband_gain(numerator, denominator, goal.gain_kind))
     f0_pct = q_pct = zero_pct = None
     if denominator.shape[0] == 3:
         a2, a1, a0 = denominator

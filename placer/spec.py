@@ -36,6 +36,7 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from .amplifier import AMPLIFIER_PRESETS, AmplifierSpec
 from .errors import SpecError
 from .eseries import check_series, usual_tolerance
 from .library import load_folder, resolve_topology
@@ -57,12 +58,6 @@ __all__ = [
 TABLES = ("title", "description", "target", "cascade", "parts", "candidates",
           "tolerance", "amplifier", "loop")
 
-#: Generic op-amp models named by their figures only.
-AMPLIFIER_PRESETS = {
-    "1 MHz general purpose": {"gbw": 1e6, "gain": 10 ** (100 / 20), "output_resistance": 75.0},
-    "10 MHz": {"gbw": 10e6, "gain": 10 ** (110 / 20), "output_resistance": 50.0},
-    "100 MHz": {"gbw": 100e6, "gain": 10 ** (90 / 20), "output_resistance": 30.0},
-}
 
 _DEFAULT_SERIES = {"resistor": "E96", "capacitor": "E12", "inductor": "E12"}
 _DEFAULT_RANGES = {"resistor": (1e3, 1e6), "capacitor": (100e-12, 10e-6), "inductor": (1e-6, 1.0)}
@@ -90,18 +85,6 @@ class ToleranceSpec:
     windows: dict = field(default_factory=lambda: {"f0": 0.02, "q": 0.05})
 
 
-@dataclass(frozen=True)
-class AmplifierSpec:
-    """A real op-amp model: GBW in Hz, DC gain in V/V, output resistance in ohm."""
-
-    gbw: float | None = None
-    gain: float | None = None
-    output_resistance: float | None = None
-    preset: str = ""
-
-    @property
-    def is_ideal(self):
-        return self.gbw is None and self.gain is None
 
 
 @dataclass(frozen=True)

@@ -473,13 +473,12 @@ def cascade_monte_carlo(sections, *, samples=10_000, distribution="uniform", see
     streams = np.random.default_rng(seed).spawn(len(sections))
     results = []
     for i, ((nf, values, tolerances), stream) in enumerate(zip(sections, streams)):
-        report = None
-        if progress is not None:
-            def report(done, total, _offset=i * samples):
-                progress(_offset + done, len(sections) * samples)
+        def report(done, total, _offset=i * samples):
+            progress(_offset + done, len(sections) * samples)
         results.append(monte_carlo(nf, values, tolerances, samples=samples,
                                    distribution=distribution, seed=stream, windows=windows,
-                                   progress=report, allow_zero=allow_zero))
+                                   progress=None if progress is None else report,
+                                   allow_zero=allow_zero))
     gain = _readonly(np.prod([r.gain for r in results], axis=0))
     nominal_gain = float(np.prod([r.nominal_gain for r in results]))
     statistics = {"gain": Statistics.of(gain), "gain_db": Statistics.of(_db(gain))}

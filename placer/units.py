@@ -39,6 +39,7 @@ __all__ = [
     "format_value",
     "format_percent",
     "format_db",
+    "finite_or_none",
 ]
 
 #: The normalised unit names that :func:`parse_quantity` returns.
@@ -394,3 +395,17 @@ def format_db(x, *, digits=3):
     ('-3.01 dB', '-120 dB')
     """
     return format_value(x, "dB", digits=digits)
+
+
+def finite_or_none(x):
+    """A number as a float for data output, or None for None, inf and nan.
+
+    JSON has no infinity or NaN; "no value" is written as null.
+
+    >>> finite_or_none(2), finite_or_none(float("inf")), finite_or_none(None)
+    (2.0, None, None)
+    """
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None

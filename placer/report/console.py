@@ -7,7 +7,8 @@ import sys
 
 from ..units import format_value
 
-__all__ = ["table", "design_text", "target_text", "Progress", "fmt_pct", "fmt_db", "fmt_hz"]
+__all__ = ["table", "design_text", "target_text", "evidence_text", "Progress", "fmt_pct", "fmt_db",
+           "fmt_hz", "fmt_gain", "fmt_seconds"]
 
 _UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 
@@ -134,6 +135,72 @@ def _amplifier_lines(amp):
     if amp.get("note"):
         lines.append(f"    note: {amp['note']}")
     return lines
+
+
+def evidence_text(evidence):
+    """A design's evidence as text: responses, then each section's spread."""
+    v = evidence.verification
+    lines = ["Evidence (python-control, on the designed circuit):"]
+    rows = []
+    for name, fig in (("target", v.target), ("snapped", v.design), ("continuous", v.continuous)):
+        if fig is None:
+            continue
+        f, s = fig.frequency, fig.step
+        edge = f.f3db_hz if f.f3db_hz is not None else f.band_low_hz
+        rows.append([name, fmt_gain(f.gain_db), fmt_hz(edge),
+                     fmt_gain(f.peak_db), fmt_hz(f.peak_hz) if f.peak_hz else "DC",
+                     "-" if s.overshoot_pct is None else f"{s.overshoot_pct:.2f} %",
+                     fmt_seconds(s.rise_time_s), fmt_seconds(s.settling_time_s)])
+    lines.append(table(["response", "gain", "-3 dB", "peak", "at", "overshoot",
+                        "rise 10-90 %", "settle 2 %"], rows))
+    d = v.deviation
+    lines.append(f"  worst deviation from the target over {fmt_hz(v.band_hz[0])} – {fmt_hz(v.band_hz[1])}: "
+                 f"{d.magnitude_db:.3f} dB (at {fmt_hz(d.magnitude_at_hz)}), "
+                 f"{d.phase_deg:.2f}° phase (at {fmt_hz(d.phase_at_hz)})"
+                 + (" — output inverted" if d.inverted else ""))
+    if v.snapping_deviation is not None:
+        lines.append(f"  cost of preferred values (snapped vs continuous): "
+                     f"{v.snapping_deviation.magnitude_db:.3f} dB, {v.snapping_deviation.phase_deg:.2f}°")
+    for s in evidence.sections:
+        mc = s.monte_carlo
+        lines.append("")
+        lines.append(f"Section {s.index}: Monte Carlo, {mc.samples} builds ({mc.distribution}), "
+                     + ", ".join(f"{s.designators.get(k, k)} ±{100 * t:g} %" for k, t in s.tolerances.items()))
+        st = mc.statistics
+        rows = [["f0", fmt_hz(mc.nominal_f0_hz), fmt_hz(st["f0_hz"].mean),
+                 f"{100 * st['f0_hz'].std / mc.nominal_f0_hz:.3f} %",
+                 f"{fmt_hz(st['f0_hz'].p01)} – {fmt_hz(st['f0_hz'].p99)}"]]
+        if mc.nominal_q is not None and "q" in st:
+            rows.append(["Q", f"{mc.nominal_q:.4f}", f"{st['q'].mean:.4f}",
+                         f"{100 * st['q'].std / mc.nominal_q:.3f} %",
+                         f"{st['q'].p01:.4f} – {st['q'].p99:.4f}"])
+        if "gain_db" in st:
+            rows.append(["gain", fmt_gain(mc.nominal_gain_db), fmt_gain(st["gain_db"].mean),
+                         f"{st['gain_db'].std:.3f} dB",
+                         f"{fmt_gain(st['gain_db'].p01)} – {fmt_gain(st['gain_db'].p99)}"])
+        lines.append(table(["figure", "nominal", "mean", "std dev", "1 % – 99 %"], rows))
+        if mc.yield_fraction is not None:
+            windows = ", ".join(
+                f"{k} ±{100 * w:g} %" if k != "gain_db" else f"gain ±{w:g} dB" for k, w in mc.windows.items())
+            lines.append(f"  yield ({windows}): {100 * mc.yield_fraction:.1f} %")
+        ranking = mc.ranking.get("f0", [])
+        if ranking:
+            lines.append("  f0 spread dominated by: " + ", ".join(
+                f"{s.designators.get(p, p)} ({100 * mc.contributions['f0'][p]:.0f} %)" for p in ranking[:3]))
+        sens = s.sensitivities
+        rows = []
+        for symbol in sens.omega0:
+            rows.append([s.designators.get(symbol, symbol), f"{sens.omega0[symbol]:+.3f}",
+                         "-" if sens.q is None else f"{sens.q[symbol]:+.3f}",
+                         f"{sens.gain[symbol]:+.3f}"])
+        lines.append(f"  sensitivities ({sens.method}):")
+        lines.append(table(["part", "S w0", "S Q", "S gain"], rows, indent="    "))
+    return "\n".join(lines)
+
+
+def fmt_seconds(x):
+    """A time in engineering notation, '-' when absent."""
+    return "-" if x is None else format_value(x, "s")
 
 
 class Progress:

@@ -11,17 +11,11 @@ import math
 import numpy as np
 
 from ..amplifier import amplifier_summary
+from ..solve import passband_gain
 from ..target_table import target_to_dict
+from ..units import finite_or_none
 
-__all__ = ["roots_to_list", "section_figures", "design_to_dict", "finite"]
-
-
-def finite(x):
-    """A float, or None for inf/nan (JSON has neither)."""
-    if x is None:
-        return None
-    x = float(x)
-    return x if math.isfinite(x) else None
+__all__ = ["roots_to_list", "section_figures", "design_to_dict", "candidate_to_dict"]
 
 
 def roots_to_list(roots):
@@ -44,9 +38,8 @@ def section_figures(nf, values, goal):
         out["f0_hz"] = denominator[1] / denominator[0] / (2 * math.pi)
     elif goal is not None and goal.omega0:
         out["f0_hz"] = goal.omega0 / (2 * math.pi)
-    from ..solve import _gain  # the same gain reading the solver matched
-
-    gain = float(_gain(numerator, denominator, goal.gain_kind if goal else "dc"))
+    # the same gain reading the solver matched
+    gain = float(passband_gain(numerator, denominator, goal.gain_kind if goal else "dc"))
     out["gain_db"] = 20 * math.log10(abs(gain)) if gain else None
     out["inverting"] = gain < 0
     if goal is not None and goal.zero_omega and numerator.shape[0] == 3 and numerator[0]:
@@ -56,12 +49,12 @@ def section_figures(nf, values, goal):
 
 def _errors(errors):
     return {
-        "f0_pct": finite(errors.f0_pct),
-        "q_pct": finite(errors.q_pct),
-        "zero_f0_pct": finite(errors.zero_f0_pct),
-        "gain_db": finite(errors.gain_db),
-        "worst_root_pct": finite(errors.worst_root_pct),
-        "worst_pct": finite(errors.worst_pct),
+        "f0_pct": finite_or_none(errors.f0_pct),
+        "q_pct": finite_or_none(errors.q_pct),
+        "zero_f0_pct": finite_or_none(errors.zero_f0_pct),
+        "gain_db": finite_or_none(errors.gain_db),
+        "worst_root_pct": finite_or_none(errors.worst_root_pct),
+        "worst_pct": finite_or_none(errors.worst_pct),
     }
 
 
@@ -84,7 +77,7 @@ def candidate_to_dict(candidate):
         "reachable": bool(candidate.reachable),
     }
     if candidate.reachable:
-        out["error_pct"] = finite(candidate.error_pct)
+        out["error_pct"] = finite_or_none(candidate.error_pct)
         out["parts"] = int(candidate.topology.part_count)
         out["opamps"] = int(candidate.topology.opamp_count)
         out["spread"] = {k: float(v) for k, v in candidate.spread.items()}
