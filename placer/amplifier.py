@@ -42,7 +42,7 @@ from .circuit import Element
 from .dominant import DominantFunction, nearest_root_set
 from .errors import SpecError, UnreachableTarget
 from .network import circuit_poles, network_function
-from .placement import place_ideal, problem_options, value_spread, worst_error_pct
+from .placement import Candidate, place_ideal, problem_options
 from .snap import COARSE_BUDGET, snap
 from .solve import make_problem, root_errors, solve
 from .units import format_value
@@ -243,11 +243,11 @@ class Drift:
 
 
 @dataclass(frozen=True)
-class AmplifiedCandidate:
+class AmplifiedCandidate(Candidate):
     """One topology placed for one section with a real op-amp model.
 
-    The first fields are those of :class:`placer.design.Candidate` (it ranks
-    and builds the same way); ``problem``, ``solution``, ``snapped`` and
+    A :class:`placer.placement.Candidate` (it ranks and builds the same
+    way); ``problem``, ``solution``, ``snapped`` and
     ``errors`` belong to the corrected design, evaluated with the model.
 
     Attributes
@@ -272,14 +272,6 @@ class AmplifiedCandidate:
         Why nothing was modelled, when so (no op-amp in the topology).
     """
 
-    topology: object
-    reachable: bool
-    reason: str = ""
-    problem: object = None
-    solution: object = None
-    snapped: object = None
-    errors: object = None
-    continuous_errors: object = None
     amplifier: object = None
     circuit: object = None
     ideal_snapped: object = None
@@ -289,15 +281,6 @@ class AmplifiedCandidate:
     low_gbw_drift: Drift | None = None
     parasitic_poles: tuple = ()
     note: str = ""
-
-    @property
-    def error_pct(self):
-        """Worst root/figure error after snapping, with the model, percent."""
-        return worst_error_pct(self.errors) if self.reachable else math.inf
-
-    @property
-    def spread(self):
-        return value_spread(self.topology, self.snapped.values) if self.reachable else {}
 
     @property
     def parasitic_poles_hz(self):

@@ -23,11 +23,10 @@ from .circuit import Circuit, Element
 from .errors import SpecError, UnreachableTarget
 from .library import find_topologies, load_folder, resolve_topology
 from .network import circuit_roots
-from .placement import PART_KINDS, place_ideal, value_spread, worst_error_pct
+from .placement import PART_KINDS, Candidate, place_ideal
 from .sections import split_sections
 
 __all__ = [
-    "Candidate",
     "rank_candidates",
     "SectionDesign",
     "Design",
@@ -51,29 +50,6 @@ class PartChoice:
     value: float       # chosen value, SI
     series: str        # "E96", … or "" when not snapped (fixed, given)
     continuous: float  # the continuous solution's value, SI
-
-
-@dataclass(frozen=True)
-class Candidate:
-    """One topology tried for one section."""
-
-    topology: object
-    reachable: bool
-    reason: str = ""
-    problem: object = None
-    solution: object = None
-    snapped: object = None
-    errors: object = None          # RootErrors of the snapped values
-    continuous_errors: object = None
-
-    @property
-    def error_pct(self):
-        """Worst root/figure error after snapping, percent, gain included."""
-        return worst_error_pct(self.errors) if self.reachable else math.inf
-
-    @property
-    def spread(self):
-        return value_spread(self.topology, self.snapped.values) if self.reachable else {}
 
 
 @dataclass(frozen=True)

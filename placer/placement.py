@@ -13,6 +13,7 @@ values (:func:`value_spread`).
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 from .snap import snap
@@ -20,6 +21,7 @@ from .solve import goal_from_section, make_problem, root_errors, solve
 
 __all__ = [
     "PART_KINDS",
+    "Candidate",
     "IdealPlacement",
     "problem_options",
     "place_ideal",
@@ -173,3 +175,26 @@ def value_spread(topology, values):
         if len(numbers) >= 2:
             out[kind] = max(numbers) / min(numbers)
     return out
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """One topology tried for one section."""
+
+    topology: object
+    reachable: bool
+    reason: str = ""
+    problem: object = None
+    solution: object = None
+    snapped: object = None
+    errors: object = None          # RootErrors of the snapped values
+    continuous_errors: object = None
+
+    @property
+    def error_pct(self):
+        """Worst root/figure error after snapping, percent, gain included."""
+        return worst_error_pct(self.errors) if self.reachable else math.inf
+
+    @property
+    def spread(self):
+        return value_spread(self.topology, self.snapped.values) if self.reachable else {}
