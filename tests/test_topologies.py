@@ -206,6 +206,12 @@ FIGURES += [
     # Huelsman and Allen (1980), KHN high-pass gain R2(R3 + R4)/(R3(R1 + R2)) (from memory).
     ("khn-highpass", lambda v: _khn(v)[0], lambda v: _khn(v)[1],
      lambda v: v["R2"] * (v["R3"] + v["R4"]) / (v["R3"] * (v["R1"] + v["R2"]))),
+    # Fliege (1973), two-op-amp notch with R1 = R2 and R5 = R6: w0 = 1/sqrt(R3 R4 C1 C2),
+    # Q = w0 C2 (R5 || R6), gain 1 (from memory).
+    ("fliege-notch", lambda v: 1 / sq(v["R3"] * v["R4"] * v["C1"] * v["C2"]),
+     lambda v: v["C2"] * v["R5"] * v["R6"] / (v["R5"] + v["R6"])
+     / sq(v["R3"] * v["R4"] * v["C1"] * v["C2"]),
+     lambda v: 1.0),
 ]
 
 
@@ -443,7 +449,7 @@ REQUIRED = [
     "khn-highpass", "akerberg-mossberg-lowpass", "twin-t-notch", "bridged-t-notch",
     "allpass-first-order", "allpass-second-order", "lead-network", "lag-network",
     "pi-controller", "pid-controller", "type2-error-amplifier", "type3-error-amplifier",
-    "sallen-key-lowpass-third-order",
+    "sallen-key-lowpass-third-order", "fliege-notch", "khn-notch",
 ]
 
 BUNDLED = sorted(LIBRARY_DIR.glob("*.toml"))
