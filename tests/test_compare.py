@@ -14,9 +14,11 @@ from placer.compare import (
     comparison_to_dict,
     rank_candidates,
 )
+from placer.amplifier import AmplifierSpec, apply_amplifier
 from placer.design import place_section
 from placer.errors import SpecError
 from placer.library import LIBRARY_DIR, get_topology
+from placer.network import circuit_poles
 from placer.spec import PartsSpec, load_spec
 from placer.targets import make_section
 
@@ -94,6 +96,30 @@ def test_high_q_unity_gain_sallen_key_pays_in_capacitor_spread(high_q):
     assert unity.spread["capacitor"] >= 4 * 8**2 * (1 - 0.01)
     for biquad in ("khn-lowpass", "tow-thomas-lowpass"):
         assert high_q[biquad].max_sensitivity_q >= unity.max_sensitivity_q
+
+
+def test_high_q_biquads_lean_less_on_the_op_amp_gain_than_unity_sallen_key():
+    # Common practice, no source: the unity-gain Sallen–Key's Q rests on its
+    # buffer's gain being exactly 1 (S_K^Q = 2Q^2 with equal resistors; from
+    # memory), so a finite op-amp gain A0 moves Q by about 2Q^2/A0, while the
+    # KHN and Tow–Thomas stages only see A0 through their virtual grounds.
+    # Each stage as solved for Q = 8 with ideal op-amps, then given A0 = 1e4.
+    a0, q, w0 = 1e4, 8.0, TWO_PI * 1e3
+    section = make_section("lowpass", w0, q, gain=1.0)
+
+    def q_of(circuit):
+        pair = min(circuit_poles(circuit), key=lambda p: abs(abs(p) - w0))
+        return abs(pair) / (-2 * pair.real)
+
+    def q_shift(topology_id):
+        candidate = place_section(section, get_topology(topology_id), parts=PartsSpec(), seed=0)
+        circuit = candidate.topology.circuit.with_values(candidate.solution.values)
+        return abs(q_of(apply_amplifier(circuit, AmplifierSpec(gain=a0))) / q_of(circuit) - 1)
+
+    unity = q_shift("sallen-key-lowpass-unity")
+    assert unity == pytest.approx(2 * q**2 / a0, rel=0.1)
+    for biquad in ("khn-lowpass", "tow-thomas-lowpass"):
+        assert q_shift(biquad) < unity / 4
 
 
 def test_multiple_feedback_lowpass_inverts():
