@@ -102,6 +102,9 @@ class CandidateResult:
         where the figure comes from, in words.
     gain : float
         Achieved signed pass-band gain, V/V (negative: inverting).
+    rejection_db : float or None
+        Notch sections: the rejection (pass-band gain over |H|, dB) at the
+        target's zero frequency that 99 % of the Monte Carlo builds reach.
     values : dict
         Part symbol → snapped value, SI units.
     """
@@ -122,6 +125,7 @@ class CandidateResult:
     gbw_source: str = ""
     gain: float | None = None
     values: dict = field(default_factory=dict)
+    rejection_db: float | None = None
 
     @property
     def max_sensitivity(self):
@@ -291,9 +295,12 @@ def _evaluate(task):
         windows = dict(spec.tolerance.windows)
         if nf.order < 2:
             windows.pop("q", None)
+        reject_hz = task.section.zero_f0_hz if task.section.kind == "notch" else None
+        if reject_hz is None:
+            windows.pop("rejection_db", None)
         result = monte_carlo(nf, values, tolerances, samples=task.samples,
                              distribution=spec.tolerance.distribution, seed=sampler_seed,
-                             windows=windows)
+                             windows=windows, reject_hz=reject_hz)
         target_yield = _target_yield(task.section, result, spec.tolerance.windows)
         # monte_carlo's sensitivities are sensitivities(nf, values) at these nominal values
         sens = result.sensitivities
@@ -310,6 +317,8 @@ def _evaluate(task):
         max_sensitivity_w0=_largest(sens.omega0, parts), max_sensitivity_q=_largest(sens.q, parts),
         gbw_hz=gbw_hz, gbw_source=gbw_source, gain=float(candidate.errors.gain),
         values={k: float(v) for k, v in values.items()},
+        rejection_db=(None if result.rejection_db is None
+                      else float(result.statistics["rejection_db"].p01)),
     )
 
 
@@ -319,6 +328,9 @@ DEFAULT_GAIN_WINDOW_DB = 0.5
 
 def _target_yield(section, result, windows):
     """Fraction of builds whose f0, Q and gain lie within the windows of the TARGET.
+
+    A notch's rejection at the target zero frequency counts too when the
+    spec sets a rejection window.
 
     Measured against the section's target (not the candidate's own nominal),
     so a candidate that misses the target — a fixed gain of −6 dB, a Q it
@@ -331,6 +343,8 @@ def _target_yield(section, result, windows):
         passed &= np.abs(result.f0_hz / section.f0_hz - 1) <= windows["f0"]
     if "q" in windows and section.q is not None and result.q is not None:
         passed &= np.abs(result.q / section.q - 1) <= windows["q"]
+    if "rejection_db" in windows and result.rejection_db is not None:
+        passed &= result.rejection_db >= windows["rejection_db"]
     gain_window = windows.get("gain_db", DEFAULT_GAIN_WINDOW_DB)
     gain_db = 20 * np.log10(np.maximum(np.abs(result.gain), 1e-300))
     passed &= np.abs(gain_db - section.gain_db) <= gain_window

@@ -123,6 +123,8 @@ class Evidence:
                 "monte_carlo": {
                     "nominal_f0_hz": finite_or_none(mc.nominal_f0_hz), "nominal_q": finite_or_none(mc.nominal_q),
                     "nominal_gain_db": finite_or_none(mc.nominal_gain_db), "statistics": stats,
+                    "reject_hz": mc.reject_hz,
+                    "nominal_rejection_db": finite_or_none(mc.nominal_rejection_db),
                     "windows": mc.windows, "window_yield_pct": (
                         {k: 100 * float(v) for k, v in mc.window_yield.items()} if mc.window_yield else None),
                     "yield_pct": None if mc.yield_fraction is None else 100 * float(mc.yield_fraction),
@@ -182,8 +184,12 @@ def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=N
         windows = dict(spec.tolerance.windows)
         if nf.order == 1:
             windows.pop("q", None)
+        reject_hz = s.section.zero_f0_hz if s.section.kind == "notch" else None
+        if reject_hz is None:
+            windows.pop("rejection_db", None)
         mc = monte_carlo(nf, values, tolerances, samples=samples,
-                         distribution=spec.tolerance.distribution, seed=seeds[i], windows=windows)
+                         distribution=spec.tolerance.distribution, seed=seeds[i], windows=windows,
+                         reject_hz=reject_hz)
         sens = mc.sensitivities
         designators = {p.symbol: p.name for p in s.parts}
         sections.append(SectionEvidence(index=s.index, sensitivities=sens, monte_carlo=mc,

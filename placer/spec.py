@@ -20,7 +20,9 @@ engineering string read by :mod:`placer.units`):
 ``[tolerance]``
     ``resistor``, ``capacitor``, ``inductor`` (e.g. "1%"; default: the
     series' usual tolerance), ``distribution`` ("uniform", "gaussian"),
-    ``samples``, ``seed``, and yield windows ``f0``, ``q``, ``gain`` (±).
+    ``samples``, ``seed``, and yield windows ``f0``, ``q``, ``gain`` (±)
+    and ``rejection`` (a notch section's least rejection at its target
+    zero frequency, e.g. "40 dB").
 ``[amplifier]``
     The op-amp model: ``gbw`` (Hz), ``gain`` (DC, dB or V/V),
     ``output_resistance`` (ohm), or ``preset`` (see :data:`AMPLIFIER_PRESETS`).
@@ -302,7 +304,7 @@ def _fraction(raw, where):
 
 def _tolerance(table, parts, source):
     valid = ("resistor", "capacitor", "inductor", "distribution", "samples", "seed",
-             "f0", "q", "gain")
+             "f0", "q", "gain", "rejection")
     _unknown(table, valid, f"{source}: [tolerance]")
     tolerances = {kind: usual_tolerance(parts.series[kind]) for kind in parts.series}
     for kind in ("resistor", "capacitor", "inductor"):
@@ -333,6 +335,12 @@ def _tolerance(table, parts, source):
         if not value > 0:
             raise SpecError(f"{source}: tolerance.gain = {table['gain']!r} must be a positive dB window")
         windows["gain_db"] = value
+    if "rejection" in table:
+        value = _value(table["rejection"], "dB", f"{source}: tolerance.rejection")
+        if not value > 0:
+            raise SpecError(f"{source}: tolerance.rejection = {table['rejection']!r} must be a "
+                            f"positive number of dB, such as '40 dB'")
+        windows["rejection_db"] = value
     return ToleranceSpec(tolerances=tolerances, distribution=distribution,
                          samples=samples, seed=seed, windows=windows)
 

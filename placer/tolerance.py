@@ -5,7 +5,9 @@ coefficient polynomials for all samples at once through
 :meth:`NetworkFunction.coefficients` (no Python loop over samples) and
 reads f0 (Hz), Q and the gain off them, the same figures
 :mod:`placer.sensitivity` reads; the sensitivities at the nominal values
-give each part's share of the spread.
+give each part's share of the spread. For a notch it also reads the
+rejection at a fixed frequency (the interference the notch is there for):
+how far below the pass band each build sits at that frequency, in dB.
 
 Examples
 --------
@@ -49,6 +51,7 @@ from .sensitivity import (
 __all__ = [
     "DISTRIBUTIONS",
     "WINDOW_KEYS",
+    "MAX_REJECTION_DB",
     "MAX_SAMPLES",
     "CHUNK",
     "Statistics",
@@ -61,7 +64,9 @@ __all__ = [
 #: Accepted values of ``distribution``.
 DISTRIBUTIONS = ("uniform", "gaussian")
 #: Accepted keys of ``windows``.
-WINDOW_KEYS = ("f0", "q", "gain_db")
+WINDOW_KEYS = ("f0", "q", "gain_db", "rejection_db")
+#: Largest rejection reported, dB (an exact null would be infinite).
+MAX_REJECTION_DB = 200.0
 #: Upper limit on Monte Carlo samples; larger requests are capped.
 MAX_SAMPLES = 1_000_000
 #: Samples per chunk when a progress callback is given.
@@ -111,7 +116,8 @@ class MonteCarloResult:
         "f0_hz", "q", "gain", "gain_db" → :class:`Statistics`.
     windows, window_yield, yield_fraction, passed
         The yield windows ("f0", "q" relative: 0.02 = ±2 % of nominal;
-        "gain_db" absolute, dB), the fraction inside each window alone,
+        "gain_db" absolute, dB; "rejection_db" a minimum, dB), the
+        fraction inside each window alone,
         inside all at once, and the per-sample pass mask (None without
         windows).
     contributions, ranking : dict
@@ -119,6 +125,13 @@ class MonteCarloResult:
         sensitivity × tolerance (sums to 1; all 0 when nothing varies), and
         → parts sorted by falling share.
     sensitivities : Sensitivities
+    reject_hz : float or None
+        Frequency at which the rejection is read (Hz), when asked for.
+    nominal_rejection_db : float or None
+    rejection_db : ndarray or None
+        Pass-band gain over |H(j2π·reject_hz)|, dB, per sample (read-only;
+        each build against its own pass-band gain), capped at
+        MAX_REJECTION_DB; ``statistics["rejection_db"]`` summarises it.
     """
 
     samples: int
@@ -139,6 +152,9 @@ class MonteCarloResult:
     contributions: dict
     ranking: dict
     sensitivities: Sensitivities
+    reject_hz: float | None = None
+    nominal_rejection_db: float | None = None
+    rejection_db: np.ndarray | None = None
 
     @property
     def gain_db(self):
@@ -238,7 +254,7 @@ def _choices(options):
     return "{" + ", ".join(repr(o) for o in options) + "}"
 
 
-def _check_windows(windows, order):
+def _check_windows(windows, order, reject_hz):
     if windows is None:
         return None
     if not isinstance(windows, Mapping):
@@ -249,6 +265,8 @@ def _check_windows(windows, order):
             raise SpecError(f"window key must be one of {_choices(WINDOW_KEYS)}, not {key!r}")
         if key == "q" and order == 1:
             raise SpecError("window 'q' given, but a first-order network has no Q")
+        if key == "rejection_db" and reject_hz is None:
+            raise SpecError("window 'rejection_db' needs the frequency to read it at (reject_hz)")
         if not (_is_number(width) and math.isfinite(width) and width > 0):
             raise SpecError(f"window {key!r} must be a positive number, not {width!r}")
         out[key] = float(width)
@@ -273,7 +291,8 @@ def _draw(rng, tolerances, samples, distribution):
     return multipliers
 
 
-def _window_masks(windows, f0, q, gain_db, nominal_f0, nominal_q, nominal_gain_db):
+def _window_masks(windows, f0, q, gain_db, nominal_f0, nominal_q, nominal_gain_db,
+                  rejection_db=None):
     masks = {}
     with np.errstate(divide="ignore", invalid="ignore"):
         if "f0" in windows:
@@ -282,7 +301,32 @@ def _window_masks(windows, f0, q, gain_db, nominal_f0, nominal_q, nominal_gain_d
             masks["q"] = np.abs(q / nominal_q - 1.0) <= windows["q"]
         if "gain_db" in windows:
             masks["gain_db"] = np.abs(gain_db - nominal_gain_db) <= windows["gain_db"]
+        if "rejection_db" in windows and rejection_db is not None:
+            masks["rejection_db"] = rejection_db >= windows["rejection_db"]
     return masks
+
+
+def _check_reject_hz(reject_hz):
+    if reject_hz is None:
+        return None
+    if not (_is_number(reject_hz) and math.isfinite(reject_hz) and reject_hz > 0):
+        raise SpecError(f"reject_hz must be a positive frequency in Hz, not {reject_hz!r}")
+    return float(reject_hz)
+
+
+def _rejection_db(numerator, denominator, gain, omega):
+    """|gain| / |H(jω)| in dB per sample, capped at MAX_REJECTION_DB."""
+    s = 1j * omega
+    top = np.zeros(numerator.shape[1:], complex)
+    for c in numerator:
+        top = top * s + c
+    bottom = np.zeros(denominator.shape[1:], complex)
+    for c in denominator:
+        bottom = bottom * s + c
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = np.abs(gain) * np.abs(bottom) / np.abs(top)
+        db = 20.0 * np.log10(ratio)
+    return np.minimum(np.where(np.isnan(db), MAX_REJECTION_DB, db), MAX_REJECTION_DB)
 
 
 def _contributions(sens, tolerances):
@@ -305,7 +349,7 @@ def _readonly(array):
 
 
 def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform", seed=0,
-                windows=None, progress=None, allow_zero=False):
+                windows=None, progress=None, allow_zero=False, reject_hz=None):
     """Tolerance Monte Carlo of f0, Q and gain, vectorised over samples.
 
     Parameters
@@ -325,12 +369,18 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
     seed : int, numpy.random.SeedSequence or numpy.random.Generator, optional
     windows : mapping, optional
         Yield windows around nominal: {"f0": 0.02, "q": 0.05, "gain_db": 0.5}
-        means f0 within ±2 %, Q within ±5 %, gain within ±0.5 dB.
+        means f0 within ±2 %, Q within ±5 %, gain within ±0.5 dB;
+        "rejection_db": 40 asks for at least 40 dB of rejection at
+        `reject_hz`.
     progress : callable, optional
         ``progress(done, total)``, called after each chunk of 2,000 samples.
         Without it all samples are evaluated in one call.
     allow_zero : bool, optional
         Accept tolerances of exactly 0 (a check that samples equal nominal).
+    reject_hz : float, optional
+        Read each build's rejection at this frequency (Hz): its pass-band
+        gain over |H| there, in dB. For a notch, the frequency it must
+        remove (50 Hz hum), which the builds' nulls scatter around.
 
     Returns
     -------
@@ -365,7 +415,8 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
     if distribution not in DISTRIBUTIONS:
         raise SpecError(f"distribution must be one of {_choices(DISTRIBUTIONS)}, "
                         f"not {distribution!r}")
-    windows = _check_windows(windows, nf.order)
+    reject_hz = _check_reject_hz(reject_hz)
+    windows = _check_windows(windows, nf.order, reject_hz)
     rng = np.random.default_rng(seed)
     ref = _reference(nf, nominal)
 
@@ -377,6 +428,7 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
     omega0 = np.empty(total)
     q = np.empty(total) if nf.order >= 2 else None
     gain = np.empty(total)
+    rejection = np.empty(total) if reject_hz is not None else None
     index = {name: i for i, name in enumerate(tolerances)}
     for start in range(0, total, chunk):
         stop = min(start + chunk, total)
@@ -385,7 +437,11 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
                    else np.full(stop - start, nominal[name]))
             for name in names
         }
-        w, quality, k = _figures(*nf.coefficients(columns), ref)
+        numerator, denominator = nf.coefficients(columns)
+        w, quality, k = _figures(numerator, denominator, ref)
+        if rejection is not None:
+            rejection[start:stop] = _rejection_db(numerator, denominator, k,
+                                                  2 * math.pi * reject_hz)
         omega0[start:stop] = w
         if q is not None:
             q[start:stop] = quality
@@ -406,11 +462,15 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
                   "gain_db": Statistics.of(_db(gain))}
     if q is not None:
         statistics["q"] = Statistics.of(q)
+    nominal_rejection = None
+    if rejection is not None:
+        nominal_rejection, rejection = float(rejection[0]), _readonly(rejection[1:])
+        statistics["rejection_db"] = Statistics.of(rejection)
 
     window_yield = yield_fraction = passed = None
     if windows is not None:
         masks = _window_masks(windows, f0, q, _db(gain), nominal_f0, nominal_q,
-                              float(_db(nominal_gain)))
+                              float(_db(nominal_gain)), rejection)
         window_yield = {key: float(mask.mean()) for key, mask in masks.items()}
         passed = _readonly(np.logical_and.reduce(list(masks.values())) if masks
                            else np.ones(samples, bool))
@@ -424,6 +484,7 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
         gain_reference=ref.gain_label, f0_hz=f0, q=q, gain=gain, statistics=statistics,
         windows=windows, window_yield=window_yield, yield_fraction=yield_fraction,
         passed=passed, contributions=contributions, ranking=ranking, sensitivities=sens,
+        reject_hz=reject_hz, nominal_rejection_db=nominal_rejection, rejection_db=rejection,
     )
 
 

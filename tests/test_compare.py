@@ -337,3 +337,39 @@ def test_bad_options_are_spec_errors(ranked_spec):
     with pytest.raises(SpecError, match="gbw must be one of"):
         compare(spec, gbw="guess")
     assert CandidateResult(1, "x").max_sensitivity == math.inf
+
+
+def _notch_spec(rejection):
+    return f"""
+title = "hum notch"
+[target]
+response = "custom"
+sections = [{{ f0 = "50 Hz", q = 2, zero_f0 = "50 Hz", kind = "notch" }}]
+[candidates]
+topologies = ["fliege-notch", "khn-notch"]
+[tolerance]
+resistor = "1%"
+capacitor = "2%"
+samples = 400
+f0 = "20%"
+q = "20%"
+{rejection}
+"""
+
+
+def test_notch_candidates_carry_their_rejection_and_the_window_counts(tmp_path):
+    # Wide f0/Q windows, so the rejection window decides the yield; the yield can only
+    # fall as the least rejection asked for rises.
+    loose = compare(load_spec(_write_spec(tmp_path, _notch_spec(""), "loose.toml")), workers=1)
+    tight = compare(load_spec(_write_spec(tmp_path, _notch_spec('rejection = "30 dB"'),
+                                          "tight.toml")), workers=1)
+    for a, b in zip(sorted(loose.sections[0].candidates, key=lambda c: c.topology),
+                    sorted(tight.sections[0].candidates, key=lambda c: c.topology)):
+        assert a.reachable and b.reachable
+        assert a.rejection_db == b.rejection_db          # same seeds, same builds
+        assert 0 < a.rejection_db < 60
+        assert b.yield_pct < a.yield_pct
+    out = tmp_path / "ranking.json"
+    assert main(["compare", str(tmp_path / "tight.toml"), "--json", str(out), "--workers", "1"]) == 0
+    data = json.loads(out.read_text())
+    assert all(isinstance(c["rejection_db"], float) for c in data["sections"][0]["candidates"])

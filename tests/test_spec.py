@@ -201,3 +201,14 @@ def test_tolerance_out_of_bounds(tmp_path):
     message = load_error(tmp_path, spec_text() + '\n[tolerance]\nresistor = "150%"\n')
     assert "tolerance.resistor" in message
     assert "between 0 and 100 %" in message
+
+
+def test_rejection_window_in_db(tmp_path):
+    spec = load_spec(write_spec(tmp_path, spec_text() + '\n[tolerance]\nrejection = "40 dB"\n'))
+    assert spec.tolerance.windows["rejection_db"] == pytest.approx(40.0)
+
+
+@pytest.mark.parametrize("bad", ['"-3 dB"', '"loud"', '0'])
+def test_bad_rejection_window(tmp_path, bad):
+    message = load_error(tmp_path, spec_text() + f'\n[tolerance]\nrejection = {bad}\n')
+    assert "tolerance.rejection" in message

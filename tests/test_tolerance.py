@@ -334,3 +334,60 @@ def test_no_warning_for_a_normal_run():
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         monte_carlo(FOURTH, FOURTH_VALUES, 0.05, samples=2000, distribution="gaussian")
+
+
+# -- notch rejection at a fixed frequency -------------------------------------
+
+def _notch_magnitude(omega, omega0, q):
+    # Standard second-order notch (s^2 + w0^2)/(s^2 + s w0/Q + w0^2) on the jw axis
+    # (any filter handbook's notch section; common practice, no source).
+    return abs(omega0**2 - omega**2) / math.hypot(omega0**2 - omega**2, omega * omega0 / q)
+
+
+def _fliege():
+    from placer.library import get_topology
+
+    r, rq, c = 10e3, 40e3, 1 / (2 * math.pi * 50 * 10e3)
+    values = {"R1": 10e3, "R2": 10e3, "R3": r, "R4": r, "R5": rq, "R6": rq, "C1": c, "C2": c}
+    return network_function(get_topology("fliege-notch").circuit), values
+
+
+def test_nominal_rejection_matches_the_notch_formula_and_scipy():
+    import scipy.signal
+
+    nf, values = _fliege()                      # f0 = 50 Hz, Q = RQ/(2R) = 2
+    reject_hz = 51.0
+    result = monte_carlo(nf, values, {"R3": 0.01}, samples=10, seed=0, reject_hz=reject_hz)
+    expected = -20 * math.log10(_notch_magnitude(2 * math.pi * reject_hz, 2 * math.pi * 50, 2.0))
+    assert result.nominal_rejection_db == pytest.approx(expected, rel=1e-9)
+    numerator, denominator = nf.coefficients(values)
+    _, h = scipy.signal.freqs(numerator, denominator, worN=[2 * math.pi * reject_hz])
+    assert result.nominal_rejection_db == pytest.approx(-20 * math.log10(abs(h[0])), rel=1e-9)
+    assert result.reject_hz == reject_hz
+
+
+def test_rejection_yield_matches_the_closed_form():
+    # Only R3 varies, uniform ±5 %: w0 and Q both scale as (1 + u)^(-1/2) (Fliege notch,
+    # w0 = 1/sqrt(R3 R4 C1 C2), Q = w0 C2 (R5 || R6)); the fraction of u in [-5 %, 5 %]
+    # that keeps at least 30 dB at 50 Hz, from the notch formula on a fine grid.
+    nf, values = _fliege()
+    u = np.linspace(-0.05, 0.05, 200_001)
+    omega0 = 2 * math.pi * 50 / np.sqrt(1 + u)
+    q = 2.0 / np.sqrt(1 + u)
+    magnitude = np.abs(omega0**2 - (2 * math.pi * 50) ** 2) / np.hypot(
+        omega0**2 - (2 * math.pi * 50) ** 2, 2 * math.pi * 50 * omega0 / q)
+    expected = float(np.mean(magnitude <= 10 ** (-30 / 20)))
+    result = monte_carlo(nf, values, {"R3": 0.05}, samples=100_000, seed=11,
+                         windows={"rejection_db": 30.0}, reject_hz=50.0)
+    assert result.nominal_rejection_db == 200.0          # the exact null, capped
+    assert result.yield_fraction == pytest.approx(expected, abs=0.006)   # ~4 sigma
+    assert result.window_yield == {"rejection_db": result.yield_fraction}
+    assert result.statistics["rejection_db"].minimum >= 0
+
+
+def test_rejection_window_needs_a_frequency():
+    nf, values = _fliege()
+    with pytest.raises(SpecError, match="reject_hz"):
+        monte_carlo(nf, values, {"R3": 0.01}, samples=10, windows={"rejection_db": 30.0})
+    with pytest.raises(SpecError, match="positive frequency"):
+        monte_carlo(nf, values, {"R3": 0.01}, samples=10, reject_hz=-5.0)

@@ -6,7 +6,7 @@ import math
 
 from ..compare import _SHORT, _SOURCES, RANK_KEYS
 from ..units import format_value
-from .console import table
+from .console import fmt_rejection, table, windows_text
 
 __all__ = ["comparison_text"]
 
@@ -25,8 +25,7 @@ def _short_source(source):
 def comparison_text(comparison):
     """One console table per section, then the unreachable ones with reasons."""
     spec = comparison.spec
-    windows = ", ".join(f"{k} ±{100 * v:g} %" if k != "gain_db" else f"gain ±{v:g} dB"
-                        for k, v in spec.tolerance.windows.items())
+    windows = windows_text(spec.tolerance.windows)
     tolerances = ", ".join(f"{k} {100 * v:g} %" for k, v in spec.tolerance.tolerances.items())
     lines = [f"Compare: {spec.title} — ranked by {comparison.rank_by}: {RANK_KEYS[comparison.rank_by]}",
              f"  yield: {comparison.samples} Monte Carlo samples per candidate "
@@ -45,6 +44,7 @@ def comparison_text(comparison):
                      + (f", Q {sec.q:.4g}" if sec.q is not None else "")
                      + f", gain {sec.gain_db + 0.0:+.3f} dB".replace("-0.000 ", "+0.000 "))
         rows = []
+        notch = any(c.rejection_db is not None for c in s.candidates)
         for rank, c in enumerate((c for c in s.candidates if c.reachable), start=1):
             sources.add(c.gbw_source)
             rows.append([rank, c.topology, c.parts, c.opamps, f"{c.error_pct:.3f}",
@@ -52,8 +52,11 @@ def comparison_text(comparison):
                          _number(c.spread.get("capacitor")), _number(c.max_sensitivity_w0),
                          _number(c.max_sensitivity_q),
                          "-" if c.gbw_hz is None else format_value(c.gbw_hz, "Hz"),
-                         _short_source(c.gbw_source)])
-        lines.append(table(headers, rows) if rows else "  no candidate reaches this section")
+                         _short_source(c.gbw_source)]
+                        + ([fmt_rejection(c.rejection_db)] if notch else []))
+        shown = headers + ([f"rejection at {format_value(sec.zero_f0_hz, 'Hz', digits=4)}, "
+                            f"99 % of builds"] if notch else [])
+        lines.append(table(shown, rows) if rows else "  no candidate reaches this section")
         unreachable = [c for c in s.candidates if not c.reachable]
         if unreachable:
             lines.append("  cannot reach it:")

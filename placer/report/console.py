@@ -5,12 +5,26 @@ from __future__ import annotations
 import math
 import sys
 
+from ..tolerance import MAX_REJECTION_DB
 from ..units import format_value
 
 __all__ = ["table", "design_text", "target_text", "evidence_text", "Progress", "fmt_pct", "fmt_db",
-           "fmt_hz", "fmt_gain", "fmt_seconds"]
+           "fmt_hz", "fmt_gain", "fmt_seconds", "fmt_rejection", "windows_text"]
 
 _UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
+
+
+def windows_text(windows):
+    """Yield windows in words: "f0 ±2 %, Q ±5 %, gain ±0.5 dB, rejection >= 40 dB"."""
+    words = []
+    for key, width in windows.items():
+        if key == "gain_db":
+            words.append(f"gain ±{width:g} dB")
+        elif key == "rejection_db":
+            words.append(f"rejection >= {width:g} dB")
+        else:
+            words.append(f"{ {'q': 'Q'}.get(key, key)} ±{100 * width:g} %")
+    return ", ".join(words)
 
 
 def table(headers, rows, *, indent="  "):
@@ -35,6 +49,13 @@ def fmt_db(x):
     if x is None or (isinstance(x, float) and not math.isfinite(x)):
         return "-"
     return f"{x + 0.0:+.3f} dB".replace("-0.000 ", "+0.000 ")
+
+
+def fmt_rejection(x):
+    """A notch's rejection in dB; the cap of an exact null as "null"."""
+    if x is None or not math.isfinite(x):
+        return "-"
+    return "null" if x >= MAX_REJECTION_DB else f"{x:.1f} dB"
 
 
 def fmt_gain(x):
@@ -178,11 +199,14 @@ def evidence_text(evidence):
             rows.append(["gain", fmt_gain(mc.nominal_gain_db), fmt_gain(st["gain_db"].mean),
                          f"{st['gain_db'].std:.3f} dB",
                          f"{fmt_gain(st['gain_db'].p01)} – {fmt_gain(st['gain_db'].p99)}"])
+        if mc.rejection_db is not None:
+            rej = st["rejection_db"]
+            rows.append([f"rejection at {fmt_hz(mc.reject_hz)}", fmt_rejection(mc.nominal_rejection_db),
+                         fmt_rejection(rej.mean), f"{rej.std:.2f} dB",
+                         f"{fmt_rejection(rej.p01)} – {fmt_rejection(rej.p99)}"])
         lines.append(table(["figure", "nominal", "mean", "std dev", "1 % – 99 %"], rows))
         if mc.yield_fraction is not None:
-            windows = ", ".join(
-                f"{k} ±{100 * w:g} %" if k != "gain_db" else f"gain ±{w:g} dB" for k, w in mc.windows.items())
-            lines.append(f"  yield ({windows}): {100 * mc.yield_fraction:.1f} %")
+            lines.append(f"  yield ({windows_text(mc.windows)}): {100 * mc.yield_fraction:.1f} %")
         ranking = mc.ranking.get("f0", [])
         if ranking:
             lines.append("  f0 spread dominated by: " + ", ".join(

@@ -23,7 +23,7 @@ import numpy as np
 from .. import __version__
 from ..errors import SpecError
 from ..units import format_value
-from .console import fmt_db, fmt_gain, fmt_hz, fmt_pct, fmt_q
+from .console import fmt_db, fmt_gain, fmt_hz, fmt_pct, fmt_q, fmt_rejection, windows_text
 from .files import check_output_path, write_text
 from .plots import (bode_figure, figure_svg, histogram_figure, loop_bode_figure,
                     pole_zero_figure, save_figure, step_figure)
@@ -393,14 +393,16 @@ def _monte_carlo_parts(evidence, plots):
             rows.append(["gain (dB)", fmt_gain(mc.nominal_gain_db), fmt_gain(st["gain_db"].mean),
                          f"{st['gain_db'].std:.3f} dB",
                          f"{fmt_gain(st['gain_db'].p01)} – {fmt_gain(st['gain_db'].p99)}"])
+        if mc.rejection_db is not None:
+            rej = st["rejection_db"]
+            rows.append([f"rejection at {fmt_hz(mc.reject_hz)} (dB)",
+                         fmt_rejection(mc.nominal_rejection_db), fmt_rejection(rej.mean),
+                         f"{rej.std:.2f} dB", f"{fmt_rejection(rej.p01)} – {fmt_rejection(rej.p99)}"])
         out.append(_table(["figure", "nominal", "mean", "standard deviation",
                            "1 % – 99 % of builds"], rows))
         if mc.yield_fraction is not None:
-            shown = ", ".join(f"gain ±{w:g} dB" if k == "gain_db" else
-                              f"{ {'q': 'Q'}.get(k, k)} ±{100 * w:g} %"
-                              for k, w in windows.items())
             out.append(_p(f"Yield: {100 * mc.yield_fraction:.1f} % of builds fall inside every "
-                          f"window ({shown})."))
+                          f"window ({windows_text(windows)})."))
     return out
 
 
