@@ -10,15 +10,21 @@ part ±1 % uniform, 10,000 samples:
   TransferFunction and read its poles (run on fewer samples when slow and
   scaled, which the output says).
 
+Then one large Monte Carlo (a third-order single-op-amp low-pass, whose
+dominant pair comes from batched roots) in one process and in worker
+processes on every core, with a check that both give the same samples.
+
 Run from the repository root::
 
     python benchmarks/bench_montecarlo.py [--samples 10000] [--loop-samples 1000]
+                                          [--large-samples 1000000]
 """
 
 from __future__ import annotations
 
 import argparse
 import math
+import os
 import sys
 import time
 from pathlib import Path
@@ -29,7 +35,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from placer.circuit import Circuit, Element  # noqa: E402
 from placer.network import network_function  # noqa: E402
-from placer.tolerance import cascade_monte_carlo  # noqa: E402
+from placer.library import get_topology  # noqa: E402
+from placer.tolerance import cascade_monte_carlo, monte_carlo  # noqa: E402
 
 F0_HZ = 1e3
 C2_F = 10e-9
@@ -83,6 +90,8 @@ def main(argv=None):
     parser.add_argument("--samples", type=int, default=10_000)
     parser.add_argument("--loop-samples", type=int, default=1_000,
                         help="samples actually run by the loop (scaled to --samples)")
+    parser.add_argument("--large-samples", type=int, default=1_000_000,
+                        help="samples of the one-process / worker-process comparison")
     args = parser.parse_args(argv)
 
     start = time.perf_counter()
@@ -122,6 +131,32 @@ def main(argv=None):
     stats = result.statistics["gain_db"]
     print(f"overall DC gain: mean {stats.mean:+.2e} dB, std {stats.std:.2e} dB "
           "(unity-gain sections: exact)")
+    print()
+    large(args.large_samples)
+
+
+def large(samples):
+    """One Monte Carlo in one process, then in worker processes on every core."""
+    topology = get_topology("sallen-key-lowpass-third-order")
+    nf = network_function(topology.circuit)
+    values = {s: (10e3 if topology.kind_of(s) == "resistor" else 10e-9) for s in nf.symbols}
+    values.update({"C1": 33e-9, "C2": 15e-9, "C3": 1e-9})
+    monte_carlo(nf, values, TOLERANCE, samples=1000, seed=2)         # warm-up
+    cores = os.cpu_count() or 1
+    times, results = {}, {}
+    for workers in (1, cores):
+        start = time.perf_counter()
+        results[workers] = monte_carlo(nf, values, TOLERANCE, samples=samples, seed=2,
+                                       workers=workers)
+        times[workers] = time.perf_counter() - start
+    same = all(np.array_equal(getattr(results[1], name), getattr(results[cores], name))
+               for name in ("f0_hz", "q", "gain"))
+    print(f"one Monte Carlo of {topology.id} (order 3), {samples:,} samples, parts ±{TOLERANCE:.0%}")
+    print(f"{'workers':<10} {'time [s]':>10}")
+    for workers in (1, cores):
+        print(f"{workers:<10} {times[workers]:>10.3f}")
+    print(f"speed-up with {cores} workers: {times[1] / times[cores]:.2f}×; "
+          f"same samples: {'yes' if same else 'NO'}")
 
 
 if __name__ == "__main__":

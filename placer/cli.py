@@ -65,6 +65,9 @@ def build_parser():
     p.add_argument("--plots", metavar="DIR", help="write each plot as PNG and SVG into DIR")
     p.add_argument("--samples", type=int, help="Monte Carlo samples (default: the spec's)")
     p.add_argument("--seed", type=int, help="random seed (default: the spec's, else 0)")
+    p.add_argument("--workers", type=int,
+                   help="worker processes for a Monte Carlo of 50,000 samples or more "
+                        "(default: all cores; the result does not depend on it)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
 
     p = sub.add_parser("compare", help="rank every candidate topology for a spec's target")
@@ -274,6 +277,10 @@ def _cmd_design(args):
             check_output_path(path, inputs=inputs, option=option)
     if args.plots and not Path(args.plots).is_dir():
         raise SpecError(f"--plots: folder {args.plots!r} does not exist")
+    for option, value, low in (("--samples", args.samples, 1), ("--seed", args.seed, 0),
+                               ("--workers", args.workers, 1)):
+        if value is not None and value < low:
+            raise SpecError(f"{option} {value}: give a whole number >= {low}")
     progress = Progress("designing", quiet=args.quiet)
     try:
         result = design(spec, seed=args.seed, progress=progress)
@@ -281,7 +288,8 @@ def _cmd_design(args):
         progress.close()
     progress = Progress("evidence", quiet=args.quiet)
     try:
-        evidence = gather_evidence(result, samples=args.samples, seed=args.seed, progress=progress)
+        evidence = gather_evidence(result, samples=args.samples, seed=args.seed, progress=progress,
+                                   workers=args.workers)
     finally:
         progress.close()
     data = design_to_dict(result, evidence=evidence.to_dict())

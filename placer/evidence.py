@@ -143,7 +143,7 @@ def _response(sections_tf):
     return Response.from_sections(sections_tf)
 
 
-def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=None):
+def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=None, workers=1):
     """Verify a design and run its tolerance analysis.
 
     Parameters
@@ -157,6 +157,10 @@ def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=N
         ``progress(done, total, label)``.
     band_hz : (float, float), optional
         Band of the deviation check, Hz (default: verify's).
+    workers : int or None, optional
+        Worker processes for each section's Monte Carlo (None: every core);
+        see :func:`placer.tolerance.monte_carlo`. The result does not
+        depend on it.
 
     Returns
     -------
@@ -189,7 +193,7 @@ def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=N
             windows.pop("rejection_db", None)
         mc = monte_carlo(nf, values, tolerances, samples=samples,
                          distribution=spec.tolerance.distribution, seed=seeds[i], windows=windows,
-                         reject_hz=reject_hz)
+                         reject_hz=reject_hz, workers=workers)
         sens = mc.sensitivities
         designators = {p.symbol: p.name for p in s.parts}
         sections.append(SectionEvidence(index=s.index, sensitivities=sens, monte_carlo=mc,

@@ -90,6 +90,18 @@ class NetworkFunction:
     cancelled: sympy.Expr = sympy.Integer(1)
     _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
+    # -- pickling (worker processes) -----------------------------------------
+    def __getstate__(self):
+        # The compiled evaluators and cached figures are rebuilt on demand;
+        # only the polynomials travel.
+        return {"numerator": self.numerator, "denominator": self.denominator,
+                "symbols": self.symbols, "cancelled": self.cancelled}
+
+    def __setstate__(self, state):
+        for name, value in state.items():
+            object.__setattr__(self, name, value)
+        object.__setattr__(self, "_cache", {})
+
     # -- symbolic figures --------------------------------------------------
     @property
     def order(self):

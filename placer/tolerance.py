@@ -31,8 +31,10 @@ from __future__ import annotations
 
 import math
 import numbers
+import os
 import warnings
 from collections.abc import Mapping
+from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
@@ -54,6 +56,7 @@ __all__ = [
     "MAX_REJECTION_DB",
     "MAX_SAMPLES",
     "CHUNK",
+    "PARALLEL_MIN_SAMPLES",
     "Statistics",
     "MonteCarloResult",
     "CascadeMonteCarloResult",
@@ -71,6 +74,9 @@ MAX_REJECTION_DB = 200.0
 MAX_SAMPLES = 1_000_000
 #: Samples per chunk when a progress callback is given.
 CHUNK = 2_000
+#: Fewest samples for which worker processes are started (below it, starting
+#: them costs more than they save).
+PARALLEL_MIN_SAMPLES = 50_000
 
 
 @dataclass(frozen=True)
@@ -236,6 +242,14 @@ def _check_tolerances(tolerances, names, allow_zero):
     return {name: out[name] for name in names if name in out}
 
 
+def _check_workers(workers):
+    if workers is None:
+        return os.cpu_count() or 1
+    if not (isinstance(workers, numbers.Integral) and not isinstance(workers, bool) and workers >= 1):
+        raise SpecError(f"workers must be a whole number >= 1, not {workers!r}")
+    return int(workers)
+
+
 def _check_samples(samples):
     if not (_is_number(samples) and isinstance(samples, numbers.Integral)):
         raise SpecError(f"samples must be a whole number of at least 1, not {samples!r}")
@@ -348,8 +362,32 @@ def _readonly(array):
     return array
 
 
+def _evaluate_block(nf, nominal, multipliers, index, ref, reject_hz):
+    """(ω0, Q or None, gain, rejection dB or None) for one block of samples."""
+    count = multipliers.shape[1]
+    columns = {
+        name: (nominal[name] * multipliers[index[name]] if name in index
+               else np.full(count, nominal[name]))
+        for name in nf.symbols
+    }
+    numerator, denominator = nf.coefficients(columns)
+    omega0, q, gain = _figures(numerator, denominator, ref)
+    rejection = None
+    if reject_hz is not None:
+        rejection = _rejection_db(numerator, denominator, gain, 2 * math.pi * reject_hz)
+    return omega0, q, gain, rejection
+
+
+def _blocks(total, workers, progress):
+    """Column ranges: one per worker, cut to CHUNK when progress is reported."""
+    size = CHUNK if progress is not None else total
+    if workers > 1:
+        size = min(size, -(-total // workers))
+    return [(start, min(start + size, total)) for start in range(0, total, size)]
+
+
 def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform", seed=0,
-                windows=None, progress=None, allow_zero=False, reject_hz=None):
+                windows=None, progress=None, allow_zero=False, reject_hz=None, workers=1):
     """Tolerance Monte Carlo of f0, Q and gain, vectorised over samples.
 
     Parameters
@@ -381,6 +419,10 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
         Read each build's rejection at this frequency (Hz): its pass-band
         gain over |H| there, in dB. For a notch, the frequency it must
         remove (50 Hz hum), which the builds' nulls scatter around.
+    workers : int, optional
+        Worker processes (default 1, in-process; None: every core). Used
+        from PARALLEL_MIN_SAMPLES samples up; the draws are made once, up
+        front, so the result does not depend on it.
 
     Returns
     -------
@@ -417,6 +459,7 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
                         f"not {distribution!r}")
     reject_hz = _check_reject_hz(reject_hz)
     windows = _check_windows(windows, nf.order, reject_hz)
+    workers = _check_workers(workers)
     rng = np.random.default_rng(seed)
     ref = _reference(nf, nominal)
 
@@ -424,30 +467,38 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
     # Column 0 is the nominal itself, so nominal and samples share one code path.
     multipliers = np.concatenate([np.ones((len(tolerances), 1)), multipliers], axis=1)
     total = samples + 1
-    chunk = CHUNK if progress is not None else total
+    if samples < PARALLEL_MIN_SAMPLES:
+        workers = 1
     omega0 = np.empty(total)
     q = np.empty(total) if nf.order >= 2 else None
     gain = np.empty(total)
     rejection = np.empty(total) if reject_hz is not None else None
     index = {name: i for i, name in enumerate(tolerances)}
-    for start in range(0, total, chunk):
-        stop = min(start + chunk, total)
-        columns = {
-            name: (nominal[name] * multipliers[index[name], start:stop] if name in index
-                   else np.full(stop - start, nominal[name]))
-            for name in names
-        }
-        numerator, denominator = nf.coefficients(columns)
-        w, quality, k = _figures(numerator, denominator, ref)
-        if rejection is not None:
-            rejection[start:stop] = _rejection_db(numerator, denominator, k,
-                                                  2 * math.pi * reject_hz)
+    blocks = _blocks(total, workers, progress)
+
+    def store(block, figures):
+        start, stop = block
+        w, quality, k, rejected = figures
         omega0[start:stop] = w
         if q is not None:
             q[start:stop] = quality
         gain[start:stop] = k
+        if rejection is not None:
+            rejection[start:stop] = rejected
         if progress is not None:
             progress(stop - 1, samples)
+
+    if workers == 1:
+        for block in blocks:
+            start, stop = block
+            store(block, _evaluate_block(nf, nominal, multipliers[:, start:stop], index, ref,
+                                         reject_hz))
+    else:
+        with ProcessPoolExecutor(max_workers=min(workers, len(blocks))) as pool:
+            futures = [pool.submit(_evaluate_block, nf, nominal, multipliers[:, start:stop],
+                                   index, ref, reject_hz) for start, stop in blocks]
+            for block, future in zip(blocks, futures):
+                store(block, future.result())
     if not (np.all(np.isfinite(omega0)) and np.all(np.isfinite(gain))):
         warnings.warn("some Monte Carlo samples gave non-finite figures (NaN or inf)",
                       NumericalWarning, stacklevel=2)

@@ -386,6 +386,15 @@ def test_cli_refuses_the_spec_as_report(tmp_path, capsys):
     assert spec_copy.read_bytes() == before
 
 
+@pytest.mark.parametrize("option, value", [("--workers", "0"), ("--samples", "0"), ("--seed", "-1")])
+def test_cli_design_refuses_a_bad_count_before_working(tmp_path, capsys, option, value):
+    out = tmp_path / "design.json"
+    assert main(["design", str(ADC_SPEC), option, value, "--json", str(out), "--quiet"]) == 2
+    error = capsys.readouterr().err
+    assert f"{option} {value}" in error and "whole number" in error
+    assert not out.exists()
+
+
 def test_cli_loop_writes_report_and_plots(tmp_path):
     out = tmp_path / "loop.html"
     status = main(["loop", str(BUCK_SPEC), "--report", str(out), "--plots", str(tmp_path),

@@ -391,3 +391,27 @@ def test_rejection_window_needs_a_frequency():
         monte_carlo(nf, values, {"R3": 0.01}, samples=10, windows={"rejection_db": 30.0})
     with pytest.raises(SpecError, match="positive frequency"):
         monte_carlo(nf, values, {"R3": 0.01}, samples=10, reject_hz=-5.0)
+
+
+# -- worker processes ---------------------------------------------------------
+
+def test_worker_processes_give_the_same_samples():
+    # The draws are made once, up front; the figures are per sample, so 1 or 2
+    # workers give identical arrays (the requirement: same result, seeded).
+    from placer.tolerance import PARALLEL_MIN_SAMPLES
+
+    nf, values = _fliege()
+    kwargs = dict(samples=PARALLEL_MIN_SAMPLES + 1, seed=4, reject_hz=50.0,
+                  windows={"f0": 0.02, "rejection_db": 20.0})
+    one = monte_carlo(nf, values, 0.01, workers=1, **kwargs)
+    two = monte_carlo(nf, values, 0.01, workers=2, **kwargs)
+    for name in ("f0_hz", "q", "gain", "rejection_db", "passed"):
+        np.testing.assert_array_equal(getattr(one, name), getattr(two, name))
+    assert one.yield_fraction == two.yield_fraction
+
+
+@pytest.mark.parametrize("workers", [0, -1, 1.5, "2", True])
+def test_bad_worker_count(workers):
+    nf, values = _fliege()
+    with pytest.raises(SpecError, match="workers must be a whole number >= 1"):
+        monte_carlo(nf, values, 0.01, samples=10, workers=workers)
