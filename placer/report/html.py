@@ -22,6 +22,7 @@ import numpy as np
 
 from .. import __version__
 from ..errors import SpecError
+from ..tolerance import MAX_REJECTION_DB
 from ..units import format_value
 from .console import fmt_db, fmt_gain, fmt_hz, fmt_pct, fmt_q, fmt_rejection, windows_text
 from .files import check_output_path, write_text
@@ -382,6 +383,19 @@ def _monte_carlo_parts(evidence, plots):
                 title=f"Section {s.index}: spread of Q"),
                 f"Section {s.index}: Q over {mc.samples} builds, the nominal value (line)"
                 + (f" and the ±{100 * width:g} % window (shaded)." if width else ".")))
+        if mc.rejection_db is not None:
+            least = windows.get("rejection_db")
+            nominal = mc.nominal_rejection_db
+            exact = nominal is not None and nominal >= MAX_REJECTION_DB
+            out.append(plots.block(f"section{s.index}-rejection-histogram", histogram_figure(
+                mc.rejection_db, None if exact else nominal, label="rejection", unit="dB",
+                window=(least, None) if least else None,
+                title=f"Section {s.index}: rejection at {fmt_hz(mc.reject_hz)}"),
+                f"Section {s.index}: rejection at {fmt_hz(mc.reject_hz)} (dB below the pass band) "
+                f"over {mc.samples} builds"
+                + (", the nominal value (line)" if not exact else
+                   " (the nominal design nulls it exactly)")
+                + (f" and the {least:g} dB floor (shaded above)." if least else ".")))
         st = mc.statistics
         rows = [["f0 (Hz)", fmt_hz(mc.nominal_f0_hz), fmt_hz(st["f0_hz"].mean),
                  fmt_hz(st["f0_hz"].std),
