@@ -22,7 +22,8 @@ from placer.eseries import mantissas
 from placer.errors import SpecError
 from placer.library import get_topology
 from placer.network import circuit_poles
-from placer.snap import round_each, snap
+from placer.placement import value_spread
+from placer.snap import ERROR_CEILING, SPREAD_SLACK, round_each, snap
 from placer.solve import goal_from_section, make_problem, solve
 from placer.targets import make_section
 from placer.topology import parse_constraint
@@ -162,12 +163,38 @@ def test_snap_matches_an_exhaustive_search(f0_hz, q):
     ranges = {"resistor": (1e3, 100e3), "capacitor": (1e-9, 1e-6)}
     section = make_section("lowpass", TWO_PI * f0_hz, q)
     problem, solution = solved("sallen-key-lowpass-unity", section, ranges=ranges)
-    result = snap(problem, solution, series=SERIES)
+    result = snap(problem, solution, series=SERIES, spread_slack=0)     # least error
     resistors = np.array(sorted(v for v in iec_values("E96") if 1e3 <= v <= 100e3))
     capacitors = np.array(sorted(v for v in iec_values("E12") if 1e-9 <= v <= 1e-6))
     best = exhaustive_sallen_key(section, resistors, capacitors)
     assert result.error <= best + 5e-5          # within 0.005 percentage points
     assert result.error >= best - 1e-12         # and no better than possible
+    # the default trades at most SPREAD_SLACK of error (never past the ceiling the
+    # optimum is within) for a spread no larger than the least-error choice's
+    traded = snap(problem, solution, series=SERIES)
+    assert best - 1e-12 <= traded.error <= max(best, min(best + SPREAD_SLACK, ERROR_CEILING)) + 1e-7
+    assert _log_spread(traded.values) <= _log_spread(result.values) + 1e-9
+
+
+def _log_spread(values):
+    """log(R max/min) + log(C max/min) of a Sallen–Key's four parts."""
+    r, c = (values["R1"], values["R2"]), (values["C1"], values["C2"])
+    return math.log(max(r) / min(r)) + math.log(max(c) / min(c))
+
+
+def test_default_snap_buys_a_much_smaller_spread():
+    # 1 kHz, Q = 0.5176 (the first section of a sixth-order Butterworth) on the
+    # multiple-feedback low-pass: the least-error choice runs its parts over two
+    # decades and more, the default stays within about 20:1 per kind for a few
+    # hundredths of a per cent of f0 and Q (E96/E12, library default ranges).
+    section = make_section("lowpass", TWO_PI * 1e3, 0.5176, gain=1.0)
+    problem, solution = solved("mfb-lowpass", section)
+    least = snap(problem, solution, series=SERIES, spread_slack=0)
+    traded = snap(problem, solution, series=SERIES)
+    spread = value_spread(problem.topology, traded.values)
+    assert max(value_spread(problem.topology, least.values).values()) > 100
+    assert max(spread.values()) < 25
+    assert traded.error <= least.error + SPREAD_SLACK + 1e-7
 
 
 # -- fixed and tied parts ----------------------------------------------------
