@@ -209,7 +209,10 @@ def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE
     count = candidates.shape[1] + trials
     errors = error_of(pool)
     spreads = _spreads(pool, kinds)
-    best = pool[:, _choose(errors, spreads, spread_slack)]
+    # without the gain in the objective (a gain tied to the poles), the spread
+    # must not be bought with gain either
+    gain_errors = None if with_gain else problem.worst_error(pool, with_gain=True)
+    best = pool[:, _choose(errors, spreads, spread_slack, gain_errors)]
     values = {k: float(np.asarray(v)) for k, v in problem.values(best).items()}
     for i, name in enumerate(problem.independent):
         if grids[i] is not None:
@@ -400,11 +403,18 @@ def _pool(candidates, errors, kinds, spread_slack):
     return np.union1d(keep, by_spread)
 
 
-def _choose(errors, spreads, spread_slack):
-    """Index of the chosen column: smallest spread within the slack, then least error."""
+def _choose(errors, spreads, spread_slack, gain_errors=None):
+    """Index of the chosen column: smallest spread within the slack, then least error.
+
+    `gain_errors` (worst error with the gain counted, when the objective
+    leaves it out) must stay within the slack of the least-error column's.
+    """
     best = float(np.min(errors))
     limit = _allowed(best, spread_slack) if spread_slack > 0 else best
     inside = errors <= limit + 1e-7
+    if gain_errors is not None:
+        least = int(np.lexsort((spreads, np.round(errors, 7)))[0])
+        inside &= gain_errors <= gain_errors[least] + max(spread_slack, 0.0) + 1e-7
     rank = np.lexsort((errors, np.round(spreads, 7), ~inside))
     return int(rank[0])
 

@@ -248,3 +248,20 @@ def test_no_series_value_in_range_is_a_spec_error():
                                ranges={"resistor": (1e3, 1e6), "capacitor": (1.25e-9, 1.45e-9)})
     with pytest.raises(SpecError, match=r"no E12 value lies in its range"):
         snap(problem, solution, series=SERIES)
+
+
+def test_spread_is_not_bought_with_a_gain_the_objective_leaves_out():
+    # Sallen–Key with gain, 0 dB asked: K = 1 + RB/RA cannot reach 1, so the gain is
+    # reported, not matched; the spread trade must not move the gain away from what
+    # the least-error choice gives (it once landed 63 % off for a smaller spread).
+    section = make_section("lowpass", TWO_PI * 1e3, 0.5176, gain=1.0)
+    problem, solution = solved("sallen-key-lowpass-gain", section)
+    assert not solution.gain_matched
+    least = snap(problem, solution, series=SERIES, spread_slack=0)
+    traded = snap(problem, solution, series=SERIES)
+
+    def with_gain(result):
+        values = np.log([result.values[name] for name in problem.independent])
+        return float(problem.worst_error(values, with_gain=True))
+
+    assert with_gain(traded) <= with_gain(least) + SPREAD_SLACK + 1e-7
