@@ -56,6 +56,7 @@ __all__ = [
     "AmplifiedCandidate",
     "place_section_with_amplifier",
     "amplifier_summary",
+    "built_drift",
     "GBW_SPREAD",
 ]
 
@@ -319,6 +320,52 @@ def _pair_figures(poles, goal):
         return math.nan, math.nan
     omega0 = math.sqrt(abs(chosen[0] * chosen[1]))
     return omega0, omega0 / -float((chosen[0] + chosen[1]).real)
+
+
+def built_drift(topology, values, goal, amplifier):
+    """Drift of a design built with a real op-amp, from numeric MNA poles.
+
+    Parameters
+    ----------
+    topology : Topology
+    values : mapping of str to float
+        Part values (as solved or snapped with ideal op-amps).
+    goal : placer.solve.Goal
+        The section's goal; its poles pick the dominant pair.
+    amplifier : AmplifierSpec
+        The op-amp model every op-amp gets.
+
+    Returns
+    -------
+    Drift
+        ``f0_pct``, ``q_pct`` against the goal; ``f0_shift_pct``,
+        ``q_shift_pct`` the op-amp's part (the same values with ideal
+        op-amps as reference).
+
+    Examples
+    --------
+    A Tow–Thomas biquad's Q rises with a GBW of 100·f0·Q (Q enhancement):
+
+    >>> from placer.library import get_topology
+    >>> from placer.solve import goal_from_section
+    >>> from placer.targets import make_section
+    >>> section = make_section("lowpass", 2 * math.pi * 1e3, 5.0)
+    >>> values = {"R1": 1e4, "R2": 5e4, "R3": 1e4, "R4": 1e4, "R5": 1e4, "R6": 1e4,
+    ...           "C1": 1 / (2 * math.pi * 1e7), "C2": 1 / (2 * math.pi * 1e7)}
+    >>> drift = built_drift(get_topology("tow-thomas-lowpass"), values,
+    ...                     goal_from_section(section), AmplifierSpec(gbw=500e3))
+    >>> round(drift.q_shift_pct, 1), round(drift.f0_shift_pct, 2)
+    (4.3, -0.3)
+    """
+    ideal = _pair_figures(circuit_poles(topology.circuit.with_values(values)), goal)
+    built = apply_amplifier(topology.circuit, amplifier).with_values(values)
+    real = _pair_figures(circuit_poles(built), goal)
+
+    def pct(a, b):
+        return None if a is None or b is None else float(100 * (a / b - 1))
+
+    return Drift(f0_pct=pct(real[0], goal.omega0), q_pct=pct(real[1], goal.q),
+                 f0_shift_pct=pct(real[0], ideal[0]), q_shift_pct=pct(real[1], ideal[1]))
 
 
 def _low_gbw_drift(topology, amplifier, values, goal):

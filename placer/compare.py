@@ -33,6 +33,7 @@ from dataclasses import asdict, dataclass, field
 
 import numpy as np
 
+from .amplifier import AmplifierSpec, built_drift
 from .design import candidate_topologies, place_section
 from .errors import SpecError
 from .gbw import required_gbw
@@ -105,6 +106,12 @@ class CandidateResult:
     rejection_db : float or None
         Notch sections: the rejection (pass-band gain over |H|, dB) at the
         target's zero frequency that 99 % of the Monte Carlo builds reach.
+    gbw_drift_pct : float or None
+        The snapped design built with single-pole op-amps of ``gbw_hz``
+        (and the spec's DC gain, if any): the larger of its f0 and Q shifts
+        from the ideal-op-amp figures, percent (None: no op-amp or no GBW).
+        Q enhancement shows here: at the same GBW a Tow–Thomas stage moves
+        more than an Åkerberg–Mossberg one.
     values : dict
         Part symbol → snapped value, SI units.
     """
@@ -126,6 +133,7 @@ class CandidateResult:
     gain: float | None = None
     values: dict = field(default_factory=dict)
     rejection_db: float | None = None
+    gbw_drift_pct: float | None = None
 
     @property
     def max_sensitivity(self):
@@ -306,6 +314,13 @@ def _evaluate(task):
         sens = result.sensitivities
         parts = [s for s, k in kinds.items() if k in _PART_KINDS]
         gbw_hz, gbw_source = _gbw_needed(task.section, topology, spec, task.gbw)
+        drift = None
+        if gbw_hz is not None and math.isfinite(gbw_hz):
+            built = built_drift(topology, values, candidate.problem.goal,
+                                AmplifierSpec(gbw=gbw_hz, gain=spec.amplifier.gain))
+            shifts = [abs(x) for x in (built.f0_shift_pct, built.q_shift_pct)
+                      if x is not None and math.isfinite(x)]
+            drift = max(shifts) if shifts else None
     except SpecError as error:
         return CandidateResult(task.index, topology.id, topology.title, reason=f"bad input: {error}")
     return CandidateResult(
@@ -319,6 +334,7 @@ def _evaluate(task):
         values={k: float(v) for k, v in values.items()},
         rejection_db=(None if result.rejection_db is None
                       else float(result.statistics["rejection_db"].p01)),
+        gbw_drift_pct=drift,
     )
 
 

@@ -236,8 +236,8 @@ def test_cli_json_has_candidates_in_rank_order(ranked_spec, tmp_path, capsys):
                    "--workers", "1", "--quiet"])
     assert status == 0
     text = capsys.readouterr().out
-    for label in ("rank", "error (%)", "yield (%)", "R spread (max/min)", "max|S Q|",
-                  "GBW needed (Hz)", "cannot reach it", "sallen-key-lowpass-unity"):
+    for label in ("rank", "error (%)", "yield (%)", "R spread", "max|S Q|",
+                  "GBW needed (Hz)", "drift (%)", "cannot reach it", "sallen-key-lowpass-unity"):
         assert label in text
     data = json.loads(out.read_text())
     assert data["rank_by"] == "parts" and data["samples"] == 200 and data["seed"] == 0
@@ -373,3 +373,30 @@ def test_notch_candidates_carry_their_rejection_and_the_window_counts(tmp_path):
     assert main(["compare", str(tmp_path / "tight.toml"), "--json", str(out), "--workers", "1"]) == 0
     data = json.loads(out.read_text())
     assert all(isinstance(c["rejection_db"], float) for c in data["sections"][0]["candidates"])
+
+
+def test_drift_at_the_gbw_needed_shows_q_enhancement(tmp_path):
+    # Q = 5 at 1 kHz, each stage built with single-pole op-amps of the rule-of-thumb
+    # GBW (100 f0 Q = 500 kHz): the Tow–Thomas biquad's Q enhancement is the largest
+    # drift, the Akerberg–Mossberg biquad, made to cancel the integrators' phase lag,
+    # moves far less (Akerberg and Mossberg, 1974, from memory; common practice). The
+    # figure is the one the built circuit's own numeric MNA poles give.
+    spec = load_spec(_write_spec(tmp_path, _section_spec(5, [
+        "tow-thomas-lowpass", "akerberg-mossberg-lowpass", "sallen-key-lowpass-unity"])))
+    ranked = {c.topology: c for c in compare(spec, workers=1).sections[0].candidates}
+    tow, akerberg = ranked["tow-thomas-lowpass"], ranked["akerberg-mossberg-lowpass"]
+    assert tow.gbw_hz == pytest.approx(500e3)
+    assert tow.gbw_drift_pct > 3 * akerberg.gbw_drift_pct
+    w0 = TWO_PI * 1e3
+    for c in ranked.values():
+        circuit = get_topology(c.topology).circuit.with_values(c.values)
+        built = apply_amplifier(circuit, AmplifierSpec(gbw=c.gbw_hz))
+
+        def figures(poles):
+            pair = sorted(poles, key=lambda p: abs(abs(p) - w0))[:2]
+            omega0 = math.sqrt(abs(pair[0] * pair[1]))
+            return omega0, omega0 / -float((pair[0] + pair[1]).real)
+
+        (w_ideal, q_ideal), (w_real, q_real) = figures(circuit_poles(circuit)), figures(circuit_poles(built))
+        expected = 100 * max(abs(w_real / w_ideal - 1), abs(q_real / q_ideal - 1))
+        assert c.gbw_drift_pct == pytest.approx(expected, rel=1e-6)

@@ -33,8 +33,8 @@ def comparison_text(comparison):
              + ("" if "gain_db" in spec.tolerance.windows else ", gain ±0.5 dB")
              + f"; seed {comparison.seed}"]
     headers = ["rank", "topology", "parts", "op-amps", "error (%)", "yield (%)",
-               "R spread (max/min)", "C spread (max/min)", "max|S ω0|", "max|S Q|",
-               "GBW needed (Hz)", "GBW source"]
+               "R spread", "C spread", "max|S ω0|", "max|S Q|",
+               "GBW needed (Hz)", "GBW from", "drift (%)"]
     sources = set()
     for s in comparison.sections:
         sec = s.section
@@ -52,15 +52,24 @@ def comparison_text(comparison):
                          _number(c.spread.get("capacitor")), _number(c.max_sensitivity_w0),
                          _number(c.max_sensitivity_q),
                          "-" if c.gbw_hz is None else format_value(c.gbw_hz, "Hz"),
-                         _short_source(c.gbw_source)]
-                        + ([fmt_rejection(c.rejection_db)] if notch else []))
-        shown = headers + ([f"rejection at {format_value(sec.zero_f0_hz, 'Hz', digits=4)}, "
-                            f"99 % of builds"] if notch else [])
+                         _short_source(c.gbw_source), _number(c.gbw_drift_pct)]
+                        + ([fmt_rejection(c.rejection_db).removesuffix(" dB")] if notch else []))
+        shown = headers + ([f"rejection (dB)"] if notch else [])
         lines.append(table(shown, rows) if rows else "  no candidate reaches this section")
         unreachable = [c for c in s.candidates if not c.reachable]
         if unreachable:
             lines.append("  cannot reach it:")
             lines.extend(f"    {c.topology}: {c.reason}" for c in unreachable)
+    lines += ["", "Columns:",
+              "  error: worst root (f0, Q) or gain error after snapping; yield: Monte Carlo builds "
+              "inside the windows above",
+              "  R spread, C spread: largest/smallest value of that kind; max|S ω0|, max|S Q|: the "
+              "largest part sensitivity (% per %)",
+              "  drift: the larger f0 or Q shift of the snapped design built with single-pole "
+              "op-amps of the GBW needed"]
+    if any(c.rejection_db is not None for s in comparison.sections for c in s.candidates):
+        lines.append("  rejection: what 99 % of the builds still take off the target's zero "
+                     "frequency (pass-band gain over |H| there)")
     notes = sorted(x for x in sources if x and x != _SOURCES["passive"])
     if notes:
         lines += ["", "GBW needed:"] + [f"  {note}" for note in notes]
