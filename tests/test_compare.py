@@ -400,3 +400,21 @@ def test_drift_at_the_gbw_needed_shows_q_enhancement(tmp_path):
         (w_ideal, q_ideal), (w_real, q_real) = figures(circuit_poles(circuit)), figures(circuit_poles(built))
         expected = 100 * max(abs(w_real / w_ideal - 1), abs(q_real / q_ideal - 1))
         assert c.gbw_drift_pct == pytest.approx(expected, rel=1e-6)
+
+
+def test_yield_ties_within_two_standard_errors_go_to_the_simpler_stage():
+    # Binomial standard error of a yield p from n builds: sqrt(p(1 - p)/n); of the
+    # difference of two independent ones about sqrt(2 p(1 - p)/n) (textbook
+    # statistics). At n = 2000, p = 0.627: two of them are 3.06 percentage points.
+    def result(name, yield_pct, opamps, parts, error=0.02):
+        return CandidateResult(1, name, reachable=True, parts=parts, opamps=opamps,
+                               error_pct=error, yield_pct=yield_pct)
+
+    biquad = result("biquad", 62.7, 3, 8)
+    single = result("single", 62.4, 1, 4)
+    edge_in = result("edge-in", 62.7 - 3.0, 1, 3)
+    edge_out = result("edge-out", 62.7 - 3.2, 1, 2)
+    order = rank_candidates([biquad, single, edge_in, edge_out], samples=2000)
+    assert [c.topology for c in order] == ["edge-in", "single", "biquad", "edge-out"]
+    exact = rank_candidates([biquad, single, edge_in, edge_out])
+    assert [c.topology for c in exact] == ["biquad", "single", "edge-in", "edge-out"]

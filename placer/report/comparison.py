@@ -31,7 +31,8 @@ def comparison_text(comparison):
              f"  yield: {comparison.samples} Monte Carlo samples per candidate "
              f"({spec.tolerance.distribution}; {tolerances}) inside {windows} of the TARGET"
              + ("" if "gain_db" in spec.tolerance.windows else ", gain ±0.5 dB")
-             + f"; seed {comparison.seed}"]
+             + f"; seed {comparison.seed}; one standard error of a yield is at most "
+             f"±{100 * math.sqrt(0.25 / comparison.samples):.1f} %"]
     headers = ["rank", "topology", "parts", "op-amps", "error (%)", "yield (%)",
                "R spread", "C spread", "max|S ω0|", "max|S Q|",
                "GBW needed (Hz)", "GBW from", "drift (%)"]
