@@ -443,6 +443,12 @@ def _plain(value):
 
 # -- topologies ----------------------------------------------------------------
 
+def _solved_for(topology):
+    """Free parts the solver moves: those no constraint ties to another."""
+    tied = {c.part for c in topology.constraints}
+    return [name for name in topology.free if name not in tied]
+
+
 def _cmd_topologies(args):
     from .library import library_topologies, load_folder, resolve_topology
     from .network import network_function
@@ -479,7 +485,8 @@ def _cmd_topologies(args):
                  f"  response {topology.response}" + (f" ({topology.family})" if topology.family else "")
                  + f", order {topology.order}, {topology.part_count} parts, {topology.opamp_count} op-amps"
                  + (", inverting" if topology.inverting else ""),
-                 f"  free parts: {', '.join(topology.free)}"]
+                 f"  free parts: {', '.join(_solved_for(topology))}"
+                 + (" (the rest follow the constraints)" if topology.constraints else "")]
         if topology.constraints:
             lines.append(f"  constraints: {', '.join(str(c) for c in topology.constraints)}")
         if topology.description:
