@@ -20,18 +20,20 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+import numpy as np
+
 from .amplifier import (
     GBW_SPREAD,
     AmplifierSpec,
     apply_amplifier,
     check_amplifier,
-    place_section_with_amplifier,
 )
 from .dominant import DominantFunction
 from .errors import SpecError, UnreachableTarget
 from .network import network_function
-from .placement import place_ideal, worst_error_pct
-from .solve import root_errors
+from .placement import place_ideal, problem_options, worst_error_pct
+from .snap import snap
+from .solve import make_problem, root_errors, solve
 from .units import format_value
 
 __all__ = [
@@ -82,6 +84,18 @@ def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain
     built filter then moves with every op-amp). The quick uncorrected figure
     is found the same way on the ideal design's snapped values. Both
     searches assume the error falls as GBW rises.
+
+    The modelled circuit is derived once, at ωt = 1 rad/s, and scaled to
+    each GBW (s·C and s/ωt are all that the GBW enters; exact, see
+    :class:`_ScaledFunction`). The corrected search, where every step
+    costs a re-solve and a re-snap, visits the midpoints plain bisection
+    would, but decides one without a re-solve when a GBW already tried
+    decides it (met at g: met above g; missed at g: missed below), and
+    tries first the points a guess of the answer puts on either side of
+    it (:func:`_guided_bisect`). Where the error does fall with the GBW
+    this returns what plain bisection returns, with fewer re-solves; the
+    answer is always a GBW tried and met, with a GBW tried and missed at
+    most a factor 1 + `rtol` below it (or the bracket's bottom).
 
     Parameters
     ----------
@@ -141,35 +155,34 @@ def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain
     if topology.circuit.opamp_count == 0:
         return GBWRequirement(0.0, 0.0, (), error_pct, gbw_spread, note="the topology has no op-amp")
     corrected_at = {}
-
-    def model(gbw):
-        return AmplifierSpec(gbw=gbw, gain=amplifier_gain)
+    function_at = _function_family(topology.circuit, amplifier_gain)
+    ranges, series, fixed, constraints = problem_options(topology, parts)
 
     def worst_at(gbw, values):
-        dominant = DominantFunction.for_goal(
-            network_function(apply_amplifier(topology.circuit, model(gbw))), ideal.goal)
+        dominant = DominantFunction.for_goal(function_at(gbw), ideal.goal)
         return worst_error_pct(root_errors(dominant, values, ideal.goal))
 
     def corrected(gbw):
         if gbw not in corrected_at:
-            corrected_at[gbw] = place_section_with_amplifier(
-                section, topology, model(gbw), parts=parts, seed=seed,
-                coarse_budget=coarse_budget, ideal=ideal)
+            corrected_at[gbw] = _correct(ideal, topology, function_at(gbw), ranges, series,
+                                         fixed, constraints, seed, coarse_budget)
         return corrected_at[gbw]
 
-    def corrected_ok(gbw):
-        candidate = corrected(gbw)
-        if not candidate.reachable or candidate.error_pct > error_pct:
-            return False
+    def corrected_worst(gbw):
+        """Worst error (percent) of the design corrected at `gbw`, at it and its spread."""
+        design = corrected(gbw)
+        if design is None:
+            return math.inf
         edges = (gbw * (1 - gbw_spread), gbw * (1 + gbw_spread)) if gbw_spread else ()
-        return all(worst_at(edge, candidate.snapped.values) <= error_pct for edge in edges)
+        return max([design.error_pct] + [worst_at(edge, design.values) for edge in edges])
 
     def uncorrected_ok(gbw):
         return worst_at(gbw, ideal.snapped.values) <= error_pct
 
     notes = []
-    gbw = _bisect(corrected_ok, low, high, rtol)
     uncorrected = _bisect(uncorrected_ok, low, high, rtol)
+    hint = _corrected_hint(function_at, ideal, error_pct, gbw_spread, low, high)
+    gbw = _guided_bisect(corrected_worst, error_pct, low, high, rtol, hint)
     parasitic = ()
     if math.isfinite(gbw):
         parasitic = corrected(gbw).parasitic_poles_hz
@@ -185,6 +198,8 @@ def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain
                           note="; ".join(notes))
 
 
+# -- the searches ------------------------------------------------------------------
+
 def _bisect(ok, low, high, rtol):
     """Smallest x in [low, high] with ok(x), by bisection in log x (inf: none)."""
     if not ok(high):
@@ -198,3 +213,270 @@ def _bisect(ok, low, high, rtol):
         else:
             low = middle
     return high
+
+
+def _bisection_path(low, high, rtol, threshold):
+    """The midpoints :func:`_bisect` visits when ok(x) is x ≥ `threshold`."""
+    points = []
+    while high / low > 1 + rtol:
+        middle = math.sqrt(low * high)
+        points.append(middle)
+        if middle >= threshold:
+            high = middle
+        else:
+            low = middle
+    return points
+
+
+def _guided_bisect(worst, bound, low, high, rtol, hint):
+    """The bisection of :func:`_bisect` on ``worst(x) <= bound``, with fewer calls.
+
+    It walks the same path as :func:`_bisect` (the same endpoint checks,
+    the same midpoints, the same answer) when ok is monotone, the premise
+    of any bisection: a point tried and met decides every point above it,
+    one tried and missed every point below. Instead of trying the next
+    midpoint at once, it first tries the deepest point of the path a
+    guess of the threshold predicts, on each side of the guess, as long
+    as that point lies a safe distance from the guess; a right guess then
+    decides many midpoints with two calls, a wrong one still narrows the
+    bracket (and corrects the guess). The guess starts from `hint` and is
+    replaced by a secant of log worst against log x through the tightest
+    bracketing points once both sides are known.
+
+    Returns the smallest point tried and met inside the final bracket,
+    whose bottom is a point tried and missed (when ok is monotone, the
+    bracket's top, as :func:`_bisect` returns), `low` when met there,
+    ``inf`` when not met at `high`.
+    """
+    tried = {}
+
+    def evaluate(x):
+        if x not in tried:
+            tried[x] = worst(x)
+        return tried[x] <= bound
+
+    def known(x):
+        if x in tried:
+            return tried[x] <= bound
+        if any(p <= x and w <= bound for p, w in tried.items()):
+            return True
+        if any(p >= x and w > bound for p, w in tried.items()):
+            return False
+        return None
+
+    def guess():
+        met = [p for p, w in tried.items() if w <= bound]
+        missed = [p for p, w in tried.items() if w > bound]
+        top = min(met) if met else None
+        bottom = max(missed) if missed else None
+        ratio = 1.2
+        if top is not None and bottom is not None and 0 < tried[top] and math.isfinite(tried[bottom]):
+            # log worst is close to linear in log x (the error goes as 1/GBW)
+            ya, yb = math.log(bottom), math.log(top)
+            fa, fb = math.log(tried[bottom] / bound), math.log(tried[top] / bound)
+            y = ya + (yb - ya) * fa / (fa - fb) if fa > fb else 0.5 * (ya + yb)
+            return math.exp(min(max(y, ya), yb)), max(1 + rtol / 2, (top / bottom) ** 0.1)
+        if top is not None and tried[top] > 0:
+            return top * min(tried[top] / bound, 1.0), ratio
+        if bottom is not None and math.isfinite(tried[bottom]):
+            return bottom * max(tried[bottom] / bound, 1.0), ratio
+        return hint, ratio
+
+    def decide(x, lo, hi):
+        while known(x) is None:
+            centre, margin = guess()
+            path = [p for p in _bisection_path(lo, hi, rtol, centre)
+                    if p not in tried and abs(math.log(p / centre)) >= math.log(margin)]
+            # the deepest point on each side of the guess, below and above
+            above = [p for p in path if p >= centre]
+            below = [p for p in path if p < centre]
+            target = x
+            if x >= centre and above:
+                target = above[-1]
+            elif x < centre and below:
+                target = below[-1]
+            evaluate(target)
+        return known(x)
+
+    if not decide(high, low, high):
+        return math.inf
+    if decide(low, low, high):
+        return low
+    lo, hi = low, high
+    while True:
+        while hi / lo > 1 + rtol:
+            middle = math.sqrt(lo * hi)
+            if decide(middle, lo, hi):
+                hi = middle
+            else:
+                lo = middle
+        # The bracket's bottom must be a tried miss, as in _bisect, not one
+        # inferred; if it is met after all (ok not monotone here), search on below it.
+        if not evaluate(lo):
+            break
+        if lo == low:
+            return low
+        hi = lo
+        lo = max([p for p, w in tried.items() if w > bound and p < hi], default=low)
+        if lo == low and evaluate(low):
+            return low
+    met = [p for p, w in tried.items() if lo < p <= hi and w <= bound]
+    return min(met) if met else hi
+
+
+def _corrected_hint(function_at, ideal, error_pct, gbw_spread, low, high):
+    """A guess (Hz) of the corrected search's answer, from the ideal design alone.
+
+    A design corrected at a GBW g sits on target there (up to its snapping
+    error) and drifts, as the GBW moves to g·(1 ± spread), about as the
+    ideal design's figures drift between the same GBWs. The guess is the
+    smallest g at which that drift, plus the ideal design's snapping
+    error, meets the bound. It only steers :func:`_guided_bisect`, which
+    checks every decision on corrected designs.
+    """
+    goal, values = ideal.goal, ideal.snapped.values
+    floor = worst_error_pct(ideal.errors)
+    if not gbw_spread:
+        return low
+
+    def figures(gbw):
+        errors = root_errors(DominantFunction.for_goal(function_at(gbw), goal), values, goal)
+        named = [errors.f0_pct, errors.q_pct, errors.zero_f0_pct]
+        if all(x is None for x in named):
+            named = [errors.worst_root_pct]
+        if errors.gain_db is not None:
+            named.append(100 * (10 ** (errors.gain_db / 20) - 1))
+        return np.array([0.0 if x is None else x for x in named], dtype=float)
+
+    def drift_ok(gbw):
+        centre = figures(gbw)
+        drift = max(float(np.max(np.abs(figures(edge) - centre)))
+                    for edge in (gbw * (1 - gbw_spread), gbw * (1 + gbw_spread)))
+        return floor + drift <= error_pct
+
+    guess = _bisect(drift_ok, low, high, 0.005)
+    return guess if math.isfinite(guess) else high
+
+
+# -- the modelled network function at any GBW, from one derivation --------------
+
+#: The GBW (Hz) of the one derivation the others are scaled from: ωt = 1 rad/s,
+#: so the op-amp stamps stay integers.
+_REFERENCE_GBW = 1 / (2 * math.pi)
+_REACTIVE_KINDS = ("capacitor", "inductor")
+
+
+@dataclass(frozen=True)
+class _ScaledFunction:
+    """H(s) of the modelled circuit at one GBW, by frequency scaling.
+
+    Every frequency-dependent entry of the MNA matrix is s·C, s·L or an
+    op-amp row ``(s + ωt/A0)·v_out = ωt·(v+ − v−)``. Dividing the op-amp
+    rows by ωt leaves them functions of s/ωt, and s·C = (s/ωt)·(C·ωt), so
+    ``H(s; R, C, L, ωt) = H(s/ωt; R, C·ωt, L·ωt, 1)``: the function at
+    ``ωt = 1 rad/s`` (`reference`) evaluated at scaled reactances and a
+    scaled s. The DC gain A0 and every resistance are untouched. It offers
+    the evaluator interface of :class:`placer.network.NetworkFunction` that
+    :class:`placer.dominant.DominantFunction`, the solver and the snapper use.
+    """
+
+    reference: object
+    omega_t: float          # rad/s, over the reference's (which is 1 rad/s)
+    reactive: frozenset     # the part symbols of capacitors and inductors
+    opamp_count: int
+
+    @property
+    def symbols(self):
+        return self.reference.symbols
+
+    @property
+    def gain_kind(self):
+        return self.reference.gain_kind
+
+    @property
+    def order(self):
+        return self.reference.order
+
+    def _scaled(self, values):
+        t = self.omega_t
+        return {name: (np.asarray(value, dtype=float) * t if name in self.reactive else value)
+                for name, value in values.items()}
+
+    def coefficients(self, values):
+        """Coefficients of N and D, highest power of s first (as NetworkFunction's)."""
+        numerator, denominator = self.reference.coefficients(self._scaled(values))
+        # D(s) = ωt^m·D_ref(s/ωt) with m op-amp rows, the size the direct
+        # derivation's coefficients have; the common factor cancels in H.
+        return self._powers(numerator), self._powers(denominator)
+
+    def _powers(self, rows):
+        powers = np.arange(rows.shape[0] - 1, -1, -1, dtype=float)
+        factor = self.omega_t ** (self.opamp_count - powers)
+        return rows * factor.reshape((-1,) + (1,) * (rows.ndim - 1))
+
+    def poles(self, values):
+        """Poles in rad/s for one set of part values."""
+        return self.reference.poles(self._scaled(values)) * self.omega_t
+
+    def zeros(self, values):
+        """Finite zeros in rad/s for one set of part values."""
+        return self.reference.zeros(self._scaled(values)) * self.omega_t
+
+
+def _function_family(circuit, amplifier_gain):
+    """GBW (Hz) → the network function of `circuit` with that op-amp model.
+
+    One symbolic derivation scaled to every GBW (:class:`_ScaledFunction`)
+    when every capacitor and inductor carries a symbol; otherwise (a fixed
+    reactance would need scaling inside the derivation) one derivation per
+    GBW.
+    """
+    fixed_reactance = any(e.kind in _REACTIVE_KINDS and not e.is_symbolic
+                          for e in circuit.elements)
+    if fixed_reactance:
+        def direct(gbw):
+            return network_function(apply_amplifier(circuit, AmplifierSpec(gbw=gbw, gain=amplifier_gain)))
+        return direct
+    reference = network_function(
+        apply_amplifier(circuit, AmplifierSpec(gbw=_REFERENCE_GBW, gain=amplifier_gain)))
+    omega_reference = 2 * math.pi * _REFERENCE_GBW
+    reactive = frozenset(e.symbol for e in circuit.elements if e.kind in _REACTIVE_KINDS)
+    count = circuit.opamp_count
+
+    def scaled(gbw):
+        return _ScaledFunction(reference, 2 * math.pi * gbw / omega_reference, reactive, count)
+    return scaled
+
+
+@dataclass(frozen=True)
+class _Corrected:
+    """A design re-solved and snapped for one GBW: its values and figures."""
+
+    values: dict
+    error_pct: float
+    parasitic_poles_hz: tuple
+
+
+def _correct(ideal, topology, function, ranges, series, fixed, constraints, seed, coarse_budget):
+    """The corrected design for one modelled function (None: unreachable).
+
+    The steps of :func:`placer.amplifier.place_section_with_amplifier`
+    (re-solve the dominant roots from the ideal solution, snap), on a
+    network function given rather than derived, and without the drift
+    figures the GBW search does not read.
+    """
+    goal = ideal.goal
+    dominant = DominantFunction.for_goal(function, goal)
+    try:
+        problem = make_problem(topology, goal, ranges=ranges, fixed=fixed, constraints=constraints,
+                               nf=dominant)
+        solution = solve(problem, seed=seed, initial=[ideal.solution.u, *ideal.solution.alternatives])
+    except UnreachableTarget:
+        return None
+    snapped = snap(problem, solution, series=series, coarse_budget=coarse_budget)
+    parasitic = dominant.parasitic_poles(snapped.values)
+    return _Corrected(
+        values=snapped.values,
+        error_pct=worst_error_pct(root_errors(dominant, snapped.values, goal)),
+        parasitic_poles_hz=tuple(sorted(float(abs(p)) / (2 * math.pi) for p in parasitic)),
+    )
