@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .network import polynomial_values
 from .response import Response
 from .tolerance import monte_carlo
 from .units import finite_or_none
@@ -235,12 +236,7 @@ def _envelope(design, spec, verification, seed):
                 factor = 1 + rng.uniform(-t, t, ENVELOPE_SAMPLES)
             sampled[name] = value * factor
         numerator, denominator = nf.coefficients(sampled)
-        num = np.zeros((ENVELOPE_SAMPLES, omega.size), dtype=complex)
-        den = np.zeros((ENVELOPE_SAMPLES, omega.size), dtype=complex)
-        for c in numerator:
-            num = num * s[None, :] + c[:, None]
-        for c in denominator:
-            den = den * s[None, :] + c[:, None]
-        total *= num / den
+        total *= (polynomial_values(numerator[:, :, None], s[None, :])
+                  / polynomial_values(denominator[:, :, None], s[None, :]))
     magnitude = 20 * np.log10(np.maximum(np.abs(total), 1e-300))
     return {"frequency_hz": frequency, "low_db": magnitude.min(axis=0), "high_db": magnitude.max(axis=0)}

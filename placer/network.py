@@ -54,6 +54,7 @@ __all__ = [
     "circuit_response",
     "batched_roots",
     "fraction_free_det",
+    "polynomial_values",
 ]
 
 #: The Laplace variable, rad/s.
@@ -93,11 +94,17 @@ class NetworkFunction:
     # -- pickling (worker processes) -----------------------------------------
     def __getstate__(self):
         # The compiled evaluators and cached figures are rebuilt on demand;
-        # only the polynomials travel.
-        return {"numerator": self.numerator, "denominator": self.denominator,
+        # only the polynomials travel, with their domain's generator order
+        # (sympy's own pickling re-sorts it, which changes the order the
+        # evaluators add terms in, and so the last bits of the numbers).
+        return {"numerator": _poly_state(self.numerator),
+                "denominator": _poly_state(self.denominator),
                 "symbols": self.symbols, "cancelled": self.cancelled}
 
     def __setstate__(self, state):
+        state = dict(state)
+        state["numerator"] = _poly_from_state(state["numerator"])
+        state["denominator"] = _poly_from_state(state["denominator"])
         for name, value in state.items():
             object.__setattr__(self, name, value)
         object.__setattr__(self, "_cache", {})
@@ -175,10 +182,17 @@ class NetworkFunction:
     @cached_property
     def _evaluators(self):
         names = list(self.symbols)
-        args = [self.symbols[n] for n in names]
-        num = sympy.lambdify(args, list(self.numerator_coefficients), "numpy", dummify=True)
-        den = sympy.lambdify(args, list(self.denominator_coefficients), "numpy", dummify=True)
-        return names, num, den
+        # Placeholders named by position, not dummies: a Dummy's place in a
+        # printed product follows a process-wide counter, so two processes
+        # would multiply in different orders and differ in the last bits.
+        places = [sympy.Symbol(f"_part{i}") for i in range(len(names))]
+        mapping = {self.symbols[n]: place for n, place in zip(names, places)}
+
+        def compile_(coefficients):
+            return sympy.lambdify(places, [c.xreplace(mapping) for c in coefficients],
+                                  "numpy", dummify=False)
+
+        return names, compile_(self.numerator_coefficients), compile_(self.denominator_coefficients)
 
     def coefficients(self, values):
         """Numeric coefficients of N and D, highest power first.
@@ -267,6 +281,49 @@ def _roots(coefficients):
     if coefficients.size <= 1:
         return np.array([], dtype=complex)
     return np.roots(coefficients).astype(complex)
+
+
+def _poly_state(poly):
+    """A picklable description of a Poly that keeps its domain's generator order."""
+    domain = poly.domain
+    if domain.is_PolynomialRing:
+        return poly.as_expr(), poly.gens, str(domain.domain), tuple(domain.symbols)
+    return poly.as_expr(), poly.gens, str(domain), None
+
+
+def _poly_from_state(state):
+    expr, gens, ground, symbols = state
+    ground = {"ZZ": ZZ, "QQ": QQ}[ground]
+    return sympy.Poly(expr, *gens, domain=ground[symbols] if symbols else ground)
+
+
+def polynomial_values(coefficients, s):
+    """Values of many polynomials at s, by Horner's rule.
+
+    Parameters
+    ----------
+    coefficients : array_like, shape (n + 1, ...)
+        Highest power first; the trailing axes index the polynomials
+        (samples), as :meth:`NetworkFunction.coefficients` returns them.
+    s : complex or ndarray
+        Where to evaluate, broadcast against the trailing axes.
+
+    Returns
+    -------
+    ndarray of complex
+
+    Examples
+    --------
+    s² + 1 and 2s² + s at s = j:
+
+    >>> polynomial_values(np.array([[1.0, 2.0], [0.0, 1.0], [1.0, 0.0]]), 1j).tolist()
+    [0j, (-2+1j)]
+    """
+    coefficients = np.asarray(coefficients)
+    value = np.zeros(np.broadcast(coefficients[0], s).shape, complex)
+    for c in coefficients:
+        value = value * s + c
+    return value
 
 
 def batched_roots(coefficients, *, scale=1.0):

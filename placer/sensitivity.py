@@ -41,7 +41,7 @@ import numpy as np
 import sympy
 
 from .errors import SpecError, TopologyError
-from .network import batched_roots
+from .network import batched_roots, polynomial_values
 
 __all__ = ["Sensitivities", "sensitivities"]
 
@@ -147,13 +147,7 @@ def _gain(numerator, denominator, ref):
     if ref.gain_kind == "hf":
         return numerator[0] / denominator[0]
     s = 1j * ref.omega_ref
-    top = np.zeros(numerator.shape[1:], complex)
-    for c in numerator:
-        top = top * s + c
-    bottom = np.zeros(denominator.shape[1:], complex)
-    for c in denominator:
-        bottom = bottom * s + c
-    return np.abs(top / bottom)
+    return np.abs(polynomial_values(numerator, s) / polynomial_values(denominator, s))
 
 
 def _dominant_pair(denominator, omega_ref):

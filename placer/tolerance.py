@@ -40,6 +40,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .errors import NumericalWarning, SpecError
+from .network import polynomial_values
 from .sensitivity import (
     Sensitivities,
     _check_order,
@@ -330,13 +331,8 @@ def _check_reject_hz(reject_hz):
 
 def _rejection_db(numerator, denominator, gain, omega):
     """|gain| / |H(jω)| in dB per sample, capped at MAX_REJECTION_DB."""
-    s = 1j * omega
-    top = np.zeros(numerator.shape[1:], complex)
-    for c in numerator:
-        top = top * s + c
-    bottom = np.zeros(denominator.shape[1:], complex)
-    for c in denominator:
-        bottom = bottom * s + c
+    top = polynomial_values(numerator, 1j * omega)
+    bottom = polynomial_values(denominator, 1j * omega)
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = np.abs(gain) * np.abs(bottom) / np.abs(top)
         db = 20.0 * np.log10(ratio)
@@ -363,26 +359,49 @@ def _readonly(array):
 
 
 def _evaluate_block(nf, nominal, multipliers, index, ref, reject_hz):
-    """(ω0, Q or None, gain, rejection dB or None) for one block of samples."""
-    count = multipliers.shape[1]
-    columns = {
-        name: (nominal[name] * multipliers[index[name]] if name in index
-               else np.full(count, nominal[name]))
-        for name in nf.symbols
-    }
-    numerator, denominator = nf.coefficients(columns)
-    omega0, q, gain = _figures(numerator, denominator, ref)
-    rejection = None
-    if reject_hz is not None:
-        rejection = _rejection_db(numerator, denominator, gain, 2 * math.pi * reject_hz)
-    return omega0, q, gain, rejection
+    """(ω0, Q or None, gain, rejection dB or None) for consecutive samples.
+
+    The columns are evaluated CHUNK at a time, from the first, so the
+    arithmetic (and numpy's vectorised loops, whose last bits can depend on
+    where a value falls in an array) is the same however the samples are
+    split between processes, as long as each part starts at a multiple of
+    CHUNK.
+    """
+    parts = []
+    for start in range(0, multipliers.shape[1], CHUNK):
+        block = multipliers[:, start:start + CHUNK]
+        count = block.shape[1]
+        columns = {
+            name: (nominal[name] * block[index[name]] if name in index
+                   else np.full(count, nominal[name]))
+            for name in nf.symbols
+        }
+        numerator, denominator = nf.coefficients(columns)
+        omega0, q, gain = _figures(numerator, denominator, ref)
+        rejection = None
+        if reject_hz is not None:
+            rejection = _rejection_db(numerator, denominator, gain, 2 * math.pi * reject_hz)
+        parts.append((omega0, q, gain, rejection))
+
+    def join(k):
+        if parts[0][k] is None:
+            return None
+        return np.concatenate([np.broadcast_to(p[k], (len(p[0]),)) for p in parts])
+
+    return join(0), join(1), join(2), join(3)
 
 
 def _blocks(total, workers, progress):
-    """Column ranges: one per worker, cut to CHUNK when progress is reported."""
-    size = CHUNK if progress is not None else total
-    if workers > 1:
-        size = min(size, -(-total // workers))
+    """Column ranges handed out at once, each starting at a multiple of CHUNK.
+
+    In-process: everything, or CHUNK at a time to report progress; with
+    workers: about four ranges per worker.
+    """
+    if workers == 1:
+        size = CHUNK if progress is not None else total
+    else:
+        chunks = -(-total // CHUNK)
+        size = CHUNK * max(1, -(-chunks // (4 * workers)))
     return [(start, min(start + size, total)) for start in range(0, total, size)]
 
 
@@ -488,7 +507,7 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
         if progress is not None:
             progress(stop - 1, samples)
 
-    if workers == 1:
+    if workers == 1 or len(blocks) == 1:
         for block in blocks:
             start, stop = block
             store(block, _evaluate_block(nf, nominal, multipliers[:, start:stop], index, ref,
