@@ -41,7 +41,8 @@ import numpy as np
 from .circuit import Element
 from .dominant import DominantFunction, nearest_root_set
 from .errors import SpecError, UnreachableTarget
-from .network import circuit_poles, network_function
+from .network import network_function
+from .pencil import circuit_poles
 from .placement import Candidate, place_ideal, problem_options
 from .snap import COARSE_BUDGET, snap
 from .solve import make_problem, root_errors, solve

@@ -170,7 +170,8 @@ def _pairs(roots):
 # -- analyze -------------------------------------------------------------------
 
 def _cmd_analyze(args):
-    from .network import circuit_poles, circuit_zeros, network_function
+    from .network import network_function
+    from .pencil import circuit_poles, circuit_zeros
     from .report.console import table
 
     topology, circuit = _load_analysable(args.topology)

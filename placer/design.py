@@ -22,7 +22,7 @@ from .amplifier import apply_amplifier, check_amplifier, place_section_with_ampl
 from .circuit import Circuit, Element
 from .errors import SpecError, UnreachableTarget
 from .library import find_topologies, load_folder, resolve_topology
-from .network import circuit_roots
+from .pencil import circuit_roots
 from .placement import PART_KINDS, Candidate, place_ideal
 from .sections import split_sections
 

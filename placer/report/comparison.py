@@ -55,7 +55,7 @@ def comparison_text(comparison):
                          "-" if c.gbw_hz is None else format_value(c.gbw_hz, "Hz"),
                          _short_source(c.gbw_source), _number(c.gbw_drift_pct)]
                         + ([fmt_rejection(c.rejection_db).removesuffix(" dB")] if notch else []))
-        shown = headers + ([f"rejection (dB)"] if notch else [])
+        shown = headers + (["rejection (dB)"] if notch else [])
         lines.append(table(shown, rows) if rows else "  no candidate reaches this section")
         unreachable = [c for c in s.candidates if not c.reachable]
         if unreachable:
