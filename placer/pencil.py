@@ -87,7 +87,12 @@ def circuit_roots(circuit, values=None):
     system = numeric_system(circuit, values)
     _require_regular(system)
     poles, zeros = _cancel_pairs(_finite_eigenvalues(-system.G, system.C), _zeros_of(system))
-    scale = max([abs(r) for r in list(poles) + list(zeros)] + [1.0])
+    # Probe at the geometric mean of the root magnitudes: at the largest one,
+    # s·C swamps G for roots decades apart and the solve loses digits (a
+    # fifth-order ladder with roots from 1e3 to 7e7 rad/s lost five).
+    magnitudes = np.abs(np.concatenate([poles, zeros]))
+    magnitudes = magnitudes[magnitudes > 0]
+    scale = float(np.exp(np.mean(np.log(magnitudes)))) if magnitudes.size else 1.0
     probe = scale * (0.3 + 1.1j)
     h = np.linalg.solve(system.G + probe * system.C, system.b.astype(complex))[system.output]
     k = h * np.prod(probe - poles) / np.prod(probe - zeros)
