@@ -175,10 +175,15 @@ def evidence_text(evidence):
     lines.append(table(["response", "gain", "-3 dB", "peak", "at", "overshoot",
                         "rise 10-90 %", "settle 2 %"], rows))
     d = v.deviation
+    nulls = [s.monte_carlo.reject_hz for s in evidence.sections if s.monte_carlo.reject_hz]
+    at_null = any(abs(d.magnitude_at_hz / f - 1) < 0.1 for f in nulls)
     lines.append(f"  worst deviation from the target over {fmt_hz(v.band_hz[0])} – {fmt_hz(v.band_hz[1])}: "
                  f"{d.magnitude_db:.3f} dB (at {fmt_hz(d.magnitude_at_hz)}), "
                  f"{d.phase_deg:.2f}° phase (at {fmt_hz(d.phase_at_hz)})"
-                 + (" — output inverted" if d.inverted else ""))
+                 + (" — output inverted" if d.inverted else "")
+                 + (" — at a notch's null, where moving the null a fraction of a per cent "
+                    "reads as many dB; the rejection rows below give the figure that matters"
+                    if at_null else ""))
     if v.snapping_deviation is not None:
         lines.append(f"  cost of preferred values (snapped vs continuous): "
                      f"{v.snapping_deviation.magnitude_db:.3f} dB, {v.snapping_deviation.phase_deg:.2f}°")
