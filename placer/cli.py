@@ -90,6 +90,9 @@ def build_parser():
     p.add_argument("--plots", metavar="DIR", help="write each plot as PNG and SVG into DIR")
     p.add_argument("--samples", type=int, help="Monte Carlo samples")
     p.add_argument("--seed", type=int, help="random seed")
+    p.add_argument("--workers", type=int,
+                   help="worker processes for a Monte Carlo of 50,000 samples or more "
+                        "(default: all cores; the result does not depend on it)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
 
     p = sub.add_parser("topologies", help="list the topology library, or show one")
@@ -366,12 +369,16 @@ def _cmd_loop(args):
     if samples < 0:
         raise SpecError(f"--samples {samples}: give a whole number >= 0 (0 skips the Monte Carlo)")
     seed = spec.tolerance.seed if args.seed is None else args.seed
+    for option, value, low in (("--seed", args.seed, 0), ("--workers", args.workers, 1)):
+        if value is not None and value < low:
+            raise SpecError(f"{option} {value}: give a whole number >= {low}")
     tolerances = dict(spec.tolerance.tolerances)
     progress = Progress("loop", quiet=args.quiet)
     progress(0, 1, f"compensator and {samples} Monte Carlo builds")
     try:
         result = run_loop(spec.loop, source=args.spec, samples=samples, seed=seed,
-                          tolerances=tolerances, distribution=spec.tolerance.distribution)
+                          tolerances=tolerances, distribution=spec.tolerance.distribution,
+                          workers=args.workers)
         progress(1, 1, "done")
     finally:
         progress.close()
@@ -427,7 +434,14 @@ def _loop_text(data):
         for key, (label, unit) in labels.items():
             if key in mc:
                 value = mc[key]
-                parts.append(f"{label} {'none' if value is None else _plain(value)}{unit if value is not None else ''}")
+                if value is None:
+                    shown = ("unbounded (no phase crossover)" if key == "gain_margin_worst_db"
+                             else "none")
+                elif unit == " Hz":
+                    shown = format_value(value, "Hz", digits=4)
+                else:
+                    shown = f"{_plain(value)}{unit}"
+                parts.append(f"{label} {shown}")
         if mc.get("yield") is not None:
             parts.append(f"yield {100 * mc['yield']:.1f} % (phase margin at or above the floor)")
         lines.append("Monte Carlo (" + mc.get("distribution", "") + "): " + ", ".join(parts))

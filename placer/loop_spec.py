@@ -115,7 +115,7 @@ def loop_from_table(table, *, source="spec"):
 
 
 def run_loop(spec_table, *, source="spec", samples=1000, seed=0, tolerances=None,
-             distribution="uniform", topologies=None):
+             distribution="uniform", topologies=None, workers=1):
     """Read a ``[loop]`` spec, design the compensator, run the Monte Carlo.
 
     Parameters
@@ -130,6 +130,8 @@ def run_loop(spec_table, *, source="spec", samples=1000, seed=0, tolerances=None
         As for :func:`loop_monte_carlo` (default: each series' usual tolerance).
     topologies : mapping, optional
         Where to look the compensator up (default: the library).
+    workers : int or None, optional
+        Worker processes of the Monte Carlo (see :func:`loop_monte_carlo`).
 
     Returns
     -------
@@ -141,8 +143,8 @@ def run_loop(spec_table, *, source="spec", samples=1000, seed=0, tolerances=None
         resistor_series=spec.resistor_series, capacitor_series=spec.capacitor_series,
         r1=spec.r1, topologies=topologies)
     monte_carlo = (loop_monte_carlo(design, tolerances, samples=samples, seed=seed,
-                                    distribution=distribution,
-                                    margin_floor_deg=spec.margin_floor_deg) if samples else None)
+                                    distribution=distribution, margin_floor_deg=spec.margin_floor_deg,
+                                    workers=workers) if samples else None)
     return LoopResult(spec, design, monte_carlo)
 
 

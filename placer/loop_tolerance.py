@@ -26,6 +26,8 @@ from __future__ import annotations
 
 import math
 import numbers
+import os
+from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 from typing import NamedTuple
 
@@ -33,9 +35,9 @@ import numpy as np
 
 from .eseries import usual_tolerance
 from .errors import SpecError
-from .network import NetworkFunction, batched_roots
+from .network import NetworkFunction, batched_roots, polynomial_values
 from .plants import Plant
-from .tolerance import DISTRIBUTIONS
+from .tolerance import DISTRIBUTIONS, PARALLEL_MIN_SAMPLES
 
 __all__ = [
     "GridLoop", "GridMargins", "LoopMonteCarlo", "frequency_grid", "grid_margins",
@@ -85,10 +87,7 @@ def frequency_grid(crossover):
 
 def _polyval(coefficients, s):
     """Horner on (degree+1, n) coefficients and (m,) points: (n, m)."""
-    out = np.zeros((coefficients.shape[1], s.size), dtype=complex)
-    for c in coefficients:
-        out = out * s[None, :] + c[:, None]
-    return out
+    return polynomial_values(np.asarray(coefficients)[:, :, None], np.asarray(s)[None, :])
 
 
 def _scaled(coefficients, scale):
@@ -164,7 +163,16 @@ def _evaluate(grid_loop, values):
     return GridMargins(crossover, phase_margin, gain_margin, stable)
 
 
-def grid_margins(loop, arrays):
+def _evaluate_chunks(loop, arrays):
+    """GridMargins of consecutive part sets, _CHUNK at a time from the first."""
+    count = len(next(iter(arrays.values())))
+    results = [_evaluate(loop, {k: v[i:i + _CHUNK] for k, v in arrays.items()})
+               for i in range(0, count, _CHUNK)]
+    return GridMargins(*(np.concatenate([getattr(r, f) for r in results])
+                         for f in ("crossover", "phase_margin", "gain_margin_db", "stable")))
+
+
+def grid_margins(loop, arrays, *, workers=1):
     """Crossover, margins and stability of `loop` for many part sets at once.
 
     Parameters
@@ -181,12 +189,24 @@ def grid_margins(loop, arrays):
         gain margin (dB), interpolated between grid points, with the rules of
         :func:`placer.verify.margins` (smallest PM, GM nearest 0 dB); NaN
         where the grid holds no crossing; stable when every closed-loop
-        pole lies in the left half-plane. Evaluated in chunks of 512 sets.
+        pole lies in the left half-plane. Evaluated in chunks of 512 sets,
+        in `workers` processes (None: every core) from
+        :data:`placer.tolerance.PARALLEL_MIN_SAMPLES` sets up; the chunks
+        are the same either way, and so are the results.
     """
     count = len(next(iter(arrays.values())))
-    results = [_evaluate(loop, {k: v[i:i + _CHUNK] for k, v in arrays.items()})
-               for i in range(0, count, _CHUNK)]
-    return GridMargins(*(np.concatenate([getattr(r, f) for r in results])
+    workers = (os.cpu_count() or 1) if workers is None else workers
+    if isinstance(workers, bool) or not isinstance(workers, numbers.Integral) or workers < 1:
+        raise SpecError(f"workers must be a whole number >= 1, not {workers!r}")
+    if workers == 1 or count < PARALLEL_MIN_SAMPLES:
+        return _evaluate_chunks(loop, arrays)
+    chunks = -(-count // _CHUNK)
+    size = _CHUNK * max(1, -(-chunks // (4 * workers)))
+    starts = range(0, count, size)
+    with ProcessPoolExecutor(max_workers=workers) as pool:
+        parts = list(pool.map(_evaluate_chunks, [loop] * len(starts),
+                              [{k: v[i:i + size] for k, v in arrays.items()} for i in starts]))
+    return GridMargins(*(np.concatenate([getattr(r, f) for r in parts])
                          for f in ("crossover", "phase_margin", "gain_margin_db", "stable")))
 
 
@@ -239,7 +259,7 @@ class LoopMonteCarlo:
 
 
 def loop_monte_carlo(design, tolerances=None, *, samples=1000, seed=0, distribution="uniform",
-                     margin_floor_deg=None):
+                     margin_floor_deg=None, workers=1):
     """Tolerance Monte Carlo of a designed loop, vectorised over samples.
 
     Parameters
@@ -255,6 +275,10 @@ def loop_monte_carlo(design, tolerances=None, *, samples=1000, seed=0, distribut
     margin_floor_deg : float, optional
         Phase margin a sample must keep to count toward the yield; default
         the target minus 10°.
+    workers : int or None, optional
+        Worker processes (None: every core), used from
+        :data:`placer.tolerance.PARALLEL_MIN_SAMPLES` samples up; the
+        result does not depend on it.
 
     Returns
     -------
@@ -286,7 +310,7 @@ def loop_monte_carlo(design, tolerances=None, *, samples=1000, seed=0, distribut
         arrays[symbol] = design.snapped[symbol] * factor
     loop = GridLoop(design.network, design.sign, design.plant,
                     frequency_grid(design.placement.crossover))
-    margins = grid_margins(loop, arrays)
+    margins = grid_margins(loop, arrays, workers=workers)
     floor = (design.placement.phase_margin_deg - 10.0 if margin_floor_deg is None
              else float(margin_floor_deg))
     return LoopMonteCarlo(int(samples), seed, distribution, chosen, floor,

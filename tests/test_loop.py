@@ -270,6 +270,21 @@ def test_monte_carlo_spread_and_yield(examples):
         loop_monte_carlo(design, distribution="normal")
 
 
+def test_monte_carlo_in_worker_processes_gives_the_same_builds(examples, monkeypatch):
+    # The requirement: the same result with 1 or N workers (seeded). The
+    # threshold is lowered so a small run uses the workers (forked, they see it).
+    import placer.loop_tolerance as loop_tolerance
+
+    monkeypatch.setattr(loop_tolerance, "PARALLEL_MIN_SAMPLES", 1000)
+    design = examples["boost-loop.toml"].design
+    one = loop_monte_carlo(design, samples=3000, seed=5, workers=1)
+    two = loop_monte_carlo(design, samples=3000, seed=5, workers=2)
+    for name in ("crossover_hz", "phase_margin_deg", "gain_margin_db", "stable"):
+        np.testing.assert_array_equal(getattr(one, name), getattr(two, name))
+    with pytest.raises(SpecError, match="workers must be a whole number"):
+        loop_monte_carlo(design, samples=3000, workers=0)
+
+
 # -- type II on a simple plant -----------------------------------------------
 
 def test_type2_design_meets_its_margin():
