@@ -16,7 +16,6 @@ import textwrap
 
 import numpy as np
 import pytest
-from numpy.testing import assert_allclose
 from scipy import signal
 
 from placer.design import design
