@@ -30,7 +30,8 @@ _EXPORTS = {
     "library_topologies": "library", "get_topology": "library",
     "resolve_topology": "library", "find_topologies": "library",
     "NetworkFunction": "network", "network_function": "network",
-    "circuit_poles": "network", "circuit_zeros": "network", "circuit_response": "network",
+    "circuit_poles": "pencil", "circuit_zeros": "pencil", "circuit_response": "pencil",
+    "circuit_roots": "pencil", "circuit_gain": "pencil",
     "Target": "targets", "Section": "targets", "make_section": "targets",
     "design_target": "targets", "target_from_roots": "targets",
     "split_sections": "sections", "target_from_table": "target_table",
@@ -38,15 +39,17 @@ _EXPORTS = {
     "goal_from_section": "solve", "make_problem": "solve", "solve": "solve",
     "snap": "snap", "round_each": "snap",
     "sensitivities": "sensitivity", "monte_carlo": "tolerance",
+    "cascade_monte_carlo": "tolerance", "loop_monte_carlo": "loop_tolerance",
     "Response": "response", "verify": "verify", "margins": "verify",
     "Plant": "plants", "buck_plant": "plants", "boost_plant": "plants",
     "design_compensator": "loop",
     "Spec": "spec", "load_spec": "spec",
     "apply_amplifier": "amplifier", "place_section_with_amplifier": "amplifier",
+    "built_drift": "amplifier", "AmplifierSpec": "amplifier",
     "required_gbw": "gbw",
     "Design": "design", "design": "design", "place_section": "design",
     "gather_evidence": "evidence",
-    "compare": "compare", "comparison_to_dict": "compare",
+    "compare": "compare", "comparison_to_dict": "compare", "rank_candidates": "compare",
 }
 
 __all__ = ["__version__", *_EXPORTS]

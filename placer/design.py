@@ -27,7 +27,7 @@ from .placement import PART_KINDS, Candidate, place_ideal
 from .sections import split_sections
 
 __all__ = [
-    "rank_candidates",
+    "rank_placements",
     "SectionDesign",
     "Design",
     "PartChoice",
@@ -144,7 +144,7 @@ def place_section(section, topology, *, parts=None, seed=0):
     )
 
 
-def rank_candidates(candidates):
+def rank_placements(candidates):
     """Reachable candidates best first: error, then parts, then spread.
 
     Errors within :data:`ERROR_TIE_PCT` percentage points of the best count
@@ -235,7 +235,7 @@ def design(spec, *, seed=None, progress=None, place=place_section):
                 alternatives=[a for a in _alternatives_for(section)
                               if a not in {c.topology.id for c in candidates}],
             )
-        ranked = rank_candidates(reachable) + [c for c in candidates if not c.reachable]
+        ranked = rank_placements(reachable) + [c for c in candidates if not c.reachable]
         built.append((index, section, ranked))
     return _assemble(spec, built)
 
