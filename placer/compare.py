@@ -35,7 +35,7 @@ import numpy as np
 
 from .amplifier import AmplifierSpec, built_drift
 from .design import candidate_topologies, place_section
-from .errors import SpecError
+from .errors import PlacerError, SpecError
 from .gbw import required_gbw
 from .placement import value_spread
 from .sections import split_sections
@@ -319,6 +319,19 @@ def _gbw_needed(section, topology, spec, method):
     return GBW_FACTOR * section.f0_hz * q, source
 
 
+def _drift_at(topology, values, goal, gbw_hz, gain):
+    """Larger |f0| or |Q| shift (%) of the design built with op-amps of `gbw_hz`, or None."""
+    if gbw_hz is None or not math.isfinite(gbw_hz):
+        return None
+    try:
+        built = built_drift(topology, values, goal, AmplifierSpec(gbw=gbw_hz, gain=gain))
+    except (PlacerError, ArithmeticError, ValueError, np.linalg.LinAlgError):
+        return None        # a figure the table can leave out, not a reason to drop the candidate
+    shifts = [abs(x) for x in (built.f0_shift_pct, built.q_shift_pct)
+              if x is not None and math.isfinite(x)]
+    return max(shifts) if shifts else None
+
+
 def _largest(per_part, symbols):
     if per_part is None:
         return None
@@ -353,13 +366,7 @@ def _evaluate(task):
         sens = result.sensitivities
         parts = [s for s, k in kinds.items() if k in _PART_KINDS]
         gbw_hz, gbw_source = _gbw_needed(task.section, topology, spec, task.gbw)
-        drift = None
-        if gbw_hz is not None and math.isfinite(gbw_hz):
-            built = built_drift(topology, values, candidate.problem.goal,
-                                AmplifierSpec(gbw=gbw_hz, gain=spec.amplifier.gain))
-            shifts = [abs(x) for x in (built.f0_shift_pct, built.q_shift_pct)
-                      if x is not None and math.isfinite(x)]
-            drift = max(shifts) if shifts else None
+        drift = _drift_at(topology, values, candidate.problem.goal, gbw_hz, spec.amplifier.gain)
     except SpecError as error:
         return CandidateResult(task.index, topology.id, topology.title, reason=f"bad input: {error}")
     return CandidateResult(
