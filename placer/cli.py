@@ -214,10 +214,13 @@ def _cmd_analyze(args):
         data["zeros"] = _pairs(zeros)
         lines.append("")
         lines.append("With values: " + (", ".join(f"{k} = {format_value(v)}" for k, v in values.items()) or "all given in the file"))
-        rows = [["pole", f"{p.real:.6g}", f"{p.imag:+.6g}", format_value(abs(p) / (2 * math.pi), "Hz", digits=4)]
-                for p in sorted(poles, key=lambda r: (abs(r), r.imag))]
-        rows += [["zero", f"{z.real:.6g}", f"{z.imag:+.6g}", format_value(abs(z) / (2 * math.pi), "Hz", digits=4)]
-                 for z in sorted(zeros, key=lambda r: (abs(r), r.imag))]
+        def row(kind, r):
+            # + 0.0 turns a negative zero into a plain 0
+            return [kind, f"{r.real + 0.0:.6g}", f"{r.imag + 0.0:+.6g}",
+                    format_value(abs(r) / (2 * math.pi), "Hz", digits=4)]
+
+        rows = [row("pole", p) for p in sorted(poles, key=lambda r: (abs(r), r.imag))]
+        rows += [row("zero", z) for z in sorted(zeros, key=lambda r: (abs(r), r.imag))]
         lines.append(table(["root", "re (rad/s)", "im (rad/s)", "|root| (Hz)"], rows))
         if nf.order == 2:
             figures = nf.second_order_figures(values)
