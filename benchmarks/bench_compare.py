@@ -3,8 +3,10 @@
 A sixth-order Butterworth low-pass at 1 kHz (three second-order sections,
 Q = 0.5176, 0.7071 and 1.932), E96 resistors and E12 capacitors, every
 low-pass candidate topology of the library for each section, 2,000 Monte
-Carlo samples per candidate: ``placer.compare.compare`` with workers = 1
-(in-process) and workers = 2 (a process pool). The two rankings must be
+Carlo samples per candidate, and the GBW each candidate needs from the
+finite-GBW op-amp model (the default ``gbw="built"``):
+``placer.compare.compare`` with workers = 1 (in-process) and workers = 2
+(a process pool). The two rankings must be
 identical, number for number. Target: each under 20 s on a 2-core machine.
 
 Each worker count is timed in a fresh Python process (so neither run

@@ -77,9 +77,10 @@ def build_parser():
     p.add_argument("--json", metavar="OUT", help="write the ranking as JSON")
     p.add_argument("--samples", type=int, help="Monte Carlo samples per candidate")
     p.add_argument("--workers", type=int, help="worker processes (default: all cores)")
-    p.add_argument("--gbw", choices=("rule", "model"), default="rule",
-                   help="op-amp GBW each candidate needs: the 100·f0·Q rule of thumb (default) "
-                        "or the finite-GBW model (slower)")
+    p.add_argument("--gbw", choices=("built", "rule", "model"), default="built",
+                   help="op-amp GBW each candidate needs: the finite-GBW model on the snapped "
+                        "design as built (default), the 100·f0·Q rule of thumb, or the model "
+                        "plus the GBW a design re-solved for the op-amp needs (slower)")
     p.add_argument("--seed", type=int, help="random seed")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
 

@@ -36,7 +36,7 @@ import numpy as np
 from .amplifier import AmplifierSpec, built_drift
 from .design import candidate_topologies, place_section
 from .errors import PlacerError, SpecError
-from .gbw import required_gbw
+from .gbw import as_built_gbw, required_gbw
 from .placement import value_spread
 from .sections import split_sections
 from .tolerance import monte_carlo
@@ -57,8 +57,11 @@ RANK_KEYS = {
     "parts": "parts (few first), then error (low first)",
     "sensitivity": "largest |S| of ω0 or Q to any part (low first), then error (low first)",
 }
-#: Ways to state the gain-bandwidth a stage needs.
-GBW_METHODS = ("rule", "model")
+#: Ways to state the gain-bandwidth a stage needs: "built" (default) the
+#: single-pole op-amp model on the snapped design as compared; "rule" the
+#: 100·f0·Q rule of thumb; "model" as "built", plus what a design re-solved
+#: for the op-amp would need (seconds per candidate).
+GBW_METHODS = ("built", "rule", "model")
 #: Error bound (percent) the op-amp model's GBW requirement is computed for.
 GBW_ERROR_PCT = 1.0
 #: The rule-of-thumb factor: GBW >= GBW_FACTOR · f0 · Q.
@@ -72,9 +75,11 @@ _SOURCES = {
     "thumb": "rule of thumb: GBW >= 100·f0·Q, the Sallen–Key/MFB practice applied to "
              "a topology it was not stated for",
     "passive": "no op-amp",
+    "built": f"op-amp model (single pole, placer.gbw.as_built_gbw): the smallest GBW at which "
+             f"the snapped design, as built, stays within {GBW_ERROR_PCT:g} % of the target",
 }
 _SHORT = {"practice": "100·f0·Q (common practice)", "thumb": "100·f0·Q (rule of thumb)",
-          "passive": "-", "model": "op-amp model"}
+          "passive": "-", "built": "op-amp model", "model": "op-amp model"}
 
 
 @dataclass(frozen=True)
@@ -109,11 +114,12 @@ class CandidateResult:
         Notch sections: the rejection (pass-band gain over |H|, dB) at the
         target's zero frequency that 99 % of the Monte Carlo builds reach.
     gbw_drift_pct : float or None
-        The snapped design built with single-pole op-amps of ``gbw_hz``
-        (and the spec's DC gain, if any): the larger of its f0 and Q shifts
-        from the ideal-op-amp figures, percent (None: no op-amp or no GBW).
-        Q enhancement shows here: at the same GBW a Tow–Thomas stage moves
-        more than an Åkerberg–Mossberg one.
+        The snapped design built with single-pole op-amps of the rule of
+        thumb's GBW, 100·f0·Q (and the spec's DC gain, if any): the larger
+        of its f0 and Q shifts from the ideal-op-amp figures, percent (None:
+        no op-amp). What following the rule would cost; Q enhancement shows
+        here: at the same GBW a Tow–Thomas stage moves more than an
+        Åkerberg–Mossberg one.
     values : dict
         Part symbol → snapped value, SI units.
     """
@@ -295,28 +301,41 @@ class _Task:
     gbw: str
 
 
-def _gbw_needed(section, topology, spec, method):
+def _gbw_needed(section, topology, spec, method, candidate):
     """(GBW in Hz or None, source in words) for one reachable candidate."""
     if topology.opamp_count == 0:
         return None, _SOURCES["passive"]
-    if method == "model":
-        need = required_gbw(section, topology, error_pct=GBW_ERROR_PCT, parts=spec.parts,
-                             amplifier_gain=spec.amplifier.gain)
+    if method in ("built", "model"):
         # The design compared is the ideal-op-amp one as snapped: what it needs as built.
-        figure = need.uncorrected_gbw_hz
-        source = (f"op-amp model (placer.gbw.required_gbw): the snapped ideal-op-amp "
-                  f"design, as built, within {GBW_ERROR_PCT:g} % error")
-        if figure != need.gbw_hz and math.isfinite(need.gbw_hz):
-            source += f"; re-solved for the op-amp, {format_value(need.gbw_hz, 'Hz')} would do"
-        elif not math.isfinite(figure) and need.note:
-            source += f"; {need.note}"
+        source = _SOURCES["built"]
+        if candidate.error_pct > GBW_ERROR_PCT:
+            return None, (source + f"; its error with ideal op-amps, {candidate.error_pct:.3g} %, "
+                          f"is already past the bound")
+        figure = as_built_gbw(topology, candidate.snapped.values, candidate.problem.goal,
+                              error_pct=GBW_ERROR_PCT, amplifier_gain=spec.amplifier.gain)
+        if not math.isfinite(figure):
+            f0 = candidate.problem.goal.omega0 / (2 * math.pi)
+            top = 1e4 * f0 * max(candidate.problem.goal.q or 1.0, 1.0)
+            source += f"; not met up to {format_value(top, 'Hz')}"
+        if method == "model":
+            need = required_gbw(section, topology, error_pct=GBW_ERROR_PCT, parts=spec.parts,
+                                amplifier_gain=spec.amplifier.gain)
+            if math.isfinite(need.gbw_hz):
+                source += (f"; re-solved for the op-amp (placer.gbw.required_gbw), "
+                           f"{format_value(need.gbw_hz, 'Hz')} would do")
+            elif need.note:
+                source += f"; re-solved for the op-amp: {need.note}"
         return (figure if math.isfinite(figure) else None), source
-    q = section.q if section.q is not None else 1.0
     kind = "practice" if topology.id.startswith(_RULE_FAMILIES) else "thumb"
     source = _SOURCES[kind]
     if section.q is None:
         source += "; Q taken as 1 for a first-order stage"
-    return GBW_FACTOR * section.f0_hz * q, source
+    return _rule_gbw(section), source
+
+
+def _rule_gbw(section):
+    """The rule of thumb's GBW, Hz: GBW_FACTOR·f0·Q (Q taken as 1 for first order)."""
+    return GBW_FACTOR * section.f0_hz * (section.q if section.q is not None else 1.0)
 
 
 def _drift_at(topology, values, goal, gbw_hz, gain):
@@ -365,8 +384,9 @@ def _evaluate(task):
         # monte_carlo's sensitivities are sensitivities(nf, values) at these nominal values
         sens = result.sensitivities
         parts = [s for s, k in kinds.items() if k in _PART_KINDS]
-        gbw_hz, gbw_source = _gbw_needed(task.section, topology, spec, task.gbw)
-        drift = _drift_at(topology, values, candidate.problem.goal, gbw_hz, spec.amplifier.gain)
+        gbw_hz, gbw_source = _gbw_needed(task.section, topology, spec, task.gbw, candidate)
+        rule_hz = _rule_gbw(task.section) if topology.opamp_count else None
+        drift = _drift_at(topology, values, candidate.problem.goal, rule_hz, spec.amplifier.gain)
     except SpecError as error:
         return CandidateResult(task.index, topology.id, topology.title, reason=f"bad input: {error}")
     return CandidateResult(
@@ -438,7 +458,7 @@ def _run(tasks, workers, progress):
 
 
 def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, progress=None,
-            gbw="rule"):
+            gbw="built"):
     """Rank every candidate topology for every section of a spec's target.
 
     Parameters
@@ -456,11 +476,15 @@ def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, pro
         Seed of every solve and Monte Carlo (default: the spec's), >= 0.
     progress : callable, optional
         ``progress(done, total, topology_id)`` after each candidate.
-    gbw : {"rule", "model"}
+    gbw : {"built", "rule", "model"}
+        "built" (default): the finite-GBW op-amp model on each candidate's
+        snapped design, the smallest GBW that keeps it within
+        GBW_ERROR_PCT of the target as built (:func:`placer.gbw.as_built_gbw`).
         "rule": GBW >= 100·f0·Q (f0 in Hz), common practice for Sallen–Key
         and multiple-feedback stages, a labelled rule of thumb for other
-        active ones. "model": :func:`placer.gbw.required_gbw` on each
-        candidate (seconds per candidate).
+        active ones. "model": "built", and also what a design re-solved for
+        the op-amp would need (:func:`placer.gbw.required_gbw`; seconds per
+        candidate).
 
     Returns
     -------

@@ -7,6 +7,8 @@ a GBW of a few times f0 on paper. :func:`required_gbw` finds the smallest
 GBW (Hz) at which each still meets an error bound; the corrected design
 must also bear the op-amp's GBW spread (:data:`placer.amplifier.GBW_SPREAD`),
 so the figure does not lean on the datasheet's typical GBW.
+:func:`as_built_gbw` is the quick half: the smallest GBW at which one set
+of part values, built as it is, stays within the bound.
 
 References
 ----------
@@ -39,6 +41,7 @@ from .units import format_value
 __all__ = [
     "GBWRequirement",
     "required_gbw",
+    "as_built_gbw",
 ]
 
 
@@ -176,11 +179,9 @@ def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain
         edges = (gbw * (1 - gbw_spread), gbw * (1 + gbw_spread)) if gbw_spread else ()
         return max([design.error_pct] + [worst_at(edge, design.values) for edge in edges])
 
-    def uncorrected_ok(gbw):
-        return worst_at(gbw, ideal.snapped.values) <= error_pct
-
     notes = []
-    uncorrected = _bisect(uncorrected_ok, low, high, rtol)
+    uncorrected = as_built_gbw(topology, ideal.snapped.values, ideal.goal, error_pct=error_pct,
+                               amplifier_gain=amplifier_gain, rtol=rtol)
     hint = _corrected_hint(function_at, ideal, error_pct, gbw_spread, low, high)
     gbw = _guided_bisect(corrected_worst, error_pct, low, high, rtol, hint)
     parasitic = ()
@@ -196,6 +197,63 @@ def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain
         notes.append(f"correcting for the op-amp lowers the GBW needed {uncorrected / gbw:.3g}-fold")
     return GBWRequirement(gbw, uncorrected, tuple(parasitic), error_pct, gbw_spread,
                           note="; ".join(notes))
+
+
+def as_built_gbw(topology, values, goal, *, error_pct=1.0, amplifier_gain=None, rtol=0.02):
+    """Smallest GBW (Hz) at which a design, built as it is, meets `error_pct`.
+
+    Bisection in log GBW over [2·f0, 1e4·f0·max(Q, 1)] (f0 of the goal, Hz)
+    on the worst of the f0, Q (zero f0) and gain errors of the dominant
+    roots against the goal, the part values held: what the design needs
+    from its op-amps without being re-solved for them. Assumes the error
+    falls as the GBW rises. Quick: one symbolic derivation of the modelled
+    circuit, scaled to each GBW.
+
+    Parameters
+    ----------
+    topology : Topology
+    values : mapping of str to float
+        Every part symbol's value (SI), e.g. a snapped ideal-op-amp design.
+    goal : placer.solve.Goal
+    error_pct : float
+        Bound, percent; the design's own error with ideal op-amps counts.
+    amplifier_gain : float, optional
+        DC open-loop gain, V/V (None: infinite).
+    rtol : float
+        Relative width of the bracket at which the bisection stops.
+
+    Returns
+    -------
+    float
+        Hz; 0 for a topology with no op-amp, inf when not met up to the
+        search's top.
+
+    Examples
+    --------
+    A unity-gain Sallen–Key for Q = 2 at 10 kHz needs far more than the
+    100·f0·Q rule of thumb to stay within 1 % as built:
+
+    >>> from placer.design import place_section
+    >>> from placer.library import get_topology
+    >>> from placer.targets import make_section
+    >>> section = make_section("lowpass", 2 * math.pi * 10e3, 2.0)
+    >>> c = place_section(section, get_topology("sallen-key-lowpass-unity"))
+    >>> as_built_gbw(c.topology, c.snapped.values, c.problem.goal) > 100 * 10e3 * 2.0
+    True
+    """
+    if not (math.isfinite(error_pct) and error_pct > 0):
+        raise SpecError(f"error_pct = {error_pct!r} must be a positive percentage")
+    if topology.circuit.opamp_count == 0:
+        return 0.0
+    f0 = goal.omega0 / (2 * math.pi)
+    low, high = 2 * f0, 1e4 * f0 * max(goal.q or 1.0, 1.0)
+    function_at = _function_family(topology.circuit, amplifier_gain)
+
+    def ok(gbw):
+        dominant = DominantFunction.for_goal(function_at(gbw), goal)
+        return worst_error_pct(root_errors(dominant, values, goal)) <= error_pct
+
+    return _bisect(ok, low, high, rtol)
 
 
 # -- the searches ------------------------------------------------------------------

@@ -152,7 +152,7 @@ def test_gbw_rule_of_thumb_labels(tmp_path):
     # the same figure is labelled a rule of thumb for other active stages.
     q = 1.932
     spec = load_spec(_write_spec(tmp_path, _section_spec(q, ["mfb-lowpass", "tow-thomas-lowpass"])))
-    results = {c.topology: c for c in compare(spec, workers=1).sections[0].candidates}
+    results = {c.topology: c for c in compare(spec, workers=1, gbw="rule").sections[0].candidates}
     for topology in ("mfb-lowpass", "tow-thomas-lowpass"):
         assert results[topology].gbw_hz == pytest.approx(100 * 1e3 * q, rel=1e-9)
     assert results["mfb-lowpass"].gbw_source.startswith("common practice")
@@ -237,7 +237,7 @@ def test_cli_json_has_candidates_in_rank_order(ranked_spec, tmp_path, capsys):
     assert status == 0
     text = capsys.readouterr().out
     for label in ("rank", "error (%)", "yield (%)", "R spread", "max|S Q|",
-                  "GBW needed (Hz)", "drift (%)", "cannot reach it", "sallen-key-lowpass-unity"):
+                  "GBW needed (Hz)", "drift at 100·f0·Q (%)", "cannot reach it", "sallen-key-lowpass-unity"):
         assert label in text
     data = json.loads(out.read_text())
     assert data["rank_by"] == "parts" and data["samples"] == 200 and data["seed"] == 0
@@ -385,12 +385,11 @@ def test_drift_at_the_gbw_needed_shows_q_enhancement(tmp_path):
         "tow-thomas-lowpass", "akerberg-mossberg-lowpass", "sallen-key-lowpass-unity"])))
     ranked = {c.topology: c for c in compare(spec, workers=1).sections[0].candidates}
     tow, akerberg = ranked["tow-thomas-lowpass"], ranked["akerberg-mossberg-lowpass"]
-    assert tow.gbw_hz == pytest.approx(500e3)
     assert tow.gbw_drift_pct > 3 * akerberg.gbw_drift_pct
     w0 = TWO_PI * 1e3
     for c in ranked.values():
         circuit = get_topology(c.topology).circuit.with_values(c.values)
-        built = apply_amplifier(circuit, AmplifierSpec(gbw=c.gbw_hz))
+        built = apply_amplifier(circuit, AmplifierSpec(gbw=500e3))      # 100·f0·Q
 
         def figures(poles):
             pair = sorted(poles, key=lambda p: abs(abs(p) - w0))[:2]
@@ -418,3 +417,27 @@ def test_yield_ties_within_two_standard_errors_go_to_the_simpler_stage():
     assert [c.topology for c in order] == ["edge-in", "single", "biquad", "edge-out"]
     exact = rank_candidates([biquad, single, edge_in, edge_out])
     assert [c.topology for c in exact] == ["biquad", "single", "edge-in", "edge-out"]
+
+
+def test_gbw_needed_is_where_the_built_design_crosses_the_bound(tmp_path):
+    # Default "built": the smallest GBW at which the snapped design, built with
+    # single-pole op-amps, stays within 1 % of the target. Checked on the built
+    # circuit's own numeric MNA poles (an independent path): within 1 % at the
+    # figure, outside it 5 % below (bisection to 2 %).
+    spec = load_spec(_write_spec(tmp_path, _section_spec(2, [
+        "sallen-key-lowpass-unity", "mfb-lowpass", "tow-thomas-lowpass"])))
+    w0 = TWO_PI * 1e3
+
+    def worst_pct(c, gbw):
+        circuit = get_topology(c.topology).circuit.with_values(c.values)
+        poles = circuit_poles(apply_amplifier(circuit, AmplifierSpec(gbw=gbw)))
+        pair = sorted(poles, key=lambda p: abs(abs(p) - w0))[:2]
+        omega0 = math.sqrt(abs(pair[0] * pair[1]))
+        q = omega0 / -float((pair[0] + pair[1]).real)
+        return 100 * max(abs(omega0 / w0 - 1), abs(q / 2 - 1))
+
+    for c in compare(spec, workers=1).sections[0].candidates:
+        assert c.gbw_source.startswith("op-amp model")
+        assert worst_pct(c, c.gbw_hz) <= 1.0 + 1e-6
+        assert worst_pct(c, c.gbw_hz / 1.05) > 1.0
+        assert c.gbw_hz > 1e3 * 2                     # far above f0, as the trade expects

@@ -35,7 +35,7 @@ def comparison_text(comparison):
              f"±{100 * math.sqrt(0.25 / comparison.samples):.1f} %"]
     headers = ["rank", "topology", "parts", "op-amps", "error (%)", "yield (%)",
                "R spread", "C spread", "max|S ω0|", "max|S Q|",
-               "GBW needed (Hz)", "GBW from", "drift (%)"]
+               "GBW needed (Hz)", "GBW from", "drift at 100·f0·Q (%)"]
     sources = set()
     for s in comparison.sections:
         sec = s.section
@@ -66,12 +66,15 @@ def comparison_text(comparison):
               "inside the windows above",
               "  R spread, C spread: largest/smallest value of that kind; max|S ω0|, max|S Q|: the "
               "largest part sensitivity (% per %)",
-              "  drift: the larger f0 or Q shift of the snapped design built with single-pole "
-              "op-amps of the GBW needed"]
+              "  GBW needed: '-' for a passive stage, or for a design that misses the bound "
+              "with ideal op-amps already, or at every GBW up to 1e4·f0·Q (the JSON says which)",
+              "  drift at 100·f0·Q: the larger f0 or Q shift of the snapped design built with "
+              "single-pole op-amps of the rule of thumb's GBW"]
     if any(c.rejection_db is not None for s in comparison.sections for c in s.candidates):
         lines.append("  rejection: what 99 % of the builds still take off the target's zero "
                      "frequency (pass-band gain over |H| there)")
-    notes = sorted(x for x in sources if x and x != _SOURCES["passive"])
+    # one line per method; a candidate's own detail (why "-") is in the JSON
+    notes = sorted({x.split("; ")[0] for x in sources if x and x != _SOURCES["passive"]})
     if notes:
         lines += ["", "GBW needed:"] + [f"  {note}" for note in notes]
     return "\n".join(lines)
