@@ -75,8 +75,9 @@ _SOURCES = {
     "thumb": "rule of thumb: GBW >= 100·f0·Q, the Sallen–Key/MFB practice applied to "
              "a topology it was not stated for",
     "passive": "no op-amp",
-    "built": f"op-amp model (single pole, placer.gbw.as_built_gbw): the smallest GBW at which "
-             f"the snapped design, as built, stays within {GBW_ERROR_PCT:g} % of the target",
+    "built": f"op-amp model (single pole, placer.gbw.as_built_gbw): the smallest GBW, and at "
+             f"least 10·f0, at which the snapped design, as built, stays within "
+             f"{GBW_ERROR_PCT:g} % of the target",
 }
 _SHORT = {"practice": "100·f0·Q (common practice)", "thumb": "100·f0·Q (rule of thumb)",
           "passive": "-", "built": "op-amp model", "model": "op-amp model"}

@@ -42,7 +42,11 @@ __all__ = [
     "GBWRequirement",
     "required_gbw",
     "as_built_gbw",
+    "AS_BUILT_FLOOR",
 ]
+
+#: The least GBW :func:`as_built_gbw` gives, in units of the section's f0.
+AS_BUILT_FLOOR = 10.0
 
 
 @dataclass(frozen=True)
@@ -202,12 +206,15 @@ def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain
 def as_built_gbw(topology, values, goal, *, error_pct=1.0, amplifier_gain=None, rtol=0.02):
     """Smallest GBW (Hz) at which a design, built as it is, meets `error_pct`.
 
-    Bisection in log GBW over [2·f0, 1e4·f0·max(Q, 1)] (f0 of the goal, Hz)
-    on the worst of the f0, Q (zero f0) and gain errors of the dominant
+    Bisection in log GBW over [10·f0, 1e4·f0·max(Q, 1)] (f0 of the goal,
+    Hz) on the worst of the f0, Q (zero f0) and gain errors of the dominant
     roots against the goal, the part values held: what the design needs
     from its op-amps without being re-solved for them. Assumes the error
     falls as the GBW rises. Quick: one symbolic derivation of the modelled
-    circuit, scaled to each GBW.
+    circuit, scaled to each GBW. The floor, 10·f0, is there because the
+    dominant roots are not the whole story: below it the op-amp's own pole
+    sits within a decade of the band and bends the response there whatever
+    the roots do (common practice, no source).
 
     Parameters
     ----------
@@ -246,7 +253,7 @@ def as_built_gbw(topology, values, goal, *, error_pct=1.0, amplifier_gain=None, 
     if topology.circuit.opamp_count == 0:
         return 0.0
     f0 = goal.omega0 / (2 * math.pi)
-    low, high = 2 * f0, 1e4 * f0 * max(goal.q or 1.0, 1.0)
+    low, high = AS_BUILT_FLOOR * f0, 1e4 * f0 * max(goal.q or 1.0, 1.0)
     function_at = _function_family(topology.circuit, amplifier_gain)
 
     def ok(gbw):
