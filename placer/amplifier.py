@@ -58,6 +58,8 @@ __all__ = [
     "place_section_with_amplifier",
     "amplifier_summary",
     "built_drift",
+    "function_at_gbw",
+    "ScaledFunction",
     "GBW_SPREAD",
 ]
 
@@ -189,6 +191,118 @@ def apply_amplifier(circuit, amplifier):
         else:
             elements.append(modelled)
     return replace(circuit, elements=tuple(elements), _graph=None)
+
+
+# -- the modelled network function at any GBW, from one derivation -----------
+
+#: The GBW (Hz) of the one derivation the others are scaled from: ωt = 1 rad/s,
+#: so the op-amp stamps stay integers.
+_REFERENCE_GBW = 1 / (2 * math.pi)
+_REACTIVE_KINDS = ("capacitor", "inductor")
+
+
+@dataclass(frozen=True)
+class ScaledFunction:
+    """H(s) of the modelled circuit at one GBW, by frequency scaling.
+
+    Every frequency-dependent entry of the MNA matrix is s·C, s·L or an
+    op-amp row ``(s + ωt/A0)·v_out = ωt·(v+ − v−)``. Dividing the op-amp
+    rows by ωt leaves them functions of s/ωt, and s·C = (s/ωt)·(C·ωt), so
+    ``H(s; R, C, L, ωt) = H(s/ωt; R, C·ωt, L·ωt, 1)``: the function at
+    ``ωt = 1 rad/s`` (`reference`) evaluated at scaled reactances and a
+    scaled s. The DC gain A0 and every resistance are untouched. It offers
+    the evaluator interface of :class:`placer.network.NetworkFunction` that
+    :class:`placer.dominant.DominantFunction`, the solver and the snapper use.
+    """
+
+    reference: object
+    omega_t: float          # rad/s, over the reference's (which is 1 rad/s)
+    reactive: frozenset     # the part symbols of capacitors and inductors
+    opamp_count: int
+
+    @property
+    def symbols(self):
+        return self.reference.symbols
+
+    @property
+    def gain_kind(self):
+        return self.reference.gain_kind
+
+    @property
+    def order(self):
+        return self.reference.order
+
+    def _scaled(self, values):
+        t = self.omega_t
+        return {name: (np.asarray(value, dtype=float) * t if name in self.reactive else value)
+                for name, value in values.items()}
+
+    def coefficients(self, values):
+        """Coefficients of N and D, highest power of s first (as NetworkFunction's)."""
+        numerator, denominator = self.reference.coefficients(self._scaled(values))
+        # D(s) = ωt^m·D_ref(s/ωt) with m op-amp rows, the size the direct
+        # derivation's coefficients have; the common factor cancels in H.
+        return self._powers(numerator), self._powers(denominator)
+
+    def _powers(self, rows):
+        powers = np.arange(rows.shape[0] - 1, -1, -1, dtype=float)
+        factor = self.omega_t ** (self.opamp_count - powers)
+        return rows * factor.reshape((-1,) + (1,) * (rows.ndim - 1))
+
+    def poles(self, values):
+        """Poles in rad/s for one set of part values."""
+        return self.reference.poles(self._scaled(values)) * self.omega_t
+
+    def zeros(self, values):
+        """Finite zeros in rad/s for one set of part values."""
+        return self.reference.zeros(self._scaled(values)) * self.omega_t
+
+
+def function_at_gbw(circuit, amplifier):
+    """GBW (Hz) → the network function of `circuit` with that op-amp model.
+
+    Parameters
+    ----------
+    circuit : Circuit
+    amplifier : AmplifierSpec
+        The model; its DC gain and output resistance are kept, its GBW is
+        the one asked for.
+
+    Returns
+    -------
+    callable
+        ``gbw → network function``: one symbolic derivation scaled to every
+        GBW (:class:`ScaledFunction`) when every capacitor and inductor
+        carries a symbol; otherwise (a fixed reactance would need scaling
+        inside the derivation) one derivation per GBW.
+
+    Examples
+    --------
+    >>> from placer.library import get_topology
+    >>> circuit = get_topology("sallen-key-lowpass-unity").circuit
+    >>> family = function_at_gbw(circuit, AmplifierSpec(gain=1e5))
+    >>> values = {"R1": 1e4, "R2": 1e4, "C1": 2e-8, "C2": 1e-8}
+    >>> direct = network_function(apply_amplifier(circuit, AmplifierSpec(gbw=1e6, gain=1e5)))
+    >>> bool(np.allclose(np.sort_complex(family(1e6).poles(values)),
+    ...                  np.sort_complex(direct.poles(values)), rtol=1e-9))
+    True
+    """
+    fixed_reactance = any(e.kind in _REACTIVE_KINDS and not e.is_symbolic
+                          for e in circuit.elements)
+    if fixed_reactance:
+        def direct(gbw):
+            return network_function(apply_amplifier(circuit, replace(amplifier, gbw=gbw)))
+        return direct
+    reference = network_function(
+        apply_amplifier(circuit, replace(amplifier, gbw=_REFERENCE_GBW)))
+    omega_reference = 2 * math.pi * _REFERENCE_GBW
+    reactive = frozenset(e.symbol for e in circuit.elements if e.kind in _REACTIVE_KINDS)
+    count = circuit.opamp_count
+
+    def scaled(gbw):
+        return ScaledFunction(reference, 2 * math.pi * gbw / omega_reference, reactive, count)
+    return scaled
+
 
 
 def check_amplifier(amplifier, section, *, index=None):

@@ -27,12 +27,11 @@ import numpy as np
 from .amplifier import (
     GBW_SPREAD,
     AmplifierSpec,
-    apply_amplifier,
     check_amplifier,
+    function_at_gbw,
 )
 from .dominant import DominantFunction
 from .errors import SpecError, UnreachableTarget
-from .network import network_function
 from .placement import place_ideal, problem_options, worst_error_pct
 from .snap import snap
 from .solve import make_problem, root_errors, solve
@@ -94,7 +93,7 @@ def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain
 
     The modelled circuit is derived once, at ωt = 1 rad/s, and scaled to
     each GBW (s·C and s/ωt are all that the GBW enters; exact, see
-    :class:`_ScaledFunction`). The corrected search, where every step
+    :class:`placer.amplifier.ScaledFunction`). The corrected search, where every step
     costs a re-solve and a re-snap, visits the midpoints plain bisection
     would, but decides one without a re-solve when a GBW already tried
     decides it (met at g: met above g; missed at g: missed below), and
@@ -162,7 +161,7 @@ def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain
     if topology.circuit.opamp_count == 0:
         return GBWRequirement(0.0, 0.0, (), error_pct, gbw_spread, note="the topology has no op-amp")
     corrected_at = {}
-    function_at = _function_family(topology.circuit, amplifier_gain)
+    function_at = function_at_gbw(topology.circuit, AmplifierSpec(gain=amplifier_gain))
     ranges, series, fixed, constraints = problem_options(topology, parts)
 
     def worst_at(gbw, values):
@@ -254,7 +253,7 @@ def as_built_gbw(topology, values, goal, *, error_pct=1.0, amplifier_gain=None, 
         return 0.0
     f0 = goal.omega0 / (2 * math.pi)
     low, high = AS_BUILT_FLOOR * f0, 1e4 * f0 * max(goal.q or 1.0, 1.0)
-    function_at = _function_family(topology.circuit, amplifier_gain)
+    function_at = function_at_gbw(topology.circuit, AmplifierSpec(gain=amplifier_gain))
 
     def ok(gbw):
         dominant = DominantFunction.for_goal(function_at(gbw), goal)
@@ -421,96 +420,6 @@ def _corrected_hint(function_at, ideal, error_pct, gbw_spread, low, high):
 
     guess = _bisect(drift_ok, low, high, 0.005)
     return guess if math.isfinite(guess) else high
-
-
-# -- the modelled network function at any GBW, from one derivation --------------
-
-#: The GBW (Hz) of the one derivation the others are scaled from: ωt = 1 rad/s,
-#: so the op-amp stamps stay integers.
-_REFERENCE_GBW = 1 / (2 * math.pi)
-_REACTIVE_KINDS = ("capacitor", "inductor")
-
-
-@dataclass(frozen=True)
-class _ScaledFunction:
-    """H(s) of the modelled circuit at one GBW, by frequency scaling.
-
-    Every frequency-dependent entry of the MNA matrix is s·C, s·L or an
-    op-amp row ``(s + ωt/A0)·v_out = ωt·(v+ − v−)``. Dividing the op-amp
-    rows by ωt leaves them functions of s/ωt, and s·C = (s/ωt)·(C·ωt), so
-    ``H(s; R, C, L, ωt) = H(s/ωt; R, C·ωt, L·ωt, 1)``: the function at
-    ``ωt = 1 rad/s`` (`reference`) evaluated at scaled reactances and a
-    scaled s. The DC gain A0 and every resistance are untouched. It offers
-    the evaluator interface of :class:`placer.network.NetworkFunction` that
-    :class:`placer.dominant.DominantFunction`, the solver and the snapper use.
-    """
-
-    reference: object
-    omega_t: float          # rad/s, over the reference's (which is 1 rad/s)
-    reactive: frozenset     # the part symbols of capacitors and inductors
-    opamp_count: int
-
-    @property
-    def symbols(self):
-        return self.reference.symbols
-
-    @property
-    def gain_kind(self):
-        return self.reference.gain_kind
-
-    @property
-    def order(self):
-        return self.reference.order
-
-    def _scaled(self, values):
-        t = self.omega_t
-        return {name: (np.asarray(value, dtype=float) * t if name in self.reactive else value)
-                for name, value in values.items()}
-
-    def coefficients(self, values):
-        """Coefficients of N and D, highest power of s first (as NetworkFunction's)."""
-        numerator, denominator = self.reference.coefficients(self._scaled(values))
-        # D(s) = ωt^m·D_ref(s/ωt) with m op-amp rows, the size the direct
-        # derivation's coefficients have; the common factor cancels in H.
-        return self._powers(numerator), self._powers(denominator)
-
-    def _powers(self, rows):
-        powers = np.arange(rows.shape[0] - 1, -1, -1, dtype=float)
-        factor = self.omega_t ** (self.opamp_count - powers)
-        return rows * factor.reshape((-1,) + (1,) * (rows.ndim - 1))
-
-    def poles(self, values):
-        """Poles in rad/s for one set of part values."""
-        return self.reference.poles(self._scaled(values)) * self.omega_t
-
-    def zeros(self, values):
-        """Finite zeros in rad/s for one set of part values."""
-        return self.reference.zeros(self._scaled(values)) * self.omega_t
-
-
-def _function_family(circuit, amplifier_gain):
-    """GBW (Hz) → the network function of `circuit` with that op-amp model.
-
-    One symbolic derivation scaled to every GBW (:class:`_ScaledFunction`)
-    when every capacitor and inductor carries a symbol; otherwise (a fixed
-    reactance would need scaling inside the derivation) one derivation per
-    GBW.
-    """
-    fixed_reactance = any(e.kind in _REACTIVE_KINDS and not e.is_symbolic
-                          for e in circuit.elements)
-    if fixed_reactance:
-        def direct(gbw):
-            return network_function(apply_amplifier(circuit, AmplifierSpec(gbw=gbw, gain=amplifier_gain)))
-        return direct
-    reference = network_function(
-        apply_amplifier(circuit, AmplifierSpec(gbw=_REFERENCE_GBW, gain=amplifier_gain)))
-    omega_reference = 2 * math.pi * _REFERENCE_GBW
-    reactive = frozenset(e.symbol for e in circuit.elements if e.kind in _REACTIVE_KINDS)
-    count = circuit.opamp_count
-
-    def scaled(gbw):
-        return _ScaledFunction(reference, 2 * math.pi * gbw / omega_reference, reactive, count)
-    return scaled
 
 
 @dataclass(frozen=True)

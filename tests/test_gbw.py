@@ -11,9 +11,15 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from placer.amplifier import GBW_SPREAD, AmplifierSpec, apply_amplifier, place_section_with_amplifier
+from placer.amplifier import (
+    GBW_SPREAD,
+    AmplifierSpec,
+    apply_amplifier,
+    function_at_gbw,
+    place_section_with_amplifier,
+)
 from placer.dominant import DominantFunction
-from placer.gbw import _bisect, _function_family, _guided_bisect, required_gbw
+from placer.gbw import _bisect, _guided_bisect, required_gbw
 from placer.library import get_topology
 from placer.network import circuit_poles, network_function
 from placer.placement import place_ideal, worst_error_pct
@@ -81,7 +87,7 @@ def test_scaled_function_is_the_derivation_at_that_gbw(topology_id, gain):
     # roots a fresh derivation at the GBW gives, and the numeric MNA pencil too
     topology = get_topology(topology_id)
     ideal = place_ideal(section(), topology)
-    family = _function_family(topology.circuit, gain)
+    family = function_at_gbw(topology.circuit, AmplifierSpec(gain=gain))
     for gbw in (3e5, 4.7e6, 2e8):
         modelled = apply_amplifier(topology.circuit, AmplifierSpec(gbw=gbw, gain=gain))
         direct = network_function(modelled)
@@ -104,7 +110,7 @@ def test_a_fixed_capacitor_falls_back_to_one_derivation_per_gbw():
     values = {"C1": 22e-9}
     circuit = topology.circuit.with_values(values)
     assert any(e.kind == "capacitor" and not e.is_symbolic for e in circuit.elements)
-    family = _function_family(circuit, None)
+    family = function_at_gbw(circuit, AmplifierSpec())
     direct = network_function(apply_amplifier(circuit, AmplifierSpec(gbw=1e6)))
     assert family(1e6) is direct
 
