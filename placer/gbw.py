@@ -26,9 +26,13 @@ import numpy as np
 
 from .amplifier import (
     GBW_SPREAD,
+    ROBUST_SLACK,
+    ROBUST_STARTS,
     AmplifierSpec,
     check_amplifier,
     function_at_gbw,
+    gbw_spread_error,
+    robust_first,
 )
 from .dominant import DominantFunction
 from .errors import SpecError, UnreachableTarget
@@ -170,8 +174,12 @@ def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain
 
     def corrected(gbw):
         if gbw not in corrected_at:
+            prefer = None
+            if gbw_spread:
+                prefer = gbw_spread_error(topology, ideal.goal, function_at, gbw, ranges=ranges,
+                                          fixed=fixed, constraints=constraints, spread=gbw_spread)
             corrected_at[gbw] = _correct(ideal, topology, function_at(gbw), ranges, series,
-                                         fixed, constraints, seed, coarse_budget)
+                                         fixed, constraints, seed, coarse_budget, prefer)
         return corrected_at[gbw]
 
     def corrected_worst(gbw):
@@ -431,23 +439,31 @@ class _Corrected:
     parasitic_poles_hz: tuple
 
 
-def _correct(ideal, topology, function, ranges, series, fixed, constraints, seed, coarse_budget):
+def _correct(ideal, topology, function, ranges, series, fixed, constraints, seed, coarse_budget,
+             prefer=None):
     """The corrected design for one modelled function (None: unreachable).
 
     The steps of :func:`placer.amplifier.place_section_with_amplifier`
-    (re-solve the dominant roots from the ideal solution, snap), on a
-    network function given rather than derived, and without the drift
-    figures the GBW search does not read.
+    (re-solve the dominant roots from the ideal solution, prefer the
+    solutions that bear the GBW spread, snap), on a network function given
+    rather than derived, and without the drift figures the GBW search does
+    not read.
     """
     goal = ideal.goal
     dominant = DominantFunction.for_goal(function, goal)
     try:
         problem = make_problem(topology, goal, ranges=ranges, fixed=fixed, constraints=constraints,
                                nf=dominant)
-        solution = solve(problem, seed=seed, initial=[ideal.solution.u, *ideal.solution.alternatives])
+        solution = solve(problem, seed=seed, initial=[ideal.solution.u, *ideal.solution.alternatives],
+                         starts=ROBUST_STARTS)
     except UnreachableTarget:
         return None
-    snapped = snap(problem, solution, series=series, coarse_budget=coarse_budget)
+    if prefer is not None:
+        solution = robust_first(problem, solution, prefer)
+        snapped = snap(problem, solution, series=series, coarse_budget=coarse_budget,
+                       prefer=prefer, spread_slack=ROBUST_SLACK)
+    else:
+        snapped = snap(problem, solution, series=series, coarse_budget=coarse_budget)
     parasitic = dominant.parasitic_poles(snapped.values)
     return _Corrected(
         values=snapped.values,

@@ -114,7 +114,7 @@ def _per_decade(series_name):
 
 
 def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE_BUDGET,
-         spread_slack=SPREAD_SLACK):
+         spread_slack=SPREAD_SLACK, prefer=None):
     """Choose series values for the free parts of a solved problem.
 
     Parameters
@@ -134,6 +134,11 @@ def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE
         Relative error (5e-4 = 0.05 %) the choice may give up, beyond the
         best found, for a smaller value spread; capped at ERROR_CEILING
         unless the best is past it. 0: the least error.
+    prefer : callable, optional
+        ``prefer(U)`` → a score per column of U (log values of the
+        problem's independent parts, shape (n, B)), lower is better: what
+        the slack buys instead of a small spread (which then breaks ties).
+        For example a design's worst error when its op-amps' GBW is off.
 
     Returns
     -------
@@ -204,7 +209,7 @@ def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE
     # bend every snapped fine part to both of its neighbours
     candidates = _rounded(U, grids, fine if coarse else list(range(n)), problem)
     errors = error_of(candidates)
-    keep = _pool(candidates, errors, kinds, spread_slack)
+    keep = _pool(candidates, errors, kinds, spread_slack, prefer)
     pool, trials = _local_search(candidates[:, keep], grids, error_of)
     count = candidates.shape[1] + trials
     errors = error_of(pool)
@@ -212,7 +217,8 @@ def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE
     # without the gain in the objective (a gain tied to the poles), the spread
     # must not be bought with gain either
     gain_errors = None if with_gain else problem.worst_error(pool, with_gain=True)
-    best = pool[:, _choose(errors, spreads, spread_slack, gain_errors)]
+    scores = None if prefer is None else _scores(prefer, pool)
+    best = pool[:, _choose(errors, spreads, spread_slack, gain_errors, scores)]
     values = {k: float(np.asarray(v)) for k, v in problem.values(best).items()}
     for i, name in enumerate(problem.independent):
         if grids[i] is not None:
@@ -385,12 +391,18 @@ def _spreads(U, kinds):
 
 
 def _allowed(best, spread_slack):
-    """Largest error the spread may be bought with."""
-    return max(best, min(best + spread_slack, ERROR_CEILING))
+    """Largest error the spread (or a preference) may be bought with."""
+    return max(best, min(best + spread_slack, max(ERROR_CEILING, spread_slack)))
 
 
-def _pool(candidates, errors, kinds, spread_slack):
-    """Columns to polish: the best by error, and the smallest spreads in the slack."""
+def _scores(prefer, U):
+    """prefer(U) as a float array, NaN counted as the worst."""
+    scores = np.asarray(prefer(U), dtype=float).reshape(-1)
+    return np.where(np.isnan(scores), np.inf, scores)
+
+
+def _pool(candidates, errors, kinds, spread_slack, prefer=None):
+    """Columns to polish: the best by error, and the best spreads (or scores) in the slack."""
     count = errors.size
     keep = np.argpartition(errors, POOL_BY_ERROR)[:POOL_BY_ERROR] if count > POOL_BY_ERROR \
         else np.arange(count)
@@ -400,14 +412,20 @@ def _pool(candidates, errors, kinds, spread_slack):
     spreads = _spreads(candidates[:, inside], kinds)
     # several per spread level, so the search is not left with one shape only
     by_spread = inside[np.lexsort((errors[inside], np.round(spreads, 3)))][:POOL_BY_SPREAD]
-    return np.union1d(keep, by_spread)
+    keep = np.union1d(keep, by_spread)
+    if prefer is not None:
+        scores = _scores(prefer, candidates[:, inside])
+        by_score = inside[np.lexsort((errors[inside], np.round(scores, 6)))][:POOL_BY_SPREAD]
+        keep = np.union1d(keep, by_score)
+    return keep
 
 
-def _choose(errors, spreads, spread_slack, gain_errors=None):
-    """Index of the chosen column: smallest spread within the slack, then least error.
+def _choose(errors, spreads, spread_slack, gain_errors=None, scores=None):
+    """Index of the chosen column: smallest spread (or score) within the slack, then least error.
 
     `gain_errors` (worst error with the gain counted, when the objective
     leaves it out) must stay within the slack of the least-error column's.
+    `scores` (from `prefer`), when given, rank before the spread.
     """
     best = float(np.min(errors))
     limit = _allowed(best, spread_slack) if spread_slack > 0 else best
@@ -415,7 +433,8 @@ def _choose(errors, spreads, spread_slack, gain_errors=None):
     if gain_errors is not None:
         least = int(np.lexsort((spreads, np.round(errors, 7)))[0])
         inside &= gain_errors <= gain_errors[least] + max(spread_slack, 0.0) + 1e-7
-    rank = np.lexsort((errors, np.round(spreads, 7), ~inside))
+    keys = (errors, np.round(spreads, 7)) + (() if scores is None else (np.round(scores, 6),))
+    rank = np.lexsort(keys + (~inside,))
     return int(rank[0])
 
 
