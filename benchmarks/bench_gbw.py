@@ -48,13 +48,8 @@ import numpy as np  # noqa: E402
 import sympy  # noqa: E402
 from sympy.external.gmpy import GROUND_TYPES  # noqa: E402
 
-from placer.amplifier import (  # noqa: E402
-    GBW_SPREAD,
-    AmplifierSpec,
-    apply_amplifier,
-    check_amplifier,
-    place_section_with_amplifier,
-)
+from placer.amplifier import place_section_with_amplifier  # noqa: E402
+from placer.opamp import GBW_SPREAD, AmplifierSpec, apply_amplifier, check_amplifier  # noqa: E402
 from placer.dominant import DominantFunction  # noqa: E402
 from placer.errors import SpecError, UnreachableTarget  # noqa: E402
 from placer.gbw import required_gbw  # noqa: E402

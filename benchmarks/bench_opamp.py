@@ -41,7 +41,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 import numpy as np  # noqa: E402
 
-from placer.amplifier import apply_amplifier, place_section_with_amplifier  # noqa: E402
+from placer.amplifier import place_section_with_amplifier  # noqa: E402
+from placer.opamp import apply_amplifier  # noqa: E402
 from placer.library import get_topology  # noqa: E402
 from placer.network import circuit_poles  # noqa: E402
 from placer.spec import AmplifierSpec, PartsSpec  # noqa: E402

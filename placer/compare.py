@@ -33,10 +33,11 @@ from dataclasses import asdict, dataclass, field
 
 import numpy as np
 
-from .amplifier import AmplifierSpec, built_drift
+from .amplifier import built_drift
 from .design import candidate_topologies, place_section
 from .errors import PlacerError, SpecError
 from .gbw import as_built_gbw, required_gbw
+from .opamp import AmplifierSpec
 from .placement import value_spread
 from .sections import split_sections
 from .tolerance import monte_carlo

@@ -18,10 +18,11 @@ import math
 from dataclasses import dataclass, replace
 from functools import partial
 
-from .amplifier import apply_amplifier, check_amplifier, place_section_with_amplifier
+from .amplifier import place_section_with_amplifier
 from .circuit import Circuit, Element
 from .errors import SpecError, UnreachableTarget
 from .library import find_topologies, load_folder, resolve_topology
+from .opamp import apply_amplifier, check_amplifier
 from .pencil import circuit_roots
 from .placement import PART_KINDS, Candidate, place_ideal
 from .sections import split_sections

@@ -24,18 +24,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .amplifier import (
-    GBW_SPREAD,
-    ROBUST_SLACK,
-    ROBUST_STARTS,
-    AmplifierSpec,
-    check_amplifier,
-    function_at_gbw,
-    gbw_spread_error,
-    robust_first,
-)
+from .amplifier import ROBUST_SLACK, ROBUST_STARTS, gbw_spread_error, robust_first
 from .dominant import DominantFunction
 from .errors import SpecError, UnreachableTarget
+from .opamp import GBW_SPREAD, AmplifierSpec, check_amplifier, function_at_gbw
 from .placement import place_ideal, problem_options, worst_error_pct
 from .snap import snap
 from .solve import make_problem, root_errors, solve

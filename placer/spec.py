@@ -38,7 +38,7 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .amplifier import AMPLIFIER_PRESETS, AmplifierSpec
+from .opamp import AMPLIFIER_PRESETS, AmplifierSpec
 from .errors import SpecError
 from .eseries import check_series, usual_tolerance
 from .library import load_folder, resolve_topology

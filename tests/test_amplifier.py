@@ -9,13 +9,8 @@ import math
 import numpy as np
 import pytest
 
-from placer.amplifier import (
-    AmplifiedCandidate,
-    amplifier_summary,
-    apply_amplifier,
-    check_amplifier,
-    place_section_with_amplifier,
-)
+from placer.amplifier import AmplifiedCandidate, amplifier_summary, place_section_with_amplifier
+from placer.opamp import apply_amplifier, check_amplifier
 from placer.circuit import Circuit, Element, circuit_from_dict
 from placer.design import design
 from placer.dominant import DominantFunction, polished_roots

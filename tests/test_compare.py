@@ -14,7 +14,7 @@ from placer.compare import (
     comparison_to_dict,
     rank_candidates,
 )
-from placer.amplifier import AmplifierSpec, apply_amplifier
+from placer.opamp import AmplifierSpec, apply_amplifier
 from placer.design import place_section
 from placer.errors import SpecError
 from placer.library import LIBRARY_DIR, get_topology

@@ -11,13 +11,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from placer.amplifier import (
-    GBW_SPREAD,
-    AmplifierSpec,
-    apply_amplifier,
-    function_at_gbw,
-    place_section_with_amplifier,
-)
+from placer.amplifier import place_section_with_amplifier
+from placer.opamp import GBW_SPREAD, AmplifierSpec, apply_amplifier, function_at_gbw
 from placer.dominant import DominantFunction
 from placer.gbw import _bisect, _guided_bisect, required_gbw
 from placer.library import get_topology

@@ -19,7 +19,7 @@ import math
 import numpy as np
 import pytest
 
-from placer.amplifier import AmplifierSpec, apply_amplifier
+from placer.opamp import AmplifierSpec, apply_amplifier
 from placer.design import place_section
 from placer.library import get_topology
 from placer.network import circuit_gain, circuit_poles, circuit_zeros, network_function
