@@ -55,6 +55,7 @@ __all__ = [
     "place_section_with_amplifier",
     "amplifier_summary",
     "built_drift",
+    "correct_placement",
     "gbw_spread_error",
     "robust_first",
     "ROBUST_STARTS",
@@ -311,25 +312,19 @@ def _correct(section, topology, amplifier, modelled, ideal, parts, seed, coarse_
             drift=ideal_drift, note="the topology has no op-amp: nothing to model", **common,
         )
     ranges, series, fixed, constraints = problem_options(topology, parts)
+    prefer = None
+    if amplifier.gbw is not None:
+        prefer = gbw_spread_error(topology, goal, function_at_gbw(topology.circuit, amplifier),
+                                  amplifier.gbw, ranges=ranges, fixed=fixed, constraints=constraints)
     try:
-        problem = make_problem(topology, goal, ranges=ranges, fixed=fixed, constraints=constraints,
-                               nf=dominant)
-        starts = [ideal.solution.u, *ideal.solution.alternatives]
-        # more starts than the ideal placement: the exact solutions differ a lot
-        # in how they bear the GBW spread, and robust_first picks among them
-        solution = solve(problem, seed=seed, initial=starts, starts=ROBUST_STARTS)
+        problem, solution, snapped = correct_placement(
+            ideal, topology, dominant, ranges=ranges, fixed=fixed, constraints=constraints,
+            series=series, seed=seed, coarse_budget=coarse_budget, prefer=prefer)
     except UnreachableTarget as reason:
         return AmplifiedCandidate(
             reachable=False,
             reason=f"with the op-amp model ({describe_amplifier(amplifier)}): {reason.reason}", **common,
         )
-    prefer = None
-    if amplifier.gbw is not None:
-        prefer = gbw_spread_error(topology, goal, function_at_gbw(topology.circuit, amplifier),
-                                  amplifier.gbw, ranges=ranges, fixed=fixed, constraints=constraints)
-        solution = robust_first(problem, solution, prefer)
-    snapped = snap(problem, solution, series=series, coarse_budget=coarse_budget, prefer=prefer,
-                   **({} if prefer is None else {"spread_slack": ROBUST_SLACK}))
     return AmplifiedCandidate(
         reachable=True, problem=problem, solution=solution, snapped=snapped,
         errors=root_errors(dominant, snapped.values, goal),
@@ -339,6 +334,49 @@ def _correct(section, topology, amplifier, modelled, ideal, parts, seed, coarse_
         low_gbw_drift=_low_gbw_drift(topology, amplifier, snapped.values, goal),
         **common,
     )
+
+
+def correct_placement(ideal, topology, dominant, *, ranges=None, fixed=None, constraints=None,
+                      series=None, seed=0, coarse_budget=COARSE_BUDGET, prefer=None):
+    """Re-solve and snap a section's dominant roots, starting from its ideal placement.
+
+    Parameters
+    ----------
+    ideal : placer.placement.IdealPlacement
+        The ideal-op-amp placement (its solutions seed the re-solve).
+    topology : Topology
+    dominant : DominantFunction
+        The modelled network function's dominant view, for the ideal goal.
+    ranges, fixed, constraints, series
+        As :func:`placer.placement.problem_options` gives them.
+    seed : int
+    coarse_budget : int
+    prefer : callable, optional
+        A score such as :func:`gbw_spread_error`'s: the re-solve's most
+        robust exact solution seeds the snap, which may then give up to
+        ROBUST_SLACK of error for it.
+
+    Returns
+    -------
+    (Problem, Solution, SnapResult)
+
+    Raises
+    ------
+    UnreachableTarget
+        When the modelled function cannot reach the goal.
+    """
+    problem = make_problem(topology, ideal.goal, ranges=ranges, fixed=fixed,
+                           constraints=constraints, nf=dominant)
+    # more starts than the ideal placement: the exact solutions differ a lot
+    # in how they bear the GBW spread, and robust_first picks among them
+    solution = solve(problem, seed=seed, initial=[ideal.solution.u, *ideal.solution.alternatives],
+                     starts=ROBUST_STARTS)
+    if prefer is None:
+        return problem, solution, snap(problem, solution, series=series, coarse_budget=coarse_budget)
+    solution = robust_first(problem, solution, prefer)
+    snapped = snap(problem, solution, series=series, coarse_budget=coarse_budget, prefer=prefer,
+                   spread_slack=ROBUST_SLACK)
+    return problem, solution, snapped
 
 
 def gbw_spread_error(topology, goal, family, gbw, *, ranges=None, fixed=None, constraints=None,

@@ -24,13 +24,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .amplifier import ROBUST_SLACK, ROBUST_STARTS, gbw_spread_error, robust_first
+from .amplifier import correct_placement, gbw_spread_error
 from .dominant import DominantFunction
 from .errors import SpecError, UnreachableTarget
 from .opamp import GBW_SPREAD, AmplifierSpec, check_amplifier, function_at_gbw
 from .placement import place_ideal, problem_options, worst_error_pct
-from .snap import snap
-from .solve import make_problem, root_errors, solve
+from .solve import root_errors
 from .units import format_value
 
 __all__ = [
@@ -444,18 +443,11 @@ def _correct(ideal, topology, function, ranges, series, fixed, constraints, seed
     goal = ideal.goal
     dominant = DominantFunction.for_goal(function, goal)
     try:
-        problem = make_problem(topology, goal, ranges=ranges, fixed=fixed, constraints=constraints,
-                               nf=dominant)
-        solution = solve(problem, seed=seed, initial=[ideal.solution.u, *ideal.solution.alternatives],
-                         starts=ROBUST_STARTS)
+        _, _, snapped = correct_placement(ideal, topology, dominant, ranges=ranges, fixed=fixed,
+                                          constraints=constraints, series=series, seed=seed,
+                                          coarse_budget=coarse_budget, prefer=prefer)
     except UnreachableTarget:
         return None
-    if prefer is not None:
-        solution = robust_first(problem, solution, prefer)
-        snapped = snap(problem, solution, series=series, coarse_budget=coarse_budget,
-                       prefer=prefer, spread_slack=ROBUST_SLACK)
-    else:
-        snapped = snap(problem, solution, series=series, coarse_budget=coarse_budget)
     parasitic = dominant.parasitic_poles(snapped.values)
     return _Corrected(
         values=snapped.values,
