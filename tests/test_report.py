@@ -18,7 +18,8 @@ from placer.errors import SpecError
 from placer.evidence import gather_evidence
 from placer.loop_spec import loop_to_dict, run_loop
 from placer.report.data import design_to_dict
-from placer.report.html import inline_svg, write_design_report, write_loop_report
+from placer.report.html import write_design_report, write_loop_report
+from placer.report.page import inline_svg
 from placer.report.plots import (
     bode_figure,
     engineering_scale,

@@ -11,169 +11,22 @@ design came from) is always among the paths an output may not be.
 
 from __future__ import annotations
 
-import html
 import math
-import re
-from dataclasses import dataclass
-from pathlib import Path
 
 import control
 import numpy as np
 
 from .. import __version__
-from ..errors import SpecError
 from ..tolerance import MAX_REJECTION_DB
 from ..units import format_value
 from .console import fmt_db, fmt_gain, fmt_hz, fmt_pct, fmt_q, fmt_rejection, windows_text
-from .files import check_output_path, write_text
-from .plots import (bode_figure, figure_svg, histogram_figure, loop_bode_figure,
-                    pole_zero_figure, save_figure, step_figure)
+from .page import (POWER_CAUTION, Plots, caution_block, escape, finish_report, number_or_dash,
+                   paragraph, prepare_outputs, spec_block, table)
+from .plots import bode_figure, histogram_figure, loop_bode_figure, pole_zero_figure, step_figure
 
-__all__ = ["CAUTION", "POWER_CAUTION", "ReportFiles", "inline_svg",
-           "write_design_report", "write_loop_report"]
-
-#: The closing caution of every report.
-CAUTION = ("These values are a starting point: confirm the design by simulation and on the "
-           "bench. Equipment connected to mains, or used where a failure can hurt someone, "
-           "must follow its applicable safety standards and licensed practice.")
-#: The extra caution of a loop report.
-POWER_CAUTION = ("Power converters can hurt people: they store energy in inductors and "
-                 "capacitors, often work from mains or high voltages, and an unstable loop can "
-                 "destroy parts. Check the loop on the real converter (for example with a "
-                 "network analyser injection measurement) before it carries power unattended.")
+__all__ = ["write_design_report", "write_loop_report"]
 
 _UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
-_STYLE = """
-body { font-family: system-ui, -apple-system, "Segoe UI", Roboto, sans-serif; margin: 2em auto;
-       max-width: 60em; padding: 0 1em; color: #222; line-height: 1.45; }
-h1 { font-size: 1.6em; border-bottom: 2px solid #36c; padding-bottom: .2em; }
-h2 { font-size: 1.25em; margin-top: 1.8em; border-bottom: 1px solid #ccc; }
-h3 { font-size: 1.05em; }
-table { border-collapse: collapse; margin: .6em 0 1em; font-size: .92em; }
-th, td { border: 1px solid #ccc; padding: .25em .6em; text-align: left; vertical-align: top; }
-th { background: #eef2f8; }
-td.n { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
-pre { background: #f6f6f6; border: 1px solid #ddd; padding: .7em; overflow-x: auto; }
-figure { margin: 1em 0; }
-figure svg { max-width: 100%; height: auto; }
-figcaption { font-size: .9em; color: #555; }
-.caution { border: 2px solid #c60; background: #fff6ec; padding: .6em 1em; }
-.note { color: #555; font-size: .92em; }
-"""
-
-
-@dataclass(frozen=True)
-class ReportFiles:
-    """What a report writer wrote: the HTML file and the plot files."""
-
-    html: Path | None
-    plots: tuple
-
-
-def inline_svg(svg, prefix):
-    """An SVG document made fit to sit inside HTML next to other SVGs.
-
-    The XML prolog, the DOCTYPE and the namespace declarations go (the
-    HTML parser puts ``<svg>`` in the SVG namespace itself), and every id
-    and reference to an id gets `prefix`, so two plots never share an id.
-
-    Examples
-    --------
-    >>> inline_svg('<?xml version="1.0"?>\\n<svg xmlns="http://www.w3.org/2000/svg">'
-    ...            '<path id="a"/><use xlink:href="#a"/></svg>', "p1-")
-    '<svg><path id="p1-a"/><use xlink:href="#p1-a"/></svg>'
-    """
-    text = re.sub(r"<\?xml[^>]*\?>\s*", "", svg)
-    text = re.sub(r"<!DOCTYPE[^>]*>\s*", "", text)
-    text = re.sub(r'\s+xmlns(:\w+)?="[^"]*"', "", text)
-    text = re.sub(r'\bid="([^"]+)"', lambda m: f'id="{prefix}{m.group(1)}"', text)
-    text = re.sub(r'href="#([^"]+)"', lambda m: f'href="#{prefix}{m.group(1)}"', text)
-    text = re.sub(r"url\(#([^)]+)\)", lambda m: f"url(#{prefix}{m.group(1)})", text)
-    return text.strip()
-
-
-# -- small HTML pieces ---------------------------------------------------------
-
-def _e(text):
-    return html.escape(str(text), quote=True)
-
-
-def _table(headers, rows, *, numeric_from=1):
-    """An HTML table; cells from column `numeric_from` on are right-aligned."""
-    head = "".join(f"<th>{_e(h)}</th>" for h in headers)
-    body = []
-    for row in rows:
-        cells = "".join(
-            f'<td class="n">{_e(c)}</td>' if i >= numeric_from else f"<td>{_e(c)}</td>"
-            for i, c in enumerate(row))
-        body.append(f"<tr>{cells}</tr>")
-    return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>"
-
-
-def _p(text, cls=None):
-    return f'<p class="{cls}">{_e(text)}</p>' if cls else f"<p>{_e(text)}</p>"
-
-
-def _page(title, parts):
-    return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
-            f"<title>{_e(title)}</title>\n"
-            f"<meta name=\"generator\" content=\"placer {__version__}\">\n"
-            f"<style>{_STYLE}</style>\n</head>\n<body>\n" + "\n".join(parts)
-            + "\n</body>\n</html>\n")
-
-
-def _spec_block(path):
-    if not path:
-        return _p("(no spec file: the design was built in code)", "note")
-    try:
-        text = Path(path).read_text(encoding="utf-8")
-    except OSError as error:
-        return _p(f"(the spec file {path} could not be read: {error})", "note")
-    return f"<p>From <code>{_e(path)}</code>:</p>\n<pre>{_e(text)}</pre>"
-
-
-def _caution(extra=None):
-    parts = ['<h2>Before you build it</h2>', '<div class="caution">', _p(CAUTION)]
-    if extra:
-        parts.append(_p(extra))
-    parts.append("</div>")
-    return "\n".join(parts)
-
-
-def _number(x, fmt):
-    return "-" if x is None or (isinstance(x, float) and not math.isfinite(x)) else fmt(x)
-
-
-class _Plots:
-    """Turns figures into inline SVG blocks and, with a folder, into files."""
-
-    def __init__(self, folder, inputs):
-        self.folder, self.inputs, self.written, self.count = folder, inputs, [], 0
-
-    def block(self, stem, fig, caption):
-        self.count += 1
-        if self.folder is not None:
-            self.written += save_figure(fig, self.folder, stem, inputs=self.inputs)
-        svg = inline_svg(figure_svg(fig), f"p{self.count}-")
-        svg = svg.replace("<svg", f'<svg role="img" aria-label="{_e(caption)}"', 1)
-        return f"<figure>\n{svg}\n<figcaption>{_e(caption)}</figcaption>\n</figure>"
-
-
-def _prepare(html_path, plots_dir, inputs):
-    """Check every output before any work; returns the inputs as a tuple."""
-    inputs = tuple(str(i) for i in inputs if i)
-    if html_path is not None:
-        check_output_path(html_path, inputs=inputs, option="--report")
-    if plots_dir is not None and not Path(plots_dir).is_dir():
-        raise SpecError(f"--plots: folder {str(plots_dir)!r} does not exist")
-    return inputs
-
-
-def _finish(title, parts, html_path, plots, inputs):
-    written = None
-    if html_path is not None:
-        written = write_text(html_path, _page(title, parts), inputs=inputs, option="--report")
-    return ReportFiles(written, tuple(plots.written))
 
 
 def _on_grid(grid, frequency, values):
@@ -235,7 +88,7 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
 
     Returns
     -------
-    ReportFiles
+    placer.report.page.ReportFiles
 
     Raises
     ------
@@ -245,16 +98,16 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
     """
     spec_path = getattr(design.spec, "path", None)
     extra = [spec_path] + [getattr(s.topology, "path", "") for s in design.sections]
-    inputs = _prepare(html_path, plots_dir, tuple(inputs) + tuple(extra))
-    plots = _Plots(plots_dir, inputs)
+    inputs = prepare_outputs(html_path, plots_dir, tuple(inputs) + tuple(extra))
+    plots = Plots(plots_dir, inputs)
     title = data.get("title") or "placer design"
     parts_count = sum(len(s["parts"]) for s in data["sections"])
     opamps = [e for e in data["circuit"]["elements"] if e["kind"] == "opamp"]
-    parts = [f"<h1>Design report: {_e(title)}</h1>",
-             _p(f"{len(data['sections'])} filter section(s) in cascade, {parts_count} passive "
+    parts = [f"<h1>Design report: {escape(title)}</h1>",
+             paragraph(f"{len(data['sections'])} filter section(s) in cascade, {parts_count} passive "
                 f"parts and {len(opamps)} op-amp(s). Made by placer {__version__}. Frequencies "
                 "are in hertz; roots of the transfer function in rad/s."),
-             "<h2>What was asked for</h2>", _spec_block(spec_path)]
+             "<h2>What was asked for</h2>", spec_block(spec_path)]
     parts += _section_tables(data)
     parts.append("<h2>Where the poles and zeros sit</h2>")
     parts.append(plots.block("pole-zero", pole_zero_figure(
@@ -265,27 +118,27 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
         _root_rows("target zero", data["target"]["zeros"]) + \
         _root_rows("achieved pole", data["achieved"]["poles"]) + \
         _root_rows("achieved zero", data["achieved"]["zeros"])
-    parts.append(_table(_ROOT_HEADERS, roots))
+    parts.append(table(_ROOT_HEADERS, roots))
     if evidence is None:
-        parts.append(_p("No responses, sensitivities or tolerance analysis were computed for "
+        parts.append(paragraph("No responses, sensitivities or tolerance analysis were computed for "
                         "this report.", "note"))
     else:
         parts += _evidence_parts(evidence, plots)
     parts += _parts_list(data, design)
     parts += _candidates(data)
-    parts.append(_caution())
-    return _finish(f"Design report: {title}", parts, html_path, plots, inputs)
+    parts.append(caution_block())
+    return finish_report(f"Design report: {title}", parts, html_path, plots, inputs)
 
 
 def _section_tables(data):
     out = ["<h2>Target and achieved, section by section</h2>",
-           _p("“Continuous” is the exact solution before snapping; “preferred values” is the "
+           paragraph("“Continuous” is the exact solution before snapping; “preferred values” is the "
               "built design. Errors are of the preferred-value design against the target.",
               "note")]
     for s in data["sections"]:
         t, a, c, e = s["target"], s["achieved"], s["continuous"], s["error"]
-        out.append(f"<h3>Section {s['index']}: {_e(t['kind'])}, order {t['order']} — "
-                   f"{_e(s['title'])} (<code>{_e(s['topology'])}</code>)"
+        out.append(f"<h3>Section {s['index']}: {escape(t['kind'])}, order {t['order']} — "
+                   f"{escape(s['title'])} (<code>{escape(s['topology'])}</code>)"
                    f"{', inverting' if a.get('inverting') else ''}</h3>")
         rows = [["f0 (Hz)", fmt_hz(t["f0_hz"]), fmt_hz(c["f0_hz"]), fmt_hz(a["f0_hz"]),
                  fmt_pct(e["f0_pct"])]]
@@ -297,9 +150,9 @@ def _section_tables(data):
                          fmt_hz(a["zero_f0_hz"]), fmt_pct(e["zero_f0_pct"])])
         rows.append(["gain (dB)", fmt_gain(t["gain_db"]), fmt_gain(c["gain_db"]),
                      fmt_gain(a["gain_db"]), fmt_db(e["gain_db"])])
-        out.append(_table(["figure", "target", "continuous", "preferred values", "error"], rows))
+        out.append(table(["figure", "target", "continuous", "preferred values", "error"], rows))
     achieved = data["achieved"]
-    out.append(_p(f"Whole cascade: target gain {fmt_gain(data['target']['gain_db'])}, achieved "
+    out.append(paragraph(f"Whole cascade: target gain {fmt_gain(data['target']['gain_db'])}, achieved "
                   f"{fmt_gain(achieved['gain_db'])}"
                   f"{' (inverting)' if achieved.get('inverting') else ''}; "
                   f"{len(achieved['poles'])} poles, {len(achieved['zeros'])} finite zeros."))
@@ -332,14 +185,14 @@ def _evidence_parts(evidence, plots):
         edge = q.f3db_hz if q.f3db_hz is not None else q.band_low_hz
         rows.append([name, q.kind, fmt_gain(q.gain_db), fmt_hz(edge), fmt_gain(q.peak_db),
                      fmt_hz(q.peak_hz) if q.peak_hz else "DC"])
-        steps.append([name, _number(s.overshoot_pct, lambda x: f"{x:.2f} %"),
-                      _number(s.rise_time_s, lambda x: format_value(x, "s")),
-                      _number(s.settling_time_s, lambda x: format_value(x, "s")),
-                      _number(s.final_value, lambda x: f"{x:.4g} V/V")])
-    out.append(_table(["response", "kind", "gain (dB)", "−3 dB edge (Hz)", "peak (dB)",
+        steps.append([name, number_or_dash(s.overshoot_pct, lambda x: f"{x:.2f} %"),
+                      number_or_dash(s.rise_time_s, lambda x: format_value(x, "s")),
+                      number_or_dash(s.settling_time_s, lambda x: format_value(x, "s")),
+                      number_or_dash(s.final_value, lambda x: f"{x:.4g} V/V")])
+    out.append(table(["response", "kind", "gain (dB)", "−3 dB edge (Hz)", "peak (dB)",
                        "peak at (Hz)"], rows, numeric_from=2))
     d = v.deviation
-    out.append(_p(f"Worst deviation of the preferred-value design from the target between "
+    out.append(paragraph(f"Worst deviation of the preferred-value design from the target between "
                   f"{fmt_hz(v.band_hz[0])} and {fmt_hz(v.band_hz[1])}: {d.magnitude_db:.3f} dB "
                   f"(at {fmt_hz(d.magnitude_at_hz)}) and {d.phase_deg:.2f}° of phase (at "
                   f"{fmt_hz(d.phase_at_hz)})"
@@ -349,7 +202,7 @@ def _evidence_parts(evidence, plots):
         {name: (f.step.time_s, f.step.output) for name, f in named if f is not None}),
         "Output for a 1 V input step against time: target, preferred values, continuous "
         "values." + (" The design inverts, so its step goes the other way." if inverted else "")))
-    out.append(_table(["response", "overshoot (%)", "rise time 10–90 %", "settling time (2 %)",
+    out.append(table(["response", "overshoot (%)", "rise time 10–90 %", "settling time (2 %)",
                        "final value"], steps))
     out += _monte_carlo_parts(evidence, plots)
     out += _sensitivity_parts(evidence)
@@ -358,7 +211,7 @@ def _evidence_parts(evidence, plots):
 
 def _monte_carlo_parts(evidence, plots):
     out = ["<h2>Tolerance spread (Monte Carlo)</h2>",
-           _p(f"Each section is rebuilt {evidence.samples} times with every part drawn "
+           paragraph(f"Each section is rebuilt {evidence.samples} times with every part drawn "
               f"({evidence.distribution} distribution, seed {evidence.seed}) within its "
               "tolerance.")]
     for s in evidence.sections:
@@ -367,7 +220,7 @@ def _monte_carlo_parts(evidence, plots):
         tolerances = ", ".join(f"{s.designators.get(k, k)} ±{100 * t:g} %"
                                for k, t in s.tolerances.items()) or "none"
         out.append(f"<h3>Section {s.index}</h3>")
-        out.append(_p(f"Tolerances: {tolerances}."))
+        out.append(paragraph(f"Tolerances: {tolerances}."))
         width = windows.get("f0")
         window = (mc.nominal_f0_hz * (1 - width), mc.nominal_f0_hz * (1 + width)) if width else None
         out.append(plots.block(f"section{s.index}-f0-histogram", histogram_figure(
@@ -412,17 +265,17 @@ def _monte_carlo_parts(evidence, plots):
             rows.append([f"rejection at {fmt_hz(mc.reject_hz)} (dB)",
                          fmt_rejection(mc.nominal_rejection_db), fmt_rejection(rej.mean),
                          f"{rej.std:.2f} dB", f"{fmt_rejection(rej.p01)} – {fmt_rejection(rej.p99)}"])
-        out.append(_table(["figure", "nominal", "mean", "standard deviation",
+        out.append(table(["figure", "nominal", "mean", "standard deviation",
                            "1 % – 99 % of builds"], rows))
         if mc.yield_fraction is not None:
-            out.append(_p(f"Yield: {100 * mc.yield_fraction:.1f} % of builds fall inside every "
+            out.append(paragraph(f"Yield: {100 * mc.yield_fraction:.1f} % of builds fall inside every "
                           f"window ({windows_text(windows)})."))
     return out
 
 
 def _sensitivity_parts(evidence):
     out = ["<h2>Sensitivity: how much each part moves each section</h2>",
-           _p("Classical sensitivities S = (∂y/y)/(∂x/x): the percentage change of ω0, Q or the "
+           paragraph("Classical sensitivities S = (∂y/y)/(∂x/x): the percentage change of ω0, Q or the "
               "gain for a 1 % change of the part (dimensionless, % per %).",
               "note")]
     for s in evidence.sections:
@@ -432,8 +285,8 @@ def _sensitivity_parts(evidence):
                  f"{sens.gain.get(symbol, 0.0):+.3f}",
                  f"±{100 * s.tolerances[symbol]:g} %" if symbol in s.tolerances else "exact"]
                 for symbol in sens.omega0]
-        out.append(f"<h3>Section {s.index} ({_e(sens.method)})</h3>")
-        out.append(_table(["part", "S ω0 (%/%)", "S Q (%/%)", "S gain (%/%)", "tolerance"], rows))
+        out.append(f"<h3>Section {s.index} ({escape(sens.method)})</h3>")
+        out.append(table(["part", "S ω0 (%/%)", "S Q (%/%)", "S gain (%/%)", "tolerance"], rows))
     return out
 
 
@@ -454,7 +307,7 @@ def _parts_list(data, design):
                 f"GBW {format_value(e['gbw'], 'Hz')}" if e.get("gbw") else "") if x)
             rows.append([e["name"], "-", "op-amp", model or "ideal in the analysis", "-", "-", "-"])
     return ["<h2>Parts list</h2>",
-            _table(["designator", "section", "kind", "value", "series", "continuous value",
+            table(["designator", "section", "kind", "value", "series", "continuous value",
                     "tolerance"], rows, numeric_from=3)]
 
 
@@ -467,7 +320,7 @@ def _candidates(data):
                 else [c["topology"], "", "cannot reach", "-", c.get("reason", "")]
                 for c in s["candidates"]]
         out.append(f"<h3>Section {s['index']}</h3>")
-        out.append(_table(["topology", "", "worst error (%)", "parts", "op-amps / reason"], rows,
+        out.append(table(["topology", "", "worst error (%)", "parts", "op-amps / reason"], rows,
                           numeric_from=2))
     return out
 
@@ -500,11 +353,11 @@ def _degrees(x):
 
 
 def _gain_margin(x):
-    return "unbounded (no phase crossover)" if x is None else _number(x, lambda v: f"{v:.2f} dB")
+    return "unbounded (no phase crossover)" if x is None else number_or_dash(x, lambda v: f"{v:.2f} dB")
 
 
 def _margin_row(label, m):
-    return [label, fmt_hz(m.get("crossover_hz")), _number(m.get("phase_margin_deg"), _degrees),
+    return [label, fmt_hz(m.get("crossover_hz")), number_or_dash(m.get("phase_margin_deg"), _degrees),
             _gain_margin(m.get("gain_margin_db")), fmt_hz(m.get("phase_crossover_hz")),
             "-" if m.get("stable") is None else ("yes" if m["stable"] else "NO")]
 
@@ -526,7 +379,7 @@ def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=()
 
     Returns
     -------
-    ReportFiles
+    placer.report.page.ReportFiles
 
     Raises
     ------
@@ -535,23 +388,23 @@ def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=()
     """
     spec_path = spec_path or data.get("spec") or (inputs[0] if inputs else None)
     topology = result.design.topology
-    inputs = _prepare(html_path, plots_dir,
+    inputs = prepare_outputs(html_path, plots_dir,
                       tuple(inputs) + (spec_path, getattr(topology, "path", "")))
-    plots = _Plots(plots_dir, inputs)
+    plots = Plots(plots_dir, inputs)
     plant, k, mc = data["plant"], data["k_factor"], data.get("monte_carlo")
     title = f"Loop compensation report: {data['compensator']['family']} compensator"
-    parts = [f"<h1>{_e(title)}</h1>",
-             _p(f"Made by placer {__version__}. Frequencies in hertz, angles in degrees, "
+    parts = [f"<h1>{escape(title)}</h1>",
+             paragraph(f"Made by placer {__version__}. Frequencies in hertz, angles in degrees, "
                 "roots in rad/s."),
-             "<h2>What was asked for</h2>", _spec_block(spec_path),
-             "<h2>The plant</h2>", _p(plant.get("description") or "(no description)"),
-             _p(f"G(s) = k·Π(s − z)/Π(s − p) with k = {plant['gain']:.6g}."),
-             _table(_ROOT_HEADERS, _root_rows("pole", plant["poles"]) +
+             "<h2>What was asked for</h2>", spec_block(spec_path),
+             "<h2>The plant</h2>", paragraph(plant.get("description") or "(no description)"),
+             paragraph(f"G(s) = k·Π(s − z)/Π(s − p) with k = {plant['gain']:.6g}."),
+             table(_ROOT_HEADERS, _root_rows("pole", plant["poles"]) +
                     _root_rows("zero", plant["zeros"])),
              "<h2>The compensator</h2>",
-             _p(f"{topology.title} (library topology {topology.id}), placed by Venable's K "
+             paragraph(f"{topology.title} (library topology {topology.id}), placed by Venable's K "
                 "factor (H. D. Venable, “The K Factor”, Proc. Powercon 10, 1983)."),
-             _table(["quantity", "value"], [
+             table(["quantity", "value"], [
                  ["K factor (dimensionless)", f"{k['k']:.4g}"],
                  ["phase boost needed / placed (degrees)",
                   f"{k['required_boost_deg']:.2f}° / {k['boost_deg']:.2f}°"],
@@ -571,7 +424,7 @@ def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=()
         "Loop gain L = compensator × plant with preferred-value parts: magnitude (dB) and "
         "phase (degrees) against frequency (Hz), the phase margin at the 0 dB crossover and the "
         "gain margin at the −180° crossing marked."),
-        _table(["loop", "crossover", "phase margin", "gain margin", "phase crossover",
+        table(["loop", "crossover", "phase margin", "gain margin", "phase crossover",
                 "closed loop stable"],
                [["target", fmt_hz(data["target"]["crossover_hz"]),
                  f"{data['target']['phase_margin_deg']:.2f}°", "-", "-", "-"],
@@ -586,19 +439,19 @@ def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=()
              f"±{100 * tolerances[p['name']]:g} %" if p["name"] in tolerances else "-"]
             for p in data["parts"]]
     parts += ["<h2>Parts list</h2>",
-              _table(["designator", "kind", "value", "series", "continuous value", "tolerance"],
+              table(["designator", "kind", "value", "series", "continuous value", "tolerance"],
                      rows, numeric_from=2)]
     if data.get("notes"):
         parts.append("<h2>Notes</h2>")
-        parts.append("<ul>" + "".join(f"<li>{_e(n)}</li>" for n in data["notes"]) + "</ul>")
-    parts.append(_caution(POWER_CAUTION))
-    return _finish(title, parts, html_path, plots, inputs)
+        parts.append("<ul>" + "".join(f"<li>{escape(n)}</li>" for n in data["notes"]) + "</ul>")
+    parts.append(caution_block(POWER_CAUTION))
+    return finish_report(title, parts, html_path, plots, inputs)
 
 
 def _loop_monte_carlo_parts(result, data, mc, plots):
     floor = mc["margin_floor_deg"]
-    rows = [["phase margin, worst (degrees)", _number(mc["phase_margin_worst_deg"], _degrees)],
-            ["phase margin, median (degrees)", _number(mc["phase_margin_median_deg"], _degrees)],
+    rows = [["phase margin, worst (degrees)", number_or_dash(mc["phase_margin_worst_deg"], _degrees)],
+            ["phase margin, median (degrees)", number_or_dash(mc["phase_margin_median_deg"], _degrees)],
             ["gain margin, worst (dB)", _gain_margin(mc["gain_margin_worst_db"])],
             ["crossover, lowest – highest (Hz)",
              f"{fmt_hz(mc['crossover_min_hz'])} – {fmt_hz(mc['crossover_max_hz'])}"],
@@ -606,9 +459,9 @@ def _loop_monte_carlo_parts(result, data, mc, plots):
             [f"yield: stable with phase margin ≥ {floor:g}°", f"{100 * mc['yield']:.1f} %"]]
     tolerances = ", ".join(f"{k} ±{100 * v:g} %" for k, v in mc["tolerances"].items())
     out = ["<h2>Tolerance spread (Monte Carlo)</h2>",
-           _p(f"{mc['samples']} builds, {mc['distribution']} distribution, seed {mc['seed']}; "
+           paragraph(f"{mc['samples']} builds, {mc['distribution']} distribution, seed {mc['seed']}; "
               f"tolerances: {tolerances}."),
-           _table(["figure", "value"], rows)]
+           table(["figure", "value"], rows)]
     samples = getattr(result.monte_carlo, "phase_margin_deg", None)
     if samples is not None:
         out.append(plots.block("phase-margin-histogram", histogram_figure(
