@@ -75,6 +75,8 @@ def build_parser():
     p.add_argument("--rank-by", choices=("yield", "error", "parts", "sensitivity"), default="yield",
                    help="ranking key (default: yield)")
     p.add_argument("--json", metavar="OUT", help="write the ranking as JSON")
+    p.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report")
+    p.add_argument("--plots", metavar="DIR", help="write each chart as PNG and SVG into DIR")
     p.add_argument("--samples", type=int, help="Monte Carlo samples per candidate")
     p.add_argument("--workers", type=int, help="worker processes (default: all cores)")
     p.add_argument("--gbw", choices=("built", "rule", "model"), default="built",
@@ -334,8 +336,11 @@ def _cmd_compare(args):
     inputs = [spec.path] + [c for c in (spec.candidates or ()) if c.endswith(".toml")]
     if spec.folder:
         inputs += [str(p) for p in Path(spec.folder).glob("*.toml")]
-    if args.json:
-        check_output_path(args.json, inputs=inputs, option="--json")
+    for option, path in (("--json", args.json), ("--report", args.report)):
+        if path:
+            check_output_path(path, inputs=inputs, option=option)
+    if args.plots and not Path(args.plots).is_dir():
+        raise SpecError(f"--plots: folder {args.plots!r} does not exist")
     progress = Progress("compare", quiet=args.quiet)
     try:
         comparison = compare(spec, rank_by=args.rank_by, samples=args.samples,
@@ -345,6 +350,11 @@ def _cmd_compare(args):
     print(comparison_text(comparison))
     if args.json:
         _emit_json(comparison_to_dict(comparison), args.json, inputs=inputs)
+    if args.report or args.plots:
+        from .report.comparison import write_comparison_report
+
+        write_comparison_report(comparison, html_path=args.report, plots_dir=args.plots,
+                                inputs=inputs)
     missed = [s for s in comparison.sections if not s.reachable]
     for s in missed:
         reasons = "; ".join(f"{c.topology}: {c.reason}" for c in s.candidates) or "no candidate topology"

@@ -430,3 +430,44 @@ def test_cli_loop_writes_report_and_plots(tmp_path):
     assert {p.name for p in tmp_path.iterdir()} == {"loop.html", "loop-gain.png", "loop-gain.svg",
                                                     "phase-margin-histogram.png",
                                                     "phase-margin-histogram.svg"}
+
+
+# -- the comparison report -----------------------------------------------------
+
+def _small_compare_spec(folder):
+    spec = folder / "compare.toml"
+    # Q = 2 with capacitors 1n-10n: the unity-gain Sallen-Key (C1/C2 >= 4Q^2 = 16) cannot
+    # reach it, the Tow-Thomas biquad can
+    spec.write_text('title = "one stage"\n[target]\nsections = [{ f0 = "1 kHz", q = 2 }]\n'
+                    '[candidates]\ntopologies = ["sallen-key-lowpass-unity", "tow-thomas-lowpass"]\n'
+                    '[parts]\ncapacitor_range = ["1n", "10n"]\n'
+                    '[tolerance]\nsamples = 200\n', encoding="utf-8")
+    return spec
+
+
+def test_cli_compare_writes_a_self_contained_report(tmp_path, capsys):
+    spec = _small_compare_spec(tmp_path)
+    out, plots = tmp_path / "compare.html", tmp_path / "plots"
+    plots.mkdir()
+    assert main(["compare", str(spec), "--report", str(out), "--plots", str(plots),
+                 "--workers", "1", "--quiet"]) == 0
+    text = out.read_text(encoding="utf-8")
+    assert _external_references(text) == [] and "<svg" in text
+    for name in ("sallen-key-lowpass-unity", "tow-thomas-lowpass", "Cannot reach it",
+                 "GBW needed (Hz)", "Before you build it"):
+        assert name in text
+    assert {p.name for p in plots.iterdir()} == {"section1-ranking.png", "section1-ranking.svg"}
+    assert "rank" in capsys.readouterr().out            # the console table still prints
+
+
+@pytest.mark.parametrize("case", ["spec-as-report", "missing-plots"])
+def test_cli_compare_report_refuses_before_working(tmp_path, capsys, case):
+    spec = _small_compare_spec(tmp_path)
+    before = spec.read_bytes()
+    if case == "spec-as-report":
+        args = ["--report", str(spec)]
+    else:
+        args = ["--report", str(tmp_path / "r.html"), "--plots", str(tmp_path / "nowhere")]
+    assert main(["compare", str(spec), *args, "--quiet"]) == 2
+    assert "error:" in capsys.readouterr().err
+    assert spec.read_bytes() == before and not (tmp_path / "r.html").exists()

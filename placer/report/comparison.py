@@ -1,14 +1,36 @@
-"""Console text of a topology comparison."""
+"""A topology comparison in words: console text and an HTML report."""
 
 from __future__ import annotations
 
 import math
 
+from .. import __version__
 from ..compare import _SHORT, _SOURCES, RANK_KEYS
 from ..units import format_value
 from .console import fmt_rejection, table, windows_text
+from .page import (Plots, caution_block, escape, finish_report, paragraph, prepare_outputs,
+                   spec_block)
+from .page import table as html_table
+from .plots import ranking_figure
 
-__all__ = ["comparison_text"]
+__all__ = ["comparison_text", "write_comparison_report"]
+
+_HEADERS = ["rank", "topology", "parts", "op-amps", "error (%)", "yield (%)",
+            "R spread", "C spread", "max|S ω0|", "max|S Q|",
+            "GBW needed (Hz)", "GBW from", "drift at 100·f0·Q (%)"]
+
+_LEGEND = [
+    "error: worst root (f0, Q) or gain error after snapping; yield: Monte Carlo builds "
+    "inside the windows above",
+    "R spread, C spread: largest/smallest value of that kind; max|S ω0|, max|S Q|: the "
+    "largest part sensitivity (% per %)",
+    "GBW needed: '-' for a passive stage, or for a design that misses the bound "
+    "with ideal op-amps already, or at every GBW up to 1e4·f0·Q (the JSON says which)",
+    "drift at 100·f0·Q: the larger f0 or Q shift of the snapped design built with "
+    "single-pole op-amps of the rule of thumb's GBW",
+]
+_REJECTION_LEGEND = ("rejection: what 99 % of the builds still take off the target's zero "
+                     "frequency (pass-band gain over |H| there)")
 
 
 def _number(x, digits=3):
@@ -22,59 +44,135 @@ def _short_source(source):
     return _SHORT["model"] if source else "-"
 
 
-def comparison_text(comparison):
-    """One console table per section, then the unreachable ones with reasons."""
+def _heading(comparison):
+    """The two header lines: the ranking key, and what the yield counts."""
     spec = comparison.spec
     windows = windows_text(spec.tolerance.windows)
     tolerances = ", ".join(f"{k} {100 * v:g} %" for k, v in spec.tolerance.tolerances.items())
-    lines = [f"Compare: {spec.title} — ranked by {comparison.rank_by}: {RANK_KEYS[comparison.rank_by]}",
-             f"  yield: {comparison.samples} Monte Carlo samples per candidate "
-             f"({spec.tolerance.distribution}; {tolerances}) inside {windows} of the TARGET"
-             + ("" if "gain_db" in spec.tolerance.windows else ", gain ±0.5 dB")
-             + f"; seed {comparison.seed}; one standard error of a yield is at most "
-             f"±{100 * math.sqrt(0.25 / comparison.samples):.1f} %"]
-    headers = ["rank", "topology", "parts", "op-amps", "error (%)", "yield (%)",
-               "R spread", "C spread", "max|S ω0|", "max|S Q|",
-               "GBW needed (Hz)", "GBW from", "drift at 100·f0·Q (%)"]
-    sources = set()
+    return (f"ranked by {comparison.rank_by}: {RANK_KEYS[comparison.rank_by]}",
+            f"yield: {comparison.samples} Monte Carlo samples per candidate "
+            f"({spec.tolerance.distribution}; {tolerances}) inside {windows} of the TARGET"
+            + ("" if "gain_db" in spec.tolerance.windows else ", gain ±0.5 dB")
+            + f"; seed {comparison.seed}; one standard error of a yield is at most "
+            f"±{100 * math.sqrt(0.25 / comparison.samples):.1f} %")
+
+
+def _section_line(s):
+    sec = s.section
+    return (f"Section {s.index}: {sec.kind}, order {sec.order}, f0 "
+            f"{format_value(sec.f0_hz, 'Hz', digits=4)}"
+            + (f", Q {sec.q:.4g}" if sec.q is not None else "")
+            + f", gain {sec.gain_db + 0.0:+.3f} dB".replace("-0.000 ", "+0.000 "))
+
+
+def _rows(s):
+    """(headers, rows) of one section's reachable candidates, in rank order."""
+    notch = any(c.rejection_db is not None for c in s.candidates)
+    rows = []
+    for rank, c in enumerate((c for c in s.candidates if c.reachable), start=1):
+        rows.append([rank, c.topology, c.parts, c.opamps, f"{c.error_pct:.3f}",
+                     f"{c.yield_pct:.1f}", _number(c.spread.get("resistor")),
+                     _number(c.spread.get("capacitor")), _number(c.max_sensitivity_w0),
+                     _number(c.max_sensitivity_q),
+                     "-" if c.gbw_hz is None else format_value(c.gbw_hz, "Hz"),
+                     _short_source(c.gbw_source), _number(c.gbw_drift_pct)]
+                    + ([fmt_rejection(c.rejection_db).removesuffix(" dB")] if notch else []))
+    return _HEADERS + (["rejection (dB)"] if notch else []), rows
+
+
+def _notes(comparison):
+    """The legend lines that apply, and one line per GBW method used."""
+    legend = list(_LEGEND)
+    if any(c.rejection_db is not None for s in comparison.sections for c in s.candidates):
+        legend.append(_REJECTION_LEGEND)
+    # one line per method; a candidate's own detail (why "-") is in the JSON
+    sources = {c.gbw_source for s in comparison.sections for c in s.candidates if c.reachable}
+    methods = sorted({x.split("; ")[0] for x in sources if x and x != _SOURCES["passive"]})
+    return legend, methods
+
+
+def comparison_text(comparison):
+    """One console table per section, then the unreachable ones with reasons."""
+    ranked, counted = _heading(comparison)
+    lines = [f"Compare: {comparison.spec.title} — {ranked}", f"  {counted}"]
     for s in comparison.sections:
-        sec = s.section
-        lines.append("")
-        lines.append(f"Section {s.index}: {sec.kind}, order {sec.order}, f0 "
-                     f"{format_value(sec.f0_hz, 'Hz', digits=4)}"
-                     + (f", Q {sec.q:.4g}" if sec.q is not None else "")
-                     + f", gain {sec.gain_db + 0.0:+.3f} dB".replace("-0.000 ", "+0.000 "))
-        rows = []
-        notch = any(c.rejection_db is not None for c in s.candidates)
-        for rank, c in enumerate((c for c in s.candidates if c.reachable), start=1):
-            sources.add(c.gbw_source)
-            rows.append([rank, c.topology, c.parts, c.opamps, f"{c.error_pct:.3f}",
-                         f"{c.yield_pct:.1f}", _number(c.spread.get("resistor")),
-                         _number(c.spread.get("capacitor")), _number(c.max_sensitivity_w0),
-                         _number(c.max_sensitivity_q),
-                         "-" if c.gbw_hz is None else format_value(c.gbw_hz, "Hz"),
-                         _short_source(c.gbw_source), _number(c.gbw_drift_pct)]
-                        + ([fmt_rejection(c.rejection_db).removesuffix(" dB")] if notch else []))
-        shown = headers + (["rejection (dB)"] if notch else [])
-        lines.append(table(shown, rows) if rows else "  no candidate reaches this section")
+        lines += ["", _section_line(s)]
+        headers, rows = _rows(s)
+        lines.append(table(headers, rows) if rows else "  no candidate reaches this section")
         unreachable = [c for c in s.candidates if not c.reachable]
         if unreachable:
             lines.append("  cannot reach it:")
             lines.extend(f"    {c.topology}: {c.reason}" for c in unreachable)
-    lines += ["", "Columns:",
-              "  error: worst root (f0, Q) or gain error after snapping; yield: Monte Carlo builds "
-              "inside the windows above",
-              "  R spread, C spread: largest/smallest value of that kind; max|S ω0|, max|S Q|: the "
-              "largest part sensitivity (% per %)",
-              "  GBW needed: '-' for a passive stage, or for a design that misses the bound "
-              "with ideal op-amps already, or at every GBW up to 1e4·f0·Q (the JSON says which)",
-              "  drift at 100·f0·Q: the larger f0 or Q shift of the snapped design built with "
-              "single-pole op-amps of the rule of thumb's GBW"]
-    if any(c.rejection_db is not None for s in comparison.sections for c in s.candidates):
-        lines.append("  rejection: what 99 % of the builds still take off the target's zero "
-                     "frequency (pass-band gain over |H| there)")
-    # one line per method; a candidate's own detail (why "-") is in the JSON
-    notes = sorted({x.split("; ")[0] for x in sources if x and x != _SOURCES["passive"]})
-    if notes:
-        lines += ["", "GBW needed:"] + [f"  {note}" for note in notes]
+    legend, methods = _notes(comparison)
+    lines += ["", "Columns:"] + [f"  {line}" for line in legend]
+    if methods:
+        lines += ["", "GBW needed:"] + [f"  {method}" for method in methods]
     return "\n".join(lines)
+
+
+def write_comparison_report(comparison, *, html_path=None, plots_dir=None, inputs=()):
+    """Write the HTML report of a topology comparison, and its plots.
+
+    One page: the spec, then per section the ranking table, a chart of each
+    reachable candidate's yield and error, and the candidates that cannot
+    reach the section with the reason; the column legend and the caution.
+
+    Parameters
+    ----------
+    comparison : placer.compare.Comparison
+    html_path : path, optional
+        The HTML file (written atomically; it may not be an input).
+    plots_dir : path, optional
+        An existing folder for each chart as PNG and SVG
+        (``section<N>-ranking``).
+    inputs : sequence of path
+        Files the outputs may not overwrite (the spec, user topologies).
+
+    Returns
+    -------
+    placer.report.page.ReportFiles
+
+    Raises
+    ------
+    SpecError
+        When the plots folder does not exist or an output is an input.
+    """
+    spec = comparison.spec
+    inputs = prepare_outputs(html_path, plots_dir, tuple(inputs) + (spec.path,))
+    plots = Plots(plots_dir, inputs)
+    ranked, counted = _heading(comparison)
+    title = f"Topology comparison: {spec.title}"
+    parts = [f"<h1>{escape(title)}</h1>",
+             paragraph(f"Made by placer {__version__}. Frequencies in hertz; errors, yields, "
+                       "drifts and spreads as labelled."),
+             "<h2>What was asked for</h2>", spec_block(spec.path),
+             "<h2>How the candidates are ranked</h2>", paragraph(ranked), paragraph(counted)]
+    for s in comparison.sections:
+        parts.append(f"<h2>{escape(_section_line(s))}</h2>")
+        headers, rows = _rows(s)
+        if rows:
+            parts.append(html_table(headers, rows, numeric_from=2))
+            reachable = [c for c in s.candidates if c.reachable]
+            parts.append(plots.block(
+                f"section{s.index}-ranking",
+                ranking_figure([c.topology for c in reachable], [c.yield_pct for c in reachable],
+                               [c.error_pct for c in reachable],
+                               title=f"Section {s.index}: yield and error, best first"),
+                f"Section {s.index}: Monte Carlo yield (%) and worst error after snapping (%, "
+                "log scale) of each candidate, in rank order."))
+        else:
+            parts.append(paragraph("No candidate reaches this section.", "note"))
+        unreachable = [c for c in s.candidates if not c.reachable]
+        if unreachable:
+            parts.append(paragraph("Cannot reach it:"))
+            parts.append("<ul>" + "".join(f"<li><code>{escape(c.topology)}</code>: "
+                                          f"{escape(c.reason)}</li>" for c in unreachable)
+                         + "</ul>")
+    legend, methods = _notes(comparison)
+    parts.append("<h2>The columns</h2>")
+    parts.append("<ul>" + "".join(f"<li>{escape(line)}</li>" for line in legend) + "</ul>")
+    if methods:
+        parts.append("<h3>Where the GBW needed comes from</h3>")
+        parts.append("<ul>" + "".join(f"<li>{escape(m)}</li>" for m in methods) + "</ul>")
+    parts.append(caution_block())
+    return finish_report(title, parts, html_path, plots, inputs)

@@ -37,6 +37,7 @@ __all__ = [
     "bode_figure",
     "step_figure",
     "histogram_figure",
+    "ranking_figure",
     "loop_bode_figure",
     "engineering_scale",
     "figure_svg",
@@ -374,6 +375,42 @@ def histogram_figure(samples, nominal, *, label, unit="", window=None, title=Non
     ax.set_ylim(0.0, ax.get_ylim()[1] * 1.35)   # room for the legend above the bars
     ax.legend(loc="upper right", fontsize=8)
     ax.set_title(title or f"Monte Carlo spread of {label}")
+    return fig
+
+
+def ranking_figure(names, yields_pct, errors_pct, *, title=None):
+    """Candidates side by side: Monte Carlo yield (%) and error after snapping (%).
+
+    Parameters
+    ----------
+    names : sequence of str
+        Topology ids, in rank order (best at the top).
+    yields_pct, errors_pct : sequence of float
+        Per candidate, percent.
+    title : str, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    count = len(names)
+    fig = _new_figure(7.0, 1.2 + 0.42 * max(count, 1))
+    ax_yield, ax_error = fig.subplots(1, 2, sharey=True, width_ratios=(3, 2))
+    rows = np.arange(count)
+    ax_yield.barh(rows, yields_pct, color="C0", zorder=2)
+    for row, value in zip(rows, yields_pct):
+        ax_yield.text(value, row, f" {value:.1f}", va="center", fontsize=8)
+    ax_yield.set_yticks(rows, labels=list(names))
+    ax_yield.invert_yaxis()
+    ax_yield.set_xlim(0.0, 115.0)
+    ax_yield.set_xlabel("Monte Carlo yield (%)")
+    errors = np.maximum(np.asarray(errors_pct, float), 1e-4)
+    ax_error.barh(rows, errors, color="C1", zorder=2)
+    ax_error.set_xscale("log")
+    ax_error.set_xlabel("error after snapping (%)")
+    for ax in (ax_yield, ax_error):
+        ax.grid(True, axis="x", color="0.9", zorder=0)
+    fig.suptitle(title or "Candidates ranked")
     return fig
 
 
