@@ -54,11 +54,11 @@ def build_parser():
                    help="write the result as JSON to OUT (or stdout)")
 
     p = sub.add_parser("target", help="poles, zeros and sections of a spec's target")
-    p.add_argument("spec", metavar="SPEC")
+    p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
     p.add_argument("--json", nargs="?", const="-", metavar="OUT", help="write JSON to OUT (or stdout)")
 
     p = sub.add_parser("design", help="solve and snap part values for a spec's target")
-    p.add_argument("spec", metavar="SPEC")
+    p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
     p.add_argument("--json", metavar="OUT", help="write the design as JSON")
     p.add_argument("--bom", metavar="OUT.csv", help="write a bill of materials (CSV)")
     p.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report")
@@ -71,7 +71,7 @@ def build_parser():
     p.add_argument("--quiet", action="store_true", help="no progress bar")
 
     p = sub.add_parser("compare", help="rank every candidate topology for a spec's target")
-    p.add_argument("spec", metavar="SPEC")
+    p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
     p.add_argument("--rank-by", choices=("yield", "error", "parts", "sensitivity"), default="yield",
                    help="ranking key (default: yield)")
     p.add_argument("--json", metavar="OUT", help="write the ranking as JSON")
@@ -87,7 +87,7 @@ def build_parser():
     p.add_argument("--quiet", action="store_true", help="no progress bar")
 
     p = sub.add_parser("loop", help="design a loop compensator and check its margins")
-    p.add_argument("spec", metavar="SPEC")
+    p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
     p.add_argument("--json", metavar="OUT", help="write the result as JSON")
     p.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report")
     p.add_argument("--plots", metavar="DIR", help="write each plot as PNG and SVG into DIR")
