@@ -36,7 +36,7 @@ import numpy as np
 from .amplifier import built_drift
 from .design import candidate_topologies, place_section
 from .errors import PlacerError, SpecError
-from .gbw import as_built_gbw, required_gbw
+from .gbw import as_built_gbw, required_gbw, search_top_hz
 from .opamp import AmplifierSpec
 from .placement import value_spread
 from .sections import split_sections
@@ -316,8 +316,8 @@ def _gbw_needed(section, topology, spec, method, candidate):
         figure = as_built_gbw(topology, candidate.snapped.values, candidate.problem.goal,
                               error_pct=GBW_ERROR_PCT, amplifier_gain=spec.amplifier.gain)
         if not math.isfinite(figure):
-            f0 = candidate.problem.goal.omega0 / (2 * math.pi)
-            top = 1e4 * f0 * max(candidate.problem.goal.q or 1.0, 1.0)
+            goal = candidate.problem.goal
+            top = search_top_hz(goal.omega0 / (2 * math.pi), goal.q)
             source += f"; not met up to {format_value(top, 'Hz')}"
         if method == "model":
             need = required_gbw(section, topology, error_pct=GBW_ERROR_PCT, parts=spec.parts,
@@ -376,7 +376,7 @@ def _evaluate(task):
         windows = dict(spec.tolerance.windows)
         if nf.order < 2:
             windows.pop("q", None)
-        reject_hz = task.section.zero_f0_hz if task.section.kind == "notch" else None
+        reject_hz = task.section.zero_f0_hz       # a notch's zero; None for the other kinds
         if reject_hz is None:
             windows.pop("rejection_db", None)
         result = monte_carlo(nf, values, tolerances, samples=task.samples,

@@ -189,7 +189,7 @@ def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=N
         windows = dict(spec.tolerance.windows)
         if nf.order == 1:
             windows.pop("q", None)
-        reject_hz = s.section.zero_f0_hz if s.section.kind == "notch" else None
+        reject_hz = s.section.zero_f0_hz          # a notch's zero; None for the other kinds
         if reject_hz is None:
             windows.pop("rejection_db", None)
         mc = monte_carlo(nf, values, tolerances, samples=samples,

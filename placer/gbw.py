@@ -37,10 +37,16 @@ __all__ = [
     "required_gbw",
     "as_built_gbw",
     "AS_BUILT_FLOOR",
+    "search_top_hz",
 ]
 
 #: The least GBW :func:`as_built_gbw` gives, in units of the section's f0.
 AS_BUILT_FLOOR = 10.0
+
+
+def search_top_hz(f0_hz, q):
+    """The top of every GBW search, Hz: 1e4·f0·max(Q, 1) (Q None: first order)."""
+    return 1e4 * f0_hz * max(q or 1.0, 1.0)
 
 
 @dataclass(frozen=True)
@@ -141,7 +147,7 @@ def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain
         raise SpecError(f"gbw_spread = {gbw_spread!r} must be a fraction in [0, 1), e.g. 0.25")
     check_amplifier(AmplifierSpec(gain=amplifier_gain), section)
     f0 = section.omega0 / (2 * math.pi)
-    low, high = 2 * f0, 1e4 * f0 * max(section.q or 1.0, 1.0)
+    low, high = 2 * f0, search_top_hz(f0, section.q)
     try:
         ideal = place_ideal(section, topology, parts=parts, seed=seed)
     except UnreachableTarget as reason:
@@ -251,7 +257,7 @@ def as_built_gbw(topology, values, goal, *, error_pct=1.0, amplifier_gain=None, 
     if topology.circuit.opamp_count == 0:
         return 0.0
     f0 = goal.omega0 / (2 * math.pi)
-    low, high = AS_BUILT_FLOOR * f0, 1e4 * f0 * max(goal.q or 1.0, 1.0)
+    low, high = AS_BUILT_FLOOR * f0, search_top_hz(f0, goal.q)
     function_at = function_at_gbw(topology.circuit, AmplifierSpec(gain=amplifier_gain))
 
     def ok(gbw):

@@ -26,7 +26,6 @@ from __future__ import annotations
 
 import math
 import numbers
-import os
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 from typing import NamedTuple
@@ -37,7 +36,7 @@ from .eseries import usual_tolerance
 from .errors import SpecError
 from .network import NetworkFunction, batched_roots, polynomial_values
 from .plants import Plant
-from .tolerance import DISTRIBUTIONS, PARALLEL_MIN_SAMPLES
+from .tolerance import DISTRIBUTIONS, PARALLEL_MIN_SAMPLES, check_workers, worker_ranges
 
 __all__ = [
     "GridLoop", "GridMargins", "LoopMonteCarlo", "frequency_grid", "grid_margins",
@@ -195,17 +194,13 @@ def grid_margins(loop, arrays, *, workers=1):
         are the same either way, and so are the results.
     """
     count = len(next(iter(arrays.values())))
-    workers = (os.cpu_count() or 1) if workers is None else workers
-    if isinstance(workers, bool) or not isinstance(workers, numbers.Integral) or workers < 1:
-        raise SpecError(f"workers must be a whole number >= 1, not {workers!r}")
+    workers = check_workers(workers)
     if workers == 1 or count < PARALLEL_MIN_SAMPLES:
         return _evaluate_chunks(loop, arrays)
-    chunks = -(-count // _CHUNK)
-    size = _CHUNK * max(1, -(-chunks // (4 * workers)))
-    starts = range(0, count, size)
+    ranges = worker_ranges(count, workers, _CHUNK)
     with ProcessPoolExecutor(max_workers=workers) as pool:
-        parts = list(pool.map(_evaluate_chunks, [loop] * len(starts),
-                              [{k: v[i:i + size] for k, v in arrays.items()} for i in starts]))
+        parts = list(pool.map(_evaluate_chunks, [loop] * len(ranges),
+                              [{k: v[a:b] for k, v in arrays.items()} for a, b in ranges]))
     return GridMargins(*(np.concatenate([getattr(r, f) for r in parts])
                          for f in ("crossover", "phase_margin", "gain_margin_db", "stable")))
 

@@ -58,6 +58,8 @@ __all__ = [
     "MAX_SAMPLES",
     "CHUNK",
     "PARALLEL_MIN_SAMPLES",
+    "check_workers",
+    "worker_ranges",
     "Statistics",
     "MonteCarloResult",
     "CascadeMonteCarloResult",
@@ -243,14 +245,6 @@ def _check_tolerances(tolerances, names, allow_zero):
     return {name: out[name] for name in names if name in out}
 
 
-def _check_workers(workers):
-    if workers is None:
-        return os.cpu_count() or 1
-    if not (isinstance(workers, numbers.Integral) and not isinstance(workers, bool) and workers >= 1):
-        raise SpecError(f"workers must be a whole number >= 1, not {workers!r}")
-    return int(workers)
-
-
 def _check_samples(samples):
     if not (_is_number(samples) and isinstance(samples, numbers.Integral)):
         raise SpecError(f"samples must be a whole number of at least 1, not {samples!r}")
@@ -391,17 +385,38 @@ def _evaluate_block(nf, nominal, multipliers, index, ref, reject_hz):
     return join(0), join(1), join(2), join(3)
 
 
-def _blocks(total, workers, progress):
-    """Column ranges handed out at once, each starting at a multiple of CHUNK.
+def worker_ranges(total, workers, chunk):
+    """(start, stop) ranges of `total` samples for `workers` processes.
 
-    In-process: everything, or CHUNK at a time to report progress; with
-    workers: about four ranges per worker.
+    About four ranges per worker, each a whole number of `chunk`s and so
+    starting at a multiple of `chunk`: evaluated `chunk` at a time from its
+    start, every sample meets the same arithmetic as in one process.
+
+    Examples
+    --------
+    >>> worker_ranges(20, 1, 2)
+    [(0, 6), (6, 12), (12, 18), (18, 20)]
     """
-    if workers == 1:
-        size = CHUNK if progress is not None else total
-    else:
-        chunks = -(-total // CHUNK)
-        size = CHUNK * max(1, -(-chunks // (4 * workers)))
+    chunks = -(-total // chunk)
+    size = chunk * max(1, -(-chunks // (4 * workers)))
+    return [(start, min(start + size, total)) for start in range(0, total, size)]
+
+
+def check_workers(workers):
+    """A worker count: None means every core; else a whole number >= 1."""
+    if workers is None:
+        return os.cpu_count() or 1
+    if not (isinstance(workers, numbers.Integral) and not isinstance(workers, bool) and workers >= 1):
+        raise SpecError(f"workers must be a whole number >= 1, not {workers!r}")
+    return int(workers)
+
+
+def _blocks(total, workers, progress):
+    """Column ranges handed out at once: in-process everything, or CHUNK at a
+    time to report progress; with workers, :func:`worker_ranges`."""
+    if workers > 1:
+        return worker_ranges(total, workers, CHUNK)
+    size = CHUNK if progress is not None else total
     return [(start, min(start + size, total)) for start in range(0, total, size)]
 
 
@@ -478,7 +493,7 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
                         f"not {distribution!r}")
     reject_hz = _check_reject_hz(reject_hz)
     windows = _check_windows(windows, nf.order, reject_hz)
-    workers = _check_workers(workers)
+    workers = check_workers(workers)
     rng = np.random.default_rng(seed)
     ref = _reference(nf, nominal)
 
