@@ -206,35 +206,30 @@ def built_drift(topology, values, goal, amplifier):
     >>> round(drift.q_shift_pct, 1), round(drift.f0_shift_pct, 2)
     (4.3, -0.3)
     """
-    ideal = _pair_figures(circuit_poles(topology.circuit.with_values(values)), goal)
-    built = apply_amplifier(topology.circuit, amplifier).with_values(values)
-    real = _pair_figures(circuit_poles(built), goal)
-
-    def pct(a, b):
-        return None if a is None or b is None else float(100 * (a / b - 1))
-
-    return Drift(f0_pct=pct(real[0], goal.omega0), q_pct=pct(real[1], goal.q),
-                 f0_shift_pct=pct(real[0], ideal[0]), q_shift_pct=pct(real[1], ideal[1]))
+    return _drift_between(topology, values, goal, None, amplifier)
 
 
 def _low_gbw_drift(topology, amplifier, values, goal):
     """Drift of a design when the GBW is GBW_SPREAD low, from numeric MNA poles."""
     if amplifier.gbw is None:
         return None
-    figures = []
-    for gbw in (amplifier.gbw, amplifier.gbw * (1 - GBW_SPREAD)):
-        model = replace(amplifier, gbw=gbw)
-        built = apply_amplifier(topology.circuit, model).with_values(values)
-        figures.append(_pair_figures(circuit_poles(built), goal))
-    (omega_nominal, q_nominal), (omega_low, q_low) = figures
+    low = replace(amplifier, gbw=amplifier.gbw * (1 - GBW_SPREAD))
+    return _drift_between(topology, values, goal, amplifier, low)
+
+
+def _drift_between(topology, values, goal, reference, amplifier):
+    """Drift with `amplifier` against the goal and against `reference` (None: ideal op-amps)."""
+    def figures(model):
+        circuit = topology.circuit if model is None else apply_amplifier(topology.circuit, model)
+        return _pair_figures(circuit_poles(circuit.with_values(values)), goal)
+
+    (omega_base, q_base), (omega, q) = figures(reference), figures(amplifier)
 
     def pct(a, b):
         return None if a is None or b is None else float(100 * (a / b - 1))
 
-    return Drift(
-        f0_pct=pct(omega_low, goal.omega0), q_pct=pct(q_low, goal.q),
-        f0_shift_pct=pct(omega_low, omega_nominal), q_shift_pct=pct(q_low, q_nominal),
-    )
+    return Drift(f0_pct=pct(omega, goal.omega0), q_pct=pct(q, goal.q),
+                 f0_shift_pct=pct(omega, omega_base), q_shift_pct=pct(q, q_base))
 
 
 def place_section_with_amplifier(section, topology, amplifier, *, parts=None, seed=0,

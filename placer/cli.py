@@ -272,6 +272,13 @@ def _cmd_target(args):
 
 # -- design --------------------------------------------------------------------
 
+def _check_counts(*options):
+    """(option, value, least) triples: a value given below its least is bad input."""
+    for option, value, low in options:
+        if value is not None and value < low:
+            raise SpecError(f"{option} {value}: give a whole number >= {low}")
+
+
 def _cmd_design(args):
     from .design import design
     from .evidence import gather_evidence
@@ -287,10 +294,8 @@ def _cmd_design(args):
             check_output_path(path, inputs=inputs, option=option)
     if args.plots and not Path(args.plots).is_dir():
         raise SpecError(f"--plots: folder {args.plots!r} does not exist")
-    for option, value, low in (("--samples", args.samples, 1), ("--seed", args.seed, 0),
-                               ("--workers", args.workers, 1)):
-        if value is not None and value < low:
-            raise SpecError(f"{option} {value}: give a whole number >= {low}")
+    _check_counts(("--samples", args.samples, 1), ("--seed", args.seed, 0),
+                  ("--workers", args.workers, 1))
     progress = Progress("designing", quiet=args.quiet)
     try:
         result = design(spec, seed=args.seed, progress=progress)
@@ -383,9 +388,7 @@ def _cmd_loop(args):
     if samples < 0:
         raise SpecError(f"--samples {samples}: give a whole number >= 0 (0 skips the Monte Carlo)")
     seed = spec.tolerance.seed if args.seed is None else args.seed
-    for option, value, low in (("--seed", args.seed, 0), ("--workers", args.workers, 1)):
-        if value is not None and value < low:
-            raise SpecError(f"{option} {value}: give a whole number >= {low}")
+    _check_counts(("--seed", args.seed, 0), ("--workers", args.workers, 1))
     tolerances = dict(spec.tolerance.tolerances)
     progress = Progress("loop", quiet=args.quiet)
     progress(0, 1, f"compensator and {samples} Monte Carlo builds")
