@@ -56,7 +56,7 @@ def test_output_resistance_becomes_an_internal_node_and_a_resistor():
     assert opamp.nodes == ("gnd", "n2", "U1.int")
     assert resistor.kind == "resistor" and resistor.value == 75.0
     assert resistor.nodes == ("U1.int", "vout")
-    # the JSON form re-reads to the same circuit (DESIGN.md schema)
+    # the JSON form re-reads to the same circuit (the schema of docs/architecture.md)
     again = circuit_from_dict(built.to_dict())
     values = {"R1": 10e3, "R2": 10e3, "R3": 10e3, "C1": 10e-9, "C2": 1e-9}
     np.testing.assert_allclose(np.sort_complex(circuit_poles(again, values)),

@@ -2,7 +2,7 @@
 
 Every bad input must raise SpecError with a message that names the file,
 the field, the offending value and what is accepted. No outside reference:
-the expected messages are this project's own contract (DESIGN.md, Errors).
+the expected messages are this project's own contract (docs/architecture.md, Errors).
 """
 
 import math

@@ -1,7 +1,7 @@
 """Tests of topology files: placer.circuit.topology parsing and placer.circuit.library loading.
 
 Every error must name the file and the key or element at fault
-(DESIGN.md, "Errors").
+(docs/architecture.md, "Errors").
 """
 
 import json

@@ -177,7 +177,7 @@ class Element:
         return replace(self, value=float(number))
 
     def to_dict(self):
-        """The element as a JSON-ready dict in the DESIGN.md schema."""
+        """The element as a JSON-ready dict in the schema of docs/architecture.md."""
         out = {"name": self.name, "kind": self.kind, "nodes": list(self.nodes)}
         if self.kind in CONTROLLED_KINDS:
             if self.gain is not None:
@@ -283,7 +283,7 @@ class Circuit:
         return replace(self, elements=tuple(elements), _graph=None)
 
     def to_dict(self):
-        """The circuit as a JSON-ready dict in the DESIGN.md schema."""
+        """The circuit as a JSON-ready dict in the schema of docs/architecture.md."""
         return {
             "reference": self.reference,
             "input": self.input,

@@ -1,7 +1,7 @@
 """Topologies: a circuit with symbolic parts plus what a solver needs to know.
 
 A topology file is TOML in placer's own format (docs/topology-format.md):
-metadata at top level, the DESIGN.md element schema in ``[[elements]]``,
+metadata at top level, the element schema of docs/architecture.md in ``[[elements]]``,
 a part carrying ``symbol`` instead of ``value`` where the solver chooses it.
 
 Examples

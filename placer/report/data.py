@@ -1,4 +1,4 @@
-"""Results as JSON-ready dicts (the DESIGN.md schema for circuits).
+"""Results as JSON-ready dicts (the schema of docs/architecture.md for circuits).
 
 Every number is a float in SI units; frequencies people read are in hertz
 (``f0_hz``), roots are ``[re, im]`` pairs in rad/s.
