@@ -158,13 +158,16 @@ class LevelResult:
     """The solution at the chosen level, the choice, and the window for snapping.
 
     ``window`` is (low, high), log bounds of the problem's independent parts
-    that keep the snapped design at the chosen level (:func:`within`); None
-    when the level is the solver's.
+    on the passing side of the chosen level (:func:`within`), and ``prefer``
+    a score for :func:`placer.snap.snap` that ranks preferred-value sets by
+    how near the chosen level they stay; both None when the level is the
+    solver's.
     """
 
     solution: object
     choice: LevelChoice
     window: tuple | None = None
+    prefer: object = None
 
 
 def level_exponents(problem) -> dict:
@@ -360,8 +363,32 @@ def _ladder(problem, u: NDArray[np.float64], rule: LevelRule) -> NDArray[np.floa
 
 #: How far past the chosen level the snapping may go, in capacitor steps; resistors
 #: and inductors, which the snapper re-solves, get a factor _FINE_SLACK more either way.
-_WINDOW_STEPS = 4
+#: Within it the snapper takes, among the sets within its error slack of the best,
+#: the one nearest the chosen level (:class:`LevelScore`).
+_WINDOW_STEPS = 12
 _FINE_SLACK = math.log(1.6)
+
+
+@dataclass(frozen=True)
+class LevelScore:
+    """Snapping preference: how far a set of log values moved the level the failing way.
+
+    The level of a column U of log part values is the least-squares α of
+    ``U − u`` along the scaling direction (+1 for resistors and inductors,
+    −1 for capacitors); the score is that level, signed so that moving
+    towards the failing side (down without a target, up with one) scores
+    lower — the chosen level itself scores 0, the best.
+    """
+
+    u: tuple
+    direction: tuple
+    sign: float
+
+    def __call__(self, U):
+        U = np.asarray(U, float)
+        d = np.asarray(self.direction, float)
+        shift = d @ (U - np.asarray(self.u, float).reshape((-1,) + (1,) * (U.ndim - 1)))
+        return self.sign * shift / float(d @ d)
 
 
 def _window(problem, u: NDArray[np.float64], rule: LevelRule) -> tuple:
@@ -404,7 +431,8 @@ def _scaled_solution(problem, solution, factor: float, rule: LevelRule):
         shift = float(direction @ (u - np.asarray(a, float))) / weight
         alternatives.append(np.clip(a + shift * direction, window[0], window[1]))
     values = {k: float(v) for k, v in problem.values(u).items()}
-    return replace(solution, values=values, u=u, alternatives=tuple(alternatives)), window
+    score = LevelScore(tuple(u), tuple(direction), -1.0 if rule.mode == "target" else 1.0)
+    return replace(solution, values=values, u=u, alternatives=tuple(alternatives)), window, score
 
 
 def choose_level(problem, solution, rule: LevelRule) -> LevelResult:
@@ -452,8 +480,8 @@ def choose_level(problem, solution, rule: LevelRule) -> LevelResult:
         nearest = None
         note = f"no level meets the load limit: {steps[chosen].fails}; the lightest load is kept"
     choice = LevelChoice(rule.mode, steps[chosen], None if nearest is None else steps[nearest], note)
-    scaled, window = _scaled_solution(problem, solution, float(factors[chosen]), rule)
-    return LevelResult(scaled, choice, window)
+    scaled, window, score = _scaled_solution(problem, solution, float(factors[chosen]), rule)
+    return LevelResult(scaled, choice, window, score)
 
 
 def _unmet(steps: tuple, rule: LevelRule) -> str:

@@ -122,11 +122,11 @@ def place_ideal(section, topology, *, parts=None, seed=0, level=None):
     ranges, series, fixed, constraints = problem_options(topology, parts)
     problem = make_problem(topology, goal, ranges=ranges, fixed=fixed, constraints=constraints)
     solution = solve(problem, seed=seed)
-    window = None
+    window = prefer = None
     if level is not None:   # impedance level: a separate step that moves no root
         leveled = choose_level(problem, solution, level)
-        solution, window = leveled.solution, leveled.window
-    snapped = snap(within(problem, window), solution, series=series)
+        solution, window, prefer = leveled.solution, leveled.window, leveled.prefer
+    snapped = snap(within(problem, window), solution, series=series, prefer=prefer)
     return IdealPlacement(
         goal=goal, problem=problem, solution=solution, snapped=snapped,
         errors=root_errors(problem.nf, snapped.values, goal),

@@ -239,7 +239,7 @@ def _level_html(data: dict) -> list:
                       "ranges and the op-amp load limit. The nearest level that fails is one capacitor "
                       "step away."),
             table(["section", "chosen for", "noise at the cascade output", "least op-amp load",
-                   "nearest failing level", "why it fails"], rows, numeric_from=2)]
+                   "nearest failing level", "why it fails"], rows, numeric_from=6)]
 
 
 def _swing_html(design, prelayout, data: dict, plots) -> list:
