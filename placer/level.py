@@ -365,7 +365,7 @@ def _ladder(problem, u: NDArray[np.float64], rule: LevelRule) -> NDArray[np.floa
 #: and inductors, which the snapper re-solves, get a factor _FINE_SLACK more either way.
 #: Within it the snapper takes, among the sets within its error slack of the best,
 #: the one nearest the chosen level (:class:`LevelScore`).
-_WINDOW_STEPS = 12
+_WINDOW_STEPS = 24
 _FINE_SLACK = math.log(1.6)
 
 

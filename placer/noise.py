@@ -316,7 +316,13 @@ def noise_grid(band_hz, poles=(), *, points_per_decade: int = 100) -> NDArray[np
 
 
 def integrate_density(frequency_hz, psd) -> float:
-    """∫ psd df over the grid (trapezoids in ln f, exact for power laws' slopes).
+    """∫ psd df over the grid, the density a power law between grid points.
+
+    Between two grid points the density is taken as S_i·(f/f_i)^b (a
+    straight line on log-log axes), integrated exactly: exact for a flat
+    density and for the f^−2 slope above a pole, where trapezoids in f or
+    in ln f are not; intervals where the density is zero fall back to
+    trapezoids.
 
     Parameters
     ----------
@@ -330,8 +336,19 @@ def integrate_density(frequency_hz, psd) -> float:
     float
         The integral (V², for V²/Hz).
     """
-    frequency = np.asarray(frequency_hz, float)
-    return float(np.trapezoid(np.asarray(psd, float) * frequency, np.log(frequency)))
+    f = np.asarray(frequency_hz, float)
+    s = np.asarray(psd, float)
+    f0, f1, s0, s1 = f[:-1], f[1:], s[:-1], s[1:]
+    trapezoid = 0.5 * (s0 + s1) * (f1 - f0)
+    positive = (s0 > 0) & (s1 > 0)
+    ratio = f1 / f0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        slope = np.where(positive, np.log(np.where(positive, s1 / np.where(s0 > 0, s0, 1), 1.0))
+                         / np.log(ratio), 0.0)
+        p = slope + 1.0
+        power = np.where(np.abs(p) > 1e-9, s0 * f0 * np.expm1(p * np.log(ratio)) / np.where(
+            np.abs(p) > 1e-9, p, 1.0), s0 * f0 * np.log(ratio))
+    return float(np.sum(np.where(positive, power, trapezoid)))
 
 
 @dataclass(frozen=True)
