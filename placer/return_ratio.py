@@ -162,6 +162,7 @@ def _broken(system: NumericSystem, circuit: Circuit, name: str) -> _Broken:
     element = circuit.element(name)
     if element.kind != "opamp":
         raise TopologyError(f"element {name!r} is a {element.kind}, not an op-amp")
+    _gain(element, np.ones(1))          # an ideal op-amp has no loop to measure: say so
     node = system.layout.node_index
     row = system.layout.branch_index[name]
     G, C = system.G.copy(), system.C.copy()
