@@ -50,6 +50,10 @@ _EXPORTS = {
     "Design": "design", "design": "design", "place_section": "design",
     "gather_evidence": "evidence",
     "compare": "compare", "comparison_to_dict": "compare", "rank_candidates": "compare",
+    "analyse_noise": "noise", "noise_spectrum": "noise", "NoiseAnalysis": "noise",
+    "opamp_loop": "return_ratio", "OpampLoop": "return_ratio",
+    "choose_level": "level", "LevelRule": "level", "LevelChoice": "level",
+    "check_design": "prelayout", "Prelayout": "prelayout",
 }
 
 __all__ = ["__version__", *_EXPORTS]
