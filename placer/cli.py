@@ -419,7 +419,7 @@ def _cmd_loop(args):
     return 0
 
 
-def _compensator_loops(result, spec, data):
+def _compensator_loops(result, spec, data: dict) -> tuple:
     """The compensator op-amp's own loop: into `data` (JSON), returned for the report."""
     from .opamp import describe_amplifier
     from .prelayout import DEFAULT_LOOP_PRESET, compensator_loops, loop_to_dict

@@ -319,7 +319,7 @@ class _Task:
     level: object = None        # placer.level.LevelRule of the section
 
 
-def _prelayout_figures(spec, topology, values):
+def _prelayout_figures(spec, topology, values: dict) -> tuple:
     """(integrated output noise V rms, least op-amp phase margin °) of one stage as snapped."""
     settings = settings_for(spec)
     circuit = topology.circuit.with_values(values)

@@ -336,7 +336,8 @@ def _load_failure(loads: list, rule: LevelRule) -> str:
     return ""
 
 
-def _judge(problem, values, scaled, rule, factor, noise, loads) -> LevelStep:
+def _judge(problem, values: dict, scaled: dict, rule: LevelRule, factor: float, noise: float,
+           loads: list) -> LevelStep:
     moved = {name: (float(values[name]) * factor ** scaled[name] if name in scaled else values[name])
              for name in values}
     load = min((ohm for _, ohm, _ in loads), default=math.inf)
@@ -384,7 +385,7 @@ class LevelScore:
     direction: tuple
     sign: float
 
-    def __call__(self, U):
+    def __call__(self, U: NDArray[np.float64]) -> NDArray[np.float64]:
         U = np.asarray(U, float)
         d = np.asarray(self.direction, float)
         shift = d @ (U - np.asarray(self.u, float).reshape((-1,) + (1,) * (U.ndim - 1)))
@@ -412,7 +413,7 @@ def _window(problem, u: NDArray[np.float64], rule: LevelRule) -> tuple:
     return low, high
 
 
-def within(problem, window: tuple | None):
+def within(problem, window: tuple | None) -> object:
     """`problem` with its independent parts' log bounds narrowed to `window`."""
     if window is None:
         return problem
@@ -420,7 +421,7 @@ def within(problem, window: tuple | None):
                    high=np.minimum(problem.high, window[1]))
 
 
-def _scaled_solution(problem, solution, factor: float, rule: LevelRule):
+def _scaled_solution(problem, solution, factor: float, rule: LevelRule) -> tuple:
     u = _scaled_u(problem, solution.u, factor)
     window = _window(problem, u, rule)
     exponents = level_exponents(problem)

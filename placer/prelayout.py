@@ -34,7 +34,7 @@ import numpy as np
 
 from .circuit import Circuit
 from .eseries import series_values
-from .level import DEFAULT_MIN_LOAD, LevelChoice, describe_level, level_rules
+from .level import DEFAULT_MIN_LOAD, LevelChoice, LevelStep, describe_level, level_rules
 from .mna import numeric_system
 from .noise import DEFAULT_TEMPERATURE, NoiseAnalysis, analyse_noise
 from .opamp import AMPLIFIER_PRESETS, AmplifierSpec, apply_amplifier, describe_amplifier
@@ -402,7 +402,7 @@ def _level_dict(level: LevelChoice | None) -> dict | None:
     if level is None:
         return None
 
-    def step(s):
+    def step(s: LevelStep | None) -> dict | None:
         return None if s is None else {"factor": s.factor, "noise_v": s.noise_v,
                                        "least_load_ohm": finite_or_none(s.load_ohm),
                                        "fails": s.fails}

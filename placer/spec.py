@@ -457,7 +457,7 @@ class SignalSpec:
     amplitude_given: bool = False
 
 
-def _positive(raw, unit, where, example):
+def _positive(raw: object, unit: str, where: str, example: str) -> float:
     """A positive finite value of `unit` from a number or an engineering string."""
     text = raw
     factor = 1.0
@@ -479,7 +479,7 @@ def _positive(raw, unit, where, example):
     return value
 
 
-def _prelayout_amplifier(table, where):
+def _prelayout_amplifier(table: dict, where: str) -> dict:
     out = {}
     for key in PRELAYOUT_AMPLIFIER_KEYS:
         if key in table:
@@ -488,7 +488,7 @@ def _prelayout_amplifier(table, where):
     return out
 
 
-def _temperature(raw, where):
+def _temperature(raw: object, where: str) -> float:
     """Kelvin from a number or "300 K"; "27 degC" / "27 °C" in Celsius."""
     value = None
     if isinstance(raw, (int, float)) and not isinstance(raw, bool):
@@ -514,7 +514,7 @@ def _temperature(raw, where):
     return value
 
 
-def noise_from_table(table, *, source="spec"):
+def noise_from_table(table: dict, *, source: str = "spec") -> NoiseSpec:
     """Read a ``[noise]`` table into a :class:`NoiseSpec`.
 
     Raises
@@ -546,7 +546,7 @@ def noise_from_table(table, *, source="spec"):
                      temperature_given="temperature" in table)
 
 
-def signal_from_table(table, *, source="spec"):
+def signal_from_table(table: dict, *, source: str = "spec") -> SignalSpec:
     """Read a ``[signal]`` table into a :class:`SignalSpec`.
 
     Raises
