@@ -3,10 +3,10 @@
 1. Noise density at 500 frequencies of a 6th-order cascade (three
    Tow–Thomas sections with single-pole op-amps and their output
    resistances, so every resistor and every op-amp's voltage and current
-   noise is a source): :func:`placer.noise.noise_spectrum`, one adjoint
+   noise is a source): :func:`placer.analysis.noise.noise_spectrum`, one adjoint
    solve per frequency for all sources (batched over frequency), against
    the baseline, one direct solve per source and per frequency.
-2. The impedance-level search, :func:`placer.level.choose_level`, per
+2. The impedance-level search, :func:`placer.place.level.choose_level`, per
    section, for the low-pass topologies of the library (the solver's
    continuous solution given; the level search alone is timed).
 
@@ -30,13 +30,13 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 from placer.design import cascade_circuit  # noqa: E402
-from placer.level import LevelRule, choose_level  # noqa: E402
-from placer.library import get_topology  # noqa: E402
-from placer.mna import numeric_system  # noqa: E402
-from placer.noise import noise_sources, noise_spectrum  # noqa: E402
-from placer.opamp import AmplifierSpec, apply_amplifier  # noqa: E402
-from placer.solve import goal_from_section, make_problem, solve  # noqa: E402
-from placer.targets import make_section  # noqa: E402
+from placer.place.level import LevelRule, choose_level  # noqa: E402
+from placer.circuit.library import get_topology  # noqa: E402
+from placer.analysis.mna import numeric_system  # noqa: E402
+from placer.analysis.noise import noise_sources, noise_spectrum  # noqa: E402
+from placer.place.opamp import AmplifierSpec, apply_amplifier  # noqa: E402
+from placer.place.solve import goal_from_section, make_problem, solve  # noqa: E402
+from placer.target.targets import make_section  # noqa: E402
 
 Q_VALUES = (0.5176, 0.7071, 1.9319)    # sixth-order Butterworth sections
 F0 = 1e3

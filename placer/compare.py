@@ -10,17 +10,17 @@ measured on what a designer weighs when choosing a circuit:
 * value spread: largest/smallest value among the resistors and among the
   capacitors;
 * the largest |S| of ω0 and of Q to any part, S = ∂ln y/∂ln x
-  (:func:`placer.sensitivity.sensitivities` at the snapped values);
+  (:func:`placer.analysis.sensitivity.sensitivities` at the snapped values);
 * the op-amp gain-bandwidth the stage needs, Hz (see :data:`GBW_METHODS`);
 * Monte Carlo yield: the share of samples whose f0 and Q stay within the
   spec's windows around nominal, every part drawn within the spec's
-  tolerance for its kind (:func:`placer.tolerance.monte_carlo`);
-* before layout (:mod:`placer.prelayout`): the stage's integrated output
+  tolerance for its kind (:func:`placer.evidence.tolerance.monte_carlo`);
+* before layout (:mod:`placer.evidence.prelayout`): the stage's integrated output
   noise over the noise band, and the least phase margin of its op-amps'
   own loops with the spec's op-amp model (or the default one).
 
 Each candidate is placed at the impedance level the design would give it
-(:func:`placer.prelayout.level_rules_for`).
+(:func:`placer.evidence.prelayout.level_rules_for`).
 
 Candidates are evaluated in worker processes, one candidate (section ×
 topology) per task. Each candidate's solver and Monte Carlo seeds come
@@ -39,17 +39,17 @@ from dataclasses import asdict, dataclass, field
 
 import numpy as np
 
-from .amplifier import built_drift
+from .place.amplifier import built_drift
 from .design import candidate_topologies, place_section
 from .errors import PlacerError, SpecError
-from .gbw import as_built_gbw, required_gbw, search_top_hz
-from .opamp import AmplifierSpec
-from .noise import analyse_noise
-from .placement import value_spread
-from .prelayout import checked_circuit, level_rules_for, settings_for
-from .return_ratio import opamp_loops
-from .sections import split_sections
-from .tolerance import monte_carlo
+from .place.gbw import as_built_gbw, required_gbw, search_top_hz
+from .place.opamp import AmplifierSpec
+from .analysis.noise import analyse_noise
+from .place.placement import value_spread
+from .evidence.prelayout import checked_circuit, level_rules_for, settings_for
+from .analysis.return_ratio import opamp_loops
+from .target.sections import split_sections
+from .evidence.tolerance import monte_carlo
 from .units import finite_or_none, format_value
 
 
@@ -85,7 +85,7 @@ _SOURCES = {
     "thumb": "rule of thumb: GBW >= 100·f0·Q, the Sallen–Key/MFB practice applied to "
              "a topology it was not stated for",
     "passive": "no op-amp",
-    "built": f"op-amp model (single pole, placer.gbw.as_built_gbw): the smallest GBW, and at "
+    "built": f"op-amp model (single pole, placer.place.gbw.as_built_gbw): the smallest GBW, and at "
              f"least 10·f0, at which the snapped design, as built, stays within "
              f"{GBW_ERROR_PCT:g} % of the target",
 }
@@ -316,7 +316,7 @@ class _Task:
     samples: int
     seed: int
     gbw: str
-    level: object = None        # placer.level.LevelRule of the section
+    level: object = None        # placer.place.level.LevelRule of the section
 
 
 def _prelayout_figures(spec, topology, values: dict) -> tuple:
@@ -353,7 +353,7 @@ def _gbw_needed(section, topology, spec, method, candidate):
             need = required_gbw(section, topology, error_pct=GBW_ERROR_PCT, parts=spec.parts,
                                 amplifier_gain=spec.amplifier.gain)
             if math.isfinite(need.gbw_hz):
-                source += (f"; re-solved for the op-amp (placer.gbw.required_gbw), "
+                source += (f"; re-solved for the op-amp (placer.place.gbw.required_gbw), "
                            f"{format_value(need.gbw_hz, 'Hz')} would do")
             elif need.note:
                 source += f"; re-solved for the op-amp: {need.note}"
@@ -497,7 +497,7 @@ def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, pro
 
     Parameters
     ----------
-    spec : placer.spec.Spec
+    spec : placer.spec.reader.Spec
     rank_by : {"yield", "error", "parts", "sensitivity"}
         Ranking key, see :data:`RANK_KEYS` (by yield, statistical ties go
         to the simpler stage: :func:`rank_candidates` with `samples`).
@@ -513,11 +513,11 @@ def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, pro
     gbw : {"built", "rule", "model"}
         "built" (default): the finite-GBW op-amp model on each candidate's
         snapped design, the smallest GBW that keeps it within
-        GBW_ERROR_PCT of the target as built (:func:`placer.gbw.as_built_gbw`).
+        GBW_ERROR_PCT of the target as built (:func:`placer.place.gbw.as_built_gbw`).
         "rule": GBW >= 100·f0·Q (f0 in Hz), common practice for Sallen–Key
         and multiple-feedback stages, a labelled rule of thumb for other
         active ones. "model": "built", and also what a design re-solved for
-        the op-amp would need (:func:`placer.gbw.required_gbw`; seconds per
+        the op-amp would need (:func:`placer.place.gbw.required_gbw`; seconds per
         candidate).
 
     Returns

@@ -6,11 +6,11 @@ import numpy as np
 import pytest
 
 from placer.errors import UnreachableTarget
-from placer.level import LevelRule, choose_level, level_steps
-from placer.library import get_topology
-from placer.pencil import circuit_poles
-from placer.solve import goal_from_section, make_problem, solve
-from placer.targets import make_section
+from placer.place.level import LevelRule, choose_level, level_steps
+from placer.circuit.library import get_topology
+from placer.analysis.pencil import circuit_poles
+from placer.place.solve import goal_from_section, make_problem, solve
+from placer.target.targets import make_section
 
 SECTION = make_section("lowpass", 2 * math.pi * 5e3, 1.3066)
 RULE = LevelRule(band_hz=(10.0, 100e3), analysis_hz=(500.0, 50e3))

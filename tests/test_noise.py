@@ -5,11 +5,11 @@ import math
 import numpy as np
 import pytest
 
-from placer.circuit import Circuit, Element
+from placer.circuit.elements import Circuit, Element
 from placer.errors import SpecError
-from placer.mna import numeric_system
-from placer.noise import BOLTZMANN, analyse_noise, noise_sources, noise_spectrum
-from placer.opamp import AmplifierSpec, apply_amplifier
+from placer.analysis.mna import numeric_system
+from placer.analysis.noise import BOLTZMANN, analyse_noise, noise_sources, noise_spectrum
+from placer.place.opamp import AmplifierSpec, apply_amplifier
 
 
 def rc_lowpass(r, c):

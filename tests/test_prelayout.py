@@ -7,8 +7,8 @@ import pytest
 
 from placer.cli import main
 from placer.design import design
-from placer.prelayout import check_design
-from placer.spec import spec_from_dict
+from placer.evidence.prelayout import check_design
+from placer.spec.reader import spec_from_dict
 
 Q = 1.3066
 F0 = 5e3

@@ -5,10 +5,10 @@ import math
 import numpy as np
 import pytest
 
-from placer.circuit import Circuit, Element
+from placer.circuit.elements import Circuit, Element
 from placer.errors import SpecError
-from placer.opamp import AmplifierSpec, apply_amplifier
-from placer.return_ratio import opamp_loop, opamp_loops, output_pin, return_ratio, with_load_capacitance
+from placer.place.opamp import AmplifierSpec, apply_amplifier
+from placer.analysis.return_ratio import opamp_loop, opamp_loops, output_pin, return_ratio, with_load_capacitance
 
 
 def buffer(capacitance=1e-9):

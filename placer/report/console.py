@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 import sys
 
-from ..tolerance import MAX_REJECTION_DB
+from ..evidence.tolerance import MAX_REJECTION_DB
 from ..units import format_value
 from .prelayout import cascade_lines, section_lines
 

@@ -1,8 +1,8 @@
 """The pre-layout checks in words and plots: console lines, HTML sections, figures.
 
 Everything here reads the ``prelayout`` object of a design's JSON
-(:meth:`placer.prelayout.Prelayout.to_dict`), except the figures, which
-take the arrays of :class:`placer.prelayout.Prelayout` itself.
+(:meth:`placer.evidence.prelayout.Prelayout.to_dict`), except the figures, which
+take the arrays of :class:`placer.evidence.prelayout.Prelayout` itself.
 """
 
 from __future__ import annotations
@@ -169,8 +169,8 @@ def swing_figure(frequency_hz, curves: dict, *, swing_v: float | None, title: st
 
 
 def _swing_curves(design, prelayout) -> tuple:
-    from ..mna import numeric_system
-    from ..return_ratio import output_pin
+    from ..analysis.mna import numeric_system
+    from ..analysis.return_ratio import output_pin
 
     low, high = prelayout.settings.analysis_hz
     frequency = np.geomspace(low, high, int(50 * math.log10(high / low)) + 1)
