@@ -50,6 +50,10 @@ _EXPORTS = {
     "Design": "design", "design": "design", "place_section": "design",
     "gather_evidence": "evidence.gather",
     "compare": "compare", "comparison_to_dict": "compare", "rank_candidates": "compare",
+    "analyse_noise": "analysis.noise", "noise_spectrum": "analysis.noise", "NoiseAnalysis": "analysis.noise",
+    "opamp_loop": "analysis.return_ratio", "OpampLoop": "analysis.return_ratio",
+    "choose_level": "place.level", "LevelRule": "place.level", "LevelChoice": "place.level",
+    "check_design": "evidence.prelayout", "Prelayout": "evidence.prelayout",
 }
 
 __all__ = ["__version__", *_EXPORTS]

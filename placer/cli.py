@@ -307,7 +307,10 @@ def _cmd_design(args):
                                    workers=args.workers)
     finally:
         progress.close()
-    data = design_to_dict(result, evidence=evidence.to_dict())
+    from .evidence.prelayout import check_design
+
+    prelayout = check_design(result)
+    data = design_to_dict(result, evidence=evidence.to_dict(), prelayout=prelayout.to_dict())
     print(design_text(data))
     print()
     print(evidence_text(evidence))
@@ -321,7 +324,7 @@ def _cmd_design(args):
         from .report.html import write_design_report
 
         write_design_report(result, data, evidence, html_path=args.report, plots_dir=args.plots,
-                            inputs=inputs)
+                            inputs=inputs, prelayout=prelayout)
     print()
     print("Caution: these values are a starting point; confirm the design by simulation and on the "
           "bench. Equipment connected to mains, or used where a failure can hurt someone, must follow "
@@ -400,13 +403,15 @@ def _cmd_loop(args):
     finally:
         progress.close()
     data = loop_to_dict(result)
+    loops = _compensator_loops(result, spec, data)
     print(_loop_text(data))
     if args.json:
         _emit_json(data, args.json, inputs=inputs)
     if args.report or args.plots:
         from .report.html import write_loop_report
 
-        write_loop_report(result, data, html_path=args.report, plots_dir=args.plots, inputs=inputs)
+        write_loop_report(result, data, html_path=args.report, plots_dir=args.plots, inputs=inputs,
+                          opamp_loops=loops)
     print()
     print("Caution: power converters and anything connected to mains can hurt people. These values "
           "are a starting point: confirm the loop by simulation and on the bench, and follow the "
@@ -414,8 +419,30 @@ def _cmd_loop(args):
     return 0
 
 
+def _compensator_loops(result, spec, data: dict) -> tuple:
+    """The compensator op-amp's own loop: into `data` (JSON), returned for the report."""
+    from .place.opamp import describe_amplifier
+    from .evidence.prelayout import DEFAULT_LOOP_PRESET, compensator_loops, loop_to_dict
+
+    loops, model, is_default = compensator_loops(result.design.circuit(snapped=True), spec.amplifier)
+    data["opamp_loops"] = {
+        "model": describe_amplifier(model),
+        "model_source": (f"default: the {DEFAULT_LOOP_PRESET!r} preset (the spec gives no GBW)"
+                         if is_default else "spec"),
+        "load_capacitance_f": spec.amplifier.load_capacitance,
+        "loops": [loop_to_dict(loop) for loop in loops],
+    }
+    for loop in loops:
+        if loop.low_margin:
+            data.setdefault("notes", []).append(
+                f"compensator op-amp {loop.opamp}: its own phase margin "
+                f"{loop.phase_margin_deg:.1f}° is below 45°")
+    return loops
+
+
 def _loop_text(data):
     from .report.console import table
+    from .report.prelayout import compensator_lines
 
     def margin_row(label, m):
         return [label, format_value(m["crossover_hz"], "Hz", digits=4) if m.get("crossover_hz") else "none",
@@ -462,6 +489,7 @@ def _loop_text(data):
         if mc.get("yield") is not None:
             parts.append(f"yield {100 * mc['yield']:.1f} % (phase margin at or above the floor)")
         lines.append("Monte Carlo (" + mc.get("distribution", "") + "): " + ", ".join(parts))
+    lines.extend(compensator_lines(data))
     for note in data.get("notes", []):
         lines.append(f"  note: {note}")
     return "\n".join(lines)

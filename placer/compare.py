@@ -14,7 +14,13 @@ measured on what a designer weighs when choosing a circuit:
 * the op-amp gain-bandwidth the stage needs, Hz (see :data:`GBW_METHODS`);
 * Monte Carlo yield: the share of samples whose f0 and Q stay within the
   spec's windows around nominal, every part drawn within the spec's
-  tolerance for its kind (:func:`placer.evidence.tolerance.monte_carlo`).
+  tolerance for its kind (:func:`placer.evidence.tolerance.monte_carlo`);
+* before layout (:mod:`placer.evidence.prelayout`): the stage's integrated output
+  noise over the noise band, and the least phase margin of its op-amps'
+  own loops with the spec's op-amp model (or the default one).
+
+Each candidate is placed at the impedance level the design would give it
+(:func:`placer.evidence.prelayout.level_rules_for`).
 
 Candidates are evaluated in worker processes, one candidate (section ×
 topology) per task. Each candidate's solver and Monte Carlo seeds come
@@ -38,7 +44,10 @@ from .design import candidate_topologies, place_section
 from .errors import PlacerError, SpecError
 from .place.gbw import as_built_gbw, required_gbw, search_top_hz
 from .place.opamp import AmplifierSpec
+from .analysis.noise import analyse_noise
 from .place.placement import value_spread
+from .evidence.prelayout import checked_circuit, level_rules_for, settings_for
+from .analysis.return_ratio import opamp_loops
 from .target.sections import split_sections
 from .evidence.tolerance import monte_carlo
 from .units import finite_or_none, format_value
@@ -115,6 +124,10 @@ class CandidateResult:
     rejection_db : float or None
         Notch sections: the rejection (pass-band gain over |H|, dB) at the
         target's zero frequency that 99 % of the Monte Carlo builds reach.
+    noise_rms_v : float or None
+        The stage alone: integrated output noise over the noise band, V rms.
+    worst_phase_margin_deg : float or None
+        The least phase margin of the stage's op-amps' own loops (None: no op-amp).
     gbw_drift_pct : float or None
         The snapped design built with single-pole op-amps of the rule of
         thumb's GBW, 100·f0·Q (and the spec's DC gain, if any): the larger
@@ -144,6 +157,8 @@ class CandidateResult:
     values: dict = field(default_factory=dict)
     rejection_db: float | None = None
     gbw_drift_pct: float | None = None
+    noise_rms_v: float | None = None
+    worst_phase_margin_deg: float | None = None
 
     @property
     def max_sensitivity(self):
@@ -301,6 +316,21 @@ class _Task:
     samples: int
     seed: int
     gbw: str
+    level: object = None        # placer.place.level.LevelRule of the section
+
+
+def _prelayout_figures(spec, topology, values: dict) -> tuple:
+    """(integrated output noise V rms, least op-amp phase margin °) of one stage as snapped."""
+    settings = settings_for(spec)
+    circuit = topology.circuit.with_values(values)
+    noise = analyse_noise(circuit, settings.band_hz, temperature=settings.temperature_k,
+                          noise_voltage=settings.noise_voltage,
+                          noise_current=settings.noise_current).rms_v
+    if not topology.opamp_count:
+        return noise, None
+    loops = opamp_loops(checked_circuit(circuit, settings.loop_model, settings.load_capacitance_f))
+    margins = [loop.phase_margin_deg for loop in loops if loop.phase_margin_deg is not None]
+    return noise, (min(margins) if margins else None)
 
 
 def _gbw_needed(section, topology, spec, method, candidate):
@@ -365,7 +395,8 @@ def _evaluate(task):
     topology, spec = task.topology, task.spec
     solver_seed, sampler_seed = candidate_seeds(task.seed, task.index, topology.id)
     try:
-        candidate = place_section(task.section, topology, parts=spec.parts, seed=solver_seed)
+        candidate = place_section(task.section, topology, parts=spec.parts, seed=solver_seed,
+                                  level=task.level)
         if not candidate.reachable:
             return CandidateResult(task.index, topology.id, topology.title, reason=candidate.reason)
         nf = candidate.problem.nf
@@ -389,6 +420,7 @@ def _evaluate(task):
         gbw_hz, gbw_source = _gbw_needed(task.section, topology, spec, task.gbw, candidate)
         rule_hz = _rule_gbw(task.section) if topology.opamp_count else None
         drift = _drift_at(topology, values, candidate.problem.goal, rule_hz, spec.amplifier.gain)
+        noise_v, margin = _prelayout_figures(spec, topology, values)
     except SpecError as error:
         return CandidateResult(task.index, topology.id, topology.title, reason=f"bad input: {error}")
     return CandidateResult(
@@ -402,7 +434,7 @@ def _evaluate(task):
         values={k: float(v) for k, v in values.items()},
         rejection_db=(None if result.rejection_db is None
                       else float(result.statistics["rejection_db"].p01)),
-        gbw_drift_pct=drift,
+        gbw_drift_pct=drift, noise_rms_v=noise_v, worst_phase_margin_deg=margin,
     )
 
 
@@ -511,10 +543,12 @@ def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, pro
             raise SpecError(f"{name} must be a whole number >= {low}, not {value!r}")
     sections = split_sections(spec.target, ordering=spec.ordering, gain=spec.gain_distribution)
     tasks, failed = [], []
+    levels = level_rules_for(spec, sections)
     for index, section in enumerate(sections, start=1):
         topologies, load_errors = candidate_topologies(section, spec)
         for topology in sorted(topologies, key=lambda t: t.id):
-            tasks.append(_Task(spec, index, section, topology, samples, seed, gbw))
+            tasks.append(_Task(spec, index, section, topology, samples, seed, gbw,
+                               levels[index - 1]))
         failed.append([CandidateResult(index, path, reason=message)
                        for path, message in sorted(load_errors.items())])
     results = _run(tasks, workers, progress)

@@ -24,6 +24,7 @@ from .errors import SpecError, UnreachableTarget
 from .circuit.library import find_topologies, load_folder, resolve_topology
 from .place.opamp import apply_amplifier, check_amplifier
 from .analysis.pencil import circuit_roots
+from .evidence.prelayout import level_rules_for
 from .place.placement import PART_KINDS, Candidate, place_ideal
 from .target.sections import split_sections
 
@@ -115,7 +116,7 @@ def candidate_topologies(section, spec=None):
     return fitting, errors
 
 
-def place_section(section, topology, *, parts=None, seed=0):
+def place_section(section, topology, *, parts=None, seed=0, level=None):
     """Solve and snap one topology for one section, as a Candidate.
 
     The placement is :func:`placer.place.placement.place_ideal`'s (ideal op-amps;
@@ -129,6 +130,8 @@ def place_section(section, topology, *, parts=None, seed=0):
     parts : placer.spec.reader.PartsSpec, optional
         Series, ranges, fixed parts and constraints.
     seed : int
+    level : placer.place.level.LevelRule, optional
+        The impedance level rule (see :func:`placer.place.level.choose_level`).
 
     Returns
     -------
@@ -136,7 +139,7 @@ def place_section(section, topology, *, parts=None, seed=0):
         ``reachable`` False with the reason when the topology cannot.
     """
     try:
-        placed = place_ideal(section, topology, parts=parts, seed=seed)
+        placed = place_ideal(section, topology, parts=parts, seed=seed, level=level)
     except UnreachableTarget as reason:
         return Candidate(topology=topology, reachable=False, reason=reason.reason)
     return Candidate(
@@ -214,6 +217,7 @@ def design(spec, *, seed=None, progress=None, place=place_section):
         if place is place_section:
             place = partial(place_section_with_amplifier, amplifier=amplifier)
     plans = [(section, *candidate_topologies(section, spec)) for section in sections]
+    levels = level_rules_for(spec, sections)      # the impedance level of each section
     _check_part_names(spec, [t for p in plans for t in p[1]])
     total = sum(len(p[1]) for p in plans)
     done = 0
@@ -221,7 +225,8 @@ def design(spec, *, seed=None, progress=None, place=place_section):
     for index, (section, topologies, load_errors) in enumerate(plans, start=1):
         candidates = []
         for topology in topologies:
-            candidates.append(place(section, topology, parts=spec.parts, seed=seed))
+            candidates.append(place(section, topology, parts=spec.parts, seed=seed,
+                                    level=levels[index - 1]))
             done += 1
             if progress:
                 progress(done, total, topology.id)

@@ -42,6 +42,8 @@ CAUTION_WORDS = ("confirm the design by simulation and on the bench",
                  "applicable safety standards and licensed practice")
 PLOT_STEMS = {"pole-zero", "bode", "step", "section1-f0-histogram", "section1-q-histogram",
               "section2-f0-histogram", "section2-q-histogram"}
+#: The plots of the pre-layout checks, which `placer design` adds (placer.report.prelayout).
+PRELAYOUT_STEMS = {"noise-density", "swing", "opamp-loop"}
 
 
 def _external_references(text):
@@ -374,7 +376,8 @@ def test_cli_design_writes_report_and_plots(tmp_path, capsys):
     assert status == 0
     text = out.read_text(encoding="utf-8")
     assert _external_references(text) == [] and "<svg" in text
-    assert {p.name for p in plots.iterdir()} == {f"{stem}.{suffix}" for stem in PLOT_STEMS
+    assert {p.name for p in plots.iterdir()} == {f"{stem}.{suffix}"
+                                                 for stem in PLOT_STEMS | PRELAYOUT_STEMS
                                                  for suffix in ("png", "svg")}
     printed = capsys.readouterr().out
     assert "Caution" in printed and "notch's null" not in printed
@@ -429,7 +432,8 @@ def test_cli_loop_writes_report_and_plots(tmp_path):
     assert "crossover = &quot;20 kHz&quot;" in text       # the spec, found from the inputs
     assert {p.name for p in tmp_path.iterdir()} == {"loop.html", "loop-gain.png", "loop-gain.svg",
                                                     "phase-margin-histogram.png",
-                                                    "phase-margin-histogram.svg"}
+                                                    "phase-margin-histogram.svg",
+                                                    "U1-loop.png", "U1-loop.svg"}
 
 
 # -- the comparison report -----------------------------------------------------

@@ -38,6 +38,21 @@ if TYPE_CHECKING:
         fraction_free_det,
         polynomial_values,
     )
+    from .noise import (
+        BOLTZMANN,
+        DEFAULT_TEMPERATURE,
+        NoiseSources,
+        NoiseSpectrum,
+        NoiseContribution,
+        NoiseAnalysis,
+        noise_sources,
+        noise_spectrum,
+        noise_grid,
+        integrate_density,
+        analyse_noise,
+        is_model_resistor,
+        opamp_input_coefficient,
+    )
     from .pencil import (
         CircuitRoots,
         circuit_roots,
@@ -48,6 +63,15 @@ if TYPE_CHECKING:
     )
     from .response import (
         Response,
+    )
+    from .return_ratio import (
+        PHASE_MARGIN_FLOOR_DEG,
+        OpampLoop,
+        output_pin,
+        with_load_capacitance,
+        return_ratio,
+        opamp_loop,
+        opamp_loops,
     )
     from .sensitivity import (
         Sensitivities,
@@ -78,6 +102,19 @@ _EXPORTS = {
     "batched_roots": "network",
     "fraction_free_det": "network",
     "polynomial_values": "network",
+    "BOLTZMANN": "noise",
+    "DEFAULT_TEMPERATURE": "noise",
+    "NoiseSources": "noise",
+    "NoiseSpectrum": "noise",
+    "NoiseContribution": "noise",
+    "NoiseAnalysis": "noise",
+    "noise_sources": "noise",
+    "noise_spectrum": "noise",
+    "noise_grid": "noise",
+    "integrate_density": "noise",
+    "analyse_noise": "noise",
+    "is_model_resistor": "noise",
+    "opamp_input_coefficient": "noise",
     "CircuitRoots": "pencil",
     "circuit_roots": "pencil",
     "circuit_poles": "pencil",
@@ -85,6 +122,13 @@ _EXPORTS = {
     "circuit_gain": "pencil",
     "circuit_response": "pencil",
     "Response": "response",
+    "PHASE_MARGIN_FLOOR_DEG": "return_ratio",
+    "OpampLoop": "return_ratio",
+    "output_pin": "return_ratio",
+    "with_load_capacitance": "return_ratio",
+    "return_ratio": "return_ratio",
+    "opamp_loop": "return_ratio",
+    "opamp_loops": "return_ratio",
     "Sensitivities": "sensitivity",
     "sensitivities": "sensitivity",
 }

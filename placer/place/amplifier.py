@@ -36,6 +36,7 @@ import numpy as np
 
 from ..analysis.dominant import DominantFunction, nearest_root_set
 from ..errors import UnreachableTarget
+from .level import within
 from ..analysis.network import network_function
 from .opamp import (
     GBW_SPREAD,
@@ -233,7 +234,7 @@ def _drift_between(topology, values, goal, reference, amplifier):
 
 
 def place_section_with_amplifier(section, topology, amplifier, *, parts=None, seed=0,
-                                 coarse_budget=COARSE_BUDGET, ideal=None):
+                                 coarse_budget=COARSE_BUDGET, ideal=None, level=None):
     """Solve and snap one topology for one section with real op-amps.
 
     The section is first placed with ideal op-amps (as
@@ -258,6 +259,9 @@ def place_section_with_amplifier(section, topology, amplifier, *, parts=None, se
         :func:`placer.place.placement.place_ideal` with the same `parts` and
         `seed`), for a caller that corrects one placement for many models;
         default: placed here.
+    level : placer.place.level.LevelRule, optional
+        The impedance level of the ideal placement (see
+        :func:`placer.place.level.choose_level`).
 
     Returns
     -------
@@ -286,7 +290,7 @@ def place_section_with_amplifier(section, topology, amplifier, *, parts=None, se
     modelled = apply_amplifier(topology.circuit, amplifier)
     if ideal is None:
         try:
-            ideal = place_ideal(section, topology, parts=parts, seed=seed)
+            ideal = place_ideal(section, topology, parts=parts, seed=seed, level=level)
         except UnreachableTarget as reason:
             return AmplifiedCandidate(topology=topology, reachable=False, reason=reason.reason,
                                       amplifier=amplifier, circuit=modelled)
@@ -360,8 +364,8 @@ def correct_placement(ideal, topology, dominant, *, ranges=None, fixed=None, con
     UnreachableTarget
         When the modelled function cannot reach the goal.
     """
-    problem = make_problem(topology, ideal.goal, ranges=ranges, fixed=fixed,
-                           constraints=constraints, nf=dominant)
+    problem = within(make_problem(topology, ideal.goal, ranges=ranges, fixed=fixed,
+                                  constraints=constraints, nf=dominant), ideal.window)
     # more starts than the ideal placement: the exact solutions differ a lot
     # in how they bear the GBW spread, and robust_first picks among them
     solution = solve(problem, seed=seed, initial=[ideal.solution.u, *ideal.solution.alternatives],

@@ -50,12 +50,26 @@ AMPLIFIER_PRESETS = {
 
 @dataclass(frozen=True)
 class AmplifierSpec:
-    """A real op-amp model: GBW in Hz, DC gain in V/V, output resistance in ohm."""
+    """A real op-amp model: GBW in Hz, DC gain in V/V, output resistance in ohm.
+
+    The pre-layout checks (:mod:`placer.evidence.prelayout`) also read the input
+    noise densities ``noise_voltage`` (V/√Hz) and ``noise_current``
+    (A/√Hz), the peak ``output_swing`` (V), the ``slew_rate`` (V/s), the
+    ``load_capacitance`` each op-amp drives (F) and the least resistive
+    load it may drive, ``min_load`` (ohm; None: 2 kΩ). None of them makes
+    the op-amp non-ideal for the placement.
+    """
 
     gbw: float | None = None
     gain: float | None = None
     output_resistance: float | None = None
     preset: str = ""
+    noise_voltage: float | None = None
+    noise_current: float | None = None
+    output_swing: float | None = None
+    slew_rate: float | None = None
+    load_capacitance: float | None = None
+    min_load: float | None = None
 
     @property
     def is_ideal(self):

@@ -16,6 +16,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from .level import choose_level, within
 from .snap import snap
 from .solve import goal_from_section, make_problem, root_errors, solve
 
@@ -55,6 +56,7 @@ class IdealPlacement:
     snapped: object
     errors: object
     continuous_errors: object
+    window: tuple | None = None     # the impedance level's snapping bounds (placer.place.level)
 
 
 def problem_options(topology, parts):
@@ -82,7 +84,7 @@ def problem_options(topology, parts):
     return dict(parts.ranges), dict(parts.series), fixed, constraints
 
 
-def place_ideal(section, topology, *, parts=None, seed=0):
+def place_ideal(section, topology, *, parts=None, seed=0, level=None):
     """Solve and snap one topology for one section with ideal op-amps.
 
     Parameters
@@ -93,6 +95,9 @@ def place_ideal(section, topology, *, parts=None, seed=0):
         Series, ranges, fixed parts and constraints.
     seed : int
         Seed of the multi-start solver.
+    level : placer.place.level.LevelRule, optional
+        The impedance level to give the continuous solution before it is
+        snapped (:func:`placer.place.level.choose_level`); None keeps the solver's.
 
     Returns
     -------
@@ -117,11 +122,15 @@ def place_ideal(section, topology, *, parts=None, seed=0):
     ranges, series, fixed, constraints = problem_options(topology, parts)
     problem = make_problem(topology, goal, ranges=ranges, fixed=fixed, constraints=constraints)
     solution = solve(problem, seed=seed)
-    snapped = snap(problem, solution, series=series)
+    window = prefer = None
+    if level is not None:   # impedance level: a separate step that moves no root
+        leveled = choose_level(problem, solution, level)
+        solution, window, prefer = leveled.solution, leveled.window, leveled.prefer
+    snapped = snap(within(problem, window), solution, series=series, prefer=prefer)
     return IdealPlacement(
         goal=goal, problem=problem, solution=solution, snapped=snapped,
         errors=root_errors(problem.nf, snapped.values, goal),
-        continuous_errors=root_errors(problem.nf, solution.values, goal),
+        continuous_errors=root_errors(problem.nf, solution.values, goal), window=window,
     )
 
 

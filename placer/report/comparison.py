@@ -17,7 +17,8 @@ __all__ = ["comparison_text", "write_comparison_report"]
 
 _HEADERS = ["rank", "topology", "parts", "op-amps", "error (%)", "yield (%)",
             "R spread", "C spread", "max|S ω0|", "max|S Q|",
-            "GBW needed (Hz)", "GBW from", "drift at 100·f0·Q (%)"]
+            "GBW needed (Hz)", "GBW from", "drift at 100·f0·Q (%)",
+            "noise (µV rms)", "worst op-amp PM (°)"]
 
 _LEGEND = [
     "error: worst root (f0, Q) or gain error after snapping; yield: Monte Carlo builds "
@@ -28,6 +29,9 @@ _LEGEND = [
     "with ideal op-amps already, or at every GBW up to 1e4·f0·Q (the JSON says which)",
     "drift at 100·f0·Q: the larger f0 or Q shift of the snapped design built with "
     "single-pole op-amps of the rule of thumb's GBW",
+    "noise: the stage alone, integrated output noise over the noise band; worst op-amp PM: "
+    "the least phase margin of its op-amps' own loops (return ratio, the spec's op-amp model "
+    "or the default '10 MHz' preset; below 45° is low)",
 ]
 _REJECTION_LEGEND = ("rejection: what 99 % of the builds still take off the target's zero "
                      "frequency (pass-band gain over |H| there)")
@@ -75,7 +79,9 @@ def _rows(s):
                      _number(c.spread.get("capacitor")), _number(c.max_sensitivity_w0),
                      _number(c.max_sensitivity_q),
                      "-" if c.gbw_hz is None else format_value(c.gbw_hz, "Hz"),
-                     _short_source(c.gbw_source), _number(c.gbw_drift_pct)]
+                     _short_source(c.gbw_source), _number(c.gbw_drift_pct),
+                     "-" if c.noise_rms_v is None else f"{1e6 * c.noise_rms_v:.3g}",
+                     "-" if c.worst_phase_margin_deg is None else f"{c.worst_phase_margin_deg:.1f}"]
                     + ([fmt_rejection(c.rejection_db).removesuffix(" dB")] if notch else []))
     return _HEADERS + (["rejection (dB)"] if notch else []), rows
 

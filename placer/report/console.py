@@ -7,6 +7,7 @@ import sys
 
 from ..evidence.tolerance import MAX_REJECTION_DB
 from ..units import format_value
+from .prelayout import cascade_lines, section_lines
 
 __all__ = ["table", "design_text", "target_text", "evidence_text", "Progress", "fmt_pct", "fmt_db",
            "fmt_hz", "fmt_gain", "fmt_seconds", "fmt_rejection", "windows_text"]
@@ -127,10 +128,14 @@ def design_text(data):
             lines.append("  other candidates: " + "; ".join(
                 f"{c['topology']} {c['error_pct']:.3f} %" if c["reachable"]
                 else f"{c['topology']} (cannot: {c['reason']})" for c in others[:8]))
+        if data.get("prelayout"):
+            lines.extend(section_lines(data["prelayout"], s["index"]))
     achieved = data["achieved"]
     lines.append("")
     lines.append(f"Whole cascade: {len(achieved['poles'])} poles, {len(achieved['zeros'])} zeros, "
                  f"gain {fmt_gain(achieved['gain_db'])}{' (inverting)' if achieved['inverting'] else ''}")
+    if data.get("prelayout"):
+        lines.extend(cascade_lines(data["prelayout"]))
     return "\n".join(lines)
 
 

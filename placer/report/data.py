@@ -86,8 +86,8 @@ def candidate_to_dict(candidate):
     return out
 
 
-def design_to_dict(design, *, evidence=None):
-    """The whole design as a JSON-ready dict."""
+def design_to_dict(design, *, evidence=None, prelayout=None):
+    """The whole design as a JSON-ready dict (``prelayout``: placer.evidence.prelayout's to_dict)."""
     target = design.target
     sections = []
     for s in design.sections:
@@ -135,4 +135,6 @@ def design_to_dict(design, *, evidence=None):
     }
     if evidence is not None:
         out["evidence"] = evidence
+    if prelayout is not None:
+        out["prelayout"] = prelayout
     return out

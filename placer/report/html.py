@@ -23,6 +23,7 @@ from .console import fmt_db, fmt_gain, fmt_hz, fmt_pct, fmt_q, fmt_rejection, wi
 from .page import (POWER_CAUTION, Plots, caution_block, escape, finish_report, number_or_dash,
                    paragraph, prepare_outputs, spec_block, table)
 from .plots import bode_figure, histogram_figure, loop_bode_figure, pole_zero_figure, step_figure
+from .prelayout import compensator_html, html_parts
 
 __all__ = ["write_design_report", "write_loop_report"]
 
@@ -66,7 +67,8 @@ _ROOT_HEADERS = ["root", "real part (rad/s)", "imaginary part (rad/s)", "|root| 
 
 # -- the design report -----------------------------------------------------------
 
-def write_design_report(design, data, evidence, *, html_path=None, plots_dir=None, inputs=()):
+def write_design_report(design, data, evidence, *, html_path=None, plots_dir=None, inputs=(),
+                        prelayout=None):
     """Write the HTML report of a filter design, and its plots.
 
     Parameters
@@ -85,6 +87,9 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
     inputs : sequence of str
         The run's input files, never overwritten (the spec and the
         topology files are added to them).
+    prelayout : placer.evidence.prelayout.Prelayout, optional
+        The pre-layout checks (noise, swing and slew, op-amp loops); their
+        sections follow the evidence.
 
     Returns
     -------
@@ -124,6 +129,8 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
                         "this report.", "note"))
     else:
         parts += _evidence_parts(evidence, plots)
+    if prelayout is not None and data.get("prelayout"):
+        parts += html_parts(design, prelayout, data["prelayout"], plots)
     parts += _parts_list(data, design)
     parts += _candidates(data)
     parts.append(caution_block())
@@ -362,7 +369,8 @@ def _margin_row(label, m):
             "-" if m.get("stable") is None else ("yes" if m["stable"] else "NO")]
 
 
-def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=(), spec_path=None):
+def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=(), spec_path=None,
+                      opamp_loops=()):
     """Write the HTML report of a compensated loop, and its plots.
 
     Parameters
@@ -376,6 +384,8 @@ def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=()
     spec_path : str, optional
         The spec file shown in the report (default: ``data["spec"]``,
         else the first of `inputs`).
+    opamp_loops : tuple of placer.analysis.return_ratio.OpampLoop
+        The compensator op-amp's own loop (``data["opamp_loops"]`` holds its figures).
 
     Returns
     -------
@@ -432,6 +442,7 @@ def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=()
                 _margin_row("preferred values", data)])]
     if mc:
         parts += _loop_monte_carlo_parts(result, data, mc, plots)
+    parts += compensator_html(data, opamp_loops, plots)
     tolerances = mc["tolerances"] if mc else {}
     rows = [[p["name"], p["kind"], format_value(p["value"], _UNIT.get(p["kind"], "")),
              p["series"] or "fixed",

@@ -26,6 +26,10 @@ if TYPE_CHECKING:
         load_spec,
         spec_from_dict,
         amplifier_from_table,
+        NoiseSpec,
+        SignalSpec,
+        noise_from_table,
+        signal_from_table,
     )
     from .target_table import (
         TARGET_KEYS,
@@ -49,6 +53,10 @@ _EXPORTS = {
     "load_spec": "reader",
     "spec_from_dict": "reader",
     "amplifier_from_table": "reader",
+    "NoiseSpec": "reader",
+    "SignalSpec": "reader",
+    "noise_from_table": "reader",
+    "signal_from_table": "reader",
     "TARGET_KEYS": "target_table",
     "SECTION_KEYS": "target_table",
     "target_from_table": "target_table",

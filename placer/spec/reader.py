@@ -26,6 +26,16 @@ engineering string read by :mod:`placer.units`):
 ``[amplifier]``
     The op-amp model: ``gbw`` (Hz), ``gain`` (DC, dB or V/V),
     ``output_resistance`` (ohm), or ``preset`` (see :data:`AMPLIFIER_PRESETS`).
+    Pre-layout figures, all optional: ``noise_voltage`` ("8 nV/rtHz"),
+    ``noise_current`` ("0.5 pA/rtHz"), ``output_swing`` (peak V),
+    ``slew_rate`` ("0.5 V/us"), ``load_capacitance`` (F), ``min_load``
+    (ohm, default 2 kΩ).
+``[noise]``
+    ``band`` (two frequencies; default: a decade below the lowest pole to a
+    decade above the highest), ``temperature`` (K, default 300), ``target``
+    (integrated output noise, V rms: the impedance level is chosen to meet it).
+``[signal]``
+    ``amplitude``: the full-scale input, V peak (default 1 V).
 ``[loop]``
     A control loop (see :func:`placer.spec.loop_table.loop_from_table`).
 """
@@ -55,10 +65,15 @@ __all__ = [
     "load_spec",
     "spec_from_dict",
     "amplifier_from_table",
+    "NoiseSpec",
+    "SignalSpec",
+    "noise_from_table",
+    "signal_from_table",
 ]
 
 TABLES = ("title", "description", "target", "cascade", "parts", "candidates",
-          "tolerance", "amplifier", "loop")
+          "tolerance", "amplifier", "loop",
+          "noise", "signal")          # pre-layout checks (placer.evidence.prelayout)
 
 
 _DEFAULT_SERIES = {"resistor": "E96", "capacitor": "E12", "inductor": "E12"}
@@ -105,6 +120,8 @@ class Spec:
     amplifier: AmplifierSpec
     loop: dict | None
     raw: dict
+    noise: NoiseSpec = field(default_factory=lambda: NoiseSpec())
+    signal: SignalSpec = field(default_factory=lambda: SignalSpec())
 
 
 def load_spec(path):
@@ -173,6 +190,8 @@ def spec_from_dict(data, *, source="spec"):
         path=source, title=title, target=target, ordering=ordering,
         gain_distribution=distribution, parts=parts, candidates=candidates,
         folder=folder, tolerance=tolerance, amplifier=amplifier, loop=loop, raw=data,
+        noise=noise_from_table(_table(data, "noise", source), source=source),
+        signal=signal_from_table(_table(data, "signal", source), source=source),
     )
 
 
@@ -356,7 +375,8 @@ def amplifier_from_table(table, *, source="spec"):
         A non-positive GBW, a negative or zero gain, an unknown preset.
     """
     where = f"{source}: [amplifier]"
-    _unknown(table, ("gbw", "gain", "output_resistance", "preset"), where)
+    _unknown(table, ("gbw", "gain", "output_resistance", "preset") + PRELAYOUT_AMPLIFIER_KEYS,
+             where)
     values = {}
     preset = table.get("preset", "")
     if preset:
@@ -400,4 +420,143 @@ def amplifier_from_table(table, *, source="spec"):
     return AmplifierSpec(
         gbw=values.get("gbw"), gain=values.get("gain"),
         output_resistance=values.get("output_resistance"), preset=preset,
+        **_prelayout_amplifier(table, where),
     )
+
+
+
+# -- pre-layout checks: [noise], [signal] and the [amplifier] figures they read --
+
+#: The [amplifier] keys the pre-layout checks read (placer.evidence.prelayout), with their unit.
+PRELAYOUT_AMPLIFIER_KEYS = ("noise_voltage", "noise_current", "output_swing", "slew_rate",
+                            "load_capacitance", "min_load")
+_PRELAYOUT_UNITS = {"noise_voltage": "V", "noise_current": "A", "output_swing": "V",
+                    "slew_rate": "V", "load_capacitance": "F", "min_load": "ohm"}
+_PRELAYOUT_EXAMPLES = {"noise_voltage": "'8 nV/rtHz'", "noise_current": "'0.5 pA/rtHz'",
+                       "output_swing": "'10 V' (peak)", "slew_rate": "'0.5 V/us'",
+                       "load_capacitance": "'100p'", "min_load": "'2k'"}
+_PER_ROOT_HZ = ("/rtHz", "/√Hz", "/sqrt(Hz)", "/rt(Hz)")
+_PER_TIME = {"/s": 1.0, "/ms": 1e3, "/us": 1e6, "/µs": 1e6, "/μs": 1e6, "/ns": 1e9}
+
+
+@dataclass(frozen=True)
+class NoiseSpec:
+    """The ``[noise]`` table: band (Hz, or None for the default), K, target (V rms)."""
+
+    band_hz: tuple | None = None
+    temperature_k: float = 300.0
+    target_v: float | None = None
+    temperature_given: bool = False
+
+
+@dataclass(frozen=True)
+class SignalSpec:
+    """The ``[signal]`` table: the full-scale input amplitude, V peak."""
+
+    amplitude_v: float = 1.0
+    amplitude_given: bool = False
+
+
+def _positive(raw: object, unit: str, where: str, example: str) -> float:
+    """A positive finite value of `unit` from a number or an engineering string."""
+    text = raw
+    factor = 1.0
+    if isinstance(raw, str):
+        text = raw.strip()
+        if unit in ("V", "A"):
+            for suffix in _PER_ROOT_HZ:
+                if text.endswith(suffix):
+                    text = text[: -len(suffix)].strip()
+                    break
+        if where.endswith("slew_rate"):
+            for suffix, scale in _PER_TIME.items():
+                if text.endswith(suffix):
+                    text, factor = text[: -len(suffix)].strip(), scale
+                    break
+    value = _value(text, unit, where) * factor
+    if not (math.isfinite(value) and value > 0):
+        raise SpecError(f"{where} = {raw!r} must be positive (for example {example})")
+    return value
+
+
+def _prelayout_amplifier(table: dict, where: str) -> dict:
+    out = {}
+    for key in PRELAYOUT_AMPLIFIER_KEYS:
+        if key in table:
+            out[key] = _positive(table[key], _PRELAYOUT_UNITS[key], f"{where} {key}",
+                                 _PRELAYOUT_EXAMPLES[key])
+    return out
+
+
+def _temperature(raw: object, where: str) -> float:
+    """Kelvin from a number or "300 K"; "27 degC" / "27 °C" in Celsius."""
+    value = None
+    if isinstance(raw, (int, float)) and not isinstance(raw, bool):
+        value = float(raw)
+    elif isinstance(raw, str):
+        text = raw.strip()
+        for suffix, offset in (("degC", 273.15), ("°C", 273.15), ("K", 0.0)):
+            if text.endswith(suffix):
+                number = text[: -len(suffix)].strip()
+                try:
+                    value = float(number) + offset
+                except ValueError:
+                    value = None
+                break
+        else:
+            try:
+                value = float(text)
+            except ValueError:
+                value = None
+    if value is None or not (math.isfinite(value) and value > 0):
+        raise SpecError(f"{where} = {raw!r} must be a positive temperature in kelvin "
+                        "(for example 300, '300 K' or '27 degC')")
+    return value
+
+
+def noise_from_table(table: dict, *, source: str = "spec") -> NoiseSpec:
+    """Read a ``[noise]`` table into a :class:`NoiseSpec`.
+
+    Raises
+    ------
+    SpecError
+        An unknown key, a band whose upper edge is not above the lower, a
+        non-positive temperature or target.
+    """
+    where = f"{source}: [noise]"
+    _unknown(table, ("band", "temperature", "target"), where)
+    band = None
+    if "band" in table:
+        raw = table["band"]
+        if not isinstance(raw, list) or len(raw) != 2:
+            raise SpecError(f"{where} band must be two frequencies [low, high], such as "
+                            f"[\"10 Hz\", \"100 kHz\"], not {raw!r}")
+        low, high = (_value(v, "Hz", f"{where} band") for v in raw)
+        if not (low > 0 and math.isfinite(high) and high > low):
+            raise SpecError(f"{where} band = {raw!r}: give two positive frequencies with the "
+                            "upper edge above the lower")
+        band = (low, high)
+    temperature = 300.0
+    if "temperature" in table:
+        temperature = _temperature(table["temperature"], f"{where} temperature")
+    target = None
+    if "target" in table:
+        target = _positive(table["target"], "V", f"{where} target", "'5 uV' rms at the output")
+    return NoiseSpec(band_hz=band, temperature_k=temperature, target_v=target,
+                     temperature_given="temperature" in table)
+
+
+def signal_from_table(table: dict, *, source: str = "spec") -> SignalSpec:
+    """Read a ``[signal]`` table into a :class:`SignalSpec`.
+
+    Raises
+    ------
+    SpecError
+        An unknown key or an amplitude that is not positive.
+    """
+    where = f"{source}: [signal]"
+    _unknown(table, ("amplitude",), where)
+    if "amplitude" not in table:
+        return SignalSpec()
+    return SignalSpec(amplitude_v=_positive(table["amplitude"], "V", f"{where} amplitude",
+                                            "'1 V' peak"), amplitude_given=True)
