@@ -547,7 +547,7 @@ def automatic_plan(circuit: Circuit) -> Plan:
         if pin is None:
             builder.add_part_step(name, start, end, where="drawing")
         else:
-            builder.add_opamp_step(name, start, end, pin, BELOW, where="drawing")
+            builder.add_opamp_step(name, start, end, pin, 0, where="drawing")
         used.add(name)
     _place_remaining(builder, used)
     return builder.finish()
@@ -652,7 +652,7 @@ def _add_loose_opamp(builder: _Builder, key: str, element: Element) -> None:
     end = element.nodes[2]
     previous = list(builder.node_points.get(end, []))
     pin_key = f"{key}.in"
-    builder.points.append(Point(pin_key, "", opamp=key, side=BELOW))
+    builder.points.append(Point(pin_key, "", opamp=key))
     end_key = builder.add_node(end)
     builder.steps.append(Step(key, start_key, end_key, opamp=True, pin=pin, pin_point=pin_key))
     if previous:
@@ -717,24 +717,94 @@ def _add_auto_chain(builder: _Builder, chain: tuple, nodes: tuple) -> None:
 
 
 def _assign_sides(builder: _Builder) -> None:
-    """Put each branch above or below so that as few as possible cross."""
+    """Put each branch above or below so that none cross, where that can be done.
+
+    Branches at one op-amp input share its side; an input with a leg is
+    below. Each group of branches that cross one another is two-coloured;
+    when a group cannot be, the branches go one by one to the side where
+    they cross least.
+    """
     order = {p.key: i for i, p in enumerate(builder.points)}
     branches = builder.branches
-    fixed: dict = {}
+    spans = [(order[b.start], order[b.end]) for b in branches]
+    union = _Union(len(branches))
+    pins = {p.key for p in builder.points if p.opamp}
+    by_pin: dict = {}
     for i, branch in enumerate(branches):
         for key in (branch.start, branch.end):
-            side = builder.point(key).side
-            if side:
-                fixed[i] = side
-    spans = [(order[b.start], order[b.end]) for b in branches]
-    sides: dict = dict(fixed)
-    for i in sorted(range(len(branches)), key=lambda i: (i not in fixed, spans[i][0] - spans[i][1])):
-        if i in sides:
-            continue
-        cost = {side: sum(1 for j, s in sides.items() if s == side and _crosses(spans[i], spans[j]))
-                for side in (ABOVE, BELOW)}
-        sides[i] = ABOVE if cost[ABOVE] <= cost[BELOW] else BELOW
+            if key in pins:
+                by_pin.setdefault(key, []).append(i)
+    for members in by_pin.values():
+        for j in members[1:]:
+            union.join(members[0], j)
+    legged = {leg.anchor for leg in builder.legs}
+    fixed = {union.find(m[0]): BELOW for key, m in by_pin.items() if key in legged}
+    clashes = [(i, j) for i in range(len(branches)) for j in range(i + 1, len(branches))
+               if _crosses(spans[i], spans[j])]
+    sides = _two_colour(len(branches), union, clashes, fixed)
+    if sides is None:
+        sides = {}
+        for i in sorted(range(len(branches)), key=lambda i: spans[i][0] - spans[i][1]):
+            root = union.find(i)
+            if root in fixed:
+                sides[i] = fixed[root]
+                continue
+            cost = {side: sum(1 for j, s in sides.items() if s == side and
+                              _crosses(spans[i], spans[j])) for side in (ABOVE, BELOW)}
+            sides[i] = ABOVE if cost[ABOVE] <= cost[BELOW] else BELOW
+            fixed[root] = sides[i]
     builder.branches = [replace(b, side=sides[i]) for i, b in enumerate(branches)]
+    pin_side = {key: sides[m[0]] for key, m in by_pin.items()}
+    builder.points = [replace(p, side=pin_side.get(p.key, BELOW)) if p.opamp else p
+                      for p in builder.points]
+
+
+class _Union:
+    """Union-find over branch indices."""
+
+    def __init__(self, size: int) -> None:
+        self.parent = list(range(size))
+
+    def find(self, i: int) -> int:
+        while self.parent[i] != i:
+            self.parent[i] = self.parent[self.parent[i]]
+            i = self.parent[i]
+        return i
+
+    def join(self, i: int, j: int) -> None:
+        self.parent[self.find(i)] = self.find(j)
+
+
+def _two_colour(count: int, union: _Union, clashes: list, fixed: dict) -> dict | None:
+    """Sides for every branch with no two clashing ones on one side, or None."""
+    graph: dict = {}
+    for i, j in clashes:
+        a, b = union.find(i), union.find(j)
+        if a == b:
+            return None
+        graph.setdefault(a, set()).add(b)
+        graph.setdefault(b, set()).add(a)
+    colour: dict = {}
+    roots = sorted({union.find(i) for i in range(count)}, key=lambda r: (r not in fixed, r))
+    for root in roots:
+        if root in colour:
+            continue
+        component, queue = {root: 0}, [root]
+        while queue:
+            node = queue.pop()
+            for other in graph.get(node, ()):
+                if other not in component:
+                    component[other] = 1 - component[node]
+                    queue.append(other)
+                elif component[other] == component[node]:
+                    return None
+        flips = {fixed[r] * (1 if component[r] == 0 else -1) for r in component if r in fixed}
+        if len(flips) > 1:
+            return None
+        first = flips.pop() if flips else ABOVE
+        for node, parity in component.items():
+            colour[node] = first if parity == 0 else -first
+    return {i: colour[union.find(i)] for i in range(count)}
 
 
 # -- the plan of a circuit ----------------------------------------------------------------

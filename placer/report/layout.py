@@ -13,6 +13,7 @@ Everything here is geometry; :mod:`placer.report.schematic` draws it.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
@@ -28,7 +29,7 @@ _LINE = 1.25 * FONT_PT / _UNIT_PT      # line height in drawing units
 GAP = 0.15                             # label to symbol or wire
 CLEAR = 0.35                           # a branch over what lies under it
 LEAD_IN, LEAD_OUT = 0.6, 0.5           # wire into and out of an op-amp
-OPAMP_WIDTH = 3.415                    # schemdraw's op-amp with leads
+OPAMP_WIDTH = 2.5 * math.sqrt(3) / 2 + 1.25  # schemdraw's op-amp with its leads
 OPAMP_PIN = 0.625                      # input pins above and below the centre
 _OPAMP_HALF = 1.25
 _OPAMP_LEAD = 0.625
@@ -373,7 +374,7 @@ class _Placer:
             legs = [g for g in self.plan.legs if g.branch == number and g.index == position]
             gaps.append(sum(self.leg_width(g) + 0.4 for g in legs))
         spare = ((xb - xa) - sum(slots) - sum(gaps)) / (len(slots) + 1) if slots else 0.0
-        x = xa + spare
+        x = xa + spare + self.nudge(xa, xb, slots, gaps, spare)
         previous = (xa, level)
         for i, key in enumerate(branch.parts):
             start, end = (x, level), (x + slots[i], level)
@@ -390,7 +391,28 @@ class _Placer:
                 previous = end
         self.wires.append((previous, (xb, level)))
 
-    def place_legs(self, legs: list, anchor: tuple, side: int) -> None:
+    def nudge(self, xa: float, xb: float, slots: list, gaps: list, spare: float) -> float:
+        """A shift of a row's parts that keeps their ends off any column they pass.
+
+        Only a branch that has to cross another one passes a column; an end
+        of a part on it would look like a junction.
+        """
+        inside = [x for x in self.x.values() if xa + _EPS < x < xb - _EPS]
+        if not inside or not slots:
+            return 0.0
+        for shift in (0.0, 0.3, -0.3, 0.6, -0.6, 0.9, -0.9):
+            if abs(shift) > spare:
+                continue
+            x, ends = xa + spare + shift, []
+            for i, slot in enumerate(slots):
+                ends += [x, x + slot]
+                x += slot + (gaps[i] + spare if i < len(gaps) else 0.0)
+            if all(abs(e - c) > 0.25 for e in ends for c in inside):
+                return shift
+        return 0.0
+
+    def place_legs(self, legs: list, anchor: tuple, side: int, *, column: bool) -> float:
+        """Legs from one anchor, side by side; returns the level they hang from."""
         offsets = self.comb(legs)
         x, y = anchor
         right = x + offsets[-1] + self.leg_width(legs[-1])
@@ -398,11 +420,14 @@ class _Placer:
         top = y + side * 0.5
         if under is not None:
             top = min(top, under - GAP - 0.1) if side == BELOW else max(top, under + GAP + 0.1)
-        self.wires.append(((x, y), (x, top)))
+        if not column:
+            self.wires.append(((x, y), (x, top)))
         if len(legs) > 1:
-            self.wires.append(((x, top), (x + offsets[-1], top)))
+            for a, b in zip(offsets, offsets[1:]):
+                self.wires.append(((x + a, top), (x + b, top)))
         for leg, offset in zip(legs, offsets):
             self.hang(leg, (x + offset, top), side)
+        return top
 
     def hang(self, leg: Leg, top: tuple, side: int) -> None:
         x, y = top
@@ -459,16 +484,20 @@ class _Placer:
                     where = (self.x[anchor], self.y[anchor])
                     levels = self.attach.get((anchor, side), [])
                     if levels:
-                        deepest = min(levels) if side == BELOW else max(levels)
-                        self.wires.append((where, (where[0], deepest)))
-                        where = (where[0], deepest)
-                self.place_legs(anchors[key], where, side)
+                        where = (where[0], min(levels) if side == BELOW else max(levels))
+                top = self.place_legs(anchors[key], where, side, column=branch < 0)
+                if branch < 0:
+                    self.attach.setdefault((anchor, side), []).append(top)
 
     def columns(self) -> None:
+        """Each point's wire up or down to every level where something leaves it."""
         for (key, side), levels in self.attach.items():
             x, y = self.x[key], self.y[key]
-            far = max(levels) if side == ABOVE else min(levels)
-            self.wires.append(((x, y), (x, far)))
+            stops = sorted(set(levels), key=lambda level: side * level)
+            previous = y
+            for level in stops:
+                self.wires.append(((x, previous), (x, level)))
+                previous = level
 
     def terminals_out(self) -> None:
         plan = self.plan
@@ -481,7 +510,9 @@ class _Placer:
         if out.terminal:
             self.add_terminal(out.node, (self.x[out.key], self.y[out.key]), "right")
         elif not any(leg.marker == out.node and leg.anchor == out.key for leg in plan.legs):
-            at = (self.x[out.key] + _TERMINAL_LEAD, self.y[out.key])
+            legs = self.legs_at(out.key)
+            reach = self.comb(legs)[-1] + self.leg_width(legs[-1]) if legs else 0.0
+            at = (self.x[out.key] + max(_TERMINAL_LEAD, reach), self.y[out.key])
             self.wires.append(((self.x[out.key], self.y[out.key]), at))
             self.add_terminal(out.node, at, "right")
 
@@ -542,21 +573,11 @@ def _on_interior(point: tuple, segment: tuple) -> bool:
 
 
 def _split(wires: list, ends: list) -> tuple:
-    """Drop empty wires and cut each where another wire or a terminal ends on it."""
-    wires = [w for w in wires if _key(w[0]) != _key(w[1])]
-    stops = {_key(p): p for p in ends}
-    for a, b in wires:
-        stops[_key(a)], stops[_key(b)] = a, b
-    out = []
-    for a, b in wires:
-        cuts = [p for p in stops.values() if _on_interior(p, (a, b))]
-        chain = sorted([a, b] + cuts, key=lambda p: (p[0] - a[0]) ** 2 + (p[1] - a[1]) ** 2)
-        for p, q in zip(chain, chain[1:]):
-            if _key(p) != _key(q):
-                out.append((p, q))
+    """Drop empty and repeated wires (every junction is built end to end)."""
     unique = {}
-    for p, q in out:
-        unique.setdefault(tuple(sorted((_key(p), _key(q)))), (p, q))
+    for p, q in wires:
+        if _key(p) != _key(q):
+            unique.setdefault(tuple(sorted((_key(p), _key(q)))), (p, q))
     return tuple(unique.values())
 
 
