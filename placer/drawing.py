@@ -617,6 +617,8 @@ def _place_remaining(builder: _Builder, used: set) -> None:
                 for name in chain:
                     left.remove(name)
             continue
+        if _add_tee(builder, left):
+            continue
         # nothing reaches a drawn node through a row: draw the busiest node loose
         counts: dict = {}
         for name in left:
@@ -699,6 +701,61 @@ def _auto_chains(builder: _Builder, left: list, drawn: set) -> list:
     return chains
 
 
+def _walk_out(builder: _Builder, left: list, hub: str, first: str, drawn: set) -> tuple:
+    """The row of parts from `hub` through `first` to a drawn node (or a dead end)."""
+    parts = builder.parts
+    chain, nodes, node, name = [], [hub], hub, first
+    while name is not None:
+        chain.append(name)
+        a, b = part_nodes(parts[name], name)
+        node = b if a == node else a
+        nodes.append(node)
+        if node in drawn:
+            break
+        nexts = [n for n in left if n not in chain and node in part_nodes(parts[n], n)]
+        name = nexts[0] if len(nexts) == 1 else None
+    return tuple(chain), tuple(nodes)
+
+
+def _add_tee(builder: _Builder, left: list) -> bool:
+    """A node whose rows reach two drawn nodes, and the reference: one branch with legs.
+
+    The lower half of a twin-T is the example: C1 and C2 in a row between the
+    input and the output, R3 from their junction down to the reference.
+    """
+    reference = builder.circuit.reference
+    drawn = set(builder.node_points) | {reference}
+    parts = builder.parts
+    hubs = sorted({n for k in left for n in part_nodes(parts[k], k) if n not in drawn})
+    for hub in hubs:
+        rows = [_walk_out(builder, left, hub, k, drawn) for k in left
+                if hub in part_nodes(parts[k], k)]
+        ends = [nodes[-1] for _, nodes in rows]
+        if any(end not in drawn for end in ends):
+            continue
+        across = [row for row in rows if row[1][-1] != reference]
+        down = [row for row in rows if row[1][-1] == reference]
+        if len(across) != 2 or not down:
+            continue
+        (chain_a, nodes_a), (chain_b, nodes_b) = across
+        chain = chain_a[::-1] + chain_b
+        nodes = nodes_a[::-1] + nodes_b[1:]
+        start = builder.node_points[nodes[0]][0]
+        end = builder.node_points[nodes[-1]][0]
+        if start == end:
+            continue
+        builder.add_branch(chain, nodes, start, end, BELOW)
+        number = len(builder.branches) - 1
+        stored = builder.branches[number]
+        position = stored.nodes.index(hub)
+        for leg_chain, leg_nodes in down:
+            builder.legs.append(Leg(leg_chain, leg_nodes, "", branch=number, index=position))
+        for name in chain + tuple(k for row in down for k in row[0]):
+            left.remove(name)
+        return True
+    return False
+
+
 def _add_auto_chain(builder: _Builder, chain: tuple, nodes: tuple) -> None:
     reference = builder.circuit.reference
     if nodes[0] == reference and nodes[-1] == reference:
@@ -739,6 +796,9 @@ def _assign_sides(builder: _Builder) -> None:
             union.join(members[0], j)
     legged = {leg.anchor for leg in builder.legs}
     fixed = {union.find(m[0]): BELOW for key, m in by_pin.items() if key in legged}
+    for leg in builder.legs:  # a branch with legs from its inner nodes is drawn below
+        if leg.branch >= 0:
+            fixed[union.find(leg.branch)] = BELOW
     clashes = [(i, j) for i in range(len(branches)) for j in range(i + 1, len(branches))
                if _crosses(spans[i], spans[j])]
     sides = _two_colour(len(branches), union, clashes, fixed)

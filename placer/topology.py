@@ -37,6 +37,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from .circuit import Circuit, check_symbol, circuit_from_dict
+from .drawing import drawing_from_table
 from .errors import SpecError, TopologyError
 from .units import parse_value
 
@@ -146,6 +147,7 @@ class Topology:
     description: str = ""
     formula: str = ""
     path: str = ""
+    drawing: object = None   # placer.drawing.DrawingSpec from the file's [drawing] table
 
     @property
     def symbols(self):
@@ -217,7 +219,7 @@ def topology_from_dict(data, *, source="topology"):
     allowed = {
         "id", "title", "response", "order", "family", "inverting", "reference",
         "input", "output", "free", "constraints", "description", "formula",
-        "ranges", "values", "elements",
+        "ranges", "values", "elements", "drawing",
     }
     unknown = sorted(set(data) - allowed)
     if unknown:
@@ -242,6 +244,10 @@ def topology_from_dict(data, *, source="topology"):
         raise TopologyError(f"{source}: order must be an integer 0–24, not {order!r}")
     circuit = circuit_from_dict(data, source=source, parse=parse_value)
     circuit = replace(circuit, name=topology_id)
+    drawing = None
+    if "drawing" in data:
+        drawing = drawing_from_table(data["drawing"], circuit, source=source)
+        circuit = replace(circuit, drawing=drawing)
     symbols = circuit.symbols
     values = {}
     for symbol, raw in dict(data.get("values", {})).items():
@@ -315,6 +321,7 @@ def topology_from_dict(data, *, source="topology"):
         description=data.get("description", ""),
         formula=data.get("formula", ""),
         path="",
+        drawing=drawing,
     )
 
 
