@@ -269,7 +269,7 @@ def _walk_path(builder: _Builder, spec: DrawingSpec, where: str) -> None:
                 raise SpecError(f"{where}.path: op-amp {name!r} has no input on node {current!r}, "
                                 "where the path has come to")
             pin = inputs.index(current)
-            side = ABOVE if name in spec.above_inputs else _pin_side(element, pin, spec, builder)
+            side = ABOVE if name in spec.above_inputs else 0
             following = element.nodes[2]
             builder.add_opamp_step(name, current, following, pin, side, where=f"{where}.path")
         else:
@@ -304,6 +304,11 @@ def _place_other_inputs(builder: _Builder, spec: DrawingSpec, where: str) -> dic
         element = builder.parts[step.part]
         node = element.nodes[1 - step.pin]
         point = builder.point(step.pin_point)
+        if not point.side:
+            on_path = node in builder.node_points
+            side = BELOW if on_path else _pin_side(element, step.pin, spec, builder)
+            point = replace(point, side=side)
+            builder.points = [point if p.key == point.key else p for p in builder.points]
         if node == builder.circuit.reference:
             if point.side == ABOVE:
                 raise SpecError(f"{where}.above_inputs: the other input of {step.part!r} goes to "

@@ -23,6 +23,7 @@ from .console import fmt_db, fmt_gain, fmt_hz, fmt_pct, fmt_q, fmt_rejection, wi
 from .page import (POWER_CAUTION, Plots, caution_block, escape, finish_report, number_or_dash,
                    paragraph, prepare_outputs, spec_block, table)
 from .plots import bode_figure, histogram_figure, loop_bode_figure, pole_zero_figure, step_figure
+from .schematic import compensator_schematic, design_schematic_html, schematic_figure
 
 __all__ = ["write_design_report", "write_loop_report"]
 
@@ -66,7 +67,8 @@ _ROOT_HEADERS = ["root", "real part (rad/s)", "imaginary part (rad/s)", "|root| 
 
 # -- the design report -----------------------------------------------------------
 
-def write_design_report(design, data, evidence, *, html_path=None, plots_dir=None, inputs=()):
+def write_design_report(design, data, evidence, *, html_path=None, plots_dir=None, inputs=(),
+                        resistor_style="iec"):
     """Write the HTML report of a filter design, and its plots.
 
     Parameters
@@ -85,6 +87,8 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
     inputs : sequence of str
         The run's input files, never overwritten (the spec and the
         topology files are added to them).
+    resistor_style : {"iec", "ieee"}
+        Resistor symbol of the schematics (IEC 60617 or IEEE 315).
 
     Returns
     -------
@@ -109,6 +113,8 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
                 "are in hertz; roots of the transfer function in rad/s."),
              "<h2>What was asked for</h2>", spec_block(spec_path)]
     parts += _section_tables(data)
+    if html_path is not None:
+        parts += design_schematic_html(design, resistor_style=resistor_style)
     parts.append("<h2>Where the poles and zeros sit</h2>")
     parts.append(plots.block("pole-zero", pole_zero_figure(
         design.target.poles, design.target.zeros, design.poles, design.zeros),
@@ -362,7 +368,8 @@ def _margin_row(label, m):
             "-" if m.get("stable") is None else ("yes" if m["stable"] else "NO")]
 
 
-def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=(), spec_path=None):
+def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=(), spec_path=None,
+                      resistor_style="iec"):
     """Write the HTML report of a compensated loop, and its plots.
 
     Parameters
@@ -413,6 +420,10 @@ def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=()
                  ["compensator zero(s) (Hz)", fmt_hz(k["zero_hz"])],
                  ["compensator pole(s) (Hz)", fmt_hz(k["pole_hz"])],
                  ["integrator ωi (rad/s)", f"{k['integrator_rad_s']:.6g} rad/s"]])]
+    if html_path is not None:
+        parts.append(schematic_figure(compensator_schematic(result.design), "The compensator "
+                                      "with its preferred values.", "compensator-",
+                                      resistor_style=resistor_style))
     fc = data.get("crossover_hz") or data["target"]["crossover_hz"]
     frequency, magnitude, phase = loop_frequency_response(
         result.design.loop_transfer_function(snapped=True), fc,

@@ -175,11 +175,49 @@ def cascade_schematic(sections: list, buffers: dict, *, title: str | None = None
     return Schematic(joined, title)
 
 
-def _buffer_layout(opamp: Element, show_values: bool) -> Layout:
-    buffer = Circuit((opamp,), reference="gnd", input=opamp.nodes[0], output=opamp.nodes[2])
-    lines = _labeller(buffer, show_values)
-    from ..drawing import automatic_plan  # the buffer's own plan, a follower
-    return layout_plan(automatic_plan(buffer), _kinds(buffer), lines)
+def _buffer_layout(elements: tuple, show_values: bool) -> Layout:
+    """A buffer between sections: the follower (and its modelled output resistance)."""
+    opamp = elements[0]
+    output = next((e.nodes[1] for e in elements[1:]), opamp.nodes[2])
+    buffer = Circuit(tuple(elements), reference="gnd", input=opamp.nodes[0], output=output)
+    return circuit_schematic(buffer, show_values=show_values).layout
+
+
+def design_schematics(design: object, *, show_values: bool = True) -> dict:
+    """Every section of a design, and the whole cascade: file stem → Schematic.
+
+    Stems are ``section1``, ``section2`` … and ``cascade``; the cascade is
+    the sections in order with the buffers the design placed between them.
+    """
+    out = {}
+    for section in design.sections:
+        out[f"section{section.index}"] = circuit_schematic(
+            section.circuit, show_values=show_values,
+            title=f"Section {section.index}: {section.topology.id}")
+    out["cascade"] = cascade_schematic([s.circuit for s in design.sections],
+                                       cascade_buffers(design), show_values=show_values,
+                                       title="The whole cascade, input to output")
+    return out
+
+
+def cascade_buffers(design: object) -> dict:
+    """Section number → the buffer (op-amp, and its output resistance) after it."""
+    inside = {e.name for s in design.sections for e in s.circuit.elements}
+    buffers = {}
+    for element in design.circuit.elements:
+        match = re.fullmatch(r"s(\d+)_out", element.nodes[0]) if element.kind == "opamp" else None
+        if element.name in inside or match is None:
+            continue
+        extra = tuple(e for e in design.circuit.elements if e.name == f"{element.name}.ro")
+        buffers[int(match.group(1))] = (element,) + extra
+    return buffers
+
+
+def compensator_schematic(loop_design: object, *, show_values: bool = True) -> Schematic:
+    """A loop compensator with its preferred values (``LoopDesign``)."""
+    topology = loop_design.topology
+    return circuit_schematic(loop_design.circuit(snapped=True), show_values=show_values,
+                             title=f"Compensator: {topology.id}")
 
 
 def _join(left: Layout, right: Layout) -> Layout:
@@ -188,15 +226,15 @@ def _join(left: Layout, right: Layout) -> Layout:
         return (round(point[0], 6), round(point[1], 6))
 
     out = next(t for t in left.terminals if key(t.at) == key(left.output_at))
-    kept = [lb for lb in left.labels if lb is not out.label]
+    kept = [lb for lb in left.labels if lb != out.label]
     edge = max([lb.box.x1 for lb in kept] + [p.body.x1 for p in left.parts]
                + [o.body.x1 for o in left.opamps] + [a[0] for w in left.wires for a in w])
     moved = right.shifted(edge + 0.8 - right.input_at[0], left.output_at[1] - right.input_at[1])
     inp = next(t for t in moved.terminals if key(t.at) == key(moved.input_at))
     wires = left.wires + moved.wires + ((left.output_at, moved.input_at),)
-    terminals = tuple(t for t in left.terminals if t is not out) + tuple(
-        t for t in moved.terminals if t is not inp)
-    labels = tuple(kept) + tuple(lb for lb in moved.labels if lb is not inp.label)
+    terminals = tuple(t for t in left.terminals if t != out) + tuple(
+        t for t in moved.terminals if t != inp)
+    labels = tuple(kept) + tuple(lb for lb in moved.labels if lb != inp.label)
     return Layout(parts=left.parts + moved.parts, opamps=left.opamps + moved.opamps, wires=wires,
                   dots=left.dots + moved.dots, grounds=left.grounds + moved.grounds,
                   terminals=terminals, labels=labels, input_at=left.input_at,
@@ -405,6 +443,32 @@ def schematic_figure(schematic: Schematic, caption: str, prefix: str, *,
             "</figcaption>\n</figure>")
 
 
+def design_schematic_html(design: object, *, resistor_style: str = "iec") -> list:
+    """The report's schematics of a design: each section, then the cascade."""
+    drawings = design_schematics(design)
+    out = ["<h2>Schematics</h2>",
+           f"<p class=\"note\">Each part with its designator and preferred value; op-amps with "
+           f"their model. Symbols: {_STYLE_WORDS[resistor_style]}.</p>"]
+    for stem, schematic in drawings.items():
+        caption = (f"{schematic.title}: every part with its chosen value." if stem != "cascade"
+                   else "The sections in cascade order, each with its own parts, and the "
+                        "buffers placed between them.")
+        out.append(schematic_figure(schematic, caption, f"{stem}-", resistor_style=resistor_style))
+    return out
+
+
+def candidate_schematic_html(circuit: Circuit, caption: str, prefix: str, *,
+                             resistor_style: str = "iec") -> str:
+    """One comparison candidate's schematic, folded under its caption."""
+    figure = schematic_figure(circuit_schematic(circuit), caption, prefix,
+                              resistor_style=resistor_style)
+    return f"<details><summary>{html.escape(caption)}</summary>\n{figure}\n</details>"
+
+
+_STYLE_WORDS = {"iec": "IEC 60617 (rectangular resistors)",
+                "ieee": "IEEE 315 (zig-zag resistors)"}
+
+
 def label_boxes(schematic: Schematic) -> tuple:
     """Every label's box in the schematic (drawing units)."""
     return tuple(label.box for label in schematic.layout.labels)
@@ -420,5 +484,7 @@ def symbol_boxes(schematic: Schematic) -> tuple:
     return tuple(boxes)
 
 
-__all__ += ["label_boxes", "symbol_boxes", "opamp_model_text"]
+__all__ += ["label_boxes", "symbol_boxes", "opamp_model_text", "design_schematics",
+            "cascade_buffers", "compensator_schematic", "design_schematic_html",
+            "candidate_schematic_html"]
 _ = (LabelBox, label_size, part_nodes)
