@@ -33,7 +33,7 @@ import schemdraw
 import schemdraw.elements as elm
 
 from ..circuit import Circuit, Element
-from ..drawing import part_nodes, plan_for
+from ..drawing import BELOW, Branch, Plan, Point, Step, part_nodes, plan_for
 from ..errors import SpecError
 from ..units import format_value
 from .files import check_output_path, write_bytes, write_text
@@ -90,8 +90,8 @@ def opamp_model_text(element: Element) -> tuple:
     return tuple(lines) or ("ideal",)
 
 
-def _labeller(circuit: Circuit, show_values: bool, fixed: dict | None = None):
-    parts = {e.name: e for e in circuit.elements}
+def _labeller(elements: tuple, show_values: bool, fixed: dict | None = None):
+    parts = {e.name: e for e in elements}
     fixed = fixed or {}
 
     def lines(key: str) -> tuple:
@@ -118,9 +118,9 @@ def _labeller(circuit: Circuit, show_values: bool, fixed: dict | None = None):
     return lines
 
 
-def _kinds(circuit: Circuit) -> dict:
+def _kinds(elements: tuple) -> dict:
     kinds = {}
-    for element in circuit.elements:
+    for element in elements:
         kinds[element.name] = element.kind
         if element.kind in ("vcvs", "vccs"):
             kinds[f"{element.name}:ctrl"] = "sense"
@@ -140,7 +140,8 @@ def circuit_schematic(circuit: Circuit, *, title: str | None = None, show_values
         `show_values` is False (a topology's ``values``).
     """
     plan = plan_for(circuit)
-    layout = layout_plan(plan, _kinds(circuit), _labeller(circuit, show_values, fixed))
+    layout = layout_plan(plan, _kinds(circuit.elements),
+                         _labeller(circuit.elements, show_values, fixed))
     return Schematic(layout, title)
 
 
@@ -178,9 +179,16 @@ def cascade_schematic(sections: list, buffers: dict, *, title: str | None = None
 def _buffer_layout(elements: tuple, show_values: bool) -> Layout:
     """A buffer between sections: the follower (and its modelled output resistance)."""
     opamp = elements[0]
-    output = next((e.nodes[1] for e in elements[1:]), opamp.nodes[2])
-    buffer = Circuit(tuple(elements), reference="gnd", input=opamp.nodes[0], output=output)
-    return circuit_schematic(buffer, show_values=show_values).layout
+    pin = f"{opamp.name}.in"
+    points = [Point(opamp.nodes[0], opamp.nodes[0]), Point(pin, "", opamp=opamp.name, side=BELOW),
+              Point(opamp.nodes[2], opamp.nodes[2])]
+    steps = [Step(opamp.name, opamp.nodes[0], opamp.nodes[2], opamp=True, pin=0, pin_point=pin)]
+    for resistor in elements[1:]:  # the modelled output resistance, on to the buffer's output
+        points.append(Point(resistor.nodes[1], resistor.nodes[1]))
+        steps.append(Step(resistor.name, resistor.nodes[0], resistor.nodes[1]))
+    wire = Branch((), (opamp.nodes[1],) * 2, pin, points[-1].key, BELOW)
+    plan = Plan(tuple(points), tuple(steps), (wire,), (), points[-1].key)
+    return layout_plan(plan, _kinds(elements), _labeller(elements, show_values))
 
 
 def design_schematics(design: object, *, show_values: bool = True) -> dict:
@@ -267,7 +275,7 @@ def _drawing(schematic: Schematic, *, resistor_style: str, canvas: str) -> tuple
     for part in layout.parts:
         add(_symbol(part.kind, resistor_style).endpoints(part.start, part.end), ("part", part.key))
     for opamp in layout.opamps:
-        symbol = elm.Opamp(leads=True)
+        symbol = elm.Opamp(leads=True).theta(0)
         if opamp.flipped:
             symbol = symbol.flip()
         add(symbol.anchor("in2").at(opamp.plus), ("opamp", opamp.name))
