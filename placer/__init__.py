@@ -50,6 +50,8 @@ _EXPORTS = {
     "Design": "design", "design": "design", "place_section": "design",
     "gather_evidence": "evidence",
     "compare": "compare", "comparison_to_dict": "compare", "rank_candidates": "compare",
+    "DrawingSpec": "drawing", "Plan": "drawing", "automatic_plan": "drawing_auto",
+    "plan_for": "drawing_auto", "circuit_svg": "report.schematic",
 }
 
 __all__ = ["__version__", *_EXPORTS]

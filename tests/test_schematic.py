@@ -24,7 +24,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from placer.circuit import Circuit, Element
-from placer.drawing import DrawingSpec, automatic_plan, drawing_from_table
+from placer.drawing import DrawingSpec
 from placer.errors import SpecError
 from placer.ladders import ladder_topology
 from placer.library import library_topologies

@@ -33,11 +33,12 @@ import schemdraw
 import schemdraw.elements as elm
 
 from ..circuit import Circuit, Element
-from ..drawing import BELOW, Branch, Plan, Point, Step, part_nodes, plan_for
+from ..drawing import BELOW, Branch, Plan, Point, Step
+from ..drawing_auto import plan_for
 from ..errors import SpecError
 from ..units import format_value
 from .files import check_output_path, write_bytes, write_text
-from .layout import FONT_PT, Box, LabelBox, Layout, label_size, layout_plan
+from .layout import FONT_PT, Box, Layout, layout_plan
 
 __all__ = ["RESISTOR_STYLES", "Schematic", "circuit_svg", "circuit_schematic",
            "topology_schematic", "cascade_schematic", "render_svg", "render_png",
@@ -495,4 +496,3 @@ def symbol_boxes(schematic: Schematic) -> tuple:
 __all__ += ["label_boxes", "symbol_boxes", "opamp_model_text", "design_schematics",
             "cascade_buffers", "compensator_schematic", "design_schematic_html",
             "candidate_schematic_html"]
-_ = (LabelBox, label_size, part_nodes)
