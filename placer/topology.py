@@ -244,10 +244,6 @@ def topology_from_dict(data, *, source="topology"):
         raise TopologyError(f"{source}: order must be an integer 0–24, not {order!r}")
     circuit = circuit_from_dict(data, source=source, parse=parse_value)
     circuit = replace(circuit, name=topology_id)
-    drawing = None
-    if "drawing" in data:
-        drawing = drawing_from_table(data["drawing"], circuit, source=source)
-        circuit = replace(circuit, drawing=drawing)
     symbols = circuit.symbols
     values = {}
     for symbol, raw in dict(data.get("values", {})).items():
@@ -306,6 +302,10 @@ def topology_from_dict(data, *, source="topology"):
     for key in ("title", "description", "formula", "family"):
         if key in data and not isinstance(data[key], str):
             raise TopologyError(f"{source}: {key!r} must be a string")
+    drawing = None
+    if "drawing" in data:  # checked last: the circuit and its parts are sound by now
+        drawing = drawing_from_table(data["drawing"], circuit, source=source)
+        circuit = replace(circuit, drawing=drawing)
     return Topology(
         id=topology_id,
         title=data["title"],
