@@ -11,7 +11,7 @@ right and wired to its nodes, so no circuit is ever undrawable.
 
 Examples
 --------
->>> from placer.circuit import Circuit, Element
+>>> from placer.circuit.elements import Circuit, Element
 >>> rc = Circuit((Element("R1", "resistor", ("vin", "vout"), value=1e3),
 ...               Element("C1", "capacitor", ("vout", "gnd"), value=1e-9)))
 >>> plan = automatic_plan(rc)
@@ -23,8 +23,8 @@ from __future__ import annotations
 
 from dataclasses import replace
 
-from .circuit import Circuit, Element
-from .drawing import (ABOVE, BELOW, DrawingSpec, Leg, Plan, Point, Step, _Builder,
+from .circuit.elements import Circuit, Element
+from .circuit.drawing import (ABOVE, BELOW, DrawingSpec, Leg, Plan, Point, Step, _Builder,
                       _crosses, _leg_point, circuit_parts, part_nodes, resolve_plan)
 from .errors import SpecError
 

@@ -23,14 +23,14 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from placer.circuit import Circuit, Element
-from placer.drawing import DrawingSpec
+from placer.circuit.elements import Circuit, Element
+from placer.circuit.drawing import DrawingSpec
 from placer.errors import SpecError
-from placer.ladders import ladder_topology
-from placer.library import library_topologies
+from placer.circuit.ladders import ladder_topology
+from placer.circuit.library import library_topologies
 from placer.report.schematic import (circuit_schematic, circuit_svg, drawn_geometry,
                                      label_boxes, symbol_boxes, topology_schematic)
-from placer.topology import topology_from_text
+from placer.circuit.topology import topology_from_text
 
 _EPS = 1e-6
 TOPOLOGIES = dict(sorted(library_topologies().items()))
@@ -275,7 +275,7 @@ def test_user_topology_without_table_is_drawn_automatically():
 
 
 def test_modelled_opamp_and_its_output_resistance_are_drawn():
-    from placer.opamp import AmplifierSpec, apply_amplifier
+    from placer.place.opamp import AmplifierSpec, apply_amplifier
 
     topology = TOPOLOGIES["mfb-lowpass"]
     circuit = topology.circuit.with_values({"R1": 1e4, "R2": 1e4, "R3": 2e4, "C1": 1e-8,
@@ -349,7 +349,7 @@ nodes = ["gnd", "n1", "vout"]
 def odd_design(tmp_path_factory):
     """A third-order Butterworth: a passive first-order section, a buffer, a biquad."""
     from placer.design import design
-    from placer.spec import load_spec
+    from placer.spec.reader import load_spec
 
     folder = tmp_path_factory.mktemp("spec")
     path = folder / "odd.toml"

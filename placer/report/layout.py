@@ -1,6 +1,6 @@
 """Coordinates for a drawing plan: parts, op-amps, wires, labels, boxes.
 
-:func:`layout_plan` gives every point of a :class:`placer.drawing.Plan`
+:func:`layout_plan` gives every point of a :class:`placer.circuit.drawing.Plan`
 an x (left to right, far enough apart for the parts and labels between
 them) and every branch a level above or below the path, outside whatever
 lies under it (its parts, labels and the branches nested inside it), so
@@ -17,7 +17,7 @@ import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
-from ..drawing import ABOVE, BELOW, Branch, Leg, Plan
+from ..circuit.drawing import ABOVE, BELOW, Branch, Leg, Plan
 
 __all__ = ["FONT_PT", "Box", "PlacedPart", "PlacedOpamp", "LabelBox", "Terminal", "Layout",
            "text_width", "label_size", "layout_plan", "OPAMP_WIDTH", "OPAMP_PIN"]
@@ -522,7 +522,7 @@ def layout_plan(plan: Plan, kinds: dict, labels: Callable[[str], tuple]) -> Layo
 
     Parameters
     ----------
-    plan : placer.drawing.Plan
+    plan : placer.circuit.drawing.Plan
     kinds : dict
         Part key → element kind (``"sense"`` for a two-port's control side).
     labels : callable

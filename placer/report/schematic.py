@@ -1,7 +1,7 @@
 """Schematic drawings of circuits, topologies, cascades and compensators.
 
 Each circuit is laid out from its topology's ``[drawing]`` table (or, for a
-circuit without one, automatically: :mod:`placer.drawing`), given
+circuit without one, automatically: :mod:`placer.circuit.drawing`), given
 coordinates (:mod:`placer.report.layout`) and drawn with schemdraw: SVG
 through schemdraw's own SVG backend, so every label is a ``<text>``
 element, and PNG through its matplotlib backend.
@@ -13,7 +13,7 @@ drawn the same in both.
 
 Examples
 --------
->>> from placer.circuit import Circuit, Element
+>>> from placer.circuit.elements import Circuit, Element
 >>> rc = Circuit((Element("R1", "resistor", ("vin", "vout"), value=8060.0),
 ...               Element("C1", "capacitor", ("vout", "gnd"), value=3.3e-9)))
 >>> svg = circuit_svg(rc)
@@ -32,8 +32,8 @@ from pathlib import Path
 import schemdraw
 import schemdraw.elements as elm
 
-from ..circuit import Circuit, Element
-from ..drawing import BELOW, Branch, Plan, Point, Step
+from ..circuit.elements import Circuit, Element
+from ..circuit.drawing import BELOW, Branch, Plan, Point, Step
 from ..drawing_auto import plan_for
 from ..errors import SpecError
 from ..units import format_value
