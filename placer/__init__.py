@@ -54,6 +54,8 @@ _EXPORTS = {
     "opamp_loop": "analysis.return_ratio", "OpampLoop": "analysis.return_ratio",
     "choose_level": "place.level", "LevelRule": "place.level", "LevelChoice": "place.level",
     "check_design": "evidence.prelayout", "Prelayout": "evidence.prelayout",
+    "DrawingSpec": "circuit.drawing", "Plan": "circuit.drawing", "automatic_plan": "circuit.drawing_auto",
+    "plan_for": "circuit.drawing_auto", "circuit_svg": "report.schematic",
 }
 
 __all__ = ["__version__", *_EXPORTS]

@@ -63,6 +63,9 @@ def build_parser():
     p.add_argument("--bom", metavar="OUT.csv", help="write a bill of materials (CSV)")
     p.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report")
     p.add_argument("--plots", metavar="DIR", help="write each plot as PNG and SVG into DIR")
+    p.add_argument("--schematic", metavar="DIR",
+                   help="write each section's schematic and the cascade's as SVG and PNG into DIR")
+    _add_resistor_style(p)
     p.add_argument("--samples", type=int, help="Monte Carlo samples (default: the spec's)")
     p.add_argument("--seed", type=int, help="random seed (default: the spec's, else 0)")
     p.add_argument("--workers", type=int,
@@ -77,6 +80,7 @@ def build_parser():
     p.add_argument("--json", metavar="OUT", help="write the ranking as JSON")
     p.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report")
     p.add_argument("--plots", metavar="DIR", help="write each chart as PNG and SVG into DIR")
+    _add_resistor_style(p)
     p.add_argument("--samples", type=int, help="Monte Carlo samples per candidate")
     p.add_argument("--workers", type=int, help="worker processes (default: all cores)")
     p.add_argument("--gbw", choices=("built", "rule", "model"), default="built",
@@ -91,6 +95,9 @@ def build_parser():
     p.add_argument("--json", metavar="OUT", help="write the result as JSON")
     p.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report")
     p.add_argument("--plots", metavar="DIR", help="write each plot as PNG and SVG into DIR")
+    p.add_argument("--schematic", metavar="DIR",
+                   help="write the compensator's schematic as SVG and PNG into DIR")
+    _add_resistor_style(p)
     p.add_argument("--samples", type=int, help="Monte Carlo samples")
     p.add_argument("--seed", type=int, help="random seed")
     p.add_argument("--workers", type=int,
@@ -102,7 +109,21 @@ def build_parser():
     p.add_argument("id", nargs="?", metavar="ID", help="show one topology with its functions")
     p.add_argument("--folder", metavar="DIR", help="also list the topology files in DIR")
     p.add_argument("--json", nargs="?", const="-", metavar="OUT", help="write JSON to OUT (or stdout)")
+    p.add_argument("--schematic", metavar="OUT.svg",
+                   help="with ID: write the topology's schematic (part symbols) as SVG")
+    _add_resistor_style(p)
     return parser
+
+
+def _add_resistor_style(parser):
+    parser.add_argument("--resistor-style", choices=("iec", "ieee"), default="iec",
+                        help="resistor symbol in schematics: IEC 60617 rectangle (default) or "
+                             "IEEE 315 zig-zag")
+
+
+def _check_schematic_folder(folder):
+    if folder is not None and not Path(folder).is_dir():
+        raise SpecError(f"--schematic: folder {folder!r} does not exist")
 
 
 def main(argv=None):
@@ -294,6 +315,7 @@ def _cmd_design(args):
             check_output_path(path, inputs=inputs, option=option)
     if args.plots and not Path(args.plots).is_dir():
         raise SpecError(f"--plots: folder {args.plots!r} does not exist")
+    _check_schematic_folder(args.schematic)
     _check_counts(("--samples", args.samples, 1), ("--seed", args.seed, 0),
                   ("--workers", args.workers, 1))
     progress = Progress("designing", quiet=args.quiet)
@@ -324,7 +346,13 @@ def _cmd_design(args):
         from .report.html import write_design_report
 
         write_design_report(result, data, evidence, html_path=args.report, plots_dir=args.plots,
-                            inputs=inputs, prelayout=prelayout)
+                            inputs=inputs, prelayout=prelayout,
+                            resistor_style=args.resistor_style)
+    if args.schematic:
+        from .report.schematic import design_schematics, write_schematic_files
+
+        write_schematic_files(design_schematics(result), args.schematic,
+                              resistor_style=args.resistor_style, inputs=inputs)
     print()
     print("Caution: these values are a starting point; confirm the design by simulation and on the "
           "bench. Equipment connected to mains, or used where a failure can hurt someone, must follow "
@@ -362,7 +390,7 @@ def _cmd_compare(args):
         from .report.comparison import write_comparison_report
 
         write_comparison_report(comparison, html_path=args.report, plots_dir=args.plots,
-                                inputs=inputs)
+                                inputs=inputs, resistor_style=args.resistor_style)
     missed = [s for s in comparison.sections if not s.reachable]
     for s in missed:
         reasons = "; ".join(f"{c.topology}: {c.reason}" for c in s.candidates) or "no candidate topology"
@@ -387,6 +415,7 @@ def _cmd_loop(args):
             check_output_path(path, inputs=inputs, option=option)
     if args.plots and not Path(args.plots).is_dir():
         raise SpecError(f"--plots: folder {args.plots!r} does not exist")
+    _check_schematic_folder(args.schematic)
     samples = spec.tolerance.samples if args.samples is None else args.samples
     if samples < 0:
         raise SpecError(f"--samples {samples}: give a whole number >= 0 (0 skips the Monte Carlo)")
@@ -411,7 +440,12 @@ def _cmd_loop(args):
         from .report.html import write_loop_report
 
         write_loop_report(result, data, html_path=args.report, plots_dir=args.plots, inputs=inputs,
-                          opamp_loops=loops)
+                          opamp_loops=loops, resistor_style=args.resistor_style)
+    if args.schematic:
+        from .report.schematic import compensator_schematic, write_schematic_files
+
+        write_schematic_files({"compensator": compensator_schematic(result.design)},
+                              args.schematic, resistor_style=args.resistor_style, inputs=inputs)
     print()
     print("Caution: power converters and anything connected to mains can hurt people. These values "
           "are a starting point: confirm the loop by simulation and on the bench, and follow the "
@@ -520,8 +554,19 @@ def _cmd_topologies(args):
         loaded = load_folder(args.folder)
         pool.update(loaded["topologies"])
         errors = loaded["errors"]
+    if args.schematic and not args.id:
+        raise SpecError("--schematic: name a topology, for example "
+                        "`placer topologies mfb-lowpass --schematic mfb.svg`")
     if args.id:
         topology = resolve_topology(args.id) if args.id not in pool else pool[args.id]
+        if args.schematic:
+            from .report.schematic import render_svg, topology_schematic
+
+            inputs = tuple(p for p in (topology.path,) if p)
+            check_output_path(args.schematic, inputs=inputs, option="--schematic")
+            write_text(args.schematic, render_svg(topology_schematic(topology),
+                                                  resistor_style=args.resistor_style),
+                       inputs=inputs, option="--schematic")
         nf = network_function(topology.circuit)
         data = {
             "id": topology.id, "title": topology.title, "response": topology.response,

@@ -345,9 +345,11 @@ def _build_section(candidate, index, counters):
                 series=candidate.snapped.series.get(symbol, ""),
                 continuous=float(candidate.snapped.continuous.get(symbol, value)),
             ))
+    drawing = getattr(topology, "drawing", None)
     circuit = Circuit(tuple(elements), reference=topology.circuit.reference,
                       input=topology.circuit.input, output=topology.circuit.output,
-                      name=f"section {index}: {topology.id}")
+                      name=f"section {index}: {topology.id}",
+                      drawing=drawing.renamed(renamed) if drawing is not None else None)
     return circuit, parts
 
 

@@ -97,7 +97,9 @@ def test_design_report_is_self_contained(report):
     assert written.html is not None and written.html.name == "report.html"
     assert text.startswith("<!DOCTYPE html>")
     assert _external_references(text) == []
-    assert text.count("<svg") == len(PLOT_STEMS)
+    # the plots, then a schematic of each section and of the cascade
+    assert text.count('<figure class="schematic">') == 3
+    assert text.count("<svg") == len(PLOT_STEMS) + 3
     assert "<style>" in text
 
 
@@ -193,7 +195,8 @@ def test_missing_output_folder_is_a_spec_error(built, tmp_path):
 def test_loop_report_contents(loop_report):
     result, data, written, text = loop_report
     assert _external_references(text) == []
-    assert text.count("<svg") == 2
+    assert text.count("<svg") == 2 + 1  # two plots and the compensator's schematic
+    assert text.count('<figure class="schematic">') == 1
     assert {p.name for p in written.plots} == {"loop-gain.png", "loop-gain.svg",
                                                 "phase-margin-histogram.png",
                                                 "phase-margin-histogram.svg"}

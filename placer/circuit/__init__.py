@@ -10,6 +10,23 @@ import importlib
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
+    from .drawing import (
+        DRAWING_KEYS,
+        DrawingSpec,
+        Point,
+        Step,
+        Branch,
+        Leg,
+        Plan,
+        drawing_from_table,
+        resolve_plan,
+        part_nodes,
+        circuit_parts,
+    )
+    from .drawing_auto import (
+        automatic_plan,
+        plan_for,
+    )
     from .elements import (
         KINDS,
         NODE_COUNT,
@@ -48,6 +65,19 @@ if TYPE_CHECKING:
 
 #: Public name -> the module of this folder that defines it.
 _EXPORTS = {
+    "DRAWING_KEYS": "drawing",
+    "DrawingSpec": "drawing",
+    "Point": "drawing",
+    "Step": "drawing",
+    "Branch": "drawing",
+    "Leg": "drawing",
+    "Plan": "drawing",
+    "drawing_from_table": "drawing",
+    "resolve_plan": "drawing",
+    "part_nodes": "drawing",
+    "circuit_parts": "drawing",
+    "automatic_plan": "drawing_auto",
+    "plan_for": "drawing_auto",
     "KINDS": "elements",
     "NODE_COUNT": "elements",
     "SYMBOL_PATTERN": "elements",

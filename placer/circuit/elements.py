@@ -212,6 +212,8 @@ class Circuit:
     output: str = "vout"
     name: str = ""
     _graph: object = field(default=None, repr=False, compare=False)
+    #: How the circuit is drawn (a placer.circuit.drawing.DrawingSpec from its topology file), or None.
+    drawing: object = field(default=None, repr=False, compare=False)
 
     def __post_init__(self):
         object.__setattr__(self, "elements", tuple(self.elements))

@@ -37,6 +37,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from .elements import Circuit, check_symbol, circuit_from_dict
+from .drawing import drawing_from_table
 from ..errors import SpecError, TopologyError
 from ..units import parse_value
 
@@ -146,6 +147,7 @@ class Topology:
     description: str = ""
     formula: str = ""
     path: str = ""
+    drawing: object = None   # placer.circuit.drawing.DrawingSpec from the file's [drawing] table
 
     @property
     def symbols(self):
@@ -217,7 +219,7 @@ def topology_from_dict(data, *, source="topology"):
     allowed = {
         "id", "title", "response", "order", "family", "inverting", "reference",
         "input", "output", "free", "constraints", "description", "formula",
-        "ranges", "values", "elements",
+        "ranges", "values", "elements", "drawing",
     }
     unknown = sorted(set(data) - allowed)
     if unknown:
@@ -300,6 +302,10 @@ def topology_from_dict(data, *, source="topology"):
     for key in ("title", "description", "formula", "family"):
         if key in data and not isinstance(data[key], str):
             raise TopologyError(f"{source}: {key!r} must be a string")
+    drawing = None
+    if "drawing" in data:  # checked last: the circuit and its parts are sound by now
+        drawing = drawing_from_table(data["drawing"], circuit, source=source)
+        circuit = replace(circuit, drawing=drawing)
     return Topology(
         id=topology_id,
         title=data["title"],
@@ -315,6 +321,7 @@ def topology_from_dict(data, *, source="topology"):
         description=data.get("description", ""),
         formula=data.get("formula", ""),
         path="",
+        drawing=drawing,
     )
 
 

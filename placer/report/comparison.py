@@ -6,12 +6,14 @@ import math
 
 from .. import __version__
 from ..compare import _SHORT, _SOURCES, RANK_KEYS
+from ..design import candidate_topologies
 from ..units import format_value
 from .console import fmt_rejection, table, windows_text
 from .page import (Plots, caution_block, escape, finish_report, paragraph, prepare_outputs,
                    spec_block)
 from .page import table as html_table
 from .plots import ranking_figure
+from .schematic import candidate_schematic_html
 
 __all__ = ["comparison_text", "write_comparison_report"]
 
@@ -116,7 +118,21 @@ def comparison_text(comparison):
     return "\n".join(lines)
 
 
-def write_comparison_report(comparison, *, html_path=None, plots_dir=None, inputs=()):
+def _candidate_schematics(comparison, s, resistor_style):
+    """Each reachable candidate of a section drawn with its snapped values."""
+    pool = {t.id: t for t in candidate_topologies(s.section, comparison.spec)[0]}
+    out = []
+    for rank, c in enumerate((c for c in s.candidates if c.reachable), start=1):
+        if c.topology in pool:
+            circuit = pool[c.topology].circuit.with_values(c.values)
+            out.append(candidate_schematic_html(
+                circuit, f"Rank {rank}: {c.topology}, with its preferred values",
+                f"s{s.index}c{rank}-", resistor_style=resistor_style))
+    return out
+
+
+def write_comparison_report(comparison, *, html_path=None, plots_dir=None, inputs=(),
+                            resistor_style="iec"):
     """Write the HTML report of a topology comparison, and its plots.
 
     One page: the spec, then per section the ranking table, a chart of each
@@ -133,6 +149,8 @@ def write_comparison_report(comparison, *, html_path=None, plots_dir=None, input
         (``section<N>-ranking``).
     inputs : sequence of path
         Files the outputs may not overwrite (the spec, user topologies).
+    resistor_style : {"iec", "ieee"}
+        Resistor symbol of the candidates' schematics.
 
     Returns
     -------
@@ -166,6 +184,8 @@ def write_comparison_report(comparison, *, html_path=None, plots_dir=None, input
                                title=f"Section {s.index}: yield and error, best first"),
                 f"Section {s.index}: Monte Carlo yield (%) and worst error after snapping (%, "
                 "log scale) of each candidate, in rank order."))
+            if html_path is not None:
+                parts += _candidate_schematics(comparison, s, resistor_style)
         else:
             parts.append(paragraph("No candidate reaches this section.", "note"))
         unreachable = [c for c in s.candidates if not c.reachable]

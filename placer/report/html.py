@@ -24,6 +24,7 @@ from .page import (POWER_CAUTION, Plots, caution_block, escape, finish_report, n
                    paragraph, prepare_outputs, spec_block, table)
 from .plots import bode_figure, histogram_figure, loop_bode_figure, pole_zero_figure, step_figure
 from .prelayout import compensator_html, html_parts
+from .schematic import compensator_schematic, design_schematic_html, schematic_figure
 
 __all__ = ["write_design_report", "write_loop_report"]
 
@@ -68,7 +69,7 @@ _ROOT_HEADERS = ["root", "real part (rad/s)", "imaginary part (rad/s)", "|root| 
 # -- the design report -----------------------------------------------------------
 
 def write_design_report(design, data, evidence, *, html_path=None, plots_dir=None, inputs=(),
-                        prelayout=None):
+                        prelayout=None, resistor_style="iec"):
     """Write the HTML report of a filter design, and its plots.
 
     Parameters
@@ -90,6 +91,8 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
     prelayout : placer.evidence.prelayout.Prelayout, optional
         The pre-layout checks (noise, swing and slew, op-amp loops); their
         sections follow the evidence.
+    resistor_style : {"iec", "ieee"}
+        Resistor symbol of the schematics (IEC 60617 or IEEE 315).
 
     Returns
     -------
@@ -114,6 +117,8 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
                 "are in hertz; roots of the transfer function in rad/s."),
              "<h2>What was asked for</h2>", spec_block(spec_path)]
     parts += _section_tables(data)
+    if html_path is not None:
+        parts += design_schematic_html(design, resistor_style=resistor_style)
     parts.append("<h2>Where the poles and zeros sit</h2>")
     parts.append(plots.block("pole-zero", pole_zero_figure(
         design.target.poles, design.target.zeros, design.poles, design.zeros),
@@ -370,7 +375,7 @@ def _margin_row(label, m):
 
 
 def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=(), spec_path=None,
-                      opamp_loops=()):
+                      opamp_loops=(), resistor_style="iec"):
     """Write the HTML report of a compensated loop, and its plots.
 
     Parameters
@@ -423,6 +428,10 @@ def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=()
                  ["compensator zero(s) (Hz)", fmt_hz(k["zero_hz"])],
                  ["compensator pole(s) (Hz)", fmt_hz(k["pole_hz"])],
                  ["integrator ωi (rad/s)", f"{k['integrator_rad_s']:.6g} rad/s"]])]
+    if html_path is not None:
+        parts.append(schematic_figure(compensator_schematic(result.design), "The compensator "
+                                      "with its preferred values.", "compensator-",
+                                      resistor_style=resistor_style))
     fc = data.get("crossover_hz") or data["target"]["crossover_hz"]
     frequency, magnitude, phase = loop_frequency_response(
         result.design.loop_transfer_function(snapped=True), fc,
