@@ -66,7 +66,8 @@ _ROOT_HEADERS = ["root", "real part (rad/s)", "imaginary part (rad/s)", "|root| 
 
 # -- the design report -----------------------------------------------------------
 
-def write_design_report(design, data, evidence, *, html_path=None, plots_dir=None, inputs=()):
+def write_design_report(design, data, evidence, *, html_path=None, plots_dir=None, inputs=(),
+                        spec_text=None):
     """Write the HTML report of a filter design, and its plots.
 
     Parameters
@@ -85,10 +86,13 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
     inputs : sequence of str
         The run's input files, never overwritten (the spec and the
         topology files are added to them).
+    spec_text : str, optional
+        The spec file's text, shown instead of reading the file.
 
     Returns
     -------
     placer.report.page.ReportFiles
+        With the page's text in ``html_text``.
 
     Raises
     ------
@@ -107,7 +111,7 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
              paragraph(f"{len(data['sections'])} filter section(s) in cascade, {parts_count} passive "
                 f"parts and {len(opamps)} op-amp(s). Made by placer {__version__}. Frequencies "
                 "are in hertz; roots of the transfer function in rad/s."),
-             "<h2>What was asked for</h2>", spec_block(spec_path)]
+             "<h2>What was asked for</h2>", spec_block(spec_path, spec_text)]
     parts += _section_tables(data)
     parts.append("<h2>Where the poles and zeros sit</h2>")
     parts.append(plots.block("pole-zero", pole_zero_figure(
