@@ -16,7 +16,9 @@ import math
 import tomllib
 from pathlib import Path
 
+import numpy as np
 import pytest
+from scipy import signal
 
 pytest.importorskip("httpx", reason="Starlette's TestClient needs httpx (the test extra)")
 
@@ -28,6 +30,7 @@ from placer.circuit import circuit_from_dict
 from placer.cli import main
 from placer.explore import ExploreSession, create_app
 from placer.explore.app import MAX_BODY_BYTES
+from placer.explore.curves import step_from_roots
 from placer.explore.server import open_socket, plan_server
 from placer.explore.spec_file import toml_text
 from placer.pencil import circuit_poles
@@ -361,3 +364,14 @@ def test_saved_spec_keeps_the_other_tables(session):
         assert data[table] == original[table]
     assert data["title"] == original["title"]
     assert Path(data["candidates"]["topologies"][0]).name == "sallen-key-lowpass-unity"
+
+
+def test_step_from_modes_matches_scipy():
+    # scipy.signal.step is the reference; a notch and a third-order low-pass
+    t = np.arange(500) * 0.02
+    for zeros, poles, k in (([4j, -4j], [-1 + 3j, -1 - 3j], 1.0),
+                            ([], [-1 + 3j, -1 - 3j, -2.0], 20.0),
+                            ([0.0], [-0.5, -3.0], 2.0)):
+        _, expected = signal.step(signal.ZerosPolesGain(zeros, poles, k), T=t)
+        got = step_from_roots(np.asarray(zeros, complex), np.asarray(poles, complex), k, t)
+        np.testing.assert_allclose(got, np.real(expected), atol=1e-9)

@@ -21,7 +21,7 @@ from ..circuit import Circuit
 from ..pencil import circuit_response, circuit_roots
 from ..targets import Section
 
-__all__ = ["SectionCurves", "section_curves", "FLOOR_DB"]
+__all__ = ["SectionCurves", "section_curves", "step_from_roots", "FLOOR_DB"]
 
 #: Magnitudes below this are drawn at it (a notch's null is -inf dB).
 FLOOR_DB = -160.0
@@ -72,11 +72,48 @@ def _phase(h: NDArray[np.complex128]) -> NDArray[np.float64]:
     return np.degrees(np.unwrap(np.angle(h)))
 
 
-def _step(zeros: NDArray[np.complex128], poles: NDArray[np.complex128], k: float,
-          t: NDArray[np.float64]) -> NDArray[np.float64]:
+def step_from_roots(zeros: NDArray[np.complex128], poles: NDArray[np.complex128], k: float,
+                    t: NDArray[np.float64]) -> NDArray[np.float64]:
+    """Unit-step output of a stable system, from its modes (t in s).
+
+    With A = V·Λ·V⁻¹ the state under a unit step is x(t) = (e^{At} − I)·A⁻¹B,
+    so y(t) = Σ h_i·g_i·e^{λ_i t} − C·A⁻¹B + D with h = C·V, g = V⁻¹·A⁻¹B:
+    one eigendecomposition instead of a matrix exponential per call.
+    A nearly defective A (a repeated pole) goes to scipy's own step.
+
+    Parameters
+    ----------
+    zeros, poles : ndarray of complex
+        rad/s; conjugates in pairs, every pole in the left half-plane.
+    k : float
+        H(s) = k·Π(s − z)/Π(s − p).
+    t : ndarray
+        Times, s.
+
+    Returns
+    -------
+    ndarray
+        y(t), V/V.
+
+    Examples
+    --------
+    >>> y = step_from_roots(np.array([]), np.array([-1.0 + 0j]), 1.0, np.array([0.0, 1.0]))
+    >>> [round(float(v), 6) for v in y]
+    [0.0, 0.632121]
+    """
     numerator, denominator = signal.zpk2tf(np.asarray(zeros, complex), np.asarray(poles, complex), k)
-    _, y = signal.step((np.real(numerator), np.real(denominator)), T=t)
-    return np.asarray(y, float)
+    A, B, C, D = signal.tf2ss(np.real(numerator), np.real(denominator))
+    if A.size == 0:
+        return np.full(t.shape, float(D[0, 0]))
+    w, V = np.linalg.eig(A)
+    if np.linalg.cond(V) > 1e8:
+        _, y = signal.step((np.real(numerator), np.real(denominator)), T=t)
+        return np.asarray(y, float)
+    settled = np.linalg.solve(A, B[:, 0])
+    g = np.linalg.solve(V, settled)
+    h = C[0] @ V
+    modes = np.exp(np.outer(t, w)) @ (h * g)
+    return np.real(modes) - float(C[0] @ settled) + float(D[0, 0])
 
 
 def section_curves(section: Section, circuit: Circuit) -> SectionCurves:
@@ -113,10 +150,10 @@ def section_curves(section: Section, circuit: Circuit) -> SectionCurves:
     built_phase = built_phase + 360.0 * round((target_phase[0] - built_phase[0]) / 360.0)
     slowest = min(abs(p.real) for p in section.poles)
     t = np.linspace(0.0, 12.0 / slowest, _STEP_POINTS)
-    target_step = _step(np.array(section.zeros, complex), np.array(section.poles, complex),
+    target_step = step_from_roots(np.array(section.zeros, complex), np.array(section.poles, complex),
                         float(section.k), t)
     roots = circuit_roots(circuit)
-    built_step = _step(roots.zeros, roots.poles, roots.gain, t)
+    built_step = step_from_roots(roots.zeros, roots.poles, roots.gain, t)
     return SectionCurves(
         frequency_hz=frequency, target_db=_db(target), built_db=_db(built),
         target_phase_deg=target_phase, built_phase_deg=built_phase,
