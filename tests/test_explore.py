@@ -375,3 +375,29 @@ def test_step_from_modes_matches_scipy():
         _, expected = signal.step(signal.ZerosPolesGain(zeros, poles, k), T=t)
         got = step_from_roots(np.asarray(zeros, complex), np.asarray(poles, complex), k, t)
         np.testing.assert_allclose(got, np.real(expected), atol=1e-9)
+
+
+def test_saved_spec_resolves_candidate_paths(tmp_path):
+    from placer.explore.spec_file import edited_spec_data
+
+    raw = {"target": {"approximation": "butterworth", "order": 2, "cutoff": 1000.0},
+           "candidates": {"topologies": ["mine.toml", "mfb-lowpass"], "folder": "tops"}}
+    data = edited_spec_data(raw, {"sections": [{"f0": 900.0, "q": 0.8}]}, title="t",
+                            source=str(tmp_path / "specs" / "a.toml"))
+    assert data["candidates"]["topologies"] == [str((tmp_path / "specs" / "mine.toml").resolve()),
+                                                "mfb-lowpass"]
+    assert data["candidates"]["folder"] == str((tmp_path / "specs" / "tops").resolve())
+    assert list(data) == ["title", "target", "candidates"]
+
+
+def test_section_above_the_opamp_gbw_is_refused(tmp_path):
+    path = tmp_path / "amp.toml"
+    path.write_text(SPEC + '\n[amplifier]\ngbw = "1 MHz"\n', encoding="utf-8")
+    session = ExploreSession(load_spec(path))
+    client = TestClient(create_app(session, token=TOKEN), base_url=BASE,
+                        headers={"X-Placer-Token": TOKEN})
+    sections = _sections(session)
+    sections[0]["f0"] = "2 MHz"
+    reply = client.post("/api/place", json={"sections": sections})
+    assert reply.status_code == 422
+    assert "GBW" in reply.json()["error"] or "gbw" in reply.json()["error"]

@@ -157,6 +157,9 @@ def serve(spec_path: str, *, host: str = "127.0.0.1", port: int = 0, open_browse
         threading.Thread(target=launch, daemon=True).start()
     try:
         server.run(sockets=[sock])
+    except KeyboardInterrupt:  # uvicorn passes Ctrl-C on once it has shut down
+        pass
     finally:
         sock.close()
+    print("placer explore: stopped", file=out)
     return 0

@@ -466,7 +466,8 @@
                     : niceTicks(x0, x1, 4);
     for (const v of xt) {
       svg("line", { class: "grid", x1: X(v), x2: X(v), y1: T, y2: H - B }, box);
-      const t = svg("text", { class: "tick", x: X(v), y: H - 7, "text-anchor": "middle" }, box);
+      const anchor = X(v) > W - Rm - 14 ? "end" : X(v) < L + 8 ? "start" : "middle";
+      const t = svg("text", { class: "tick", x: X(v), y: H - 7, "text-anchor": anchor }, box);
       t.textContent = eng(v, "", 2);
     }
     for (const v of niceTicks(y0, y1, 5)) {
