@@ -384,7 +384,7 @@ class ExploreSession:
 
     def _placer(self, tracker: _Tracker) -> Callable:
         """design()'s `place`, memoised on (section, topology, seed)."""
-        def place(section, topology, *, parts=None, seed=0):
+        def place(section: Section, topology: Any, *, parts: Any = None, seed: int = 0) -> Any:
             tracker.last = section
             key = (section, topology.id, getattr(topology, "path", ""), seed)
             candidate, made = self._placements.get(
