@@ -47,8 +47,8 @@ warnings.filterwarnings("ignore", message=".*httpx2.*")
 from starlette.testclient import TestClient  # noqa: E402
 
 from placer.explore import ExploreSession, create_app  # noqa: E402
-from placer.library import find_topologies  # noqa: E402
-from placer.spec import load_spec  # noqa: E402
+from placer.circuit.library import find_topologies  # noqa: E402
+from placer.spec.reader import load_spec  # noqa: E402
 
 TOKEN = "benchmark-token"
 BAR_S = 0.3

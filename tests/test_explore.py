@@ -26,15 +26,15 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from starlette.testclient import TestClient
 
-from placer.circuit import circuit_from_dict
+from placer.circuit.elements import circuit_from_dict
 from placer.cli import main
 from placer.explore import ExploreSession, create_app
 from placer.explore.app import MAX_BODY_BYTES
 from placer.explore.curves import step_from_roots
 from placer.explore.server import open_socket, plan_server
 from placer.explore.spec_file import toml_text
-from placer.pencil import circuit_poles
-from placer.spec import load_spec
+from placer.analysis.pencil import circuit_poles
+from placer.spec.reader import load_spec
 
 TOKEN = "test-token-0123456789"
 BASE = "http://127.0.0.1:8000"

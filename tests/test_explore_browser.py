@@ -30,7 +30,7 @@ import uvicorn  # noqa: E402
 
 from placer.explore import ExploreSession, create_app  # noqa: E402
 from placer.explore.server import open_socket, plan_server  # noqa: E402
-from placer.spec import load_spec  # noqa: E402
+from placer.spec.reader import load_spec  # noqa: E402
 
 SPEC = """\
 title = "explore browser test"

@@ -17,9 +17,9 @@ import numpy as np
 from numpy.typing import NDArray
 from scipy import signal
 
-from ..circuit import Circuit
-from ..pencil import circuit_response, circuit_roots
-from ..targets import Section
+from ..circuit.elements import Circuit
+from ..analysis.pencil import circuit_response, circuit_roots
+from ..target.targets import Section
 
 __all__ = ["SectionCurves", "section_curves", "step_from_roots", "FLOOR_DB"]
 
@@ -121,9 +121,9 @@ def section_curves(section: Section, circuit: Circuit) -> SectionCurves:
 
     Parameters
     ----------
-    section : placer.targets.Section
+    section : placer.target.targets.Section
         The target (rad/s inside).
-    circuit : placer.circuit.Circuit
+    circuit : placer.circuit.elements.Circuit
         The section as built, every part with its value.
 
     Returns
@@ -132,8 +132,8 @@ def section_curves(section: Section, circuit: Circuit) -> SectionCurves:
 
     Examples
     --------
-    >>> from placer.circuit import Element
-    >>> from placer.targets import make_section
+    >>> from placer.circuit.elements import Element
+    >>> from placer.target.targets import make_section
     >>> rc = Circuit((Element("R1", "resistor", ("vin", "vout"), value=1e3),
     ...               Element("C1", "capacitor", ("vout", "gnd"), value=1e-6)))
     >>> c = section_curves(make_section("lowpass", 1e3), rc)

@@ -19,7 +19,7 @@ from typing import TextIO
 import uvicorn
 
 from ..errors import SpecError
-from ..spec import load_spec
+from ..spec.reader import load_spec
 from .app import LOOPBACK_HOSTS, create_app
 from .session import ExploreSession
 

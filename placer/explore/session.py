@@ -3,7 +3,7 @@
 An :class:`ExploreSession` holds the spec the server was started with and
 nothing the page can change. Each request names the whole edited target
 (every section's f0, Q and notch zero frequency); the session reads it
-through the spec file's own validation (:func:`placer.target_table.target_from_table`),
+through the spec file's own validation (:func:`placer.spec.target_table.target_from_table`),
 then designs it by the path ``placer design`` takes (:func:`placer.design.design`,
 same spec, same seed) with a memo of placements: a section whose target
 did not change is not solved again, so a drag re-places only the section
@@ -29,18 +29,18 @@ from functools import partial
 from pathlib import Path
 from typing import Any, Callable
 
-from ..amplifier import place_section_with_amplifier
+from ..place.amplifier import place_section_with_amplifier
 from ..design import Design, design, place_section
 from ..errors import SpecError, UnreachableTarget
-from ..evidence import gather_evidence
+from ..evidence.gather import gather_evidence
 from ..report.bom import bom_csv, bom_rows
 from ..report.data import design_to_dict
 from ..report.html import write_design_report
 from ..report.schematic import circuit_svg
-from ..sections import split_sections
-from ..spec import Spec, spec_from_dict
-from ..target_table import SECTION_KEYS, target_from_table
-from ..targets import Section, make_section
+from ..target.sections import split_sections
+from ..spec.reader import Spec, spec_from_dict
+from ..spec.target_table import SECTION_KEYS, target_from_table
+from ..target.targets import Section, make_section
 from ..units import parse_value
 from .curves import section_curves
 from .spec_file import edited_spec_text
@@ -223,7 +223,7 @@ class ExploreSession:
 
     Parameters
     ----------
-    spec : placer.spec.Spec
+    spec : placer.spec.reader.Spec
         A spec with a ``[target]`` table.
 
     Raises

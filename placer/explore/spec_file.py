@@ -147,7 +147,7 @@ def edited_spec_data(raw: Mapping, target_table: Mapping, *, title: str, source:
     Parameters
     ----------
     raw : mapping
-        The spec file's data as read (:attr:`placer.spec.Spec.raw`).
+        The spec file's data as read (:attr:`placer.spec.reader.Spec.raw`).
     target_table : mapping
         The new ``[target]`` table.
     title : str

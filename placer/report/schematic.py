@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from html import escape
 
-from ..circuit import Circuit, Element
+from ..circuit.elements import Circuit, Element
 from ..units import format_value
 
 __all__ = ["circuit_svg", "RESISTOR_STYLES"]
@@ -45,7 +45,7 @@ def circuit_svg(circuit: Circuit, *, title: str | None = None, show_values: bool
 
     Parameters
     ----------
-    circuit : placer.circuit.Circuit
+    circuit : placer.circuit.elements.Circuit
     title : str, optional
         A heading above the drawing (default: the circuit's name).
     show_values : bool
