@@ -105,6 +105,8 @@ def build_parser():
                         "(default: all cores; the result does not depend on it)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
 
+    _add_explore_parser(sub)
+
     p = sub.add_parser("topologies", help="list the topology library, or show one")
     p.add_argument("id", nargs="?", metavar="ID", help="show one topology with its functions")
     p.add_argument("--folder", metavar="DIR", help="also list the topology files in DIR")
@@ -628,6 +630,23 @@ def _cmd_topologies(args):
     return 0
 
 
+# -- explore -------------------------------------------------------------------
+
+def _add_explore_parser(sub):
+    p = sub.add_parser("explore", help="place a spec's roots by hand on a local web page")
+    p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
+    p.add_argument("--host", default="127.0.0.1",
+                   help="address to listen on (default 127.0.0.1; another one prints a warning)")
+    p.add_argument("--port", type=int, default=0, help="port (default: a free one)")
+    p.add_argument("--no-browser", action="store_true", help="print the address only")
+
+
+def _cmd_explore(args):
+    from .explore.server import serve
+
+    return serve(args.spec, host=args.host, port=args.port, open_browser=not args.no_browser)
+
+
 _COMMANDS = {
     "analyze": _cmd_analyze,
     "target": _cmd_target,
@@ -635,6 +654,7 @@ _COMMANDS = {
     "compare": _cmd_compare,
     "loop": _cmd_loop,
     "topologies": _cmd_topologies,
+    "explore": _cmd_explore,
 }
 
 

@@ -45,10 +45,17 @@ def _bundled():
     return found
 
 
+@lru_cache(maxsize=1)
+def _generated():
+    # the generated ladders never change in a process; building them costs
+    # ~10 ms, which every design and every explorer request paid per section
+    return generated_topologies()
+
+
 def library_topologies():
     """Every library topology, id → Topology, bundled files then generated."""
     found = dict(_bundled())
-    for topology in generated_topologies():
+    for topology in _generated():
         found.setdefault(topology.id, topology)
     return found
 

@@ -69,7 +69,7 @@ _ROOT_HEADERS = ["root", "real part (rad/s)", "imaginary part (rad/s)", "|root| 
 # -- the design report -----------------------------------------------------------
 
 def write_design_report(design, data, evidence, *, html_path=None, plots_dir=None, inputs=(),
-                        prelayout=None, resistor_style="iec"):
+                        prelayout=None, resistor_style="iec", spec_text=None):
     """Write the HTML report of a filter design, and its plots.
 
     Parameters
@@ -93,10 +93,13 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
         sections follow the evidence.
     resistor_style : {"iec", "ieee"}
         Resistor symbol of the schematics (IEC 60617 or IEEE 315).
+    spec_text : str, optional
+        The spec file's text, shown instead of reading the file.
 
     Returns
     -------
     placer.report.page.ReportFiles
+        With the page's text in ``html_text``.
 
     Raises
     ------
@@ -115,10 +118,9 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
              paragraph(f"{len(data['sections'])} filter section(s) in cascade, {parts_count} passive "
                 f"parts and {len(opamps)} op-amp(s). Made by placer {__version__}. Frequencies "
                 "are in hertz; roots of the transfer function in rad/s."),
-             "<h2>What was asked for</h2>", spec_block(spec_path)]
+             "<h2>What was asked for</h2>", spec_block(spec_path, spec_text)]
     parts += _section_tables(data)
-    if html_path is not None:
-        parts += design_schematic_html(design, resistor_style=resistor_style)
+    parts += design_schematic_html(design, resistor_style=resistor_style)
     parts.append("<h2>Where the poles and zeros sit</h2>")
     parts.append(plots.block("pole-zero", pole_zero_figure(
         design.target.poles, design.target.zeros, design.poles, design.zeros),

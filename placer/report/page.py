@@ -54,10 +54,14 @@ figcaption { font-size: .9em; color: #555; }
 
 @dataclass(frozen=True)
 class ReportFiles:
-    """What a report writer wrote: the HTML file and the plot files."""
+    """What a report writer wrote: the HTML file and the plot files.
+
+    ``html_text`` is the page itself, also when no file was asked for.
+    """
 
     html: Path | None
     plots: tuple
+    html_text: str = ""
 
 
 def inline_svg(svg, prefix):
@@ -112,13 +116,15 @@ def page(title, parts):
             + "\n</body>\n</html>\n")
 
 
-def spec_block(path):
+def spec_block(path, text=None):
+    """The spec as the report shows it; `text` given, the file is not read."""
     if not path:
         return paragraph("(no spec file: the design was built in code)", "note")
-    try:
-        text = Path(path).read_text(encoding="utf-8")
-    except OSError as error:
-        return paragraph(f"(the spec file {path} could not be read: {error})", "note")
+    if text is None:
+        try:
+            text = Path(path).read_text(encoding="utf-8")
+        except OSError as error:
+            return paragraph(f"(the spec file {path} could not be read: {error})", "note")
     return f"<p>From <code>{escape(path)}</code>:</p>\n<pre>{escape(text)}</pre>"
 
 
@@ -161,6 +167,7 @@ def prepare_outputs(html_path, plots_dir, inputs):
 
 def finish_report(title, parts, html_path, plots, inputs):
     written = None
+    text = page(title, parts)
     if html_path is not None:
-        written = write_text(html_path, page(title, parts), inputs=inputs, option="--report")
-    return ReportFiles(written, tuple(plots.written))
+        written = write_text(html_path, text, inputs=inputs, option="--report")
+    return ReportFiles(written, tuple(plots.written), text)
