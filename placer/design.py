@@ -21,7 +21,7 @@ from functools import partial
 from .amplifier import place_section_with_amplifier
 from .circuit import Circuit, Element
 from .errors import SpecError, UnreachableTarget
-from .library import find_topologies, load_folder, resolve_topology
+from .library import find_topologies, load_folder, realises, resolve_topology
 from .opamp import apply_amplifier, check_amplifier
 from .pencil import circuit_roots
 from .placement import PART_KINDS, Candidate, place_ideal
@@ -109,7 +109,7 @@ def candidate_topologies(section, spec=None):
         for topology in find_topologies(response=section.kind, order=section.order):
             if topology.family != "ladder":  # a whole-filter ladder, with its -6 dB ends
                 pool.setdefault(topology.id, topology)
-    fitting = [t for t in pool.values() if t.response == section.kind and t.order == section.order]
+    fitting = [t for t in pool.values() if realises(t, section.kind) and t.order == section.order]
     if names and not fitting:
         fitting = list(pool.values())  # let each say why it cannot
     return fitting, errors

@@ -22,6 +22,7 @@ from placer.approximations import (
 from placer.errors import SpecError
 from placer.sections import split_sections
 from placer.targets import (
+    NOTCH_KINDS,
     RESPONSES,
     ROOT_UNITS,
     SECTION_KINDS,
@@ -137,15 +138,21 @@ def _read_sections(reader, response):
         zero_f0 = entry.number("zero_f0", "Hz")
         default = "notch" if zero_f0 is not None else _SECTION_DEFAULT_KIND[response]
         kind = entry.choice("kind", SECTION_KINDS, default)
-        if kind == "notch" and zero_f0 is None:
+        if kind in NOTCH_KINDS and zero_f0 is None:
+            if kind != "notch":
+                raise SpecError(f"{reader.source}: {entry.where} is a {kind} section "
+                                "and needs zero_f0 (Hz)")
             zero_f0 = f0
-        if kind != "notch" and zero_f0 is not None:
+        if kind not in NOTCH_KINDS and zero_f0 is not None:
             entry.fail("zero_f0", f"applies to notch sections only, not kind = {kind!r}")
-        if kind in ("bandpass", "notch") and q is None:
+        if kind in ("bandpass",) + NOTCH_KINDS and q is None:
             raise SpecError(f"{reader.source}: {entry.where} is a {kind} section "
                             "and needs q")
-        sections.append(make_section(kind, _TWO_PI * f0, q, zero_omega=(
-            None if zero_f0 is None else _TWO_PI * zero_f0)))
+        try:
+            sections.append(make_section(kind, _TWO_PI * f0, q, zero_omega=(
+                None if zero_f0 is None else _TWO_PI * zero_f0)))
+        except SpecError as exc:
+            raise SpecError(f"{reader.source}: {entry.where}: {exc}") from None
     return sections
 
 
@@ -251,7 +258,9 @@ def target_from_table(table, *, source="spec"):
       ("Hz" or "rad/s", required), with ``complete_conjugates`` and
       ``allow_unstable`` (default false).
     * ``sections``: tables with ``f0`` (Hz), ``q`` (absent: first order),
-      ``zero_f0`` (Hz, notch) and ``kind`` (default from ``response``).
+      ``zero_f0`` (Hz, notch) and ``kind`` (default from ``response``;
+      ``"notch"`` becomes a low-pass notch when ``zero_f0`` lies above
+      ``f0``, a high-pass notch below it).
 
     Parameters
     ----------

@@ -42,6 +42,7 @@ from .units import parse_value
 
 __all__ = [
     "RESPONSES",
+    "NOTCH_KINDS",
     "DEFAULT_RANGES",
     "Constraint",
     "Topology",
@@ -52,6 +53,9 @@ __all__ = [
 ]
 
 RESPONSES = ("lowpass", "highpass", "bandpass", "notch", "allpass", "compensator")
+#: The notch sections a ``response = "notch"`` topology may realise (its
+#: ``notch_kinds``; default the symmetric notch alone).
+NOTCH_KINDS = ("notch", "lowpass-notch", "highpass-notch")
 
 #: Default value range of a free part by element kind (SI units).
 DEFAULT_RANGES = {
@@ -130,6 +134,10 @@ class Topology:
         Sub-kind for compensators (``type2``, ``pid`` …), else "".
     inverting : bool
         True when the pass-band gain is negative.
+    notch_kinds : tuple of str
+        For a notch topology, the notch sections it can realise (of
+        :data:`NOTCH_KINDS`): ``("notch",)`` when its zeros can only sit at
+        its pole frequency; empty for the other responses.
     """
 
     id: str
@@ -146,6 +154,7 @@ class Topology:
     description: str = ""
     formula: str = ""
     path: str = ""
+    notch_kinds: tuple = ()
 
     @property
     def symbols(self):
@@ -217,7 +226,7 @@ def topology_from_dict(data, *, source="topology"):
     allowed = {
         "id", "title", "response", "order", "family", "inverting", "reference",
         "input", "output", "free", "constraints", "description", "formula",
-        "ranges", "values", "elements",
+        "ranges", "values", "elements", "notch_kinds",
     }
     unknown = sorted(set(data) - allowed)
     if unknown:
@@ -300,6 +309,7 @@ def topology_from_dict(data, *, source="topology"):
     for key in ("title", "description", "formula", "family"):
         if key in data and not isinstance(data[key], str):
             raise TopologyError(f"{source}: {key!r} must be a string")
+    notch_kinds = _notch_kinds(data, response, source)
     return Topology(
         id=topology_id,
         title=data["title"],
@@ -315,7 +325,22 @@ def topology_from_dict(data, *, source="topology"):
         description=data.get("description", ""),
         formula=data.get("formula", ""),
         path="",
+        notch_kinds=notch_kinds,
     )
+
+
+def _notch_kinds(data: dict, response: str, source: str) -> tuple:
+    """The ``notch_kinds`` key: which notch sections a notch topology realises."""
+    if "notch_kinds" not in data:
+        return ("notch",) if response == "notch" else ()
+    raw = data["notch_kinds"]
+    if response != "notch":
+        raise TopologyError(f"{source}: notch_kinds applies to response = 'notch' only, "
+                            f"not {response!r}")
+    if not isinstance(raw, list) or not raw or not all(k in NOTCH_KINDS for k in raw):
+        raise TopologyError(f"{source}: notch_kinds = {raw!r} must be a non-empty list of "
+                            f"{', '.join(NOTCH_KINDS)}")
+    return tuple(dict.fromkeys(raw))
 
 
 def _number(raw, where):
