@@ -592,7 +592,9 @@ def cascade_monte_carlo(sections, *, samples=10_000, distribution="uniform", see
     Returns
     -------
     CascadeMonteCarloResult
-        The overall gain is the product of the section gains; its yield
+        The overall gain is the product of the section gains, each read
+        at its own section's reference (so, for staggered band-pass
+        sections, not the cascade's gain at the band centre); its yield
         needs every section inside its "f0"/"q" windows and the overall
         gain inside "gain_db".
 

@@ -9,7 +9,7 @@ from ..tolerance import MAX_REJECTION_DB
 from ..units import format_value
 
 __all__ = ["table", "design_text", "target_text", "evidence_text", "Progress", "fmt_pct", "fmt_db",
-           "fmt_hz", "fmt_gain", "fmt_seconds", "fmt_rejection", "windows_text"]
+           "fmt_hz", "fmt_where", "fmt_gain", "fmt_seconds", "fmt_rejection", "windows_text"]
 
 _UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 
@@ -67,6 +67,13 @@ def fmt_gain(x):
 
 def fmt_hz(x):
     return "-" if x is None else format_value(x, "Hz", digits=4)
+
+
+def fmt_where(frequency_hz):
+    """Where a gain is read: "at DC", "at high frequency" (None) or "at 1 kHz"."""
+    if frequency_hz is None:
+        return "at high frequency"
+    return "at DC" if frequency_hz == 0 else f"at {fmt_hz(frequency_hz)}"
 
 
 def fmt_q(x):
@@ -130,7 +137,8 @@ def design_text(data):
     achieved = data["achieved"]
     lines.append("")
     lines.append(f"Whole cascade: {len(achieved['poles'])} poles, {len(achieved['zeros'])} zeros, "
-                 f"gain {fmt_gain(achieved['gain_db'])}{' (inverting)' if achieved['inverting'] else ''}")
+                 f"gain {fmt_gain(achieved['gain_db'])} {fmt_where(achieved.get('gain_at_hz'))}"
+                 f"{' (inverting)' if achieved['inverting'] else ''}")
     return "\n".join(lines)
 
 

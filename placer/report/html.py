@@ -19,7 +19,8 @@ import numpy as np
 from .. import __version__
 from ..tolerance import MAX_REJECTION_DB
 from ..units import format_value
-from .console import fmt_db, fmt_gain, fmt_hz, fmt_pct, fmt_q, fmt_rejection, windows_text
+from .console import (fmt_db, fmt_gain, fmt_hz, fmt_pct, fmt_q, fmt_rejection, fmt_where,
+                      windows_text)
 from .page import (POWER_CAUTION, Plots, caution_block, escape, finish_report, number_or_dash,
                    paragraph, prepare_outputs, spec_block, table)
 from .plots import bode_figure, histogram_figure, loop_bode_figure, pole_zero_figure, step_figure
@@ -153,7 +154,7 @@ def _section_tables(data):
         out.append(table(["figure", "target", "continuous", "preferred values", "error"], rows))
     achieved = data["achieved"]
     out.append(paragraph(f"Whole cascade: target gain {fmt_gain(data['target']['gain_db'])}, achieved "
-                  f"{fmt_gain(achieved['gain_db'])}"
+                  f"{fmt_gain(achieved['gain_db'])} {fmt_where(achieved.get('gain_at_hz'))}"
                   f"{' (inverting)' if achieved.get('inverting') else ''}; "
                   f"{len(achieved['poles'])} poles, {len(achieved['zeros'])} finite zeros."))
     return out
