@@ -80,6 +80,7 @@ class Evidence:
             q = f.frequency
             return {"kind": q.kind, "gain_db": finite_or_none(q.gain_db), "f3db_hz": finite_or_none(q.f3db_hz),
                     "band_low_hz": finite_or_none(q.band_low_hz), "band_high_hz": finite_or_none(q.band_high_hz),
+                    "bandwidth_hz": finite_or_none(q.bandwidth_hz),
                     "peak_db": finite_or_none(q.peak_db), "peak_hz": finite_or_none(q.peak_hz), "notes": list(q.notes)}
 
         def dev(d):

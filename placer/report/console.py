@@ -9,7 +9,7 @@ from ..tolerance import MAX_REJECTION_DB
 from ..units import format_value
 
 __all__ = ["table", "design_text", "target_text", "evidence_text", "Progress", "fmt_pct", "fmt_db",
-           "fmt_hz", "fmt_where", "fmt_gain", "fmt_seconds", "fmt_rejection", "windows_text"]
+           "fmt_hz", "fmt_where", "fmt_edges", "fmt_peak_at", "fmt_gain", "fmt_seconds", "fmt_rejection", "windows_text"]
 
 _UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 
@@ -175,12 +175,12 @@ def evidence_text(evidence):
         if fig is None:
             continue
         f, s = fig.frequency, fig.step
-        edge = f.f3db_hz if f.f3db_hz is not None else f.band_low_hz
-        rows.append([name, fmt_gain(f.gain_db), fmt_hz(edge),
-                     fmt_gain(f.peak_db), fmt_hz(f.peak_hz) if f.peak_hz else "DC",
-                     "-" if s.overshoot_pct is None else f"{s.overshoot_pct:.2f} %",
-                     fmt_seconds(s.rise_time_s), fmt_seconds(s.settling_time_s)])
-    lines.append(table(["response", "gain", "-3 dB", "peak", "at", "overshoot",
+        rows.append([name, fmt_gain(f.gain_db), fmt_edges(f),
+                     fmt_gain(f.peak_db), fmt_peak_at(f.peak_hz),
+                     "n/a" if s.overshoot_pct is None else f"{s.overshoot_pct:.2f} %",
+                     fmt_seconds(s.rise_time_s, absent="n/a"),
+                     fmt_seconds(s.settling_time_s)])
+    lines.append(table(["response", "gain", "-3 dB (from the peak)", "peak", "at", "overshoot",
                         "rise 10-90 %", "settle 2 %"], rows))
     d = v.deviation
     nulls = [s.monte_carlo.reject_hz for s in evidence.sections if s.monte_carlo.reject_hz]
@@ -235,9 +235,24 @@ def evidence_text(evidence):
     return "\n".join(lines)
 
 
-def fmt_seconds(x):
-    """A time in engineering notation, '-' when absent."""
-    return "-" if x is None else format_value(x, "s")
+def fmt_seconds(x, *, absent="-"):
+    """A time in engineering notation, `absent` when None."""
+    return absent if x is None else format_value(x, "s")
+
+
+def fmt_edges(figures):
+    """A response's half-power edges: one for a low-/high-pass, both and the width for a band."""
+    if figures.band_low_hz is not None and figures.band_high_hz is not None:
+        return (f"{fmt_hz(figures.band_low_hz)} – {fmt_hz(figures.band_high_hz)} "
+                f"(BW {fmt_hz(figures.bandwidth_hz)})")
+    return fmt_hz(figures.f3db_hz)
+
+
+def fmt_peak_at(peak_hz):
+    """Where a peak sits: "DC" (0 Hz), "high freq." (None: the high-frequency limit) or Hz."""
+    if peak_hz is None:
+        return "high freq."
+    return "DC" if peak_hz == 0 else fmt_hz(peak_hz)
 
 
 class Progress:

@@ -19,8 +19,8 @@ import numpy as np
 from .. import __version__
 from ..tolerance import MAX_REJECTION_DB
 from ..units import format_value
-from .console import (fmt_db, fmt_gain, fmt_hz, fmt_pct, fmt_q, fmt_rejection, fmt_where,
-                      windows_text)
+from .console import (fmt_db, fmt_edges, fmt_gain, fmt_hz, fmt_pct, fmt_peak_at, fmt_q,
+                      fmt_rejection, fmt_where, windows_text)
 from .page import (POWER_CAUTION, Plots, caution_block, escape, finish_report, number_or_dash,
                    paragraph, prepare_outputs, spec_block, table)
 from .plots import bode_figure, histogram_figure, loop_bode_figure, pole_zero_figure, step_figure
@@ -183,14 +183,13 @@ def _evidence_parts(evidence, plots):
         if f is None:
             continue
         q, s = f.frequency, f.step
-        edge = q.f3db_hz if q.f3db_hz is not None else q.band_low_hz
-        rows.append([name, q.kind, fmt_gain(q.gain_db), fmt_hz(edge), fmt_gain(q.peak_db),
-                     fmt_hz(q.peak_hz) if q.peak_hz else "DC"])
-        steps.append([name, number_or_dash(s.overshoot_pct, lambda x: f"{x:.2f} %"),
-                      number_or_dash(s.rise_time_s, lambda x: format_value(x, "s")),
+        rows.append([name, q.kind, fmt_gain(q.gain_db), fmt_edges(q), fmt_gain(q.peak_db),
+                     fmt_peak_at(q.peak_hz)])
+        steps.append([name, "n/a" if s.overshoot_pct is None else f"{s.overshoot_pct:.2f} %",
+                      "n/a" if s.rise_time_s is None else format_value(s.rise_time_s, "s"),
                       number_or_dash(s.settling_time_s, lambda x: format_value(x, "s")),
                       number_or_dash(s.final_value, lambda x: f"{x:.4g} V/V")])
-    out.append(table(["response", "kind", "gain (dB)", "−3 dB edge (Hz)", "peak (dB)",
+    out.append(table(["response", "kind", "gain (dB)", "−3 dB below the peak (Hz)", "peak (dB)",
                        "peak at (Hz)"], rows, numeric_from=2))
     d = v.deviation
     out.append(paragraph(f"Worst deviation of the preferred-value design from the target between "
