@@ -130,3 +130,34 @@ def test_notch_step_has_no_rise_time_and_a_note():
         verification=verification, sections=(), envelope={})).splitlines()
         if line.strip().startswith("target"))
     assert "n/a" in row and " 0 s" not in row
+
+
+def test_bode_phases_share_one_branch():
+    from placer.report.plots import bode_figure, common_phase_branch
+
+    omega0 = TWO_PI * 1e3
+    omega = omega0 * np.geomspace(1e-2, 1e2, 801)
+    s = 1j * omega
+    target = omega0 ** 2 / (s ** 2 + 2 ** 0.5 * omega0 * s + omega0 ** 2)
+    # Two inverting builds of it: one as is, one with a lead pair that tips the
+    # first point's angle to the other side of ±180°.
+    plain = -1.0003 * target
+    lead = -target * (s / (0.4 * omega0) + 1) / (s / (4 * omega0) + 1)
+
+    def curve(h):
+        return 20 * np.log10(np.abs(h)), np.degrees(np.unwrap(np.angle(h)))
+    curves = {"target": curve(target), "preferred values": curve(plain),
+              "continuous values": curve(lead)}
+    # each unwrapped from its own start: 360° apart (numpy's unwrap, reference library)
+    assert curves["preferred values"][1][0] - curves["continuous values"][1][0] == \
+        pytest.approx(360.0, abs=2.0)
+    aligned = common_phase_branch(curves, "target")
+    assert aligned["target"][1][0] == pytest.approx(0.0, abs=1.0)
+    for label in ("preferred values", "continuous values"):
+        # an inverting build: 180° below the target, on the same branch
+        assert aligned[label][1][0] == pytest.approx(-180.0, abs=2.0)
+    gap = np.abs(aligned["preferred values"][1] - curves["target"][1] + 180.0)
+    assert np.max(gap) < 0.1
+    fig = bode_figure(omega / TWO_PI, curves, reference="target")
+    lines = {line.get_label(): np.asarray(line.get_ydata(), float) for line in fig.axes[-1].lines}
+    assert abs(lines["preferred values"][0] - lines["continuous values"][0]) < 2.0

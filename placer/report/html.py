@@ -37,22 +37,6 @@ def _on_grid(grid, frequency, values):
                      left=np.nan, right=np.nan)
 
 
-def _aligned_phases(curves, reference):
-    """Shift each phase by whole turns to start where the reference does.
-
-    Unwrapping starts each curve on its own branch; a 360° offset between
-    two curves that agree says nothing, so it is taken out (a 180° offset,
-    an inversion, stays).
-    """
-    base = curves[reference][1]
-    out = {}
-    for label, (magnitude, phase) in curves.items():
-        both = np.nonzero(np.isfinite(base) & np.isfinite(phase))[0]
-        turns = round((base[both[0]] - phase[both[0]]) / 360.0) if both.size else 0
-        out[label] = (magnitude, phase + 360.0 * turns)
-    return out
-
-
 def _root_rows(label, roots):
     rows = []
     for re_, im in sorted(roots, key=lambda r: (math.hypot(*r), r[1])):
@@ -168,7 +152,6 @@ def _evidence_parts(evidence, plots):
     curves = {name: (_on_grid(grid, f.frequency.frequency_hz, f.frequency.magnitude_db),
                      _on_grid(grid, f.frequency.frequency_hz, f.frequency.phase_deg))
               for name, f in named if f is not None}
-    curves = _aligned_phases(curves, "target")
     inverted = (" The design inverts: its phase sits 180° from the target's."
                 if v.deviation.inverted else "")
     out = ["<h2>Frequency response</h2>", plots.block("bode", bode_figure(
