@@ -12,7 +12,7 @@ reads or types them.
 """
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import NamedTuple
 
 import numpy as np
@@ -186,6 +186,9 @@ class Target:
         Where ``gain`` is quoted, rad/s: 0 (DC) for lowpass, bandstop and
         allpass, ``inf`` (the high-frequency gain) for highpass, the band
         centre for bandpass (see :func:`reference_omega_for`).
+    mask : placer.mask.Mask or None
+        The pass- and stop-band requirements the built filter is judged
+        against, when the spec sets any (not part of equality).
 
     Examples
     --------
@@ -202,6 +205,7 @@ class Target:
     response: str
     approximation: str | None = None
     reference_omega: float = 0.0
+    mask: object = field(default=None, compare=False)
 
     def __post_init__(self):
         poles, lone_poles = _pair_conjugates(self.poles)
