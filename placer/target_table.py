@@ -207,6 +207,9 @@ def _approximation_target(reader, response, gain_db):
         if norm != "mag":
             options["normalisation"] = "natural"
     margin = reader.number("margin", "dB") if "margin" in reader else 0.0
+    if margin and ripple is not None and margin >= ripple:
+        reader.fail("margin", f"leaves no ripple to design with: it must be below ripple = "
+                              f"{ripple:g} dB")
     order = reader.raw("order")
     try:
         if order is not None:
@@ -401,6 +404,7 @@ def target_to_dict(target, sections=None):
         "zeros": [[float(r.real), float(r.imag)] for r in target.zeros],
         "gain_db": target.gain_db,
         "reference_frequency_hz": None if math.isinf(reference) else reference / _TWO_PI,
+        "mask": None if target.mask is None else target.mask.to_dict(),
         "sections": [{
             "kind": s.kind,
             "order": s.order,

@@ -9,7 +9,7 @@ from ..tolerance import MAX_REJECTION_DB
 from ..units import format_value
 
 __all__ = ["table", "design_text", "target_text", "evidence_text", "Progress", "fmt_pct", "fmt_db",
-           "fmt_hz", "fmt_where", "fmt_edges", "fmt_peak_at", "fmt_gain", "fmt_seconds", "fmt_rejection", "windows_text"]
+           "mask_lines", "fmt_hz", "fmt_where", "fmt_edges", "fmt_peak_at", "fmt_gain", "fmt_seconds", "fmt_rejection", "windows_text"]
 
 _UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 
@@ -97,6 +97,9 @@ def target_text(target, sections):
         rows.append([i, s.kind, s.order, fmt_hz(s.f0_hz), fmt_q(s.q),
                      fmt_hz(s.zero_f0_hz) if s.zero_omega else "-", fmt_gain(s.gain_db)])
     lines.append(table(["#", "kind", "order", "f0", "Q", "zero f0", "gain"], rows))
+    if getattr(target, "mask", None) is not None:
+        lines.append("")
+        lines.append(f"Mask ({target.mask.source}): {target.mask.describe()}")
     return "\n".join(lines)
 
 
@@ -195,6 +198,9 @@ def evidence_text(evidence):
     if v.snapping_deviation is not None:
         lines.append(f"  cost of preferred values (snapped vs continuous): "
                      f"{v.snapping_deviation.magnitude_db:.3f} dB, {v.snapping_deviation.phase_deg:.2f}°")
+    if evidence.mask is not None:
+        lines.append("")
+        lines.extend(mask_lines(evidence.mask))
     for s in evidence.sections:
         mc = s.monte_carlo
         lines.append("")
@@ -233,6 +239,59 @@ def evidence_text(evidence):
         lines.append(f"  sensitivities ({sens.method}):")
         lines.append(table(["part", "S w0", "S Q", "S gain"], rows, indent="    "))
     return "\n".join(lines)
+
+
+def _margin_words(figures, mask):
+    """ "meets" or "MISSES: stop band 0.135 dB short of 40 dB" for one response."""
+    misses = []
+    if figures.passband_margin_db is not None and not figures.meets and \
+            figures.passband_margin_db < 0:
+        misses.append(f"pass band varies {-figures.passband_margin_db:.3f} dB more than "
+                      f"{mask.ripple_db:g} dB")
+    if figures.stopband_margin_db is not None and not figures.meets and \
+            figures.stopband_margin_db < 0:
+        misses.append(f"stop band {-figures.stopband_margin_db:.3f} dB short of "
+                      f"{mask.attenuation_db:g} dB")
+    return "meets" if figures.meets else "MISSES: " + "; ".join(misses)
+
+
+def mask_lines(verdict):
+    """The mask verdict as text: the mask, each response's margins, the Monte Carlo yield."""
+    mask = verdict.mask
+    lines = [f"Mask ({mask.source}"
+             + (f"; designed with a {mask.margin_db:g} dB margin" if mask.margin_db else "")
+             + f"): {mask.describe()}"]
+    rows = []
+    for name, figures in (("target", verdict.target), ("snapped", verdict.snapped),
+                          ("continuous", verdict.continuous)):
+        if figures is None:
+            continue
+        rows.append([name,
+                     "-" if figures.passband_deviation_db is None
+                     else f"{figures.passband_deviation_db:.3f} dB",
+                     fmt_db(figures.passband_margin_db),
+                     "-" if figures.stopband_attenuation_db is None
+                     else f"{figures.stopband_attenuation_db:.3f} dB",
+                     fmt_db(figures.stopband_margin_db), _margin_words(figures, mask)])
+    lines.append(table(["response", "pass-band deviation", "margin", "least stop-band attenuation",
+                        "margin", "verdict"], rows))
+    shares = [f"pass band alone {100 * verdict.passband_yield:.1f} %"
+              if verdict.passband_yield is not None else "",
+              f"stop band alone {100 * verdict.stopband_yield:.1f} %"
+              if verdict.stopband_yield is not None else ""]
+    lines.append(f"  Monte Carlo, {verdict.samples} builds of the whole cascade: "
+                 f"{100 * verdict.yield_fraction:.1f} % meet the mask"
+                 + (f" ({', '.join(x for x in shares if x)})" if any(shares) else ""))
+    snapped = verdict.snapped
+    if snapped.meets:
+        lines.append("  The snapped circuit meets the mask.")
+    else:
+        lines.append("  The snapped circuit does not meet the mask: "
+                     + _margin_words(snapped, mask).removeprefix("MISSES: ") + "."
+                     + ("" if mask.margin_db else
+                        " A design margin ([target] margin, in dB) leaves headroom for "
+                        "preferred values and tolerances."))
+    return lines
 
 
 def fmt_seconds(x, *, absent="-"):

@@ -20,7 +20,7 @@ from .. import __version__
 from ..tolerance import MAX_REJECTION_DB
 from ..units import format_value
 from .console import (fmt_db, fmt_edges, fmt_gain, fmt_hz, fmt_pct, fmt_peak_at, fmt_q,
-                      fmt_rejection, fmt_where, windows_text)
+                      fmt_rejection, fmt_where, mask_lines, windows_text)
 from .page import (POWER_CAUTION, Plots, caution_block, escape, finish_report, number_or_dash,
                    paragraph, prepare_outputs, spec_block, table)
 from .plots import bode_figure, histogram_figure, loop_bode_figure, pole_zero_figure, step_figure
@@ -154,13 +154,19 @@ def _evidence_parts(evidence, plots):
               for name, f in named if f is not None}
     inverted = (" The design inverts: its phase sits 180° from the target's."
                 if v.deviation.inverted else "")
+    verdict = evidence.mask
     out = ["<h2>Frequency response</h2>", plots.block("bode", bode_figure(
         grid, curves, envelope=(evidence.envelope["low_db"], evidence.envelope["high_db"]),
-        reference="target"),
+        reference="target", mask_regions=mask_regions(verdict.mask) if verdict else ()),
         f"Magnitude (dB) and phase (degrees) against frequency (Hz): the target, the design "
         f"with its continuous values and with preferred values, and the range of the "
         f"magnitude over Monte Carlo builds of the whole cascade (shaded); the middle panel "
-        f"shows each less the target's magnitude.{inverted}")]
+        f"shows each less the target's magnitude.{inverted}"
+        + (" Hatched: where the mask forbids the magnitude (drawn from the target's pass-band "
+           "level; the verdict reads each response from its own pass-band peak)."
+           if verdict else ""))]
+    if verdict is not None:
+        out += _mask_parts(verdict)
     rows, steps = [], []
     for name, f in named:
         if f is None:
@@ -190,6 +196,38 @@ def _evidence_parts(evidence, plots):
     out += _monte_carlo_parts(evidence, plots)
     out += _sensitivity_parts(evidence)
     return out
+
+
+def mask_regions(mask):
+    """The forbidden boxes of a mask, for :func:`placer.report.plots.bode_figure`."""
+    regions = []
+    if mask.ripple_db is not None:
+        regions += [(low, high, None, mask.level_db - mask.ripple_db)
+                    for low, high in mask.passbands_hz]
+    if mask.attenuation_db is not None:
+        regions += [(low, high, mask.level_db - mask.attenuation_db, None)
+                    for low, high in mask.stopbands_hz]
+    return regions
+
+
+def _mask_parts(verdict):
+    mask = verdict.mask
+    lines = mask_lines(verdict)
+    rows = []
+    for name, figures in (("target", verdict.target), ("preferred values", verdict.snapped),
+                          ("continuous values", verdict.continuous)):
+        if figures is None:
+            continue
+        rows.append([name, number_or_dash(figures.passband_deviation_db, lambda x: f"{x:.3f}"),
+                     fmt_db(figures.passband_margin_db),
+                     number_or_dash(figures.stopband_attenuation_db, lambda x: f"{x:.3f}"),
+                     fmt_db(figures.stopband_margin_db), "meets" if figures.meets else "misses"])
+    return ["<h3>Against the mask</h3>",
+            paragraph(lines[0]),
+            table(["response", "pass-band deviation (dB)", "margin", "least stop-band attenuation "
+                   "(dB)", "margin", "verdict"], rows),
+            paragraph(lines[-2].strip() + " " + lines[-1].strip(),
+                      None if verdict.snapped.meets else "note")]
 
 
 def _monte_carlo_parts(evidence, plots):

@@ -242,7 +242,8 @@ def common_phase_branch(curves: dict, reference: str | None = None) -> dict:
     return out
 
 
-def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=None):
+def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=None,
+                mask_regions=()):
     """Magnitude (dB) and phase (degrees) against log frequency (Hz).
 
     Parameters
@@ -265,6 +266,10 @@ def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=No
         where the reference lies within 20 dB of its peak: the part of the
         plot where small differences matter.
     title : str, optional
+    mask_regions : sequence of (float, float, float or None, float or None)
+        Forbidden boxes of a mask on the magnitude axis: ``(low_hz,
+        high_hz, low_db, high_db)``, None for a level without bound (the
+        axis's edge); a band's 0 Hz or ``inf`` end runs to the plot's edge.
 
     Returns
     -------
@@ -295,9 +300,12 @@ def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=No
         shown.append(np.asarray(magnitude, float))
     if reference is not None:
         _difference_panel(axes[1], frequency, curves, reference, envelope)
-    limits = _magnitude_limits(shown) if shown else None
+    limits = _magnitude_limits(shown + [np.array([level for box in mask_regions
+                                                  for level in box[2:] if level is not None])])\
+        if shown else None
     if limits:
         magnitude_ax.set_ylim(*limits)
+    _draw_mask(magnitude_ax, frequency, mask_regions)
     magnitude_ax.set_ylabel("magnitude (dB)")
     phase_ax.set_ylabel("phase (degrees)")
     phase_ax.set_xlabel("frequency (Hz)")
@@ -314,6 +322,23 @@ def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=No
     magnitude_ax.legend(loc="best", fontsize=9)   # the difference panel keeps the same styles
     magnitude_ax.set_title(title or "Frequency response")
     return fig
+
+
+def _draw_mask(ax, frequency, regions):
+    """Hatched boxes where a mask forbids the magnitude to go."""
+    if not len(regions) or not frequency.size:
+        return
+    bottom, top = ax.get_ylim()
+    for k, (low_hz, high_hz, low_db, high_db) in enumerate(regions):
+        left = max(low_hz, float(frequency.min()))
+        right = min(high_hz, float(frequency.max()))
+        if right <= left:
+            continue
+        ax.fill_between([left, right], bottom if low_db is None else low_db,
+                        top if high_db is None else high_db, facecolor="0.5", alpha=0.18,
+                        hatch="//", edgecolor="0.35", linewidth=0.0,
+                        label="mask (forbidden)" if k == 0 else None, zorder=0)
+    ax.set_ylim(bottom, top)
 
 
 def _difference_panel(ax, frequency, curves, reference, envelope):
