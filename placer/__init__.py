@@ -49,6 +49,9 @@ _EXPORTS = {
     "required_gbw": "gbw",
     "Design": "design", "design": "design", "place_section": "design",
     "gather_evidence": "evidence",
+    "Mask": "mask", "approximation_mask": "mask", "MaskVerdict": "evidence",
+    "MaskFigures": "evidence", "check_mask": "evidence", "mask_verdict": "evidence",
+    "realises": "library", "notch_kind": "targets", "cascade_gain": "design",
     "compare": "compare", "comparison_to_dict": "compare", "rank_candidates": "compare",
 }
 
