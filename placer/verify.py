@@ -216,13 +216,19 @@ def step_figures(response):
     sign = 1.0 if y[peak_index] >= 0 else -1.0
     peak, peak_time = _refined_peak(t, sign * y)
     peak *= sign
-    if final == 0.0:
+    if final == 0.0 or abs(final) < 0.1 * abs(peak):
+        # an inverse-Chebyshev or elliptic high-pass keeps a small DC gain,
+        # far below its peak: figures relative to it would be meaningless
         notes.append("zero DC gain (high-pass or band-pass): overshoot and rise time do not "
-                     "apply; settling is to within 2 % of the peak around zero")
-        settling = _settling(t, np.abs(y), 0.02 * abs(peak))
+                     "apply; settling is to within 2 % of the peak around zero"
+                     if final == 0.0 else
+                     f"DC gain {final:.4g}, under a tenth of the step's peak (a high-pass "
+                     "with a finite stop band): overshoot and rise time do not apply; settling "
+                     "is to within 2 % of the peak around the final value")
+        settling = _settling(t, np.abs(y - final), 0.02 * abs(peak))
         if settling is None:
             notes.append("not settled within the time grid")
-        return StepFigures(None, None, settling, 0.0, peak, peak_time, True, tuple(notes), t, y)
+        return StepFigures(None, None, settling, final, peak, peak_time, True, tuple(notes), t, y)
     normalised = y / final
     top, top_time = _refined_peak(t, normalised)
     overshoot = max(0.0, (top - 1.0) * 100.0)
@@ -271,7 +277,8 @@ class FrequencyFigures:
         Largest gain and where (0.0 Hz when the peak is at DC; None for
         ``peak_hz`` when it is at the high-frequency limit). Crests within
         :data:`PEAK_TIE_DB` of each other (an equiripple response's) are
-        one peak, reported at the lowest frequency.
+        one peak, reported at DC or the high-frequency limit when that is
+        one of them, else at the lowest frequency.
     notes : tuple of str
     frequency_hz, magnitude_db, phase_deg : ndarray
         The grid (unwrapped phase), for plots.
@@ -341,7 +348,8 @@ def _peak(response: Response, omega: np.ndarray, magnitude_db: np.ndarray, dc: f
 
     Every interior crest of the grid is refined by a bounded search in
     ln ω; the ends count as candidates; among those within
-    :data:`PEAK_TIE_DB` of the highest the lowest frequency wins.
+    :data:`PEAK_TIE_DB` of the highest, DC or the high-frequency limit
+    wins if it is one of them, else the lowest frequency.
     """
     candidates = []           # (frequency for ordering, dB, Hz as reported)
     if math.isfinite(dc) and dc != 0:
@@ -366,7 +374,10 @@ def _peak(response: Response, omega: np.ndarray, magnitude_db: np.ndarray, dc: f
         i = int(np.argmax(magnitude_db))
         return float(magnitude_db[i]), float(omega[i] / _TWO_PI)
     top = max(level for _, level, _ in candidates)
-    _, level, where = min(c for c in candidates if c[1] >= top - PEAK_TIE_DB)
+    ties = [c for c in candidates if c[1] >= top - PEAK_TIE_DB]
+    # an end among the ties wins: a flat pass band's rounding ripples are no peak
+    ends = [c for c in ties if c[0] in (0.0, math.inf)]
+    _, level, where = min(ends or ties)
     return float(level), where
 
 

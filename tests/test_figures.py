@@ -161,3 +161,23 @@ def test_bode_phases_share_one_branch():
     fig = bode_figure(omega / TWO_PI, curves, reference="target")
     lines = {line.get_label(): np.asarray(line.get_ydata(), float) for line in fig.axes[-1].lines}
     assert abs(lines["preferred values"][0] - lines["continuous values"][0]) < 2.0
+
+
+def test_inverse_chebyshev_highpass_peak_and_step():
+    # An inverse-Chebyshev high-pass rises monotonically to its high-frequency gain
+    # (scipy.signal.cheby2's pass band is maximally flat, reference library), with a
+    # finite DC gain 45 dB down.
+    target = design_target("chebyshev2", 4, response="highpass", frequency_hz=1e3,
+                           attenuation_db=45.0)
+    response = _response(target)
+    z, p, k = target.zpk()
+    grid = TWO_PI * np.geomspace(1e3, 1e7, 2001)
+    magnitude = np.abs(signal.freqs_zpk(z, p, k, worN=grid)[1])
+    assert np.all(np.diff(magnitude) >= -1e-12)
+    figures = frequency_figures(response)
+    assert figures.kind == "highpass" and figures.peak_hz is None
+    step = step_figures(response)
+    # DC gain 10^(-45/20): relative overshoot and rise would be meaningless there
+    assert step.final_value == pytest.approx(10 ** (-45 / 20), rel=1e-6)
+    assert step.overshoot_pct is None and step.rise_time_s is None
+    assert step.settling_time_s is not None
