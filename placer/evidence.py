@@ -11,12 +11,13 @@ the whole cascade for the plots).
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
 import scipy.optimize
 
-from .mask import MASK_TOLERANCE_DB, band_points, grid_figures, mask_bands, mask_grid
+from .mask import MASK_TOLERANCE_DB, Mask, band_points, grid_figures, mask_bands, mask_grid
 from .network import polynomial_values
 from .response import Response
 from .tolerance import cascade_magnitude_blocks, monte_carlo
@@ -348,7 +349,8 @@ class MaskVerdict:
                     "stopband_margin_p01_db": finite_or_none(self.stopband_margin_p01_db)}}
 
 
-def _band_extreme(evaluate_db, frequency, values, sign):
+def _band_extreme(evaluate_db: Callable, frequency: np.ndarray, values: np.ndarray,
+                  sign: int) -> tuple:
     """(level dB, Hz, grid extremes Hz): the band's highest (sign +1) or lowest (−1) level.
 
     Every local extremum within 0.05 dB of the grid's best is refined by a
@@ -369,7 +371,7 @@ def _band_extreme(evaluate_db, frequency, values, sign):
     return sign * best, where, extremes
 
 
-def check_mask(evaluate, mask) -> MaskFigures:
+def check_mask(evaluate: Callable, mask: Mask) -> MaskFigures:
     """One response's figures against a mask, with refined extremes.
 
     Parameters
@@ -394,7 +396,7 @@ def check_mask(evaluate, mask) -> MaskFigures:
     >>> round(f.passband_deviation_db, 6), f.meets
     (0.067334, True)
     """
-    def evaluate_db(f):
+    def evaluate_db(f: float) -> float:
         with np.errstate(divide="ignore"):
             return 20 * np.log10(np.abs(evaluate(2 * math.pi * np.atleast_1d(f))))[0]
     found = {"pass": [], "stop": [], "outside": []}
@@ -425,7 +427,8 @@ def check_mask(evaluate, mask) -> MaskFigures:
                        meets, tuple(sorted(set(extremes))))
 
 
-def mask_verdict(design, mask, *, target, snapped, continuous=None, samples, seed=0):
+def mask_verdict(design: object, mask: Mask, *, target: Response, snapped: Response,
+                 continuous: Response | None = None, samples: int, seed: object = 0) -> MaskVerdict:
     """The mask against the designs and over Monte Carlo builds of the cascade.
 
     Parameters
@@ -456,16 +459,16 @@ def mask_verdict(design, mask, *, target, snapped, continuous=None, samples, see
     figures = [grid_figures(mask, grid, block) for block in cascade_magnitude_blocks(
         parts, omega, samples=samples, distribution=spec.tolerance.distribution, seed=seed)]
 
-    def joined(name):
+    def joined(name: str) -> np.ndarray | None:
         values = [getattr(f, name) for f in figures]
         return None if values[0] is None else np.concatenate(values)
     meets = joined("meets")
     pass_margin, stop_margin = joined("passband_margin_db"), joined("stopband_margin_db")
 
-    def share(margin):
+    def share(margin: np.ndarray | None) -> float | None:
         return None if margin is None else float(np.mean(margin >= -MASK_TOLERANCE_DB))
 
-    def p01(margin):
+    def p01(margin: np.ndarray | None) -> float | None:
         return None if margin is None else float(np.percentile(margin, 1.0))
     return MaskVerdict(mask, check_mask(target.evaluate, mask), nominal,
                        None if continuous is None else check_mask(continuous.evaluate, mask),

@@ -93,7 +93,7 @@ class Mask:
 
     def to_dict(self) -> dict:
         """JSON shape: bands as [low, high] in Hz, null for the high-frequency limit."""
-        def band(b):
+        def band(b: tuple) -> list:
             return [float(b[0]), None if math.isinf(b[1]) else float(b[1])]
         return {"response": self.response, "source": self.source,
                 "passbands_hz": [band(b) for b in self.passbands_hz],
@@ -133,7 +133,8 @@ def _band_words(band: tuple) -> str:
 
 # -- building a mask ------------------------------------------------------------
 
-def _prototype_edge(approximation: str, order: int, loss_db: float, *, ripple_db, attenuation_db,
+def _prototype_edge(approximation: str, order: int, loss_db: float, *,
+                    ripple_db: float | None, attenuation_db: float | None,
                     bessel_norm: str, normalisation: str) -> float:
     """Where the designed prototype's loss reaches `loss_db`, rad/s on its own scale."""
     natural = lowpass_prototype(approximation, order, ripple_db=ripple_db,
@@ -155,7 +156,8 @@ def _band_edges(center_hz: float, width_hz: float) -> tuple:
     return (root - half, root + half)
 
 
-def _bands(response: str, omega: float, frequency_hz, center_hz, bandwidth_hz, *, passing: bool):
+def _bands(response: str, omega: float, frequency_hz: float | None, center_hz: float | None,
+           bandwidth_hz: float | None, *, passing: bool) -> tuple:
     """Map a prototype frequency (rad/s on its scale) to the bands it bounds, Hz."""
     if response == "lowpass":
         edge = frequency_hz * omega

@@ -250,7 +250,8 @@ def _approximation_target(reader, response, gain_db):
     return target
 
 
-def _headroom_target(approximation, order, mask, margin, response, gain_db):
+def _headroom_target(approximation: str, order: int, mask: object, margin: float,
+                     response: str, gain_db: float) -> object:
     """The approximation designed `margin` dB inside its mask, or why it cannot be."""
     if mask is None:
         raise SpecError(f"margin = {margin:g} dB needs a mask to keep headroom against: give "

@@ -33,7 +33,7 @@ import math
 import numbers
 import os
 import warnings
-from collections.abc import Mapping
+from collections.abc import Iterator, Mapping, Sequence
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass
 
@@ -648,8 +648,9 @@ def cascade_monte_carlo(sections, *, samples=10_000, distribution="uniform", see
                                    yield_fraction, passed)
 
 
-def cascade_magnitude_blocks(sections, omega, *, samples, distribution="uniform", seed=0,
-                             block=MASK_BLOCK):
+def cascade_magnitude_blocks(sections: Sequence, omega: Sequence[float], *, samples: int,
+                             distribution: str = "uniform", seed: object = 0,
+                             block: int = MASK_BLOCK) -> Iterator[np.ndarray]:
     """|H(jω)| in dB of Monte Carlo builds of a whole cascade, block by block.
 
     Every section's toleranced parts are drawn once, up front, for all

@@ -69,7 +69,7 @@ def fmt_hz(x):
     return "-" if x is None else format_value(x, "Hz", digits=4)
 
 
-def fmt_where(frequency_hz):
+def fmt_where(frequency_hz: float | None) -> str:
     """Where a gain is read: "at DC", "at high frequency" (None) or "at 1 kHz"."""
     if frequency_hz is None:
         return "at high frequency"
@@ -241,7 +241,7 @@ def evidence_text(evidence):
     return "\n".join(lines)
 
 
-def _margin_words(figures, mask):
+def _margin_words(figures: object, mask: object) -> str:
     """ "meets" or "MISSES: stop band 0.135 dB short of 40 dB" for one response."""
     misses = []
     if figures.passband_margin_db is not None and not figures.meets and \
@@ -255,7 +255,7 @@ def _margin_words(figures, mask):
     return "meets" if figures.meets else "MISSES: " + "; ".join(misses)
 
 
-def mask_lines(verdict):
+def mask_lines(verdict: object) -> list:
     """The mask verdict as text: the mask, each response's margins, the Monte Carlo yield."""
     mask = verdict.mask
     lines = [f"Mask ({mask.source}"
@@ -294,12 +294,12 @@ def mask_lines(verdict):
     return lines
 
 
-def fmt_seconds(x, *, absent="-"):
+def fmt_seconds(x: float | None, *, absent: str = "-") -> str:
     """A time in engineering notation, `absent` when None."""
     return absent if x is None else format_value(x, "s")
 
 
-def fmt_edges(figures):
+def fmt_edges(figures: object) -> str:
     """A response's half-power edges: one for a low-/high-pass, both and the width for a band."""
     if figures.band_low_hz is not None and figures.band_high_hz is not None:
         return (f"{fmt_hz(figures.band_low_hz)} – {fmt_hz(figures.band_high_hz)} "
@@ -307,7 +307,7 @@ def fmt_edges(figures):
     return fmt_hz(figures.f3db_hz)
 
 
-def fmt_peak_at(peak_hz):
+def fmt_peak_at(peak_hz: float | None) -> str:
     """Where a peak sits: "DC" (0 Hz), "high freq." (None: the high-frequency limit) or Hz."""
     if peak_hz is None:
         return "high freq."

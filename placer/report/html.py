@@ -198,7 +198,7 @@ def _evidence_parts(evidence, plots):
     return out
 
 
-def mask_regions(mask):
+def mask_regions(mask: object) -> list:
     """The forbidden boxes of a mask, for :func:`placer.report.plots.bode_figure`."""
     regions = []
     if mask.ripple_db is not None:
@@ -210,8 +210,7 @@ def mask_regions(mask):
     return regions
 
 
-def _mask_parts(verdict):
-    mask = verdict.mask
+def _mask_parts(verdict: object) -> list:
     lines = mask_lines(verdict)
     rows = []
     for name, figures in (("target", verdict.target), ("preferred values", verdict.snapped),

@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import io
 import math
+from collections.abc import Sequence
 from pathlib import Path
 
 import matplotlib
@@ -324,7 +325,7 @@ def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=No
     return fig
 
 
-def _draw_mask(ax, frequency, regions):
+def _draw_mask(ax: object, frequency: np.ndarray, regions: Sequence) -> None:
     """Hatched boxes where a mask forbids the magnitude to go."""
     if not len(regions) or not frequency.size:
         return
