@@ -5,7 +5,7 @@ Outside references, named beside each check:
 
 * an independent evaluation of the built circuit: H(jω) by solving the
   MNA system (G + jωC)x = b at that one frequency
-  (:func:`placer.pencil.circuit_response`), not the roots the design used;
+  (:func:`placer.analysis.pencil.circuit_response`), not the roots the design used;
 * scipy.signal.freqs_zpk (reference library) on the achieved roots.
 """
 
@@ -15,10 +15,10 @@ import pytest
 from scipy import signal
 
 from placer.design import design
-from placer.pencil import circuit_response
+from placer.analysis.pencil import circuit_response
 from placer.report.console import design_text
 from placer.report.data import design_to_dict
-from placer.spec import spec_from_dict
+from placer.spec.reader import spec_from_dict
 
 TWO_PI = 2 * math.pi
 

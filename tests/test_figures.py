@@ -22,11 +22,11 @@ import numpy as np
 import pytest
 from scipy import optimize, signal
 
-from placer.evidence import Evidence
+from placer.evidence.gather import Evidence
 from placer.report.console import evidence_text, fmt_edges, fmt_peak_at
-from placer.response import Response
-from placer.targets import design_target
-from placer.verify import HALF_POWER_DB, frequency_figures, step_figures, verify
+from placer.analysis.response import Response
+from placer.target.targets import design_target
+from placer.evidence.verify import HALF_POWER_DB, frequency_figures, step_figures, verify
 
 TWO_PI = 2 * math.pi
 

@@ -5,7 +5,7 @@ Outside references, named beside each check:
 * scipy.signal.freqs_zpk (reference library) on the design's achieved roots
   (the poles and zeros of the built cascade circuit), and an independent
   evaluation of the circuit: H(jω) by solving its MNA system at every grid
-  frequency (:func:`placer.pencil.circuit_response`), each read against the
+  frequency (:func:`placer.analysis.pencil.circuit_response`), each read against the
   mask on a dense grid written here;
 * scipy.signal.ellip / cheby1 (reference library) for where an elliptic's
   loss first reaches its attenuation and a Chebyshev's its ripple;
@@ -26,15 +26,15 @@ from scipy import optimize, signal
 
 from placer.design import design
 from placer.errors import SpecError
-from placer.evidence import gather_evidence
-from placer.mask import Mask, grid_figures, mask_grid
-from placer.pencil import circuit_response
+from placer.evidence.gather import gather_evidence
+from placer.target.mask import Mask, grid_figures, mask_grid
+from placer.analysis.pencil import circuit_response
 from placer.report.console import evidence_text
 from placer.report.data import design_to_dict
 from placer.report.html import write_design_report
-from placer.spec import spec_from_dict
-from placer.target_table import target_from_table, target_to_dict
-from placer.tolerance import cascade_magnitude_blocks
+from placer.spec.reader import spec_from_dict
+from placer.spec.target_table import target_from_table, target_to_dict
+from placer.evidence.tolerance import cascade_magnitude_blocks
 
 TWO_PI = 2 * math.pi
 

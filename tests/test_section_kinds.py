@@ -22,13 +22,13 @@ from scipy import signal
 
 from placer.design import candidate_topologies, design
 from placer.errors import SpecError, TopologyError
-from placer.library import find_topologies, get_topology, realises
+from placer.circuit.library import find_topologies, get_topology, realises
 from placer.report.data import design_to_dict
-from placer.sections import split_sections
-from placer.spec import load_spec
-from placer.target_table import target_from_table, target_to_dict
-from placer.targets import design_target, make_section, notch_kind
-from placer.topology import topology_from_text
+from placer.target.sections import split_sections
+from placer.spec.reader import load_spec
+from placer.spec.target_table import target_from_table, target_to_dict
+from placer.target.targets import design_target, make_section, notch_kind
+from placer.circuit.topology import topology_from_text
 
 TWO_PI = 2 * math.pi
 
