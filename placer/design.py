@@ -8,8 +8,9 @@ simpler circuit is not passed over for a difference no one could measure.
 
 The sections are then joined into one cascade circuit (a unity-gain
 buffer is placed after a section whose output is not driven by an
-amplifier, so the next section does not load it), and the cascade's poles
-and zeros are computed from that circuit on its own.
+amplifier, so the next section does not load it), and the cascade's poles,
+zeros and gain at the target's reference frequency are computed from that
+circuit on its own.
 """
 
 from __future__ import annotations
@@ -18,10 +19,12 @@ import math
 from dataclasses import dataclass, replace
 from functools import partial
 
+import numpy as np
+
 from .place.amplifier import place_section_with_amplifier
 from .circuit.elements import Circuit, Element
 from .errors import SpecError, UnreachableTarget
-from .circuit.library import find_topologies, load_folder, resolve_topology
+from .circuit.library import find_topologies, load_folder, realises, resolve_topology
 from .place.opamp import apply_amplifier, check_amplifier
 from .analysis.pencil import circuit_roots
 from .evidence.prelayout import level_rules_for
@@ -37,6 +40,7 @@ __all__ = [
     "place_section",
     "design",
     "cascade_circuit",
+    "cascade_gain",
 ]
 
 ERROR_TIE_PCT = 0.05
@@ -73,7 +77,14 @@ class SectionDesign:
 
 @dataclass(frozen=True)
 class Design:
-    """A whole design: target, sections, the cascade circuit, achieved roots."""
+    """A whole design: target, sections, the cascade circuit, achieved roots.
+
+    ``gain`` is the built cascade's own gain at the target's reference
+    frequency (DC, band centre or high frequency; see
+    :func:`cascade_gain`), signed: negative when the cascade inverts. Each
+    section quotes its own gain at its own reference, so their product is
+    not the cascade's gain for a band-pass.
+    """
 
     spec: object
     target: object
@@ -110,7 +121,7 @@ def candidate_topologies(section, spec=None):
         for topology in find_topologies(response=section.kind, order=section.order):
             if topology.family != "ladder":  # a whole-filter ladder, with its -6 dB ends
                 pool.setdefault(topology.id, topology)
-    fitting = [t for t in pool.values() if t.response == section.kind and t.order == section.order]
+    fitting = [t for t in pool.values() if realises(t, section.kind) and t.order == section.order]
     if names and not fitting:
         fitting = list(pool.values())  # let each say why it cannot
     return fitting, errors
@@ -302,16 +313,55 @@ def _assemble(spec, built):
         ))
     # buffers go where a section's own output is not driven, so join the
     # sections as designed, then model every op-amp (sections' and buffers')
-    cascade = cascade_circuit(unmodelled, counters)
+    cascade = unmodelled_cascade = cascade_circuit(unmodelled, counters)
     if _real_amplifier(spec) is not None:
         cascade = apply_amplifier(cascade, _real_amplifier(spec))
     roots = circuit_roots(cascade)
     poles, zeros = tuple(roots.poles), tuple(roots.zeros)
-    gain = 1.0
-    for s in section_designs:
-        gain *= s.candidate.errors.gain
+    reference = spec.target.reference_omega
+    gain = cascade_gain(roots, reference)
+    if gain == 0.0 and math.isinf(reference) and cascade is not unmodelled_cascade:
+        # a real op-amp rolls every high-pass off at high frequency: quote the
+        # plateau it would otherwise hold, that of the same parts with ideal op-amps
+        gain = cascade_gain(circuit_roots(unmodelled_cascade), reference)
     return Design(spec=spec, target=spec.target, sections=tuple(section_designs),
                   circuit=cascade, poles=poles, zeros=zeros, gain=gain)
+
+
+def cascade_gain(roots, reference_omega: float) -> float:
+    """The signed gain of a built circuit where its target quotes its own.
+
+    Parameters
+    ----------
+    roots : placer.analysis.pencil.CircuitRoots
+        Poles, zeros (rad/s) and gain constant of the whole circuit.
+    reference_omega : float
+        The target's reference frequency, rad/s: 0 (DC), a band centre, or
+        ``inf`` (the high-frequency gain).
+
+    Returns
+    -------
+    float
+        ``|H(j·reference_omega)|``, negative when the real part of H is
+        negative there (the circuit inverts).
+
+    Examples
+    --------
+    >>> from placer.analysis.pencil import CircuitRoots
+    >>> import numpy as np
+    >>> lowpass = CircuitRoots(np.array([-1.0 + 1j, -1.0 - 1j]), np.array([], complex), -4.0)
+    >>> cascade_gain(lowpass, 0.0)
+    -2.0
+    """
+    poles = np.asarray(roots.poles, complex)
+    zeros = np.asarray(roots.zeros, complex)
+    if math.isinf(reference_omega):
+        if zeros.size > poles.size:
+            return math.inf
+        return float(roots.gain) if zeros.size == poles.size else 0.0
+    s = 1j * reference_omega
+    value = complex(roots.gain * np.prod(s - zeros) / np.prod(s - poles))
+    return math.copysign(abs(value), value.real) if value.real else abs(value)
 
 
 _PREFIX = {"resistor": "R", "capacitor": "C", "inductor": "L", "opamp": "U",

@@ -566,3 +566,11 @@ def test_graph_is_a_multigraph_with_one_edge_per_branch():
 def test_element_lookup_names_the_missing_element():
     with pytest.raises(KeyError, match="'R9'"):
         Circuit(rc_elements()).element("R9")
+
+
+def test_a_symbol_with_a_trailing_newline_is_refused():
+    # `$` in a regular expression also matches before a final newline (Python re
+    # documentation); a symbol name must match its pattern in full
+    from placer.circuit.elements import check_symbol
+    with pytest.raises(SpecError):
+        check_symbol("R1\n")

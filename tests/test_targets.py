@@ -26,6 +26,7 @@ from placer.errors import SpecError
 from placer.target.sections import split_sections
 from placer.spec.target_table import target_from_table, target_to_dict
 from placer.target.targets import (
+    NOTCH_KINDS,
     Section,
     Target,
     design_target,
@@ -488,8 +489,8 @@ def test_sections_multiply_to_target(name, order, levels, response, rule):
         # Every section quotes its gain at DC, where the target does.
         assert math.prod(s.gain for s in sections) == pytest.approx(target.gain, rel=1e-9)
     if response == "bandpass":
-        assert [s.kind for s in sections].count("bandpass") + \
-            [s.kind for s in sections].count("notch") == order
+        kinds = [s.kind for s in sections]
+        assert kinds.count("bandpass") + sum(kinds.count(k) for k in NOTCH_KINDS) == order
 
 
 @pytest.mark.parametrize("name, order, levels", TARGETS)
@@ -546,8 +547,8 @@ def test_notch_zeros_pair_with_nearest_pole_pair():
                     gain=1.0, response="lowpass")
     sections = split_sections(target)
     assert [(s.kind, s.omega0, s.zero_omega) for s in sections] == [
-        ("notch", pytest.approx(10.0), pytest.approx(12.0)),
-        ("notch", pytest.approx(1.0), pytest.approx(1.2)),
+        ("lowpass-notch", pytest.approx(10.0), pytest.approx(12.0)),
+        ("lowpass-notch", pytest.approx(1.0), pytest.approx(1.2)),
     ]
 
 
@@ -555,7 +556,8 @@ def test_elliptic_notch_pairing_is_nearest():
     target = design_target("elliptic", 6, frequency_hz=1.0 / TWO_PI, ripple_db=1.0,
                            attenuation_db=50.0)
     sections = split_sections(target)
-    assert [s.kind for s in sections] == ["notch"] * 3
+    # Each zero pair above its pole pair: low-pass notch sections (common practice, no source).
+    assert [s.kind for s in sections] == ["lowpass-notch"] * 3
     # Nearest-pairing for an elliptic low-pass puts the lowest zero with the
     # highest-Q pole, and so on up (Williams & Taylor, elliptic section; from memory).
     by_q = sorted(sections, key=lambda s: -s.q)
@@ -671,7 +673,7 @@ def test_sections_table():
                            "gain": "6 dB"})
     assert t.order == 5 and t.gain_db == pytest.approx(6.0)
     kinds = sorted(s.kind for s in split_sections(t))
-    assert kinds == ["lowpass", "lowpass", "notch"]
+    assert kinds == ["lowpass", "lowpass", "lowpass-notch"]
     assert abs(t.frequency_response([0.0])[0]) == pytest.approx(10 ** 0.3, rel=1e-12)
     assert abs(t.frequency_response([TWO_PI * 5e3])[0]) < 1e-9
 
@@ -693,10 +695,12 @@ def test_target_to_dict_is_json():
     back = json.loads(text)
     assert back["reference_frequency_hz"] is None
     assert len(back["poles"]) == 3 and all(len(r) == 2 for r in back["poles"])
-    assert {s["kind"] for s in back["sections"]} == {"highpass", "notch"}
+    # An elliptic high-pass's zeros sit below its poles: high-pass notch sections
+    # (common practice, no source).
+    assert {s["kind"] for s in back["sections"]} == {"highpass", "highpass-notch"}
     first = next(s for s in back["sections"] if s["order"] == 1)
     assert first["q"] is None and first["zero_f0_hz"] is None
-    notch = next(s for s in back["sections"] if s["kind"] == "notch")
+    notch = next(s for s in back["sections"] if s["kind"] == "highpass-notch")
     assert notch["zero_f0_hz"] < notch["f0_hz"]
 
 

@@ -51,9 +51,11 @@ if TYPE_CHECKING:
         resolve_topology,
         load_folder,
         find_topologies,
+        realises,
     )
     from .topology import (
         RESPONSES,
+        NOTCH_KINDS,
         DEFAULT_RANGES,
         Constraint,
         Topology,
@@ -97,7 +99,9 @@ _EXPORTS = {
     "resolve_topology": "library",
     "load_folder": "library",
     "find_topologies": "library",
+    "realises": "library",
     "RESPONSES": "topology",
+    "NOTCH_KINDS": "topology",
     "DEFAULT_RANGES": "topology",
     "Constraint": "topology",
     "Topology": "topology",

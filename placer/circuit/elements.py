@@ -50,12 +50,12 @@ NODE_COUNT = {
 KINDS = tuple(NODE_COUNT)
 PASSIVE_KINDS = ("resistor", "capacitor", "inductor")
 CONTROLLED_KINDS = ("vcvs", "vccs", "cccs", "ccvs")
-SYMBOL_PATTERN = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
+SYMBOL_PATTERN = re.compile(r"[A-Za-z][A-Za-z0-9_]*")
 
 
 def check_symbol(name, *, where="symbol"):
     """Return `name` if it is a safe symbol name, else raise SpecError."""
-    if not isinstance(name, str) or not SYMBOL_PATTERN.match(name):
+    if not isinstance(name, str) or not SYMBOL_PATTERN.fullmatch(name):
         raise SpecError(
             f"{where}: {name!r} is not a valid symbol name; "
             "use a letter followed by letters, digits or '_' (for example 'R1')"

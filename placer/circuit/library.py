@@ -29,6 +29,7 @@ __all__ = [
     "resolve_topology",
     "load_folder",
     "find_topologies",
+    "realises",
 ]
 
 LIBRARY_DIR = Path(__file__).resolve().parent / "topologies"
@@ -103,12 +104,35 @@ def load_folder(folder):
     return {"topologies": topologies, "errors": errors}
 
 
+def realises(topology, kind: str) -> bool:
+    """True when a topology can realise a section (or response) of this kind.
+
+    A topology realises its own ``response``; a notch topology also the
+    notch sections its ``notch_kinds`` metadata names (a low-pass notch
+    needs its zeros above the pole frequency, which a twin-T or bridged-T
+    cannot give).
+
+    Examples
+    --------
+    >>> realises(get_topology("khn-notch"), "lowpass-notch")
+    True
+    >>> realises(get_topology("fliege-notch"), "lowpass-notch")
+    False
+    """
+    return kind == topology.response or kind in topology.notch_kinds
+
+
 def find_topologies(*, response=None, order=None, family=None, topologies=None):
-    """Library topologies filtered by response kind, order and family."""
+    """Library topologies filtered by response or section kind, order and family.
+
+    `response` may be a topology response (``"notch"`` finds every notch
+    topology) or a section kind (``"lowpass-notch"`` finds those whose
+    ``notch_kinds`` name it); see :func:`realises`.
+    """
     pool = library_topologies() if topologies is None else topologies
     out = []
     for topology in pool.values():
-        if response is not None and topology.response != response:
+        if response is not None and not realises(topology, response):
             continue
         if order is not None and topology.order != order:
             continue

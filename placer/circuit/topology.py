@@ -43,6 +43,7 @@ from ..units import parse_value
 
 __all__ = [
     "RESPONSES",
+    "NOTCH_KINDS",
     "DEFAULT_RANGES",
     "Constraint",
     "Topology",
@@ -53,6 +54,9 @@ __all__ = [
 ]
 
 RESPONSES = ("lowpass", "highpass", "bandpass", "notch", "allpass", "compensator")
+#: The notch sections a ``response = "notch"`` topology may realise (its
+#: ``notch_kinds``; default the symmetric notch alone).
+NOTCH_KINDS = ("notch", "lowpass-notch", "highpass-notch")
 
 #: Default value range of a free part by element kind (SI units).
 DEFAULT_RANGES = {
@@ -70,7 +74,7 @@ _CONSTRAINT = re.compile(
     r"^\s*([A-Za-z][A-Za-z0-9_]*)\s*=\s*(?:([0-9]*\.?[0-9]+(?:[eE][+-]?[0-9]+)?)\s*\*\s*)?"
     r"([A-Za-z][A-Za-z0-9_]*)\s*$"
 )
-_ID = re.compile(r"^[a-z0-9][a-z0-9-]*$")
+_ID = re.compile(r"[a-z0-9][a-z0-9-]*")
 
 
 @dataclass(frozen=True)
@@ -131,6 +135,10 @@ class Topology:
         Sub-kind for compensators (``type2``, ``pid`` …), else "".
     inverting : bool
         True when the pass-band gain is negative.
+    notch_kinds : tuple of str
+        For a notch topology, the notch sections it can realise (of
+        :data:`NOTCH_KINDS`): ``("notch",)`` when its zeros can only sit at
+        its pole frequency; empty for the other responses.
     """
 
     id: str
@@ -148,6 +156,7 @@ class Topology:
     formula: str = ""
     path: str = ""
     drawing: object = None   # placer.circuit.drawing.DrawingSpec from the file's [drawing] table
+    notch_kinds: tuple = ()
 
     @property
     def symbols(self):
@@ -219,7 +228,7 @@ def topology_from_dict(data, *, source="topology"):
     allowed = {
         "id", "title", "response", "order", "family", "inverting", "reference",
         "input", "output", "free", "constraints", "description", "formula",
-        "ranges", "values", "elements", "drawing",
+        "ranges", "values", "elements", "drawing", "notch_kinds",
     }
     unknown = sorted(set(data) - allowed)
     if unknown:
@@ -230,7 +239,7 @@ def topology_from_dict(data, *, source="topology"):
         if key not in data:
             raise TopologyError(f"{source}: missing required key {key!r}")
     topology_id = data["id"]
-    if not isinstance(topology_id, str) or not _ID.match(topology_id):
+    if not isinstance(topology_id, str) or not _ID.fullmatch(topology_id):
         raise TopologyError(
             f"{source}: id {topology_id!r} must use lowercase letters, digits and '-'"
         )
@@ -306,6 +315,7 @@ def topology_from_dict(data, *, source="topology"):
     if "drawing" in data:  # checked last: the circuit and its parts are sound by now
         drawing = drawing_from_table(data["drawing"], circuit, source=source)
         circuit = replace(circuit, drawing=drawing)
+    notch_kinds = _notch_kinds(data, response, source)
     return Topology(
         id=topology_id,
         title=data["title"],
@@ -322,7 +332,22 @@ def topology_from_dict(data, *, source="topology"):
         formula=data.get("formula", ""),
         path="",
         drawing=drawing,
+        notch_kinds=notch_kinds,
     )
+
+
+def _notch_kinds(data: dict, response: str, source: str) -> tuple:
+    """The ``notch_kinds`` key: which notch sections a notch topology realises."""
+    if "notch_kinds" not in data:
+        return ("notch",) if response == "notch" else ()
+    raw = data["notch_kinds"]
+    if response != "notch":
+        raise TopologyError(f"{source}: notch_kinds applies to response = 'notch' only, "
+                            f"not {response!r}")
+    if not isinstance(raw, list) or not raw or not all(k in NOTCH_KINDS for k in raw):
+        raise TopologyError(f"{source}: notch_kinds = {raw!r} must be a non-empty list of "
+                            f"{', '.join(NOTCH_KINDS)}")
+    return tuple(dict.fromkeys(raw))
 
 
 def _number(raw, where):

@@ -13,8 +13,12 @@ if TYPE_CHECKING:
     from .gather import (
         SectionEvidence,
         Evidence,
+        MaskFigures,
+        MaskVerdict,
         gather_evidence,
         part_tolerances,
+        check_mask,
+        mask_verdict,
     )
     from .prelayout import (
         DEFAULT_LOOP_PRESET,
@@ -48,9 +52,12 @@ if TYPE_CHECKING:
         CascadeMonteCarloResult,
         monte_carlo,
         cascade_monte_carlo,
+        cascade_magnitude_blocks,
+        MASK_BLOCK,
     )
     from .verify import (
         HALF_POWER_DB,
+        PEAK_TIE_DB,
         StepFigures,
         FrequencyFigures,
         Figures,
@@ -68,8 +75,12 @@ if TYPE_CHECKING:
 _EXPORTS = {
     "SectionEvidence": "gather",
     "Evidence": "gather",
+    "MaskFigures": "gather",
+    "MaskVerdict": "gather",
     "gather_evidence": "gather",
     "part_tolerances": "gather",
+    "check_mask": "gather",
+    "mask_verdict": "gather",
     "DEFAULT_LOOP_PRESET": "prelayout",
     "DEFAULT_AMPLITUDE": "prelayout",
     "PrelayoutSettings": "prelayout",
@@ -99,7 +110,10 @@ _EXPORTS = {
     "CascadeMonteCarloResult": "tolerance",
     "monte_carlo": "tolerance",
     "cascade_monte_carlo": "tolerance",
+    "cascade_magnitude_blocks": "tolerance",
+    "MASK_BLOCK": "tolerance",
     "HALF_POWER_DB": "verify",
+    "PEAK_TIE_DB": "verify",
     "StepFigures": "verify",
     "FrequencyFigures": "verify",
     "Figures": "verify",

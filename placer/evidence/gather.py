@@ -10,17 +10,22 @@ the whole cascade for the plots).
 
 from __future__ import annotations
 
+import math
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
+import scipy.optimize
 
+from ..target.mask import MASK_TOLERANCE_DB, Mask, band_points, grid_figures, mask_bands, mask_grid
 from ..analysis.network import polynomial_values
 from ..analysis.response import Response
-from .tolerance import monte_carlo
+from .tolerance import cascade_magnitude_blocks, monte_carlo
 from ..units import finite_or_none
 from .verify import verify
 
-__all__ = ["SectionEvidence", "Evidence", "gather_evidence", "part_tolerances"]
+__all__ = ["SectionEvidence", "Evidence", "MaskFigures", "MaskVerdict", "gather_evidence",
+           "part_tolerances", "check_mask", "mask_verdict"]
 
 ENVELOPE_SAMPLES = 200
 
@@ -58,6 +63,9 @@ class Evidence:
         ``frequency_hz``, ``low_db``, ``high_db``: the cascade's magnitude
         range over Monte Carlo builds.
     samples, seed, distribution
+    mask : MaskVerdict or None
+        The target's mask against target, snapped and continuous designs,
+        and the fraction of Monte Carlo builds that meet it.
     """
 
     verification: object
@@ -66,6 +74,7 @@ class Evidence:
     samples: int = 0
     seed: int = 0
     distribution: str = "uniform"
+    mask: object = None
 
     def to_dict(self):
         v = self.verification
@@ -80,6 +89,7 @@ class Evidence:
             q = f.frequency
             return {"kind": q.kind, "gain_db": finite_or_none(q.gain_db), "f3db_hz": finite_or_none(q.f3db_hz),
                     "band_low_hz": finite_or_none(q.band_low_hz), "band_high_hz": finite_or_none(q.band_high_hz),
+                    "bandwidth_hz": finite_or_none(q.bandwidth_hz),
                     "peak_db": finite_or_none(q.peak_db), "peak_hz": finite_or_none(q.peak_hz), "notes": list(q.notes)}
 
         def dev(d):
@@ -101,6 +111,7 @@ class Evidence:
             "band_hz": [float(b) for b in v.band_hz],
             "monte_carlo": {"samples": self.samples, "seed": self.seed,
                             "distribution": self.distribution},
+            "mask": None if self.mask is None else self.mask.to_dict(),
             "sections": [],
         }
         for s in self.sections:
@@ -202,8 +213,15 @@ def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=N
         if progress:
             progress(i + 1, total, f"section {s.index}")
     envelope = _envelope(design, spec, verification, seeds[-1])
+    verdict = None
+    if getattr(design.target, "mask", None) is not None:
+        # one more child of the same seed: the envelope's and sections' draws stay as they were
+        mask_seed = np.random.SeedSequence(seed).spawn(len(design.sections) + 2)[-1]
+        verdict = mask_verdict(design, design.target.mask, target=target, snapped=snapped,
+                               continuous=continuous, samples=samples, seed=mask_seed)
     return Evidence(verification=verification, sections=tuple(sections), envelope=envelope,
-                    samples=samples, seed=seed, distribution=spec.tolerance.distribution)
+                    samples=samples, seed=seed, distribution=spec.tolerance.distribution,
+                    mask=verdict)
 
 
 def _is_part(topology, symbol):
@@ -240,3 +258,219 @@ def _envelope(design, spec, verification, seed):
                   / polynomial_values(denominator[:, :, None], s[None, :]))
     magnitude = 20 * np.log10(np.maximum(np.abs(total), 1e-300))
     return {"frequency_hz": frequency, "low_db": magnitude.min(axis=0), "high_db": magnitude.max(axis=0)}
+
+
+# -- the mask ---------------------------------------------------------------
+
+@dataclass(frozen=True)
+class MaskFigures:
+    """One response against a mask (dB; margins ≥ 0 meet it).
+
+    Attributes
+    ----------
+    passband_deviation_db, passband_margin_db : float or None
+        Highest minus lowest pass-band level; the ripple allowed less it.
+    passband_low_hz : float or None
+        Where the pass band is lowest.
+    stopband_attenuation_db, stopband_margin_db : float or None
+        Pass-band peak less the highest stop-band level; that less the
+        attenuation required.
+    stopband_worst_hz : float or None
+        Where the stop band is highest.
+    meets : bool
+        Every margin at or above −MASK_TOLERANCE_DB.
+    extremes_hz : tuple of float
+        The response's crests and troughs in the bands, Hz (where a Monte
+        Carlo of its builds looks closely).
+    """
+
+    passband_deviation_db: float | None
+    passband_margin_db: float | None
+    passband_low_hz: float | None
+    stopband_attenuation_db: float | None
+    stopband_margin_db: float | None
+    stopband_worst_hz: float | None
+    meets: bool
+    extremes_hz: tuple = field(default=(), repr=False)
+
+    def to_dict(self) -> dict:
+        return {"passband_deviation_db": finite_or_none(self.passband_deviation_db),
+                "passband_margin_db": finite_or_none(self.passband_margin_db),
+                "passband_low_hz": finite_or_none(self.passband_low_hz),
+                "stopband_attenuation_db": finite_or_none(self.stopband_attenuation_db),
+                "stopband_margin_db": finite_or_none(self.stopband_margin_db),
+                "stopband_worst_hz": finite_or_none(self.stopband_worst_hz),
+                "meets": bool(self.meets)}
+
+
+@dataclass(frozen=True, eq=False)
+class MaskVerdict:
+    """Does the built filter meet its mask? Nominal designs and Monte Carlo.
+
+    Attributes
+    ----------
+    mask : placer.target.mask.Mask
+    target, snapped, continuous : MaskFigures
+        The target (on the mask by construction), the preferred-value
+        design and the continuous one.
+    samples : int
+        Monte Carlo builds of the whole cascade.
+    yield_fraction : float
+        Fraction of builds that meet the whole mask.
+    passband_yield, stopband_yield : float or None
+        Fraction meeting the pass-band (stop-band) requirement alone.
+    passband_margin_p01_db, stopband_margin_p01_db : float or None
+        The margin 99 % of builds keep (1st percentile), dB.
+    """
+
+    mask: object
+    target: MaskFigures
+    snapped: MaskFigures
+    continuous: MaskFigures | None
+    samples: int
+    yield_fraction: float
+    passband_yield: float | None
+    stopband_yield: float | None
+    passband_margin_p01_db: float | None
+    stopband_margin_p01_db: float | None
+
+    def to_dict(self) -> dict:
+        return {**self.mask.to_dict(),
+                "tolerance_db": MASK_TOLERANCE_DB,
+                "target": self.target.to_dict(), "snapped": self.snapped.to_dict(),
+                "continuous": None if self.continuous is None else self.continuous.to_dict(),
+                "monte_carlo": {
+                    "samples": self.samples, "yield_pct": 100 * self.yield_fraction,
+                    "passband_yield_pct": (None if self.passband_yield is None
+                                           else 100 * self.passband_yield),
+                    "stopband_yield_pct": (None if self.stopband_yield is None
+                                           else 100 * self.stopband_yield),
+                    "passband_margin_p01_db": finite_or_none(self.passband_margin_p01_db),
+                    "stopband_margin_p01_db": finite_or_none(self.stopband_margin_p01_db)}}
+
+
+def _band_extreme(evaluate_db: Callable, frequency: np.ndarray, values: np.ndarray,
+                  sign: int) -> tuple:
+    """(level dB, Hz, grid extremes Hz): the band's highest (sign +1) or lowest (−1) level.
+
+    Every local extremum within 0.05 dB of the grid's best is refined by a
+    bounded search between its neighbours; the band's ends count as they
+    are (they are exact: an edge, DC, or the far end).
+    """
+    signed = sign * values
+    inner = np.nonzero((signed[1:-1] >= signed[:-2]) & (signed[1:-1] > signed[2:]))[0] + 1
+    extremes = tuple(float(f) for f in frequency[inner[:64]])
+    best_index = int(np.argmax(signed))
+    best, where = float(signed[best_index]), float(frequency[best_index])
+    for i in inner[signed[inner] >= best - 0.05]:
+        found = scipy.optimize.minimize_scalar(
+            lambda f: -sign * float(evaluate_db(f)), bounds=(frequency[i - 1], frequency[i + 1]),
+            method="bounded", options={"xatol": 1e-11 * frequency[i]})
+        if -found.fun > best:
+            best, where = float(-found.fun), float(found.x)
+    return sign * best, where, extremes
+
+
+def check_mask(evaluate: Callable, mask: Mask) -> MaskFigures:
+    """One response's figures against a mask, with refined extremes.
+
+    Parameters
+    ----------
+    evaluate : callable
+        ``evaluate(omega)`` → complex H(jω) for an array of rad/s.
+    mask : placer.target.mask.Mask
+
+    Returns
+    -------
+    MaskFigures
+
+    Examples
+    --------
+    A Butterworth pair at √2 rad/s loses 10·log10(1 + (0.5/√2)⁴) dB at
+    0.5 rad/s:
+
+    >>> from placer.target.mask import Mask
+    >>> lowpass = Response.from_zpk([], [-1 + 1j, -1 - 1j], 2.0)
+    >>> m = Mask("lowpass", ((0.0, 0.5 / 6.283185307179586),), (), 0.1, None)
+    >>> f = check_mask(lowpass.evaluate, m)
+    >>> round(f.passband_deviation_db, 6), f.meets
+    (0.067334, True)
+    """
+    def evaluate_db(f: float) -> float:
+        with np.errstate(divide="ignore"):
+            return 20 * np.log10(np.abs(evaluate(2 * math.pi * np.atleast_1d(f))))[0]
+    found = {"pass": [], "stop": [], "outside": []}
+    extremes = []
+    for kind, band in mask_bands(mask):
+        frequency = band_points(band)
+        with np.errstate(divide="ignore"):
+            values = 20 * np.log10(np.abs(evaluate(2 * math.pi * frequency)))
+        signs = (1, -1) if kind == "pass" else (1,)
+        for sign in signs:
+            level, where, grid_extremes = _band_extreme(evaluate_db, frequency, values, sign)
+            found[kind].append((sign, level, where))
+            extremes += grid_extremes
+    highs = [(level, where) for sign, level, where in found["pass"] if sign > 0]
+    lows = [(level, where) for sign, level, where in found["pass"] if sign < 0]
+    peak = max(highs)[0] if highs else max(level for _, level, _ in found["outside"])
+    deviation = pass_margin = low_at = attenuation = stop_margin = worst_at = None
+    if mask.ripple_db is not None and highs:
+        low, low_at = min(lows)
+        deviation = peak - low
+        pass_margin = mask.ripple_db - deviation
+    if mask.attenuation_db is not None and found["stop"]:
+        top, worst_at = max((level, where) for _, level, where in found["stop"])
+        attenuation = peak - top
+        stop_margin = attenuation - mask.attenuation_db
+    meets = all(m is None or m >= -MASK_TOLERANCE_DB for m in (pass_margin, stop_margin))
+    return MaskFigures(deviation, pass_margin, low_at, attenuation, stop_margin, worst_at,
+                       meets, tuple(sorted(set(extremes))))
+
+
+def mask_verdict(design: object, mask: Mask, *, target: Response, snapped: Response,
+                 continuous: Response | None = None, samples: int, seed: object = 0) -> MaskVerdict:
+    """The mask against the designs and over Monte Carlo builds of the cascade.
+
+    Parameters
+    ----------
+    design : placer.design.Design
+    mask : placer.target.mask.Mask
+    target, snapped, continuous : Response
+        The target and the design with preferred and continuous values.
+    samples : int
+        Builds of the whole cascade, every toleranced part of every section
+        drawn (the spec's tolerances and distribution).
+    seed : int or SeedSequence
+
+    Returns
+    -------
+    MaskVerdict
+    """
+    spec = design.spec
+    nominal = check_mask(snapped.evaluate, mask)
+    grid = mask_grid(mask, focus_hz=nominal.extremes_hz)
+    omega = 2 * math.pi * grid.frequency_hz
+    parts = []
+    for s in design.sections:
+        nf = _full(s.candidate)
+        varied = [p for p in nf.symbols if _is_part(s.candidate.topology, p)]
+        parts.append((nf, s.candidate.snapped.values,
+                      part_tolerances(s.candidate.topology, varied, spec.tolerance.tolerances)))
+    figures = [grid_figures(mask, grid, block) for block in cascade_magnitude_blocks(
+        parts, omega, samples=samples, distribution=spec.tolerance.distribution, seed=seed)]
+
+    def joined(name: str) -> np.ndarray | None:
+        values = [getattr(f, name) for f in figures]
+        return None if values[0] is None else np.concatenate(values)
+    meets = joined("meets")
+    pass_margin, stop_margin = joined("passband_margin_db"), joined("stopband_margin_db")
+
+    def share(margin: np.ndarray | None) -> float | None:
+        return None if margin is None else float(np.mean(margin >= -MASK_TOLERANCE_DB))
+
+    def p01(margin: np.ndarray | None) -> float | None:
+        return None if margin is None else float(np.percentile(margin, 1.0))
+    return MaskVerdict(mask, check_mask(target.evaluate, mask), nominal,
+                       None if continuous is None else check_mask(continuous.evaluate, mask),
+                       samples, float(np.mean(meets)), share(pass_margin), share(stop_margin),
+                       p01(pass_margin), p01(stop_margin))

@@ -42,6 +42,7 @@ from ..analysis.response import Response
 
 __all__ = [
     "HALF_POWER_DB",
+    "PEAK_TIE_DB",
     "StepFigures",
     "FrequencyFigures",
     "Figures",
@@ -71,7 +72,9 @@ class StepFigures:
     overshoot_pct : float or None
         Peak above the final value, % of the final value (≥ 0).
     rise_time_s : float or None
-        10 % → 90 % of the final value, first crossings, interpolated.
+        10 % → 90 % of the final value, first crossings, interpolated;
+        None when the step starts past 10 % of it (a notch's direct
+        feed-through), with a note.
     settling_time_s : float or None
         Last time outside ±2 % of the final value (zero-DC responses:
         outside ±2 % of the peak around zero).
@@ -213,19 +216,32 @@ def step_figures(response):
     sign = 1.0 if y[peak_index] >= 0 else -1.0
     peak, peak_time = _refined_peak(t, sign * y)
     peak *= sign
-    if final == 0.0:
+    if final == 0.0 or abs(final) < 0.1 * abs(peak):
+        # an inverse-Chebyshev or elliptic high-pass keeps a small DC gain,
+        # far below its peak: figures relative to it would be meaningless
         notes.append("zero DC gain (high-pass or band-pass): overshoot and rise time do not "
-                     "apply; settling is to within 2 % of the peak around zero")
-        settling = _settling(t, np.abs(y), 0.02 * abs(peak))
+                     "apply; settling is to within 2 % of the peak around zero"
+                     if final == 0.0 else
+                     f"DC gain {final:.4g}, under a tenth of the step's peak (a high-pass "
+                     "with a finite stop band): overshoot and rise time do not apply; settling "
+                     "is to within 2 % of the peak around the final value")
+        settling = _settling(t, np.abs(y - final), 0.02 * abs(peak))
         if settling is None:
             notes.append("not settled within the time grid")
-        return StepFigures(None, None, settling, 0.0, peak, peak_time, True, tuple(notes), t, y)
+        return StepFigures(None, None, settling, final, peak, peak_time, True, tuple(notes), t, y)
     normalised = y / final
     top, top_time = _refined_peak(t, normalised)
     overshoot = max(0.0, (top - 1.0) * 100.0)
-    start = _crossing(t, normalised, 0.1)
-    end = _crossing(t, normalised, 0.9)
-    rise = None if start is None or end is None else end - start
+    rise = None
+    if y0 / final >= 0.1:
+        # a notch (or a shelf) passes the step's edge straight through: the
+        # output starts past 10 % of its final value, so nothing rises 10-90 %
+        notes.append("the step starts past 10 % of its final value (y(0+)/H(0) = "
+                     f"{y0 / final:.4g}): a 10-90 % rise time does not apply")
+    else:
+        start = _crossing(t, normalised, 0.1)
+        end = _crossing(t, normalised, 0.9)
+        rise = None if start is None or end is None else end - start
     settling = _settling(t, np.abs(normalised - 1.0), 0.02)
     if settling is None:
         notes.append("not settled within the time grid")
@@ -243,18 +259,26 @@ class FrequencyFigures:
     ----------
     kind : str
         {"lowpass", "highpass", "bandpass", "bandstop", "flat", "integrating"}
-        from the DC and high-frequency gains.
+        from the DC and high-frequency gains: an end counts as pass band
+        when it lies within half power of the peak (so an elliptic
+        low-pass, finite but far down at high frequency, is a low-pass).
     gain_db : float or None
         Reference gain: DC (lowpass, bandstop, flat), high frequency
         (highpass) or the peak (bandpass); None when integrating.
     f3db_hz : float or None
-        Half-power frequency (lowpass: highest fall through the level;
-        highpass: lowest rise through it).
+        Half-power frequency, 10·log10(2) dB below the pass-band peak
+        ``peak_db`` (the level ``cutoff`` names; an even-order Chebyshev's
+        DC gain sits a ripple below it): lowpass, the highest fall through
+        the level; highpass, the lowest rise through it.
     band_low_hz, band_high_hz : float or None
-        Half-power band edges (bandpass: pass band; bandstop: stop band).
+        Half-power band edges, from the same level (bandpass: pass band;
+        bandstop: stop band).
     peak_db, peak_hz : float
         Largest gain and where (0.0 Hz when the peak is at DC; None for
-        ``peak_hz`` when it is at the high-frequency limit).
+        ``peak_hz`` when it is at the high-frequency limit). Crests within
+        :data:`PEAK_TIE_DB` of each other (an equiripple response's) are
+        one peak, reported at DC or the high-frequency limit when that is
+        one of them, else at the lowest frequency.
     notes : tuple of str
     frequency_hz, magnitude_db, phase_deg : ndarray
         The grid (unwrapped phase), for plots.
@@ -271,6 +295,13 @@ class FrequencyFigures:
     frequency_hz: np.ndarray = field(repr=False)
     magnitude_db: np.ndarray = field(repr=False)
     phase_deg: np.ndarray = field(repr=False)
+
+    @property
+    def bandwidth_hz(self) -> float | None:
+        """Half-power width of a band-pass's pass band or a band-stop's stop band, Hz."""
+        if self.band_low_hz is None or self.band_high_hz is None:
+            return None
+        return self.band_high_hz - self.band_low_hz
 
 
 def _frequency_grid(response, per_decade=200):
@@ -305,6 +336,51 @@ def _crossings(response, omega, magnitude_db, level):
     return out
 
 
+#: Crests within this many dB of the highest are one peak (an equiripple
+#: response's crests are equal up to rounding): the lowest-frequency one is
+#: reported, so the location does not hang on the grid or on rounding.
+PEAK_TIE_DB = 1e-6
+
+
+def _peak(response: Response, omega: np.ndarray, magnitude_db: np.ndarray, dc: float,
+          hf: float) -> tuple:
+    """(peak dB, peak Hz): DC is 0.0 Hz, the high-frequency limit None.
+
+    Every interior crest of the grid is refined by a bounded search in
+    ln ω; the ends count as candidates; among those within
+    :data:`PEAK_TIE_DB` of the highest, DC or the high-frequency limit
+    wins if it is one of them, else the lowest frequency.
+    """
+    candidates = []           # (frequency for ordering, dB, Hz as reported)
+    if math.isfinite(dc) and dc != 0:
+        candidates.append((0.0, 20 * math.log10(abs(dc)), 0.0))
+    crests = np.nonzero((magnitude_db[1:-1] >= magnitude_db[:-2])
+                        & (magnitude_db[1:-1] > magnitude_db[2:]))[0] + 1
+    # a crest more than 3 dB under the grid's top cannot refine past it
+    crests = crests[magnitude_db[crests] >= np.max(magnitude_db) - 3.0]
+    crests = crests[np.argsort(-magnitude_db[crests], kind="stable")[:64]]
+    for i in crests:
+        found = scipy.optimize.minimize_scalar(
+            lambda u: -float(_db_of(response, np.exp(u))),
+            bounds=(math.log(omega[i - 1]), math.log(omega[i + 1])), method="bounded",
+            options={"xatol": 1e-12})
+        level, where = -float(found.fun), math.exp(found.x)
+        if level < magnitude_db[i]:
+            level, where = float(magnitude_db[i]), float(omega[i])
+        candidates.append((where, level, where / _TWO_PI))
+    if hf != 0:
+        candidates.append((math.inf, 20 * math.log10(abs(hf)), None))
+    if not candidates:
+        i = int(np.argmax(magnitude_db))
+        return float(magnitude_db[i]), float(omega[i] / _TWO_PI)
+    top = max(level for _, level, _ in candidates)
+    ties = [c for c in candidates if c[1] >= top - PEAK_TIE_DB]
+    # an end among the ties wins: a flat pass band's rounding ripples are no peak
+    ends = [c for c in ties if c[0] in (0.0, math.inf)]
+    _, level, where = min(ends or ties)
+    return float(level), where
+
+
 def frequency_figures(response):
     """Reference gain, half-power edges and peak of the magnitude response.
 
@@ -335,27 +411,8 @@ def frequency_figures(response):
     phase_deg = np.degrees(np.unwrap(np.angle(h)))
     dc, hf = response.dc_gain, response.hf_gain
     notes = []
-
-    # The peak: at DC or at the high-frequency limit unless an interior
-    # maximum rises above both ends.
-    ends = []
-    if math.isfinite(dc) and dc != 0:
-        ends.append((20 * math.log10(abs(dc)), 0.0))
-    if hf != 0:
-        ends.append((20 * math.log10(abs(hf)), None))
-    peak_db, peak_hz = max(ends, key=lambda e: e[0]) if ends else (-math.inf, None)
-    i = int(np.argmax(magnitude_db))
-    if 0 < i < omega.size - 1 and magnitude_db[i] > peak_db + 1e-9:
-        found = scipy.optimize.minimize_scalar(
-            lambda u: -float(_db_of(response, np.exp(u))),
-            bounds=(math.log(omega[i - 1]), math.log(omega[i + 1])), method="bounded",
-            options={"xatol": 1e-12})
-        peak_db, peak_hz = -float(found.fun), math.exp(found.x) / _TWO_PI
-        if peak_db < magnitude_db[i]:
-            peak_db, peak_hz = float(magnitude_db[i]), omega[i] / _TWO_PI
-    elif not ends:
-        peak_db, peak_hz = float(magnitude_db[i]), omega[i] / _TWO_PI
-    elif peak_hz is None:
+    peak_db, peak_hz = _peak(response, omega, magnitude_db, dc, hf)
+    if peak_hz is None:
         notes.append("the peak is at the high-frequency limit")
 
     f3db = low = high = None
@@ -363,11 +420,17 @@ def frequency_figures(response):
         kind, gain_db = "integrating", None
         notes.append("a pole at the origin: no finite DC gain, no half-power edge")
     else:
+        # An end is in the pass band when it lies within half power of the
+        # peak: an elliptic or inverse-Chebyshev low-pass keeps a finite gain
+        # at high frequency, far down in its stop band, and stays a low-pass.
+        passes = [g != 0 and 20 * math.log10(abs(g)) >= peak_db - HALF_POWER_DB for g in (dc, hf)]
         kind = {(True, False): "lowpass", (False, True): "highpass",
-                (False, False): "bandpass", (True, True): "flat"}[(dc != 0, hf != 0)]
+                (False, False): "bandpass", (True, True): "flat"}[tuple(passes)]
         gain_db = peak_db if kind == "bandpass" else 20 * math.log10(abs(hf if kind == "highpass"
                                                                          else dc))
-        found = _crossings(response, omega, magnitude_db, gain_db - HALF_POWER_DB)
+        # Half power below the pass-band peak, for every kind: where `cutoff`
+        # puts it (an even-order Chebyshev's DC gain sits a ripple lower).
+        found = _crossings(response, omega, magnitude_db, peak_db - HALF_POWER_DB)
         ups = [w / _TWO_PI for w, direction in found if direction == "up"] or [None]
         downs = [w / _TWO_PI for w, direction in found if direction == "down"] or [None]
         if kind == "lowpass":

@@ -54,7 +54,7 @@ CONTENT_SECURITY_POLICY = ("default-src 'none'; script-src 'self'; style-src 'se
                            "img-src 'self' data:; connect-src 'self'; base-uri 'none'; "
                            "form-action 'none'; frame-ancestors 'none'")
 _STATIC = {"app.js": "text/javascript; charset=utf-8", "app.css": "text/css; charset=utf-8"}
-_CLIENT = re.compile(r"^[A-Za-z0-9_-]{1,64}$")
+_CLIENT = re.compile(r"[A-Za-z0-9_-]{1,64}")
 _LOG = logging.getLogger("placer.explore")
 
 Scope = dict
@@ -266,7 +266,7 @@ def _sequence(payload: Any) -> tuple[str | None, int | None]:
     client, seq = payload.get("client"), payload.get("seq")
     if client is None and seq is None:
         return None, None
-    if not isinstance(client, str) or not _CLIENT.match(client):
+    if not isinstance(client, str) or not _CLIENT.fullmatch(client):
         raise SpecError("client must be 1-64 letters, digits, '-' or '_'")
     if not isinstance(seq, int) or isinstance(seq, bool) or not 0 <= seq < 2 ** 53:
         raise SpecError("seq must be a whole number from 0 to 2**53 - 1")

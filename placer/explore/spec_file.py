@@ -18,7 +18,7 @@ from typing import Any
 
 __all__ = ["toml_text", "toml_value", "edited_spec_data", "edited_spec_text"]
 
-_BARE_KEY = re.compile(r"^[A-Za-z0-9_-]+$")
+_BARE_KEY = re.compile(r"[A-Za-z0-9_-]+")
 _ESCAPES = {'"': '\\"', "\\": "\\\\", "\b": "\\b", "\t": "\\t", "\n": "\\n", "\f": "\\f",
             "\r": "\\r"}
 
@@ -40,7 +40,7 @@ def _string(text: str) -> str:
 def _key(key: str) -> str:
     if not isinstance(key, str):
         raise TypeError(f"TOML keys are strings, not {key!r}")
-    return key if _BARE_KEY.match(key) else _string(key)
+    return key if _BARE_KEY.fullmatch(key) else _string(key)
 
 
 def toml_value(value: Any) -> str:

@@ -29,6 +29,7 @@ from scipy.optimize import least_squares
 from scipy.stats import qmc
 
 from ..errors import SpecError, UnreachableTarget
+from ..circuit.library import realises
 from ..analysis.network import network_function
 
 __all__ = [
@@ -593,10 +594,10 @@ def structural_reason(topology, goal, problem=None):
         return (
             f"topology {topology.id!r} is of order {topology.order}, the section needs order {order}"
         )
-    if goal.kind and topology.response != "compensator" and topology.response != goal.kind:
-        return (
-            f"topology {topology.id!r} is a {topology.response} stage, the section is {goal.kind}"
-        )
+    if goal.kind and topology.response != "compensator" and not realises(topology, goal.kind):
+        stage = (f"realises {', '.join(topology.notch_kinds)} sections only"
+                 if topology.notch_kinds else f"is a {topology.response} stage")
+        return f"topology {topology.id!r} {stage}, the section is {goal.kind}"
     complex_poles = any(abs(p.imag) > 1e-9 * abs(p) for p in goal.poles)
     active = kinds & {"opamp", "vcvs", "vccs", "cccs", "ccvs", "inductor"}
     if complex_poles and not active:

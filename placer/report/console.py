@@ -10,7 +10,7 @@ from ..units import format_value
 from .prelayout import cascade_lines, section_lines
 
 __all__ = ["table", "design_text", "target_text", "evidence_text", "Progress", "fmt_pct", "fmt_db",
-           "fmt_hz", "fmt_gain", "fmt_seconds", "fmt_rejection", "windows_text"]
+           "mask_lines", "fmt_hz", "fmt_where", "fmt_edges", "fmt_peak_at", "fmt_gain", "fmt_seconds", "fmt_rejection", "windows_text"]
 
 _UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 
@@ -70,6 +70,13 @@ def fmt_hz(x):
     return "-" if x is None else format_value(x, "Hz", digits=4)
 
 
+def fmt_where(frequency_hz: float | None) -> str:
+    """Where a gain is read: "at DC", "at high frequency" (None) or "at 1 kHz"."""
+    if frequency_hz is None:
+        return "at high frequency"
+    return "at DC" if frequency_hz == 0 else f"at {fmt_hz(frequency_hz)}"
+
+
 def fmt_q(x):
     return "-" if x is None else f"{x:.4f}"
 
@@ -91,6 +98,9 @@ def target_text(target, sections):
         rows.append([i, s.kind, s.order, fmt_hz(s.f0_hz), fmt_q(s.q),
                      fmt_hz(s.zero_f0_hz) if s.zero_omega else "-", fmt_gain(s.gain_db)])
     lines.append(table(["#", "kind", "order", "f0", "Q", "zero f0", "gain"], rows))
+    if getattr(target, "mask", None) is not None:
+        lines.append("")
+        lines.append(f"Mask ({target.mask.source}): {target.mask.describe()}")
     return "\n".join(lines)
 
 
@@ -133,7 +143,8 @@ def design_text(data):
     achieved = data["achieved"]
     lines.append("")
     lines.append(f"Whole cascade: {len(achieved['poles'])} poles, {len(achieved['zeros'])} zeros, "
-                 f"gain {fmt_gain(achieved['gain_db'])}{' (inverting)' if achieved['inverting'] else ''}")
+                 f"gain {fmt_gain(achieved['gain_db'])} {fmt_where(achieved.get('gain_at_hz'))}"
+                 f"{' (inverting)' if achieved['inverting'] else ''}")
     if data.get("prelayout"):
         lines.extend(cascade_lines(data["prelayout"]))
     return "\n".join(lines)
@@ -172,12 +183,12 @@ def evidence_text(evidence):
         if fig is None:
             continue
         f, s = fig.frequency, fig.step
-        edge = f.f3db_hz if f.f3db_hz is not None else f.band_low_hz
-        rows.append([name, fmt_gain(f.gain_db), fmt_hz(edge),
-                     fmt_gain(f.peak_db), fmt_hz(f.peak_hz) if f.peak_hz else "DC",
-                     "-" if s.overshoot_pct is None else f"{s.overshoot_pct:.2f} %",
-                     fmt_seconds(s.rise_time_s), fmt_seconds(s.settling_time_s)])
-    lines.append(table(["response", "gain", "-3 dB", "peak", "at", "overshoot",
+        rows.append([name, fmt_gain(f.gain_db), fmt_edges(f),
+                     fmt_gain(f.peak_db), fmt_peak_at(f.peak_hz),
+                     "n/a" if s.overshoot_pct is None else f"{s.overshoot_pct:.2f} %",
+                     fmt_seconds(s.rise_time_s, absent="n/a"),
+                     fmt_seconds(s.settling_time_s)])
+    lines.append(table(["response", "gain", "-3 dB (from the peak)", "peak", "at", "overshoot",
                         "rise 10-90 %", "settle 2 %"], rows))
     d = v.deviation
     nulls = [s.monte_carlo.reject_hz for s in evidence.sections if s.monte_carlo.reject_hz]
@@ -192,6 +203,9 @@ def evidence_text(evidence):
     if v.snapping_deviation is not None:
         lines.append(f"  cost of preferred values (snapped vs continuous): "
                      f"{v.snapping_deviation.magnitude_db:.3f} dB, {v.snapping_deviation.phase_deg:.2f}°")
+    if evidence.mask is not None:
+        lines.append("")
+        lines.extend(mask_lines(evidence.mask))
     for s in evidence.sections:
         mc = s.monte_carlo
         lines.append("")
@@ -232,9 +246,77 @@ def evidence_text(evidence):
     return "\n".join(lines)
 
 
-def fmt_seconds(x):
-    """A time in engineering notation, '-' when absent."""
-    return "-" if x is None else format_value(x, "s")
+def _margin_words(figures: object, mask: object) -> str:
+    """ "meets" or "MISSES: stop band 0.135 dB short of 40 dB" for one response."""
+    misses = []
+    if figures.passband_margin_db is not None and not figures.meets and \
+            figures.passband_margin_db < 0:
+        misses.append(f"pass band varies {-figures.passband_margin_db:.3f} dB more than "
+                      f"{mask.ripple_db:g} dB")
+    if figures.stopband_margin_db is not None and not figures.meets and \
+            figures.stopband_margin_db < 0:
+        misses.append(f"stop band {-figures.stopband_margin_db:.3f} dB short of "
+                      f"{mask.attenuation_db:g} dB")
+    return "meets" if figures.meets else "MISSES: " + "; ".join(misses)
+
+
+def mask_lines(verdict: object) -> list:
+    """The mask verdict as text: the mask, each response's margins, the Monte Carlo yield."""
+    mask = verdict.mask
+    lines = [f"Mask ({mask.source}"
+             + (f"; designed with a {mask.margin_db:g} dB margin" if mask.margin_db else "")
+             + f"): {mask.describe()}"]
+    rows = []
+    for name, figures in (("target", verdict.target), ("snapped", verdict.snapped),
+                          ("continuous", verdict.continuous)):
+        if figures is None:
+            continue
+        rows.append([name,
+                     "-" if figures.passband_deviation_db is None
+                     else f"{figures.passband_deviation_db:.3f} dB",
+                     fmt_db(figures.passband_margin_db),
+                     "-" if figures.stopband_attenuation_db is None
+                     else f"{figures.stopband_attenuation_db:.3f} dB",
+                     fmt_db(figures.stopband_margin_db), _margin_words(figures, mask)])
+    lines.append(table(["response", "pass-band deviation", "margin", "least stop-band attenuation",
+                        "margin", "verdict"], rows))
+    shares = [f"pass band alone {100 * verdict.passband_yield:.1f} %"
+              if verdict.passband_yield is not None else "",
+              f"stop band alone {100 * verdict.stopband_yield:.1f} %"
+              if verdict.stopband_yield is not None else ""]
+    lines.append(f"  Monte Carlo, {verdict.samples} builds of the whole cascade: "
+                 f"{100 * verdict.yield_fraction:.1f} % meet the mask"
+                 + (f" ({', '.join(x for x in shares if x)})" if any(shares) else ""))
+    snapped = verdict.snapped
+    if snapped.meets:
+        lines.append("  The snapped circuit meets the mask.")
+    else:
+        lines.append("  The snapped circuit does not meet the mask: "
+                     + _margin_words(snapped, mask).removeprefix("MISSES: ") + "."
+                     + ("" if mask.margin_db else
+                        " A design margin ([target] margin, in dB) leaves headroom for "
+                        "preferred values and tolerances."))
+    return lines
+
+
+def fmt_seconds(x: float | None, *, absent: str = "-") -> str:
+    """A time in engineering notation, `absent` when None."""
+    return absent if x is None else format_value(x, "s")
+
+
+def fmt_edges(figures: object) -> str:
+    """A response's half-power edges: one for a low-/high-pass, both and the width for a band."""
+    if figures.band_low_hz is not None and figures.band_high_hz is not None:
+        return (f"{fmt_hz(figures.band_low_hz)} – {fmt_hz(figures.band_high_hz)} "
+                f"(BW {fmt_hz(figures.bandwidth_hz)})")
+    return fmt_hz(figures.f3db_hz)
+
+
+def fmt_peak_at(peak_hz: float | None) -> str:
+    """Where a peak sits: "DC" (0 Hz), "high freq." (None: the high-frequency limit) or Hz."""
+    if peak_hz is None:
+        return "high freq."
+    return "DC" if peak_hz == 0 else fmt_hz(peak_hz)
 
 
 class Progress:

@@ -130,6 +130,10 @@ def design_to_dict(design, *, evidence=None, prelayout=None):
             "zeros": roots_to_list(design.zeros),
             "gain_db": 20 * math.log10(abs(overall_gain)) if overall_gain else None,
             "inverting": overall_gain < 0,
+            # where the gain was measured on the built cascade: the target's
+            # reference (0 for DC, null for the high-frequency gain)
+            "gain_at_hz": (None if math.isinf(target.reference_omega)
+                           else target.reference_omega / (2 * math.pi)),
         },
         "units": {"frequency": "Hz", "roots": "rad/s", "values": "SI (ohm, farad, henry)"},
     }

@@ -19,7 +19,8 @@ import numpy as np
 from .. import __version__
 from ..evidence.tolerance import MAX_REJECTION_DB
 from ..units import format_value
-from .console import fmt_db, fmt_gain, fmt_hz, fmt_pct, fmt_q, fmt_rejection, windows_text
+from .console import (fmt_db, fmt_edges, fmt_gain, fmt_hz, fmt_pct, fmt_peak_at, fmt_q,
+                      fmt_rejection, fmt_where, mask_lines, windows_text)
 from .page import (POWER_CAUTION, Plots, caution_block, escape, finish_report, number_or_dash,
                    paragraph, prepare_outputs, spec_block, table)
 from .plots import bode_figure, histogram_figure, loop_bode_figure, pole_zero_figure, step_figure
@@ -36,22 +37,6 @@ def _on_grid(grid, frequency, values):
     frequency = np.asarray(frequency, float)
     return np.interp(np.log(grid), np.log(frequency), np.asarray(values, float),
                      left=np.nan, right=np.nan)
-
-
-def _aligned_phases(curves, reference):
-    """Shift each phase by whole turns to start where the reference does.
-
-    Unwrapping starts each curve on its own branch; a 360° offset between
-    two curves that agree says nothing, so it is taken out (a 180° offset,
-    an inversion, stays).
-    """
-    base = curves[reference][1]
-    out = {}
-    for label, (magnitude, phase) in curves.items():
-        both = np.nonzero(np.isfinite(base) & np.isfinite(phase))[0]
-        turns = round((base[both[0]] - phase[both[0]]) / 360.0) if both.size else 0
-        out[label] = (magnitude, phase + 360.0 * turns)
-    return out
 
 
 def _root_rows(label, roots):
@@ -167,7 +152,7 @@ def _section_tables(data):
         out.append(table(["figure", "target", "continuous", "preferred values", "error"], rows))
     achieved = data["achieved"]
     out.append(paragraph(f"Whole cascade: target gain {fmt_gain(data['target']['gain_db'])}, achieved "
-                  f"{fmt_gain(achieved['gain_db'])}"
+                  f"{fmt_gain(achieved['gain_db'])} {fmt_where(achieved.get('gain_at_hz'))}"
                   f"{' (inverting)' if achieved.get('inverting') else ''}; "
                   f"{len(achieved['poles'])} poles, {len(achieved['zeros'])} finite zeros."))
     return out
@@ -181,29 +166,33 @@ def _evidence_parts(evidence, plots):
     curves = {name: (_on_grid(grid, f.frequency.frequency_hz, f.frequency.magnitude_db),
                      _on_grid(grid, f.frequency.frequency_hz, f.frequency.phase_deg))
               for name, f in named if f is not None}
-    curves = _aligned_phases(curves, "target")
     inverted = (" The design inverts: its phase sits 180° from the target's."
                 if v.deviation.inverted else "")
+    verdict = evidence.mask
     out = ["<h2>Frequency response</h2>", plots.block("bode", bode_figure(
         grid, curves, envelope=(evidence.envelope["low_db"], evidence.envelope["high_db"]),
-        reference="target"),
+        reference="target", mask_regions=mask_regions(verdict.mask) if verdict else ()),
         f"Magnitude (dB) and phase (degrees) against frequency (Hz): the target, the design "
         f"with its continuous values and with preferred values, and the range of the "
         f"magnitude over Monte Carlo builds of the whole cascade (shaded); the middle panel "
-        f"shows each less the target's magnitude.{inverted}")]
+        f"shows each less the target's magnitude.{inverted}"
+        + (" Hatched: where the mask forbids the magnitude (drawn from the target's pass-band "
+           "level; the verdict reads each response from its own pass-band peak)."
+           if verdict else ""))]
+    if verdict is not None:
+        out += _mask_parts(verdict)
     rows, steps = [], []
     for name, f in named:
         if f is None:
             continue
         q, s = f.frequency, f.step
-        edge = q.f3db_hz if q.f3db_hz is not None else q.band_low_hz
-        rows.append([name, q.kind, fmt_gain(q.gain_db), fmt_hz(edge), fmt_gain(q.peak_db),
-                     fmt_hz(q.peak_hz) if q.peak_hz else "DC"])
-        steps.append([name, number_or_dash(s.overshoot_pct, lambda x: f"{x:.2f} %"),
-                      number_or_dash(s.rise_time_s, lambda x: format_value(x, "s")),
+        rows.append([name, q.kind, fmt_gain(q.gain_db), fmt_edges(q), fmt_gain(q.peak_db),
+                     fmt_peak_at(q.peak_hz)])
+        steps.append([name, "n/a" if s.overshoot_pct is None else f"{s.overshoot_pct:.2f} %",
+                      "n/a" if s.rise_time_s is None else format_value(s.rise_time_s, "s"),
                       number_or_dash(s.settling_time_s, lambda x: format_value(x, "s")),
                       number_or_dash(s.final_value, lambda x: f"{x:.4g} V/V")])
-    out.append(table(["response", "kind", "gain (dB)", "−3 dB edge (Hz)", "peak (dB)",
+    out.append(table(["response", "kind", "gain (dB)", "−3 dB below the peak (Hz)", "peak (dB)",
                        "peak at (Hz)"], rows, numeric_from=2))
     d = v.deviation
     out.append(paragraph(f"Worst deviation of the preferred-value design from the target between "
@@ -221,6 +210,37 @@ def _evidence_parts(evidence, plots):
     out += _monte_carlo_parts(evidence, plots)
     out += _sensitivity_parts(evidence)
     return out
+
+
+def mask_regions(mask: object) -> list:
+    """The forbidden boxes of a mask, for :func:`placer.report.plots.bode_figure`."""
+    regions = []
+    if mask.ripple_db is not None:
+        regions += [(low, high, None, mask.level_db - mask.ripple_db)
+                    for low, high in mask.passbands_hz]
+    if mask.attenuation_db is not None:
+        regions += [(low, high, mask.level_db - mask.attenuation_db, None)
+                    for low, high in mask.stopbands_hz]
+    return regions
+
+
+def _mask_parts(verdict: object) -> list:
+    lines = mask_lines(verdict)
+    rows = []
+    for name, figures in (("target", verdict.target), ("preferred values", verdict.snapped),
+                          ("continuous values", verdict.continuous)):
+        if figures is None:
+            continue
+        rows.append([name, number_or_dash(figures.passband_deviation_db, lambda x: f"{x:.3f}"),
+                     fmt_db(figures.passband_margin_db),
+                     number_or_dash(figures.stopband_attenuation_db, lambda x: f"{x:.3f}"),
+                     fmt_db(figures.stopband_margin_db), "meets" if figures.meets else "misses"])
+    return ["<h3>Against the mask</h3>",
+            paragraph(lines[0]),
+            table(["response", "pass-band deviation (dB)", "margin", "least stop-band attenuation "
+                   "(dB)", "margin", "verdict"], rows),
+            paragraph(lines[-2].strip() + " " + lines[-1].strip(),
+                      None if verdict.snapped.meets else "note")]
 
 
 def _monte_carlo_parts(evidence, plots):

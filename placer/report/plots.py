@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import io
 import math
+from collections.abc import Sequence
 from pathlib import Path
 
 import matplotlib
@@ -35,6 +36,7 @@ from .files import check_output_path, write_bytes, write_text
 __all__ = [
     "pole_zero_figure",
     "bode_figure",
+    "common_phase_branch",
     "step_figure",
     "histogram_figure",
     "ranking_figure",
@@ -185,7 +187,64 @@ def _magnitude_limits(arrays):
     return bottom - pad, top + pad
 
 
-def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=None):
+def common_phase_branch(curves: dict, reference: str | None = None) -> dict:
+    """Put every curve's unwrapped phase on the branch of one reference.
+
+    Each curve was unwrapped from its own first point, so two curves that
+    agree can sit whole turns apart (an inverting design's ±180° start is
+    rounding's choice). The reference curve (the first when None) is
+    shifted by whole turns so its phase lies in (−180°, 180°] where its
+    magnitude peaks; every other curve by whole turns so that, at that
+    same point, it lies in [−270°, 90°) of the reference: a design that
+    agrees sits on it, one that inverts 180° below it, whichever way
+    rounding started either.
+
+    Parameters
+    ----------
+    curves : dict
+        Label → ``(magnitude_db, phase_deg)`` on one grid (NaN: no data).
+    reference : str, optional
+
+    Returns
+    -------
+    dict
+        The same labels, phases shifted by multiples of 360°.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> got = common_phase_branch({"target": (np.zeros(2), np.array([-10.0, -170.0])),
+    ...                            "a": (np.zeros(2), np.array([170.0, 10.0])),
+    ...                            "b": (np.zeros(2), np.array([-190.2, -350.2]))}, "target")
+    >>> [float(got[k][1][0]) for k in ("target", "a", "b")]
+    [-10.0, -190.0, -190.2]
+    """
+    if not curves:
+        return {}
+    reference = next(iter(curves)) if reference is None else reference
+    magnitude, phase = (np.asarray(a, float) for a in curves[reference])
+    usable = np.isfinite(phase) & np.isfinite(magnitude)
+    if not usable.any():
+        return dict(curves)
+    at = int(np.argmax(np.where(usable, magnitude, -np.inf)))
+    base = phase + 360.0 * math.ceil((-180.0 - phase[at]) / 360.0 + 1e-12)
+    out = {}
+    for label, (mag, curve) in curves.items():
+        curve = np.asarray(curve, float)
+        if label == reference:
+            out[label] = (mag, base)
+            continue
+        both = np.nonzero(np.isfinite(curve) & np.isfinite(base))[0]
+        if not both.size:
+            out[label] = (mag, curve)
+            continue
+        k = at if np.isfinite(curve[at]) else int(both[np.argmin(np.abs(both - at))])
+        out[label] = (mag, curve + 360.0 * math.floor((90.0 - (curve[k] - base[k])) / 360.0))
+    return out
+
+
+def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=None,
+                mask_regions=()):
     """Magnitude (dB) and phase (degrees) against log frequency (Hz).
 
     Parameters
@@ -196,7 +255,9 @@ def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=No
         Label → ``(magnitude_db, phase_deg)`` arrays on that grid, drawn
         in order (for example "target", "preferred values", "continuous
         values"); NaN where a curve has no data. A label containing
-        "target" is drawn as a wide grey line under the others.
+        "target" is drawn as a wide grey line under the others. The
+        phases are drawn on one branch (:func:`common_phase_branch`, from
+        `reference` or the first curve).
     envelope : (array_like, array_like), optional
         ``(low_db, high_db)`` on the grid: shaded as the Monte Carlo
         envelope of the magnitude.
@@ -206,6 +267,10 @@ def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=No
         where the reference lies within 20 dB of its peak: the part of the
         plot where small differences matter.
     title : str, optional
+    mask_regions : sequence of (float, float, float or None, float or None)
+        Forbidden boxes of a mask on the magnitude axis: ``(low_hz,
+        high_hz, low_db, high_db)``, None for a level without bound (the
+        axis's edge); a band's 0 Hz or ``inf`` end runs to the plot's edge.
 
     Returns
     -------
@@ -228,6 +293,7 @@ def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=No
         magnitude_ax.fill_between(frequency, low, high, color="C1", alpha=0.35, linewidth=0,
                                   label="Monte Carlo envelope")
         shown += [low, high]
+    curves = common_phase_branch(curves, reference)
     for label, (magnitude, phase) in curves.items():
         style = _curve_style(label, colours)
         magnitude_ax.semilogx(frequency, magnitude, label=label, **style)
@@ -235,9 +301,12 @@ def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=No
         shown.append(np.asarray(magnitude, float))
     if reference is not None:
         _difference_panel(axes[1], frequency, curves, reference, envelope)
-    limits = _magnitude_limits(shown) if shown else None
+    limits = _magnitude_limits(shown + [np.array([level for box in mask_regions
+                                                  for level in box[2:] if level is not None])])\
+        if shown else None
     if limits:
         magnitude_ax.set_ylim(*limits)
+    _draw_mask(magnitude_ax, frequency, mask_regions)
     magnitude_ax.set_ylabel("magnitude (dB)")
     phase_ax.set_ylabel("phase (degrees)")
     phase_ax.set_xlabel("frequency (Hz)")
@@ -254,6 +323,23 @@ def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=No
     magnitude_ax.legend(loc="best", fontsize=9)   # the difference panel keeps the same styles
     magnitude_ax.set_title(title or "Frequency response")
     return fig
+
+
+def _draw_mask(ax: object, frequency: np.ndarray, regions: Sequence) -> None:
+    """Hatched boxes where a mask forbids the magnitude to go."""
+    if not len(regions) or not frequency.size:
+        return
+    bottom, top = ax.get_ylim()
+    for k, (low_hz, high_hz, low_db, high_db) in enumerate(regions):
+        left = max(low_hz, float(frequency.min()))
+        right = min(high_hz, float(frequency.max()))
+        if right <= left:
+            continue
+        ax.fill_between([left, right], bottom if low_db is None else low_db,
+                        top if high_db is None else high_db, facecolor="0.5", alpha=0.18,
+                        hatch="//", edgecolor="0.35", linewidth=0.0,
+                        label="mask (forbidden)" if k == 0 else None, zorder=0)
+    ax.set_ylim(bottom, top)
 
 
 def _difference_panel(ax, frequency, curves, reference, envelope):

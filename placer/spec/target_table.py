@@ -9,6 +9,9 @@ the JSON shape the ``target`` command and the reports write.
 
 import math
 from collections.abc import Mapping, Sequence
+from dataclasses import replace
+
+import numpy as np
 
 from placer.target.approximations import (
     APPROXIMATIONS,
@@ -20,8 +23,10 @@ from placer.target.approximations import (
     suggest,
 )
 from placer.errors import SpecError
+from placer.target.mask import approximation_mask, grid_figures, headroom_design, mask_grid
 from placer.target.sections import split_sections
 from placer.target.targets import (
+    NOTCH_KINDS,
     RESPONSES,
     ROOT_UNITS,
     SECTION_KINDS,
@@ -43,7 +48,7 @@ TARGET_KEYS = (
     "response", "approximation", "order", "cutoff", "center", "bandwidth",
     "passband_edge", "stopband_edge", "low_edge", "high_edge", "ripple",
     "attenuation", "gain", "bessel_norm", "poles", "zeros", "units",
-    "sections", "complete_conjugates", "allow_unstable",
+    "sections", "complete_conjugates", "allow_unstable", "margin",
 )
 SECTION_KEYS = ("kind", "f0", "q", "zero_f0")
 
@@ -137,15 +142,21 @@ def _read_sections(reader, response):
         zero_f0 = entry.number("zero_f0", "Hz")
         default = "notch" if zero_f0 is not None else _SECTION_DEFAULT_KIND[response]
         kind = entry.choice("kind", SECTION_KINDS, default)
-        if kind == "notch" and zero_f0 is None:
+        if kind in NOTCH_KINDS and zero_f0 is None:
+            if kind != "notch":
+                raise SpecError(f"{reader.source}: {entry.where} is a {kind} section "
+                                "and needs zero_f0 (Hz)")
             zero_f0 = f0
-        if kind != "notch" and zero_f0 is not None:
+        if kind not in NOTCH_KINDS and zero_f0 is not None:
             entry.fail("zero_f0", f"applies to notch sections only, not kind = {kind!r}")
-        if kind in ("bandpass", "notch") and q is None:
+        if kind in ("bandpass",) + NOTCH_KINDS and q is None:
             raise SpecError(f"{reader.source}: {entry.where} is a {kind} section "
                             "and needs q")
-        sections.append(make_section(kind, _TWO_PI * f0, q, zero_omega=(
-            None if zero_f0 is None else _TWO_PI * zero_f0)))
+        try:
+            sections.append(make_section(kind, _TWO_PI * f0, q, zero_omega=(
+                None if zero_f0 is None else _TWO_PI * zero_f0)))
+        except SpecError as exc:
+            raise SpecError(f"{reader.source}: {entry.where}: {exc}") from None
     return sections
 
 
@@ -195,32 +206,84 @@ def _approximation_target(reader, response, gain_db):
         options["bessel_norm"] = norm
         if norm != "mag":
             options["normalisation"] = "natural"
+    margin = reader.number("margin", "dB") if "margin" in reader else 0.0
+    if margin and ripple is not None and margin >= ripple:
+        reader.fail("margin", f"leaves no ripple to design with: it must be below ripple = "
+                              f"{ripple:g} dB")
     order = reader.raw("order")
     try:
         if order is not None:
             check_order(order, approximation)
         if mask:
-            estimate = estimate_order(approximation, mask[0], ripple, mask[1],
-                                      attenuation, response=response)
+            estimate = estimate_order(approximation, mask[0], ripple - margin, mask[1],
+                                      attenuation + margin, response=response)
             needed = estimate.order
             if needed is None or needed > MAX_ORDER:
                 raise SpecError(f"no {approximation} response of order 1–{MAX_ORDER} meets "
                                 f"the mask (passband_edge = {mask[0]:g} Hz, "
-                                f"stopband_edge = {mask[1]:g} Hz)")
+                                f"stopband_edge = {mask[1]:g} Hz"
+                                + (f", with a {margin:g} dB margin" if margin else "") + ")")
             if order is not None and order < needed:
-                raise SpecError(f"order = {order} does not meet the mask; "
-                                f"{approximation} needs order {needed}")
+                raise SpecError(f"order = {order} does not meet the mask"
+                                + (f" with a {margin:g} dB margin" if margin else "")
+                                + f"; {approximation} needs order {needed}")
             order = needed if order is None else order
         elif order is None:
             raise SpecError("order is required (or give passband_edge and "
                             "stopband_edge, with ripple and attenuation, to "
                             "estimate it)")
-        target = design_target(approximation, order, response=response,
-                               ripple_db=ripple, attenuation_db=attenuation,
-                               gain_db=gain_db, **options)
+        requirement = approximation_mask(
+            approximation, order, response=response, ripple_db=ripple,
+            attenuation_db=attenuation, level_db=gain_db, margin_db=margin, given=mask,
+            **options)
+        if margin:
+            target = _headroom_target(approximation, order, requirement, margin, response,
+                                      gain_db)
+        else:
+            target = design_target(approximation, order, response=response,
+                                   ripple_db=ripple, attenuation_db=attenuation,
+                                   gain_db=gain_db, **options)
     except SpecError as exc:
         raise SpecError(f"{reader.source}: [target] {exc}") from None
+    target = replace(target, mask=requirement)
     reader.check_all_used(f"a {approximation} {response} target as given")
+    return target
+
+
+def _headroom_target(approximation: str, order: int, mask: object, margin: float,
+                     response: str, gain_db: float) -> object:
+    """The approximation designed `margin` dB inside its mask, or why it cannot be."""
+    if mask is None:
+        raise SpecError(f"margin = {margin:g} dB needs a mask to keep headroom against: give "
+                        "ripple (and passband_edge) or attenuation (and stopband_edge), or an "
+                        "approximation that has them")
+    options = headroom_design(mask, margin)
+    for name in ("ripple_db", "attenuation_db"):
+        if options[name] is None:
+            options.pop(name)
+    target = design_target(approximation, order, response=response, gain_db=gain_db, **options)
+    grid = mask_grid(mask)
+    response_values = target.frequency_response(2 * math.pi * grid.frequency_hz)
+    magnitude = 20 * np.log10(np.maximum(np.abs(response_values), 1e-300))
+    figures = grid_figures(mask, grid, magnitude)
+    short = [(name, float(value)) for name, value in (
+        ("pass band", figures.passband_margin_db), ("stop band", figures.stopband_margin_db))
+        if value is not None and value < margin - 1e-3]
+    if short:
+        name, value = min(short, key=lambda item: item[1])
+        hint = "raise the order"
+        if response in ("lowpass", "highpass") and mask.passbands_hz and mask.stopbands_hz:
+            (pass_band,), (stop_band,) = mask.passbands_hz, mask.stopbands_hz
+            edges = [b[1] if b[0] == 0 else b[0] for b in (pass_band, stop_band)]
+            needed = estimate_order(approximation, edges[0], mask.ripple_db - margin, edges[1],
+                                    mask.attenuation_db + margin, response=response).order
+            if needed is not None:
+                hint = f"{approximation} needs order {needed} for it"
+        raise SpecError(
+            f"margin = {margin:g} dB: the {approximation} of order {order} has no room for it "
+            f"inside its mask ({mask.describe()}; {mask.source}): designed for the margin, its "
+            f"{name} would keep {value:+.3f} dB; {hint}, or give the mask as passband_edge and "
+            "stopband_edge without order")
     return target
 
 
@@ -251,7 +314,9 @@ def target_from_table(table, *, source="spec"):
       ("Hz" or "rad/s", required), with ``complete_conjugates`` and
       ``allow_unstable`` (default false).
     * ``sections``: tables with ``f0`` (Hz), ``q`` (absent: first order),
-      ``zero_f0`` (Hz, notch) and ``kind`` (default from ``response``).
+      ``zero_f0`` (Hz, notch) and ``kind`` (default from ``response``;
+      ``"notch"`` becomes a low-pass notch when ``zero_f0`` lies above
+      ``f0``, a high-pass notch below it).
 
     Parameters
     ----------
@@ -340,6 +405,7 @@ def target_to_dict(target, sections=None):
         "zeros": [[float(r.real), float(r.imag)] for r in target.zeros],
         "gain_db": target.gain_db,
         "reference_frequency_hz": None if math.isinf(reference) else reference / _TWO_PI,
+        "mask": None if target.mask is None else target.mask.to_dict(),
         "sections": [{
             "kind": s.kind,
             "order": s.order,

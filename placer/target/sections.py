@@ -22,7 +22,7 @@ from scipy import optimize
 
 from placer.target.approximations import check_choice
 from placer.errors import NumericalWarning, SpecError
-from placer.target.targets import ROOT_RTOL, SECTION_KINDS, Section
+from placer.target.targets import ROOT_RTOL, SECTION_KINDS, Section, notch_kind
 
 __all__ = [
     "ORDERINGS",
@@ -144,7 +144,8 @@ def _unit_section(group):
     elif group.zero_kind == "origin":
         kind = "highpass" if len(group.zeros) == len(poles) else "bandpass"
     elif group.zero_kind == "notch":
-        kind, zero_omega = "notch", abs(group.zeros[0].imag)
+        zero_omega = abs(group.zeros[0].imag)
+        kind = notch_kind(omega0, zero_omega)
     else:
         kind = "allpass"
     return Section(kind, len(poles), omega0, q, 1.0, zero_omega, poles,
@@ -200,7 +201,9 @@ def split_sections(target, *, ordering="ascending-q", gain="headroom"):
     notch zero pair or a band-pass needs one (a band-pass of prototype
     order n gives n second-order band-pass sections). Zeros go to poles in
     this order: mirror images (allpass sections); jω-axis pairs to the
-    nearest free pole pair (notch sections) [2]; zeros at the origin spread
+    nearest free pole pair (notch sections [2]: a low-pass notch when the
+    zeros lie above the pole frequency, a high-pass notch below, a
+    symmetric notch at it); zeros at the origin spread
     one per section, then a second to second-order sections (band-pass,
     then high-pass).
 
@@ -223,7 +226,7 @@ def split_sections(target, *, ordering="ascending-q", gain="headroom"):
         The product of their transfer functions equals the target's. The
         product of their ``gain`` s equals the target's ``gain`` whenever
         every section quotes its gain where the target does (low-pass,
-        all-pole high-pass, allpass, bandstop); a band-pass's sections
+        all-pole high-pass, allpass, the notch kinds); a band-pass's sections
         quote theirs at their own ω0, not at the band centre.
 
     Raises

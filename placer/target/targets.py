@@ -12,7 +12,7 @@ reads or types them.
 """
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import NamedTuple
 
 import numpy as np
@@ -31,16 +31,20 @@ from placer.target.approximations import (
     scale_lowpass,
 )
 from placer.errors import SpecError
+from placer.circuit.topology import NOTCH_KINDS  # symmetric, low-pass and high-pass notch sections
 
 __all__ = [
     "RESPONSES",
     "SECTION_KINDS",
+    "NOTCH_KINDS",
+    "SYMMETRIC_NOTCH_RTOL",
     "ROOT_UNITS",
     "ROOT_RTOL",
     "Target",
     "Section",
     "TransferCoefficients",
     "reference_omega_for",
+    "notch_kind",
     "design_target",
     "target_from_roots",
     "make_section",
@@ -48,7 +52,9 @@ __all__ = [
 ]
 
 RESPONSES = ("lowpass", "highpass", "bandpass", "bandstop", "allpass", "custom")
-SECTION_KINDS = ("lowpass", "highpass", "bandpass", "notch", "allpass")
+SECTION_KINDS = ("lowpass", "highpass", "bandpass") + NOTCH_KINDS + ("allpass",)
+#: A notch whose zero and pole frequencies agree this closely (relative) is symmetric.
+SYMMETRIC_NOTCH_RTOL = 1e-6
 ROOT_UNITS = ("Hz", "rad/s")
 #: Roots this close (relative) are the same root.
 ROOT_RTOL = 1e-9
@@ -103,6 +109,33 @@ def _lone_message(kind, root, units):
             "complete_conjugates = true")
 
 
+def notch_kind(omega0: float, zero_omega: float) -> str:
+    """The kind of a notch section from its pole and zero frequencies.
+
+    A symmetric notch has its zeros at the pole frequency; the trade calls
+    a section whose zeros lie above the pole frequency a low-pass notch
+    (its DC gain exceeds its high-frequency gain) and one whose zeros lie
+    below a high-pass notch.
+
+    Parameters
+    ----------
+    omega0, zero_omega : float
+        Pole and zero frequencies, rad/s.
+
+    Returns
+    -------
+    {"notch", "lowpass-notch", "highpass-notch"}
+
+    Examples
+    --------
+    >>> notch_kind(1.0, 1.0), notch_kind(1.0, 3.0), notch_kind(3.0, 1.0)
+    ('notch', 'lowpass-notch', 'highpass-notch')
+    """
+    if abs(zero_omega - omega0) <= SYMMETRIC_NOTCH_RTOL * omega0:
+        return "notch"
+    return "lowpass-notch" if zero_omega > omega0 else "highpass-notch"
+
+
 def reference_omega_for(response, poles, zeros):
     """Where a response's gain is quoted, rad/s.
 
@@ -153,6 +186,9 @@ class Target:
         Where ``gain`` is quoted, rad/s: 0 (DC) for lowpass, bandstop and
         allpass, ``inf`` (the high-frequency gain) for highpass, the band
         centre for bandpass (see :func:`reference_omega_for`).
+    mask : placer.target.mask.Mask or None
+        The pass- and stop-band requirements the built filter is judged
+        against, when the spec sets any (not part of equality).
 
     Examples
     --------
@@ -169,6 +205,7 @@ class Target:
     response: str
     approximation: str | None = None
     reference_omega: float = 0.0
+    mask: object = field(default=None, compare=False)
 
     def __post_init__(self):
         poles, lone_poles = _pair_conjugates(self.poles)
@@ -248,7 +285,10 @@ class Section:
 
     Attributes
     ----------
-    kind : {"lowpass", "highpass", "bandpass", "notch", "allpass"}
+    kind : {"lowpass", "highpass", "bandpass", "notch", "lowpass-notch", \
+"highpass-notch", "allpass"}
+        A notch kind follows from the zero and pole frequencies
+        (:func:`notch_kind`).
     order : {1, 2}
         First-order sections are lowpass, highpass or allpass, with q None.
     omega0 : float
@@ -257,7 +297,8 @@ class Section:
         Pole quality factor ω0 / (2·|Re p|); None for a first-order section.
     gain : float
         Linear gain magnitude at the section's reference: DC for lowpass,
-        notch and allpass, ω0 for bandpass, high frequency for highpass.
+        the notch kinds and allpass, ω0 for bandpass, high frequency for
+        highpass.
     zero_omega : float or None
         Notch zero frequency, rad/s (zeros at ±j·zero_omega); None otherwise.
     poles, zeros : tuple of complex
@@ -296,9 +337,15 @@ class Section:
             raise SpecError(f"omega0 = {self.omega0!r} rad/s must be positive")
         if not (math.isfinite(self.gain) and self.gain > 0):
             raise SpecError(f"gain = {self.gain!r} must be a positive linear gain")
-        if (self.kind == "notch") != (self.zero_omega is not None):
+        if (self.kind in NOTCH_KINDS) != (self.zero_omega is not None):
             raise SpecError(f"zero_omega = {self.zero_omega!r} is for notch "
                             f"sections only, and required there (kind = {self.kind!r})")
+        if self.kind in NOTCH_KINDS and self.kind != notch_kind(self.omega0, self.zero_omega):
+            raise SpecError(
+                f"kind = {self.kind!r} does not fit a zero at {self.zero_omega:.6g} rad/s "
+                f"and poles at {self.omega0:.6g} rad/s: that is a "
+                f"{notch_kind(self.omega0, self.zero_omega)!r} section (a low-pass notch "
+                "has its zeros above the pole frequency, a high-pass notch below)")
         object.__setattr__(self, "poles", tuple(complex(p) for p in self.poles))
         object.__setattr__(self, "zeros", tuple(complex(z) for z in self.zeros))
         if len(self.poles) != self.order or len(self.zeros) > self.order:
@@ -372,7 +419,11 @@ def make_section(kind, omega0, q=None, *, gain=1.0, zero_omega=None):
 
     Parameters
     ----------
-    kind : {"lowpass", "highpass", "bandpass", "notch", "allpass"}
+    kind : {"lowpass", "highpass", "bandpass", "notch", "lowpass-notch", \
+"highpass-notch", "allpass"}
+        ``"notch"`` stands for any notch: the section's kind then follows
+        from `zero_omega` against `omega0` (:func:`notch_kind`); a named
+        low- or high-pass notch must fit them.
     omega0 : float
         Pole frequency, rad/s.
     q : float, optional
@@ -380,16 +431,23 @@ def make_section(kind, omega0, q=None, *, gain=1.0, zero_omega=None):
     gain : float
         Linear gain at the section's reference (see :class:`Section`).
     zero_omega : float, optional
-        Notch zero frequency, rad/s (notch only).
+        Notch zero frequency, rad/s (notch kinds only).
 
     Returns
     -------
     Section
 
+    Raises
+    ------
+    SpecError
+        For an unknown kind, a non-positive frequency or Q, or a named
+        low-/high-pass notch whose zero lies on the wrong side.
+
     Examples
     --------
-    >>> make_section("notch", 1.0, 2.0, zero_omega=3.0).zeros
-    (3j, -3j)
+    >>> s = make_section("notch", 1.0, 2.0, zero_omega=3.0)
+    >>> s.kind, s.zeros
+    ('lowpass-notch', (3j, -3j))
     """
     check_choice(kind, SECTION_KINDS, "kind")
     if q is not None and not (math.isfinite(q) and q > 0):
@@ -411,6 +469,8 @@ def make_section(kind, omega0, q=None, *, gain=1.0, zero_omega=None):
             raise SpecError(f"zero_omega = {zero_omega!r} rad/s must be positive "
                             "for a notch")
         zeros = (complex(0, zero_omega), complex(0, -zero_omega))
+        if kind == "notch":
+            kind = notch_kind(float(omega0), float(zero_omega))
     return Section(kind, order, float(omega0), q, float(gain),
                    None if zero_omega is None else float(zero_omega), poles, zeros)
 
