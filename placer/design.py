@@ -6,6 +6,11 @@ wins: smallest error, then fewest parts, then smallest value spread.
 Errors within 0.05 percentage points of the best count as equal, so a
 simpler circuit is not passed over for a difference no one could measure.
 
+Every candidate is placed by :func:`place_candidate`, the one placement
+``placer compare`` uses too: seeded from its identity, corrected for the
+spec's op-amp model when there is one, refused when its built circuit is
+unstable.
+
 The sections are then joined into one cascade circuit (a unity-gain
 buffer is placed after a section whose output is not driven by an
 amplifier, so the next section does not load it), and the cascade's poles
@@ -16,15 +21,24 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
-from functools import partial
+from typing import NamedTuple
 
-from .amplifier import place_section_with_amplifier
+import numpy as np
+
+from .amplifier import AmplifiedCandidate, place_section_with_amplifier
 from .circuit import Circuit, Element
 from .errors import SpecError, UnreachableTarget
 from .library import find_topologies, load_folder, resolve_topology
 from .opamp import apply_amplifier, check_amplifier
 from .pencil import circuit_roots
-from .placement import PART_KINDS, Candidate, place_ideal
+from .placement import (
+    PART_KINDS,
+    Candidate,
+    candidate_seeds,
+    parts_notes,
+    place_ideal,
+    require_stable,
+)
 from .sections import split_sections
 
 __all__ = [
@@ -34,6 +48,10 @@ __all__ = [
     "PartChoice",
     "candidate_topologies",
     "place_section",
+    "place_candidate",
+    "real_amplifier",
+    "PoleSplit",
+    "split_poles",
     "design",
     "cascade_circuit",
 ]
@@ -72,7 +90,13 @@ class SectionDesign:
 
 @dataclass(frozen=True)
 class Design:
-    """A whole design: target, sections, the cascade circuit, achieved roots."""
+    """A whole design: target, sections, the cascade circuit, achieved roots.
+
+    ``poles`` are the cascade's poles that realise the target (each
+    section's dominant poles, matched to the section's order);
+    ``parasitic_poles`` the ones the op-amp model adds (empty with ideal
+    op-amps), rad/s.
+    """
 
     spec: object
     target: object
@@ -81,6 +105,7 @@ class Design:
     poles: tuple
     zeros: tuple
     gain: float
+    parasitic_poles: tuple = ()
 
     @property
     def parts(self):
@@ -145,6 +170,48 @@ def place_section(section, topology, *, parts=None, seed=0):
     )
 
 
+def place_candidate(section, topology, *, index, parts=None, amplifier=None, seed=0):
+    """Place one candidate topology for one section: the step design and compare share.
+
+    The solver seed comes from the candidate's identity
+    (:func:`placer.placement.candidate_seeds`); with a real op-amp model
+    the placement is corrected for it
+    (:func:`placer.amplifier.place_section_with_amplifier`), otherwise
+    placed with ideal op-amps (:func:`place_section`). A placement whose
+    circuit as built (with the model, if any) has a natural frequency in
+    the right half-plane becomes unreachable
+    (:func:`placer.placement.require_stable`).
+
+    Parameters
+    ----------
+    section : placer.targets.Section
+    topology : Topology
+    index : int
+        The section's index, from 1 in cascade order.
+    parts : placer.spec.PartsSpec, optional
+    amplifier : AmplifierSpec, optional
+        A real op-amp model (None: ideal op-amps).
+    seed : int
+        The run's seed.
+
+    Returns
+    -------
+    Candidate
+        An :class:`placer.amplifier.AmplifiedCandidate` with a model;
+        ``notes`` lists the spec's fixed parts and constraints that the
+        topology has no part for (placed without them).
+    """
+    solver_seed = candidate_seeds(seed, index, topology.id).solver
+    if amplifier is None:
+        candidate = place_section(section, topology, parts=parts, seed=solver_seed)
+    else:
+        candidate = place_section_with_amplifier(section, topology, amplifier, parts=parts,
+                                                 seed=solver_seed)
+    candidate = replace(candidate, notes=parts_notes(topology, parts))
+    built = candidate.circuit if isinstance(candidate, AmplifiedCandidate) else topology.circuit
+    return require_stable(candidate, built)
+
+
 def rank_placements(candidates):
     """Reachable candidates best first: error, then parts, then spread.
 
@@ -172,7 +239,7 @@ def _alternatives_for(section):
             if t.opamp_count or section.order == 1 or (section.q or 0) <= 0.5]
 
 
-def design(spec, *, seed=None, progress=None, place=place_section):
+def design(spec, *, seed=None, progress=None):
     """Design every section of a spec's target and build the cascade.
 
     Parameters
@@ -197,22 +264,19 @@ def design(spec, *, seed=None, progress=None, place=place_section):
 
     Notes
     -----
-    With a real op-amp model in ``spec.amplifier`` (GBW and/or DC gain),
-    each candidate is placed by
-    :func:`placer.amplifier.place_section_with_amplifier` (unless `place`
-    is given): the dominant roots are solved onto the target with every
-    op-amp modelled, and the section circuits carry the model.
+    Each candidate is placed by :func:`place_candidate`, as ``placer
+    compare`` places it. With a real op-amp model in ``spec.amplifier``
+    (GBW and/or DC gain) the dominant roots are solved onto the target with
+    every op-amp modelled, and the section circuits carry the model.
     """
     if spec.target is None:
         raise SpecError(f"{spec.path}: designing a filter needs a [target] table")
     seed = spec.tolerance.seed if seed is None else seed
     sections = split_sections(spec.target, ordering=spec.ordering, gain=spec.gain_distribution)
-    amplifier = _real_amplifier(spec)
+    amplifier = real_amplifier(spec)
     if amplifier is not None:
         for index, section in enumerate(sections, start=1):
             check_amplifier(amplifier, section, index=index)
-        if place is place_section:
-            place = partial(place_section_with_amplifier, amplifier=amplifier)
     plans = [(section, *candidate_topologies(section, spec)) for section in sections]
     _check_part_names(spec, [t for p in plans for t in p[1]])
     total = sum(len(p[1]) for p in plans)
@@ -221,7 +285,8 @@ def design(spec, *, seed=None, progress=None, place=place_section):
     for index, (section, topologies, load_errors) in enumerate(plans, start=1):
         candidates = []
         for topology in topologies:
-            candidates.append(place(section, topology, parts=spec.parts, seed=seed))
+            candidates.append(place_candidate(section, topology, index=index, parts=spec.parts,
+                                              amplifier=amplifier, seed=seed))
             done += 1
             if progress:
                 progress(done, total, topology.id)
@@ -241,7 +306,7 @@ def design(spec, *, seed=None, progress=None, place=place_section):
     return _assemble(spec, built)
 
 
-def _real_amplifier(spec):
+def real_amplifier(spec):
     """The spec's op-amp model when it is not ideal, else None."""
     amplifier = getattr(spec, "amplifier", None)
     return None if amplifier is None or amplifier.is_ideal else amplifier
@@ -298,15 +363,52 @@ def _assemble(spec, built):
     # buffers go where a section's own output is not driven, so join the
     # sections as designed, then model every op-amp (sections' and buffers')
     cascade = cascade_circuit(unmodelled, counters)
-    if _real_amplifier(spec) is not None:
-        cascade = apply_amplifier(cascade, _real_amplifier(spec))
+    if real_amplifier(spec) is not None:
+        cascade = apply_amplifier(cascade, real_amplifier(spec))
     roots = circuit_roots(cascade)
-    poles, zeros = tuple(roots.poles), tuple(roots.zeros)
+    dominant = [p for s in section_designs for p in s.candidate.errors.poles]
+    poles, parasitic = split_poles(roots.poles, dominant)
     gain = 1.0
     for s in section_designs:
         gain *= s.candidate.errors.gain
     return Design(spec=spec, target=spec.target, sections=tuple(section_designs),
-                  circuit=cascade, poles=poles, zeros=zeros, gain=gain)
+                  circuit=cascade, poles=poles, zeros=tuple(roots.zeros), gain=gain,
+                  parasitic_poles=parasitic)
+
+
+class PoleSplit(NamedTuple):
+    """A cascade's poles: those that realise the target, and the op-amps' own."""
+
+    dominant: tuple
+    parasitic: tuple
+
+
+def split_poles(poles, dominant) -> PoleSplit:
+    """The cascade's poles nearest the sections' dominant ones, and the rest.
+
+    Parameters
+    ----------
+    poles : sequence of complex
+        Every pole of the cascade circuit (rad/s).
+    dominant : sequence of complex
+        The sections' dominant poles (rad/s), one per order of each section.
+
+    Returns
+    -------
+    PoleSplit
+        The poles matched one by one to `dominant` (nearest first, each
+        used once), and the others: the op-amps' parasitic poles, those of
+        the buffers between sections included. With ideal op-amps the
+        second is empty.
+    """
+    rest = [complex(p) for p in poles]
+    matched = []
+    for wanted in sorted(dominant, key=abs):
+        if not rest:
+            break
+        i = int(np.argmin([abs(p - wanted) for p in rest]))
+        matched.append(rest.pop(i))
+    return PoleSplit(tuple(matched), tuple(rest))
 
 
 _PREFIX = {"resistor": "R", "capacitor": "C", "inductor": "L", "opamp": "U",

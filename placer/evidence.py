@@ -140,6 +140,19 @@ def _full(candidate):
     return getattr(candidate.problem.nf, "full", candidate.problem.nf)
 
 
+def _own_order(candidate):
+    """The section's function matched to its own order.
+
+    With a real op-amp model, the dominant part of the modelled function
+    (:class:`placer.dominant.DominantFunction`): its roots are the ones
+    nearest the section's target, as many as the section's order, so a
+    first-order section's f0, sensitivities and yield are read off its one
+    pole, not off a pair the op-amps' parasitic poles form. With ideal
+    op-amps, the network function itself.
+    """
+    return candidate.problem.nf
+
+
 def _response(sections_tf):
     return Response.from_sections(sections_tf)
 
@@ -182,7 +195,7 @@ def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=N
     total = len(design.sections)
     for i, s in enumerate(design.sections):
         candidate = s.candidate
-        nf = _full(candidate)
+        nf = _own_order(candidate)
         values = candidate.snapped.values
         varied = [p for p in nf.symbols if _is_part(candidate.topology, p)]
         tolerances = part_tolerances(candidate.topology, varied, spec.tolerance.tolerances)

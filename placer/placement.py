@@ -9,19 +9,36 @@ and constraints of a spec's ``[parts]`` table that apply to the topology.
 op-amp-corrected placement from one. Both rank candidates by the figures
 here: the worst error (:func:`worst_error_pct`) and the spread of the part
 values (:func:`value_spread`).
+
+Both commands seed a candidate's solver and Monte Carlo from its identity
+alone (:func:`candidate_seeds`), and both refuse a placement whose built
+circuit has a natural frequency in the right half-plane
+(:func:`require_stable`), so ``placer design`` and ``placer compare`` give
+one candidate the same parts, the same error and the same verdict.
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+import zlib
+from dataclasses import dataclass, replace
+from typing import NamedTuple
 
+import numpy as np
+
+from .pencil import natural_frequencies
 from .snap import snap
 from .solve import goal_from_section, make_problem, root_errors, solve
 
 __all__ = [
     "PART_KINDS",
+    "UNSTABLE_REASON",
     "Candidate",
+    "CandidateSeeds",
+    "candidate_seeds",
+    "parts_notes",
+    "right_half_plane_poles",
+    "require_stable",
     "IdealPlacement",
     "problem_options",
     "place_ideal",
@@ -31,6 +48,12 @@ __all__ = [
 
 #: Element kinds that are bought as parts with a value (and snapped to a series).
 PART_KINDS = ("resistor", "capacitor", "inductor")
+#: Why a placement whose built circuit can grow without input is unreachable.
+UNSTABLE_REASON = "unstable: poles in the right half-plane"
+#: A natural frequency p counts as unstable when Re p > this · |p| (round-off
+#: of the pencil's eigenvalues lies far below; a real design's damping,
+#: 1/(2Q), far above).
+_RHP_TOLERANCE = 1e-7
 
 
 @dataclass(frozen=True)
@@ -58,7 +81,7 @@ class IdealPlacement:
 
 
 def problem_options(topology, parts):
-    """The parts options that apply to one topology.
+    """The parts options that apply to one topology (see :func:`parts_notes`).
 
     Parameters
     ----------
@@ -80,6 +103,45 @@ def problem_options(topology, parts):
         c for c in parts.constraints if c.part in topology.symbols and c.source in topology.symbols
     )
     return dict(parts.ranges), dict(parts.series), fixed, constraints
+
+
+def parts_notes(topology, parts):
+    """The spec's fixed parts and constraints a topology leaves out, in words.
+
+    A ``[parts]`` fixed value or constraint applies to every candidate that
+    has the parts it names; a candidate without them is placed without it
+    (:func:`problem_options` drops it) and carries one of these notes, so a
+    design that did not honour the constraint says so.
+
+    Parameters
+    ----------
+    topology : Topology
+    parts : placer.spec.PartsSpec or None
+
+    Returns
+    -------
+    tuple of str
+
+    Examples
+    --------
+    >>> from placer.library import get_topology
+    >>> from placer.spec import PartsSpec
+    >>> from placer.topology import parse_constraint
+    >>> parts_notes(get_topology("rc-lowpass"), PartsSpec(constraints=(parse_constraint("C1 = C2"),)))
+    ("constraint 'C1 = C2' left out: topology 'rc-lowpass' has no part C2",)
+    """
+    if parts is None:
+        return ()
+    notes = []
+    for name in parts.fixed:
+        if name not in topology.symbols:
+            notes.append(f"fixed {name} left out: topology {topology.id!r} has no part {name}")
+    for constraint in parts.constraints:
+        lacking = [n for n in (constraint.part, constraint.source) if n not in topology.symbols]
+        if lacking:
+            notes.append(f"constraint '{constraint}' left out: topology {topology.id!r} has no "
+                         f"part {' or '.join(lacking)}")
+    return tuple(notes)
 
 
 def place_ideal(section, topology, *, parts=None, seed=0):
@@ -179,7 +241,11 @@ def value_spread(topology, values):
 
 @dataclass(frozen=True)
 class Candidate:
-    """One topology tried for one section."""
+    """One topology tried for one section.
+
+    ``notes`` says what of the spec's ``[parts]`` the placement left out
+    (:func:`parts_notes`).
+    """
 
     topology: object
     reachable: bool
@@ -189,6 +255,7 @@ class Candidate:
     snapped: object = None
     errors: object = None          # RootErrors of the snapped values
     continuous_errors: object = None
+    notes: tuple = ()
 
     @property
     def error_pct(self):
@@ -198,3 +265,114 @@ class Candidate:
     @property
     def spread(self):
         return value_spread(self.topology, self.snapped.values) if self.reachable else {}
+
+
+class CandidateSeeds(NamedTuple):
+    """The seeds of one candidate: its solver's and its Monte Carlo's."""
+
+    solver: int
+    sampler: np.random.SeedSequence
+
+
+def candidate_seeds(seed: int, section_index: int, topology_id: str) -> CandidateSeeds:
+    """Solver seed and Monte Carlo seed of one candidate, from its identity.
+
+    ``placer design`` and ``placer compare`` both place a candidate with
+    the solver seed given here, so they give it the same parts; the result
+    does not depend on which other candidates are tried, nor on the worker
+    that runs it.
+
+    Parameters
+    ----------
+    seed : int
+        The run's seed, >= 0.
+    section_index : int
+        From 1, in cascade order.
+    topology_id : str
+
+    Returns
+    -------
+    CandidateSeeds
+        ``solver`` (int) and ``sampler`` (numpy.random.SeedSequence), from
+        ``SeedSequence([seed, section_index, crc32(topology_id)])``.
+
+    Examples
+    --------
+    >>> a, _ = candidate_seeds(0, 1, "mfb-lowpass")
+    >>> b, _ = candidate_seeds(0, 2, "mfb-lowpass")
+    >>> a == candidate_seeds(0, 1, "mfb-lowpass").solver, a == b
+    (True, False)
+    """
+    root = np.random.SeedSequence([int(seed), int(section_index),
+                                   zlib.crc32(str(topology_id).encode("utf-8"))])
+    solver, sampler = root.spawn(2)
+    return CandidateSeeds(int(solver.generate_state(1)[0]), sampler)
+
+
+def right_half_plane_poles(circuit, values=None) -> tuple:
+    """The natural frequencies of a built circuit in the right half-plane, rad/s.
+
+    Parameters
+    ----------
+    circuit : Circuit
+        The circuit as built (with an op-amp model applied, if any).
+    values : mapping of str to float, optional
+        Numbers for the parts that carry a symbol.
+
+    Returns
+    -------
+    tuple of complex
+        Every natural frequency (:func:`placer.pencil.natural_frequencies`,
+        none cancelled) with Re p > 1e-7·|p|; empty for a stable circuit.
+
+    Examples
+    --------
+    An equal-component Sallen–Key low-pass has Q = 1/(3 − K), K = 1 + RB/RA:
+    unstable from K = 3 on (common active-filter texts, from memory).
+
+    >>> from placer.library import get_topology
+    >>> circuit = get_topology("sallen-key-lowpass-equal").circuit
+    >>> parts = {"R1": 10e3, "R2": 10e3, "C1": 10e-9, "C2": 10e-9, "RA": 10e3}
+    >>> len(right_half_plane_poles(circuit, {**parts, "RB": 15e3}))
+    0
+    >>> len(right_half_plane_poles(circuit, {**parts, "RB": 25e3}))
+    2
+    """
+    poles = natural_frequencies(circuit, values)
+    return tuple(complex(p) for p in poles if p.real > _RHP_TOLERANCE * abs(p))
+
+
+def require_stable(candidate, circuit):
+    """The candidate, or an unreachable one when its built circuit is unstable.
+
+    Parameters
+    ----------
+    candidate : Candidate
+        A placement; an unreachable one is returned as it is.
+    circuit : Circuit
+        Its circuit as built, parts symbolic (with ideal op-amps, or with
+        the op-amp model the placement was corrected for).
+
+    Returns
+    -------
+    Candidate
+        The same candidate when every natural frequency of `circuit` at the
+        snapped values lies in the left half-plane; otherwise a copy with
+        ``reachable`` False and the reason :data:`UNSTABLE_REASON`, followed
+        by where the poles are.
+    """
+    if not candidate.reachable:
+        return candidate
+    unstable = right_half_plane_poles(circuit, candidate.snapped.values)
+    if not unstable:
+        return candidate
+    shown = sorted({_pole_text(p) for p in unstable})
+    return replace(candidate, reachable=False,
+                   reason=f"{UNSTABLE_REASON} ({', '.join(shown)} rad/s)")
+
+
+def _pole_text(pole):
+    """A right-half-plane pole, or a conjugate pair, as '+6065 ± j1621'."""
+    if abs(pole.imag) <= 1e-9 * abs(pole):
+        return f"{pole.real:+.4g}"
+    return f"{pole.real:+.4g} ± j{abs(pole.imag):.4g}"

@@ -48,6 +48,11 @@ __all__ = [
 ]
 
 GAIN_WEIGHT = 0.1
+#: Residual floor of a denominator coefficient whose sign differs from the
+#: goal's: larger than any log ratio within the value ranges (ln 1e20 ≈ 46),
+#: so a solution with poles mirrored into the right half-plane (the same
+#: |coefficients|) never ranks beside one on target.
+WRONG_SIGN_RESIDUAL = 50.0
 
 
 @dataclass(frozen=True)
@@ -197,7 +202,7 @@ def residuals_from(numerator, denominator, goal, *, with_gain=True):
                 f"the topology's denominator has order {n}, the goal needs order {len(target) - 1}"
             )
         for i in range(1, n + 1):
-            rows.append(np.log(np.abs(monic[i]) / abs(target[i])) if target[i] != 0 else monic[i])
+            rows.append(_coefficient_residual(monic[i], target[i]))
         m = numerator.shape[0] - 1
         if len(goal.numerator_shape) > 1 or m > 0:
             nscale = goal.omega_ref ** np.arange(m, -1, -1).reshape((-1,) + (1,) * (numerator.ndim - 1))
@@ -225,6 +230,37 @@ def residuals_from(numerator, denominator, goal, *, with_gain=True):
     return np.where(np.isfinite(out), out, 1e3)
 
 
+def _coefficient_residual(achieved, wanted):
+    """ln(achieved/wanted) for a coefficient of the goal's sign, else a large negative residual.
+
+    Matching |coefficients| alone would accept a denominator whose poles
+    are mirrored into the right half-plane (an equal-component Sallen–Key
+    with K > 3 has the |a1| of the stable K < 3 design). A coefficient of
+    the wrong sign gets −(WRONG_SIGN_RESIDUAL + ln(1 + |ratio|)): its square
+    falls as the coefficient shrinks towards zero, the way back to the
+    goal's sign, and stays above that of any coefficient of the right sign.
+    """
+    if wanted == 0:
+        return achieved
+    ratio = achieved / wanted
+    with np.errstate(divide="ignore", invalid="ignore"):
+        right = np.log(np.abs(ratio))
+        wrong = -(WRONG_SIGN_RESIDUAL + np.log1p(np.abs(ratio)))
+    return np.where(ratio > 0, right, wrong)
+
+
+def _omega0_q(a2, a1, a0):
+    """ω0 and Q of a2·s² + a1·s + a0, Q signed (negative: poles in the right half-plane).
+
+    NaN for a pair of real poles on either side of the origin (a0/a2 < 0).
+    Works on numbers and arrays.
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        omega0 = np.sqrt(np.where(a0 / a2 >= 0, a0 / a2, np.nan))
+        q = np.sqrt(np.where(a0 * a2 >= 0, a0 * a2, np.nan)) / (a1 * np.sign(a2))
+    return omega0, q
+
+
 def passband_gain(numerator, denominator, kind):
     """Signed pass-band gain from coefficient arrays (highest power first).
 
@@ -239,8 +275,10 @@ def passband_gain(numerator, denominator, kind):
         return (numerator[-2] if numerator.shape[0] >= 2 else 0 * numerator[0]) / denominator[-2]
     if numerator.shape[0] == denominator.shape[0]:
         return numerator[0] / denominator[0]
-    if kind == "center":
+    if kind == "center" and numerator.shape[0] >= 2 and denominator.shape[0] >= 2:
         return numerator[-2] / denominator[-2]
+    # a numerator of lower degree (or a first-order denominator asked for a
+    # centre gain, a topology that cannot fit the section) has no such gain
     return 0 * denominator[0]
 
 
@@ -254,9 +292,7 @@ def figure_error(numerator, denominator, goal, *, with_gain=True):
     n = denominator.shape[0] - 1
     with np.errstate(divide="ignore", invalid="ignore"):
         if n == 2 and goal.q is not None:
-            a2, a1, a0 = denominator
-            omega0 = np.sqrt(a0 / a2)
-            q = np.sqrt(a0 * a2) / np.abs(a1)
+            omega0, q = _omega0_q(*denominator)
             errors = [np.abs(omega0 / goal.omega0 - 1), np.abs(q / goal.q - 1)]
         elif n == 1 and goal.omega0 is not None:
             errors = [np.abs(denominator[1] / denominator[0] / goal.omega0 - 1)]
@@ -287,20 +323,28 @@ def make_problem(topology, goal, *, ranges=None, fixed=None, constraints=None, n
     fixed : mapping, optional
         Part → value (SI) to hold fixed; must lie in the part's range.
     constraints : sequence of Constraint, optional
-        Added to the topology's own.
+        Added to the topology's own. A constraint the topology's own ties
+        already imply is dropped; a constraint that ties a fixed part fixes
+        its partner too (:func:`_tie_parts`).
 
     Raises
     ------
     SpecError
-        A fixed part or constraint naming a part the topology lacks, or a
-        fixed value outside its range.
+        A fixed part or constraint naming a part the topology lacks, a
+        fixed value outside its range, or constraints and fixed parts of
+        the spec that contradict one another.
+    UnreachableTarget
+        When the topology's order or kind cannot fit the goal (checked
+        before anything is evaluated), or the spec's constraints contradict
+        the topology's own ties or values.
     """
+    reason = structural_reason(topology, goal)
+    if reason:
+        raise UnreachableTarget(reason)
     if ranges:
         topology = topology.with_ranges(ranges)
     nf = nf or network_function(topology.circuit)
     fixed = dict(fixed or {})
-    free = list(topology.free)
-    values = dict(topology.values)
     for part, value in fixed.items():
         if part not in topology.symbols:
             raise SpecError(
@@ -313,33 +357,15 @@ def make_problem(topology, goal, *, ranges=None, fixed=None, constraints=None, n
                 raise SpecError(
                     f"fixed part {part!r} = {value:g} lies outside its range [{low:g}, {high:g}]"
                 )
-        values[part] = float(value)
-        if part in free:
-            free.remove(part)
-    tied = {}
-    for constraint in tuple(topology.constraints) + tuple(constraints or ()):
+    for constraint in tuple(constraints or ()):
         for name in (constraint.part, constraint.source):
             if name not in topology.symbols:
                 raise SpecError(
                     f"constraint '{constraint}' names {name!r}, which topology "
                     f"{topology.id!r} lacks (parts: {', '.join(topology.symbols)})"
                 )
-        if constraint.part in fixed:
-            raise SpecError(f"constraint '{constraint}' ties {constraint.part!r}, which is fixed")
-        if constraint.part in tied:
-            raise SpecError(f"part {constraint.part!r} is tied by two constraints")
-        source, factor = constraint.source, constraint.factor
-        while source in tied:
-            source, extra = tied[source]
-            factor *= extra
-        tied[constraint.part] = (source, factor)
-        if constraint.part in free:
-            free.remove(constraint.part)
-    for part, (source, factor) in list(tied.items()):
-        if source in values:
-            values[part] = values[source] * factor
-            del tied[part]
-    independent = tuple(free)
+    ties = _tie_parts(topology, tuple(constraints or ()), fixed)
+    tied, values, independent = ties.tied, ties.values, ties.independent
     low = np.log([topology.ranges[p][0] for p in independent]) if independent else np.zeros(0)
     high = np.log([topology.ranges[p][1] for p in independent]) if independent else np.zeros(0)
     # a tied part must stay within its own range: shrink the source's range
@@ -358,6 +384,85 @@ def make_problem(topology, goal, *, ranges=None, fixed=None, constraints=None, n
         fixed=values, low=low, high=high,
     )
     return replace(problem, gain_adjustable=_gain_is_adjustable(problem))
+
+
+@dataclass(frozen=True)
+class _Ties:
+    """Constraints resolved: what the solver moves, what follows, what is fixed.
+
+    ``tied`` maps a dependent part to (independent part, factor);
+    ``values`` holds every part with a number (given, or implied by a tie
+    to a part with a number); ``independent`` the parts the solver moves,
+    in the topology's order.
+    """
+
+    tied: dict
+    values: dict
+    independent: tuple
+
+
+def _tie_parts(topology, constraints, fixed):
+    """Resolve the topology's and the spec's constraints into :class:`_Ties`.
+
+    Constraints ``part = factor·source`` join parts into groups whose values
+    keep fixed ratios (a union–find with the ratio to each group's root).
+    A constraint the earlier ones already imply (``C1 = C2`` on a topology
+    that ties ``C2 = C1``) is dropped; one that contradicts them, or a group
+    holding two numbers whose ratio is not the tie's, cannot be met: a
+    SpecError when only the spec's constraints and fixed parts are
+    involved, UnreachableTarget when the topology's own ties or values are
+    (another topology may take the spec's constraint). A group holding a
+    number fixes every part of it.
+    """
+    values = dict(topology.values)
+    values.update({part: float(value) for part, value in fixed.items()})
+    own = tuple(topology.constraints)
+    parent = {}
+
+    def find(name):
+        factor = 1.0
+        while name in parent:
+            name, step = parent[name]
+            factor *= step
+        return name, factor
+
+    def members(root):
+        return [n for n in topology.symbols if find(n)[0] == root]
+
+    def fail(message, group):
+        owned = {n for c in own for n in (c.part, c.source)}
+        if any(n in topology.values or n in owned for n in group):
+            raise UnreachableTarget(f"{message} on topology {topology.id!r}")
+        raise SpecError(message)
+
+    for constraint in own + tuple(constraints):
+        part_root, part_factor = find(constraint.part)
+        source_root, source_factor = find(constraint.source)
+        ratio = constraint.factor * source_factor / part_factor
+        if part_root == source_root:
+            if not math.isclose(ratio, 1.0, rel_tol=1e-9):
+                fail(f"constraint '{constraint}' contradicts the other ties of "
+                     f"{', '.join(members(part_root))}", members(part_root))
+            continue
+        parent[part_root] = (source_root, ratio)
+    root_values = {}
+    for name, value in values.items():
+        root, factor = find(name)
+        implied = value / factor
+        if root in root_values and not math.isclose(root_values[root][0], implied, rel_tol=1e-9):
+            other = root_values[root][1]
+            fail(f"the constraints tie {name} = {value:g} and {other} = {values[other]:g} "
+                 f"in another ratio", members(root))
+        root_values.setdefault(root, (implied, name))
+    tied = {}
+    for name in topology.symbols:
+        root, factor = find(name)
+        if root in root_values:
+            values.setdefault(name, root_values[root][0] * factor)
+        elif name != root:
+            tied[name] = (root, factor)
+    independent = tuple(p for p in topology.free if p not in values and p not in tied)
+    return _Ties(tied=tied, values=values, independent=independent)
 
 
 def _gain_is_adjustable(problem):
@@ -568,8 +673,9 @@ def _miss_reason(problem, u, error):
     numerator, denominator = problem.nf.coefficients(values)
     achieved = ""
     if denominator.shape[0] == 3:
-        a2, a1, a0 = denominator
-        achieved = f" (best reached: f0 {math.sqrt(a0 / a2) / (2 * math.pi):.4g} Hz, Q {math.sqrt(a0 * a2) / abs(a1):.4g})"
+        omega0, q = (float(x) for x in _omega0_q(*denominator))
+        if math.isfinite(omega0) and math.isfinite(q):
+            achieved = f" (best reached: f0 {omega0 / (2 * math.pi):.4g} Hz, Q {q:.4g})"
     return (
         f"topology {problem.topology.id!r} misses the goal by {100 * error:.3g} % within its "
         f"value ranges{achieved}; widen the ranges or choose another topology"
@@ -651,13 +757,13 @@ def root_errors(nf, values, goal):
     gain = float(passband_gain(numerator, denominator, goal.gain_kind))
     f0_pct = q_pct = zero_pct = None
     if denominator.shape[0] == 3:
-        a2, a1, a0 = denominator
-        omega0 = math.sqrt(a0 / a2)
-        q = math.sqrt(a0 * a2) / abs(a1)
+        omega0, q = (float(x) for x in _omega0_q(*denominator))
+        # a figure the roots do not define (real poles either side of the
+        # origin) is an infinite error, never a NaN that max() would skip
         if goal.omega0:
-            f0_pct = 100 * (omega0 / goal.omega0 - 1)
+            f0_pct = 100 * (omega0 / goal.omega0 - 1) if math.isfinite(omega0) else math.inf
         if goal.q:
-            q_pct = 100 * (q / goal.q - 1)
+            q_pct = 100 * (q / goal.q - 1) if math.isfinite(q) else math.inf
     elif denominator.shape[0] == 2 and goal.omega0:
         f0_pct = 100 * (denominator[1] / denominator[0] / goal.omega0 - 1)
     if goal.zero_omega and numerator.shape[0] == 3 and numerator[0] != 0:

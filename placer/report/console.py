@@ -119,6 +119,7 @@ def design_text(data):
                          p["series"] or "fixed", format_value(p["continuous"], _UNIT[p["kind"]], digits=4)])
         lines.append("")
         lines.append(table(["part", "kind", "value", "series", "continuous value"], rows))
+        lines.extend(f"  note: {note}" for note in s.get("notes", ()))
         if s.get("amplifier"):
             lines.append("")
             lines.extend(_amplifier_lines(s["amplifier"]))
@@ -129,7 +130,11 @@ def design_text(data):
                 else f"{c['topology']} (cannot: {c['reason']})" for c in others[:8]))
     achieved = data["achieved"]
     lines.append("")
-    lines.append(f"Whole cascade: {len(achieved['poles'])} poles, {len(achieved['zeros'])} zeros, "
+    parasitic = len(achieved.get("parasitic_poles", ()))
+    lines.append(f"Whole cascade: {len(achieved['poles'])} poles"
+                 + (f" (+{parasitic} op-amp parasitic pole{'s' if parasitic > 1 else ''})"
+                    if parasitic else "")
+                 + f", {len(achieved['zeros'])} zeros, "
                  f"gain {fmt_gain(achieved['gain_db'])}{' (inverting)' if achieved['inverting'] else ''}")
     return "\n".join(lines)
 
