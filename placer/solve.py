@@ -676,6 +676,11 @@ def _miss_reason(problem, u, error):
         omega0, q = (float(x) for x in _omega0_q(*denominator))
         if math.isfinite(omega0) and math.isfinite(q):
             achieved = f" (best reached: f0 {omega0 / (2 * math.pi):.4g} Hz, Q {q:.4g})"
+    monic = np.asarray(denominator, float) / float(denominator[0])
+    if np.any(monic[1:] <= 0):
+        # a real polynomial with a coefficient of the wrong sign has a root in
+        # the right half-plane (or on the jω axis): Stodola's necessary condition
+        achieved += ("; its nearest design is unstable: poles in the right half-plane")
     return (
         f"topology {problem.topology.id!r} misses the goal by {100 * error:.3g} % within its "
         f"value ranges{achieved}; widen the ranges or choose another topology"
