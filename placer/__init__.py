@@ -48,6 +48,8 @@ _EXPORTS = {
     "place_section_with_amplifier": "amplifier", "built_drift": "amplifier",
     "required_gbw": "gbw",
     "Design": "design", "design": "design", "place_section": "design",
+    "place_candidate": "design", "candidate_seeds": "placement",
+    "right_half_plane_poles": "placement", "natural_frequencies": "pencil",
     "gather_evidence": "evidence",
     "compare": "compare", "comparison_to_dict": "compare", "rank_candidates": "compare",
 }
