@@ -31,6 +31,7 @@ import math
 import os
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import asdict, dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -39,10 +40,15 @@ from .design import candidate_topologies, place_candidate, real_amplifier
 from .errors import PlacerError, SpecError
 from .gbw import as_built_gbw, required_gbw, search_top_hz
 from .opamp import AmplifierSpec, check_amplifier
-from .placement import candidate_seeds, value_spread, worst_error_pct
+from .placement import Candidate, candidate_seeds, value_spread, worst_error_pct
 from .sections import split_sections
 from .tolerance import monte_carlo
 from .units import finite_or_none, format_value
+
+if TYPE_CHECKING:
+    from .spec import Spec
+    from .targets import Section
+    from .topology import Topology
 
 
 __all__ = [
@@ -292,7 +298,7 @@ class _GBWFigure:
     resolved_hz: float | None = None
 
 
-def _ideal_design(candidate):
+def _ideal_design(candidate: Candidate) -> tuple[dict, float]:
     """(values, worst error %) of the candidate's ideal-op-amp design, as snapped.
 
     With a real op-amp model the design compared is corrected for it; the
@@ -305,7 +311,8 @@ def _ideal_design(candidate):
     return candidate.snapped.values, candidate.error_pct
 
 
-def _gbw_needed(section, topology, spec, method, candidate, seed):
+def _gbw_needed(section: Section, topology: Topology, spec: Spec, method: str,
+                candidate: Candidate, seed: int) -> _GBWFigure:
     """The :class:`_GBWFigure` of one reachable candidate (`seed`: its solver's)."""
     if topology.opamp_count == 0:
         return _GBWFigure(None, _SOURCES["passive"])

@@ -21,7 +21,8 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
-from typing import NamedTuple
+from collections.abc import Sequence
+from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 
@@ -40,6 +41,12 @@ from .placement import (
     require_stable,
 )
 from .sections import split_sections
+
+if TYPE_CHECKING:
+    from .opamp import AmplifierSpec
+    from .spec import PartsSpec, Spec
+    from .targets import Section
+    from .topology import Topology
 
 __all__ = [
     "rank_placements",
@@ -92,10 +99,10 @@ class SectionDesign:
 class Design:
     """A whole design: target, sections, the cascade circuit, achieved roots.
 
-    ``poles`` are the cascade's poles that realise the target (each
-    section's dominant poles, matched to the section's order);
-    ``parasitic_poles`` the ones the op-amp model adds (empty with ideal
-    op-amps), rad/s.
+    ``poles`` and ``zeros`` are the cascade's roots that realise the
+    target (each section's dominant roots, matched to the section's order);
+    ``parasitic_poles`` and ``parasitic_zeros`` the ones the op-amp model
+    adds (empty with ideal op-amps), rad/s.
     """
 
     spec: object
@@ -106,6 +113,7 @@ class Design:
     zeros: tuple
     gain: float
     parasitic_poles: tuple = ()
+    parasitic_zeros: tuple = ()
 
     @property
     def parts(self):
@@ -170,7 +178,9 @@ def place_section(section, topology, *, parts=None, seed=0):
     )
 
 
-def place_candidate(section, topology, *, index, parts=None, amplifier=None, seed=0):
+def place_candidate(section: Section, topology: Topology, *, index: int,
+                    parts: PartsSpec | None = None, amplifier: AmplifierSpec | None = None,
+                    seed: int = 0) -> Candidate:
     """Place one candidate topology for one section: the step design and compare share.
 
     The solver seed comes from the candidate's identity
@@ -306,7 +316,7 @@ def design(spec, *, seed=None, progress=None):
     return _assemble(spec, built)
 
 
-def real_amplifier(spec):
+def real_amplifier(spec: Spec) -> AmplifierSpec | None:
     """The spec's op-amp model when it is not ideal, else None."""
     amplifier = getattr(spec, "amplifier", None)
     return None if amplifier is None or amplifier.is_ideal else amplifier
@@ -366,14 +376,14 @@ def _assemble(spec, built):
     if real_amplifier(spec) is not None:
         cascade = apply_amplifier(cascade, real_amplifier(spec))
     roots = circuit_roots(cascade)
-    dominant = [p for s in section_designs for p in s.candidate.errors.poles]
-    poles, parasitic = split_poles(roots.poles, dominant)
+    poles = split_poles(roots.poles, [p for s in section_designs for p in s.candidate.errors.poles])
+    zeros = split_poles(roots.zeros, [z for s in section_designs for z in s.candidate.errors.zeros])
     gain = 1.0
     for s in section_designs:
         gain *= s.candidate.errors.gain
     return Design(spec=spec, target=spec.target, sections=tuple(section_designs),
-                  circuit=cascade, poles=poles, zeros=tuple(roots.zeros), gain=gain,
-                  parasitic_poles=parasitic)
+                  circuit=cascade, poles=poles.dominant, zeros=zeros.dominant, gain=gain,
+                  parasitic_poles=poles.parasitic, parasitic_zeros=zeros.parasitic)
 
 
 class PoleSplit(NamedTuple):
@@ -383,8 +393,10 @@ class PoleSplit(NamedTuple):
     parasitic: tuple
 
 
-def split_poles(poles, dominant) -> PoleSplit:
+def split_poles(poles: Sequence[complex], dominant: Sequence[complex]) -> PoleSplit:
     """The cascade's poles nearest the sections' dominant ones, and the rest.
+
+    The same for zeros (finite zeros, the sections' dominant zeros).
 
     Parameters
     ----------

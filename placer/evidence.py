@@ -11,14 +11,19 @@ the whole cascade for the plots).
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .network import polynomial_values
+from .network import NetworkFunction, polynomial_values
 from .response import Response
 from .tolerance import monte_carlo
 from .units import finite_or_none
 from .verify import verify
+
+if TYPE_CHECKING:
+    from .dominant import DominantFunction
+    from .placement import Candidate
 
 __all__ = ["SectionEvidence", "Evidence", "gather_evidence", "part_tolerances"]
 
@@ -140,7 +145,7 @@ def _full(candidate):
     return getattr(candidate.problem.nf, "full", candidate.problem.nf)
 
 
-def _own_order(candidate):
+def _own_order(candidate: Candidate) -> NetworkFunction | DominantFunction:
     """The section's function matched to its own order.
 
     With a real op-amp model, the dominant part of the modelled function

@@ -20,13 +20,18 @@ from __future__ import annotations
 
 import math
 import warnings
+from collections.abc import Mapping
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 import scipy.linalg
 
 from .errors import NumericalWarning, TopologyError
 from .mna import numeric_system
+
+if TYPE_CHECKING:
+    from .circuit import Circuit
 
 __all__ = [
     "CircuitRoots",
@@ -106,7 +111,7 @@ def circuit_poles(circuit, values=None):
     return circuit_roots(circuit, values).poles
 
 
-def natural_frequencies(circuit, values=None):
+def natural_frequencies(circuit: Circuit, values: Mapping[str, float] | None = None) -> np.ndarray:
     """Every natural frequency (rad/s) of a circuit with numeric parts.
 
     The finite eigenvalues of the MNA pencil, with none cancelled against

@@ -22,13 +22,19 @@ from __future__ import annotations
 import math
 import zlib
 from dataclasses import dataclass, replace
-from typing import NamedTuple
+from collections.abc import Mapping
+from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 
 from .pencil import natural_frequencies
 from .snap import snap
-from .solve import goal_from_section, make_problem, root_errors, solve
+from .solve import Problem, Solution, goal_from_section, make_problem, root_errors, solve
+
+if TYPE_CHECKING:
+    from .circuit import Circuit
+    from .spec import PartsSpec
+    from .topology import Topology
 
 __all__ = [
     "PART_KINDS",
@@ -107,7 +113,7 @@ def problem_options(topology, parts):
     return dict(parts.ranges), dict(parts.series), fixed, constraints
 
 
-def parts_notes(topology, parts):
+def parts_notes(topology: Topology, parts: PartsSpec | None) -> tuple[str, ...]:
     """The spec's fixed parts and constraints a topology leaves out, in words.
 
     A ``[parts]`` fixed value or constraint applies to every candidate that
@@ -194,7 +200,7 @@ def place_ideal(section, topology, *, parts=None, seed=0):
 GAIN_WITHIN_REACH = 0.01
 
 
-def snap_weighs_gain(problem, solution):
+def snap_weighs_gain(problem: Problem, solution: Solution) -> bool:
     """Whether the snap weighs the gain beside the roots.
 
     When the continuous solution meets the gain too (or misses it only by
@@ -333,7 +339,8 @@ def candidate_seeds(seed: int, section_index: int, topology_id: str) -> Candidat
     return CandidateSeeds(int(solver.generate_state(1)[0]), sampler)
 
 
-def right_half_plane_poles(circuit, values=None) -> tuple:
+def right_half_plane_poles(circuit: Circuit, values: Mapping[str, float] | None = None
+                           ) -> tuple[complex, ...]:
     """The natural frequencies of a built circuit in the right half-plane, rad/s.
 
     Parameters
@@ -366,7 +373,7 @@ def right_half_plane_poles(circuit, values=None) -> tuple:
     return tuple(complex(p) for p in poles if p.real > _RHP_TOLERANCE * abs(p))
 
 
-def require_stable(candidate, circuit):
+def require_stable(candidate: Candidate, circuit: Circuit) -> Candidate:
     """The candidate, or an unreachable one when its built circuit is unstable.
 
     Parameters
@@ -395,7 +402,7 @@ def require_stable(candidate, circuit):
                    reason=f"{UNSTABLE_REASON} ({', '.join(shown)} rad/s)")
 
 
-def _pole_text(pole):
+def _pole_text(pole: complex) -> str:
     """A right-half-plane pole, or a conjugate pair, as '+6065 ± j1621'."""
     if abs(pole.imag) <= 1e-9 * abs(pole):
         return f"{pole.real:+.4g}"

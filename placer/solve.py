@@ -30,6 +30,7 @@ from scipy.stats import qmc
 
 from .errors import SpecError, UnreachableTarget
 from .network import network_function
+from .ties import tie_parts
 
 __all__ = [
     "Goal",
@@ -230,7 +231,7 @@ def residuals_from(numerator, denominator, goal, *, with_gain=True):
     return np.where(np.isfinite(out), out, 1e3)
 
 
-def _coefficient_residual(achieved, wanted):
+def _coefficient_residual(achieved: np.ndarray, wanted: float) -> np.ndarray:
     """ln(achieved/wanted) for a coefficient of the goal's sign, else a large negative residual.
 
     Matching |coefficients| alone would accept a denominator whose poles
@@ -249,7 +250,7 @@ def _coefficient_residual(achieved, wanted):
     return np.where(ratio > 0, right, wrong)
 
 
-def _omega0_q(a2, a1, a0):
+def _omega0_q(a2: np.ndarray, a1: np.ndarray, a0: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """ω0 and Q of a2·s² + a1·s + a0, Q signed (negative: poles in the right half-plane).
 
     NaN for a pair of real poles on either side of the origin (a0/a2 < 0).
@@ -325,7 +326,7 @@ def make_problem(topology, goal, *, ranges=None, fixed=None, constraints=None, n
     constraints : sequence of Constraint, optional
         Added to the topology's own. A constraint the topology's own ties
         already imply is dropped; a constraint that ties a fixed part fixes
-        its partner too (:func:`_tie_parts`).
+        its partner too (:func:`placer.ties.tie_parts`).
 
     Raises
     ------
@@ -364,7 +365,7 @@ def make_problem(topology, goal, *, ranges=None, fixed=None, constraints=None, n
                     f"constraint '{constraint}' names {name!r}, which topology "
                     f"{topology.id!r} lacks (parts: {', '.join(topology.symbols)})"
                 )
-    ties = _tie_parts(topology, tuple(constraints or ()), fixed)
+    ties = tie_parts(topology, tuple(constraints or ()), fixed)
     tied, values, independent = ties.tied, ties.values, ties.independent
     low = np.log([topology.ranges[p][0] for p in independent]) if independent else np.zeros(0)
     high = np.log([topology.ranges[p][1] for p in independent]) if independent else np.zeros(0)
@@ -384,85 +385,6 @@ def make_problem(topology, goal, *, ranges=None, fixed=None, constraints=None, n
         fixed=values, low=low, high=high,
     )
     return replace(problem, gain_adjustable=_gain_is_adjustable(problem))
-
-
-@dataclass(frozen=True)
-class _Ties:
-    """Constraints resolved: what the solver moves, what follows, what is fixed.
-
-    ``tied`` maps a dependent part to (independent part, factor);
-    ``values`` holds every part with a number (given, or implied by a tie
-    to a part with a number); ``independent`` the parts the solver moves,
-    in the topology's order.
-    """
-
-    tied: dict
-    values: dict
-    independent: tuple
-
-
-def _tie_parts(topology, constraints, fixed):
-    """Resolve the topology's and the spec's constraints into :class:`_Ties`.
-
-    Constraints ``part = factor·source`` join parts into groups whose values
-    keep fixed ratios (a union–find with the ratio to each group's root).
-    A constraint the earlier ones already imply (``C1 = C2`` on a topology
-    that ties ``C2 = C1``) is dropped; one that contradicts them, or a group
-    holding two numbers whose ratio is not the tie's, cannot be met: a
-    SpecError when only the spec's constraints and fixed parts are
-    involved, UnreachableTarget when the topology's own ties or values are
-    (another topology may take the spec's constraint). A group holding a
-    number fixes every part of it.
-    """
-    values = dict(topology.values)
-    values.update({part: float(value) for part, value in fixed.items()})
-    own = tuple(topology.constraints)
-    parent = {}
-
-    def find(name):
-        factor = 1.0
-        while name in parent:
-            name, step = parent[name]
-            factor *= step
-        return name, factor
-
-    def members(root):
-        return [n for n in topology.symbols if find(n)[0] == root]
-
-    def fail(message, group):
-        owned = {n for c in own for n in (c.part, c.source)}
-        if any(n in topology.values or n in owned for n in group):
-            raise UnreachableTarget(f"{message} on topology {topology.id!r}")
-        raise SpecError(message)
-
-    for constraint in own + tuple(constraints):
-        part_root, part_factor = find(constraint.part)
-        source_root, source_factor = find(constraint.source)
-        ratio = constraint.factor * source_factor / part_factor
-        if part_root == source_root:
-            if not math.isclose(ratio, 1.0, rel_tol=1e-9):
-                fail(f"constraint '{constraint}' contradicts the other ties of "
-                     f"{', '.join(members(part_root))}", members(part_root))
-            continue
-        parent[part_root] = (source_root, ratio)
-    root_values = {}
-    for name, value in values.items():
-        root, factor = find(name)
-        implied = value / factor
-        if root in root_values and not math.isclose(root_values[root][0], implied, rel_tol=1e-9):
-            other = root_values[root][1]
-            fail(f"the constraints tie {name} = {value:g} and {other} = {values[other]:g} "
-                 f"in another ratio", members(root))
-        root_values.setdefault(root, (implied, name))
-    tied = {}
-    for name in topology.symbols:
-        root, factor = find(name)
-        if root in root_values:
-            values.setdefault(name, root_values[root][0] * factor)
-        elif name != root:
-            tied[name] = (root, factor)
-    independent = tuple(p for p in topology.free if p not in values and p not in tied)
-    return _Ties(tied=tied, values=values, independent=independent)
 
 
 def _gain_is_adjustable(problem):

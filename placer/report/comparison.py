@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 
 from .. import __version__
-from ..compare import _SHORT, _SOURCES, RANK_KEYS
+from ..compare import _SHORT, _SOURCES, RANK_KEYS, SectionComparison
 from ..units import format_value
 from .console import fmt_rejection, table, windows_text
 from .page import (Plots, caution_block, escape, finish_report, paragraph, prepare_outputs,
@@ -79,7 +79,7 @@ def _section_line(s):
             + f", gain {sec.gain_db + 0.0:+.3f} dB".replace("-0.000 ", "+0.000 "))
 
 
-def _rows(s, gbw="built"):
+def _rows(s: SectionComparison, gbw: str = "built") -> tuple[list[str], list[list]]:
     """(headers, rows) of one section's reachable candidates, in rank order.
 
     With the "model" GBW method a column gives the re-solved design's GBW.
@@ -102,7 +102,7 @@ def _rows(s, gbw="built"):
     return headers, rows
 
 
-def _notes_lines(s):
+def _notes_lines(s: SectionComparison) -> list[str]:
     """One line per candidate whose placement left out some of the spec's [parts]."""
     return [f"    {c.topology}: {note}" for c in s.candidates for note in c.notes]
 
@@ -200,6 +200,11 @@ def write_comparison_report(comparison, *, html_path=None, plots_dir=None, input
             parts.append("<ul>" + "".join(f"<li><code>{escape(c.topology)}</code>: "
                                           f"{escape(c.reason)}</li>" for c in unreachable)
                          + "</ul>")
+        noted = [(c.topology, note) for c in s.candidates for note in c.notes]
+        if noted:
+            parts.append(paragraph("Placed without some of [parts]:"))
+            parts.append("<ul>" + "".join(f"<li><code>{escape(t)}</code>: {escape(n)}</li>"
+                                          for t, n in noted) + "</ul>")
     legend, methods = _notes(comparison)
     parts.append("<h2>The columns</h2>")
     parts.append("<ul>" + "".join(f"<li>{escape(line)}</li>" for line in legend) + "</ul>")

@@ -134,7 +134,9 @@ def design_text(data):
     lines.append(f"Whole cascade: {len(achieved['poles'])} poles"
                  + (f" (+{parasitic} op-amp parasitic pole{'s' if parasitic > 1 else ''})"
                     if parasitic else "")
-                 + f", {len(achieved['zeros'])} zeros, "
+                 + f", {len(achieved['zeros'])} zeros"
+                 + (f" (+{len(achieved['parasitic_zeros'])} op-amp parasitic)"
+                    if achieved.get("parasitic_zeros") else "") + ", "
                  f"gain {fmt_gain(achieved['gain_db'])}{' (inverting)' if achieved['inverting'] else ''}")
     return "\n".join(lines)
 

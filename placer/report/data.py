@@ -130,6 +130,7 @@ def design_to_dict(design, *, evidence=None):
             "poles": roots_to_list(design.poles),
             "parasitic_poles": roots_to_list(design.parasitic_poles),
             "zeros": roots_to_list(design.zeros),
+            "parasitic_zeros": roots_to_list(design.parasitic_zeros),
             "gain_db": 20 * math.log10(abs(overall_gain)) if overall_gain else None,
             "inverting": overall_gain < 0,
         },

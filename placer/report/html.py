@@ -158,7 +158,9 @@ def _section_tables(data):
                   f"{len(achieved['poles'])} poles"
                   + (f" (+{len(achieved['parasitic_poles'])} op-amp parasitic)"
                      if achieved.get("parasitic_poles") else "")
-                  + f", {len(achieved['zeros'])} finite zeros."))
+                  + f", {len(achieved['zeros'])} finite zeros"
+                  + (f" (+{len(achieved['parasitic_zeros'])} op-amp parasitic)"
+                     if achieved.get("parasitic_zeros") else "") + "."))
     return out
 
 
