@@ -36,7 +36,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .amplifier import AmplifiedCandidate, built_drift
-from .design import candidate_topologies, place_candidate, real_amplifier
+from .design import candidate_topologies, check_part_names, place_candidate, real_amplifier
 from .errors import PlacerError, SpecError
 from .gbw import as_built_gbw, required_gbw, search_top_hz
 from .opamp import AmplifierSpec, check_amplifier
@@ -534,8 +534,9 @@ def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, pro
         for index, section in enumerate(sections, start=1):
             check_amplifier(amplifier, section, index=index)
     tasks, failed = [], []
-    for index, section in enumerate(sections, start=1):
-        topologies, load_errors = candidate_topologies(section, spec)
+    plans = [candidate_topologies(section, spec) for section in sections]
+    check_part_names(spec, [t for topologies, _ in plans for t in topologies])
+    for index, (section, (topologies, load_errors)) in enumerate(zip(sections, plans), start=1):
         for topology in sorted(topologies, key=lambda t: t.id):
             tasks.append(_Task(spec, index, section, topology, samples, seed, gbw))
         failed.append([CandidateResult(index, path, reason=message)

@@ -57,6 +57,7 @@ __all__ = [
     "place_section",
     "place_candidate",
     "real_amplifier",
+    "check_part_names",
     "PoleSplit",
     "split_poles",
     "design",
@@ -288,7 +289,7 @@ def design(spec, *, seed=None, progress=None):
         for index, section in enumerate(sections, start=1):
             check_amplifier(amplifier, section, index=index)
     plans = [(section, *candidate_topologies(section, spec)) for section in sections]
-    _check_part_names(spec, [t for p in plans for t in p[1]])
+    check_part_names(spec, [t for p in plans for t in p[1]])
     total = sum(len(p[1]) for p in plans)
     done = 0
     built = []
@@ -322,8 +323,12 @@ def real_amplifier(spec: Spec) -> AmplifierSpec | None:
     return None if amplifier is None or amplifier.is_ideal else amplifier
 
 
-def _check_part_names(spec, topologies):
-    """A fixed part or constraint must name a part of some candidate."""
+def check_part_names(spec: Spec, topologies: Sequence[Topology]) -> None:
+    """A fixed part or constraint must name a part of some candidate (SpecError).
+
+    ``placer design`` and ``placer compare`` both check it, over every
+    candidate of every section.
+    """
     names = {symbol for t in topologies for symbol in t.symbols}
     where = f"{spec.path}: parts"
     for name in spec.parts.fixed:

@@ -162,6 +162,28 @@ def test_cascade_console_says_how_many_poles_are_parasitic(tmp_path, capsys):
     assert "Whole cascade: 3 poles (+2 op-amp parasitic poles)" in out
 
 
+def test_notch_with_an_op_amp_lists_its_parasitic_zero_apart(tmp_path):
+    # A notch has two zeros, at ±j·2π·50 Hz for a 50 Hz null (the definition
+    # of the notch); the two modelled op-amps of the Fliege notch add poles
+    # and a zero near their 1 MHz GBW, which are listed apart.
+    spec = load_spec(_write(tmp_path, """
+[target]
+response = "custom"
+sections = [{ f0 = "50 Hz", q = 2, zero_f0 = "50 Hz", kind = "notch" }]
+[candidates]
+topologies = ["fliege-notch"]
+[amplifier]
+gbw = "1 MHz"
+"""))
+    result = design(spec)
+    assert len(result.zeros) == 2 and len(result.poles) == 2
+    for z in result.zeros:
+        assert abs(z) / TWO_PI == pytest.approx(50.0, rel=0.005)
+        assert abs(z.real) < 1e-3 * abs(z)
+    assert len(result.parasitic_zeros) >= 1 and len(result.parasitic_poles) == 2
+    assert all(abs(z) / TWO_PI > 1e5 for z in result.parasitic_zeros)
+
+
 def test_split_poles_matches_each_dominant_pole_once():
     # 5 poles: a pair and a real pole near the given dominant ones, two far ones
     poles = [-1e3 + 2e3j, -1e3 - 2e3j, -5e2, -6e7, -7e7]
@@ -346,6 +368,14 @@ def test_fixed_part_tied_by_the_topology_fixes_its_partner():
     assert candidate.reachable
     assert candidate.snapped.values["C1"] == pytest.approx(10e-9, rel=1e-12)
     assert candidate.snapped.values["C2"] == pytest.approx(10e-9, rel=1e-12)
+
+
+def test_constraint_no_candidate_has_is_bad_input_in_compare_as_in_design(tmp_path):
+    path = _write(tmp_path, BUTTERWORTH.format(order=2, parts='constraints = ["C9 = C1"]'))
+    spec = load_spec(path)
+    for run in (design, lambda s: compare(s, samples=20, workers=1)):
+        with pytest.raises(SpecError, match="'C9 = C1' names 'C9'"):
+            run(spec)
 
 
 def test_spec_constraints_that_contradict_each_other_are_bad_input(tmp_path):
