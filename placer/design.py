@@ -20,8 +20,8 @@ and zeros are computed from that circuit on its own.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
 from collections.abc import Sequence
+from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
