@@ -58,10 +58,11 @@ __all__ = [
 PART_KINDS = ("resistor", "capacitor", "inductor")
 #: Why a placement whose built circuit can grow without input is unreachable.
 UNSTABLE_REASON = "unstable: poles in the right half-plane"
-#: A natural frequency p counts as unstable when Re p > this · |p| (round-off
-#: of the pencil's eigenvalues lies far below; a real design's damping,
-#: 1/(2Q), far above).
-_RHP_TOLERANCE = 1e-7
+#: A natural frequency p counts as unstable when Re p > −this · |p|: in the
+#: right half-plane, or on the jω axis within the pencil's round-off (an
+#: oscillator, K = 3 in an equal-component Sallen–Key); a real design's
+#: damping, 1/(2Q), lies far beyond it.
+_AXIS_TOLERANCE = 1e-9
 
 
 @dataclass(frozen=True)
@@ -354,12 +355,14 @@ def right_half_plane_poles(circuit: Circuit, values: Mapping[str, float] | None 
     -------
     tuple of complex
         Every natural frequency (:func:`placer.pencil.natural_frequencies`,
-        none cancelled) with Re p > 1e-7·|p|; empty for a stable circuit.
+        none cancelled) with Re p > −1e-9·|p|: in the right half-plane or
+        on the jω axis (within round-off); empty for a stable circuit.
 
     Examples
     --------
     An equal-component Sallen–Key low-pass has Q = 1/(3 − K), K = 1 + RB/RA:
-    unstable from K = 3 on (common active-filter texts, from memory).
+    unstable from K = 3 on, where the poles reach the jω axis (common
+    active-filter texts, from memory).
 
     >>> from placer.library import get_topology
     >>> circuit = get_topology("sallen-key-lowpass-equal").circuit
@@ -370,7 +373,7 @@ def right_half_plane_poles(circuit: Circuit, values: Mapping[str, float] | None 
     2
     """
     poles = natural_frequencies(circuit, values)
-    return tuple(complex(p) for p in poles if p.real > _RHP_TOLERANCE * abs(p))
+    return tuple(complex(p) for p in poles if p.real > -_AXIS_TOLERANCE * abs(p))
 
 
 def require_stable(candidate: Candidate, circuit: Circuit) -> Candidate:
@@ -390,7 +393,7 @@ def require_stable(candidate: Candidate, circuit: Circuit) -> Candidate:
         The same candidate when every natural frequency of `circuit` at the
         snapped values lies in the left half-plane; otherwise a copy with
         ``reachable`` False and the reason :data:`UNSTABLE_REASON`, followed
-        by where the poles are.
+        by where the poles are (a pole on the jω axis counts, and is said so).
     """
     if not candidate.reachable:
         return candidate
@@ -398,8 +401,10 @@ def require_stable(candidate: Candidate, circuit: Circuit) -> Candidate:
     if not unstable:
         return candidate
     shown = sorted({_pole_text(p) for p in unstable})
+    axis = any(p.real <= _AXIS_TOLERANCE * abs(p) for p in unstable)
     return replace(candidate, reachable=False,
-                   reason=f"{UNSTABLE_REASON} ({', '.join(shown)} rad/s)")
+                   reason=f"{UNSTABLE_REASON} ({', '.join(shown)} rad/s"
+                          + (", on or next to the jω axis" if axis else "") + ")")
 
 
 def _pole_text(pole: complex) -> str:

@@ -213,6 +213,16 @@ def test_equal_component_sallen_key_past_k_of_three_has_rhp_poles(k):
     assert upper.imag == pytest.approx(root.imag, rel=1e-6, abs=1e-6 * omega0)
 
 
+def test_equal_component_sallen_key_at_k_of_three_oscillates():
+    # Same formula: K = 3 puts the poles on the jω axis at ±j/(RC), an
+    # oscillator, not a filter.
+    unstable = right_half_plane_poles(EQUAL.circuit, {**EQUAL_PARTS, "RB": 20e3})
+    assert len(unstable) == 2
+    omega0 = 1 / (10e3 * 10e-9)
+    assert max(abs(p.imag) for p in unstable) == pytest.approx(omega0, rel=1e-6)
+    assert max(abs(p.real) for p in unstable) < 1e-6 * omega0
+
+
 def test_equal_component_sallen_key_below_k_of_three_is_stable():
     # Same formula: K = 2 gives Q = 1, poles in the left half-plane.
     assert right_half_plane_poles(EQUAL.circuit, {**EQUAL_PARTS, "RB": 10e3}) == ()
