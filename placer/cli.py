@@ -154,8 +154,8 @@ def _parse_settings(items):
 
 def _load_analysable(name):
     """A library id, a topology file, or a plain circuit file."""
-    from .circuit import circuit_from_dict
-    from .library import resolve_topology
+    from .circuit.elements import circuit_from_dict
+    from .circuit.library import resolve_topology
 
     path = Path(name)
     if path.suffix == ".toml" and path.is_file():
@@ -176,8 +176,8 @@ def _pairs(roots):
 # -- analyze -------------------------------------------------------------------
 
 def _cmd_analyze(args):
-    from .network import network_function
-    from .pencil import circuit_poles, circuit_zeros
+    from .analysis.network import network_function
+    from .analysis.pencil import circuit_poles, circuit_zeros
     from .report.console import table
 
     topology, circuit = _load_analysable(args.topology)
@@ -254,9 +254,9 @@ def _cmd_analyze(args):
 
 def _cmd_target(args):
     from .report.console import target_text
-    from .spec import load_spec
-    from .sections import split_sections
-    from .target_table import target_to_dict
+    from .spec.reader import load_spec
+    from .target.sections import split_sections
+    from .spec.target_table import target_to_dict
 
     spec = load_spec(args.spec)
     if spec.target is None:
@@ -281,11 +281,11 @@ def _check_counts(*options):
 
 def _cmd_design(args):
     from .design import design
-    from .evidence import gather_evidence
+    from .evidence.gather import gather_evidence
     from .report.console import Progress, design_text, evidence_text
     from .report.bom import bom_csv, bom_rows
     from .report.data import design_to_dict
-    from .spec import load_spec
+    from .spec.reader import load_spec
 
     spec = load_spec(args.spec)
     inputs = (args.spec,)
@@ -335,7 +335,7 @@ def _cmd_compare(args):
     from .compare import compare, comparison_to_dict
     from .report.comparison import comparison_text
     from .report.console import Progress
-    from .spec import load_spec
+    from .spec.reader import load_spec
 
     spec = load_spec(args.spec)
     inputs = [spec.path] + [c for c in (spec.candidates or ()) if c.endswith(".toml")]
@@ -372,8 +372,8 @@ def _cmd_compare(args):
 
 def _cmd_loop(args):
     from .report.console import Progress
-    from .loop_spec import loop_to_dict, run_loop
-    from .spec import load_spec
+    from .spec.loop_table import loop_to_dict, run_loop
+    from .spec.reader import load_spec
 
     spec = load_spec(args.spec)
     if spec.loop is None:
@@ -482,8 +482,8 @@ def _solved_for(topology):
 
 
 def _cmd_topologies(args):
-    from .library import library_topologies, load_folder, resolve_topology
-    from .network import network_function
+    from .circuit.library import library_topologies, load_folder, resolve_topology
+    from .analysis.network import network_function
     from .report.console import table
 
     pool = dict(library_topologies())

@@ -26,13 +26,13 @@ from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 
-from .amplifier import AmplifiedCandidate, place_section_with_amplifier
-from .circuit import Circuit, Element
+from .place.amplifier import AmplifiedCandidate, place_section_with_amplifier
+from .circuit.elements import Circuit, Element
 from .errors import SpecError, UnreachableTarget
-from .library import find_topologies, load_folder, resolve_topology
-from .opamp import apply_amplifier, check_amplifier
-from .pencil import circuit_roots
-from .placement import (
+from .circuit.library import find_topologies, load_folder, resolve_topology
+from .place.opamp import apply_amplifier, check_amplifier
+from .analysis.pencil import circuit_roots
+from .place.placement import (
     PART_KINDS,
     Candidate,
     candidate_seeds,
@@ -40,13 +40,13 @@ from .placement import (
     place_ideal,
     require_stable,
 )
-from .sections import split_sections
+from .target.sections import split_sections
 
 if TYPE_CHECKING:
-    from .opamp import AmplifierSpec
-    from .spec import PartsSpec, Spec
-    from .targets import Section
-    from .topology import Topology
+    from .place.opamp import AmplifierSpec
+    from .spec.reader import PartsSpec, Spec
+    from .target.targets import Section
+    from .circuit.topology import Topology
 
 __all__ = [
     "rank_placements",
@@ -152,15 +152,15 @@ def candidate_topologies(section, spec=None):
 def place_section(section, topology, *, parts=None, seed=0):
     """Solve and snap one topology for one section, as a Candidate.
 
-    The placement is :func:`placer.placement.place_ideal`'s (ideal op-amps;
+    The placement is :func:`placer.place.placement.place_ideal`'s (ideal op-amps;
     the same `parts` and `seed`); a topology that cannot reach the section
     becomes an unreachable candidate instead of an error.
 
     Parameters
     ----------
-    section : placer.targets.Section
+    section : placer.target.targets.Section
     topology : Topology
-    parts : placer.spec.PartsSpec, optional
+    parts : placer.spec.reader.PartsSpec, optional
         Series, ranges, fixed parts and constraints.
     seed : int
 
@@ -185,21 +185,21 @@ def place_candidate(section: Section, topology: Topology, *, index: int,
     """Place one candidate topology for one section: the step design and compare share.
 
     The solver seed comes from the candidate's identity
-    (:func:`placer.placement.candidate_seeds`); with a real op-amp model
+    (:func:`placer.place.placement.candidate_seeds`); with a real op-amp model
     the placement is corrected for it
-    (:func:`placer.amplifier.place_section_with_amplifier`), otherwise
+    (:func:`placer.place.amplifier.place_section_with_amplifier`), otherwise
     placed with ideal op-amps (:func:`place_section`). A placement whose
     circuit as built (with the model, if any) has a natural frequency in
     the right half-plane becomes unreachable
-    (:func:`placer.placement.require_stable`).
+    (:func:`placer.place.placement.require_stable`).
 
     Parameters
     ----------
-    section : placer.targets.Section
+    section : placer.target.targets.Section
     topology : Topology
     index : int
         The section's index, from 1 in cascade order.
-    parts : placer.spec.PartsSpec, optional
+    parts : placer.spec.reader.PartsSpec, optional
     amplifier : AmplifierSpec, optional
         A real op-amp model (None: ideal op-amps).
     seed : int
@@ -208,7 +208,7 @@ def place_candidate(section: Section, topology: Topology, *, index: int,
     Returns
     -------
     Candidate
-        An :class:`placer.amplifier.AmplifiedCandidate` with a model;
+        An :class:`placer.place.amplifier.AmplifiedCandidate` with a model;
         ``notes`` lists the spec's fixed parts and constraints that the
         topology has no part for (placed without them).
     """
@@ -255,7 +255,7 @@ def design(spec, *, seed=None, progress=None):
 
     Parameters
     ----------
-    spec : placer.spec.Spec
+    spec : placer.spec.reader.Spec
     seed : int, optional
         Seed of the multi-start solver (default: the spec's tolerance seed).
     progress : callable, optional

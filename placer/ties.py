@@ -18,7 +18,7 @@ from typing import TYPE_CHECKING
 from .errors import SpecError, UnreachableTarget
 
 if TYPE_CHECKING:
-    from .topology import Constraint, Topology
+    from .circuit.topology import Constraint, Topology
 
 __all__ = ["Ties", "tie_parts"]
 
@@ -75,8 +75,8 @@ def tie_parts(topology: Topology, constraints: Sequence[Constraint],
     The equal-component Sallen–Key ties C2 = C1 and R2 = R1; the spec's
     ``C1 = C2`` is the same tie:
 
-    >>> from placer.library import get_topology
-    >>> from placer.topology import parse_constraint
+    >>> from placer.circuit.library import get_topology
+    >>> from placer.circuit.topology import parse_constraint
     >>> ties = tie_parts(get_topology("sallen-key-lowpass-equal"), [parse_constraint("C1 = C2")], {})
     >>> ties.tied["C2"], ties.tied["R2"]
     (('C1', 1.0), ('R1', 1.0))

@@ -1,4 +1,4 @@
-"""Tests of the placement design and compare share (placer.placement, placer.design).
+"""Tests of the placement design and compare share (placer.place.placement, placer.design).
 
 Regression tests: a first-order section read at its own order with a real
 op-amp, unstable candidates refused, design and compare agreeing on every
@@ -19,9 +19,9 @@ from placer.cli import main
 from placer.compare import compare
 from placer.design import design, place_candidate, split_poles
 from placer.errors import SpecError, UnreachableTarget
-from placer.evidence import gather_evidence
-from placer.library import get_topology
-from placer.placement import (
+from placer.evidence.gather import gather_evidence
+from placer.circuit.library import get_topology
+from placer.place.placement import (
     UNSTABLE_REASON,
     Candidate,
     candidate_seeds,
@@ -29,10 +29,10 @@ from placer.placement import (
     require_stable,
     right_half_plane_poles,
 )
-from placer.snap import SnapResult
-from placer.spec import PartsSpec, load_spec
-from placer.targets import make_section
-from placer.topology import parse_constraint
+from placer.place.snap import SnapResult
+from placer.spec.reader import PartsSpec, load_spec
+from placer.target.targets import make_section
+from placer.circuit.topology import parse_constraint
 from placer.units import format_value
 
 TWO_PI = 2 * math.pi

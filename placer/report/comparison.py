@@ -40,7 +40,7 @@ _METHOD_LINES = {
     "model": "GBW needed (--gbw model): the op-amp model on each ideal-op-amp design as "
              "snapped, as with --gbw built; GBW re-solved: the smallest GBW at which a "
              "design re-solved and re-snapped for the op-amp stays within 1 % of the "
-             "target, also with the GBW 25 % off (placer.gbw.required_gbw)",
+             "target, also with the GBW 25 % off (placer.place.gbw.required_gbw)",
 }
 _REJECTION_LEGEND = ("rejection: what 99 % of the builds still take off the target's zero "
                      "frequency (pass-band gain over |H| there)")
