@@ -1,8 +1,10 @@
 """Ranking candidate topologies for every section of a target.
 
 For each section of a spec's target, every candidate topology (see
-:func:`placer.design.candidate_topologies`) is solved and snapped
-(:func:`placer.design.place_section`) and, when it reaches the section,
+:func:`placer.design.candidate_topologies`) is placed as ``placer design``
+places it (:func:`placer.design.place_candidate`: the same seed, the same
+op-amp correction, the same stability check, so the same parts and the
+same error) and, when it reaches the section,
 measured on what a designer weighs when choosing a circuit:
 
 * parts (resistors, capacitors, inductors) and op-amps;
@@ -33,24 +35,29 @@ from __future__ import annotations
 
 import math
 import os
-import zlib
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import asdict, dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .place.amplifier import built_drift
-from .design import candidate_topologies, place_section
+from .place.amplifier import AmplifiedCandidate, built_drift
+from .design import candidate_topologies, check_part_names, place_candidate, real_amplifier
 from .errors import PlacerError, SpecError
 from .place.gbw import as_built_gbw, required_gbw, search_top_hz
-from .place.opamp import AmplifierSpec
+from .place.opamp import AmplifierSpec, check_amplifier
+from .place.placement import Candidate, candidate_seeds, value_spread, worst_error_pct
 from .analysis.noise import analyse_noise
-from .place.placement import value_spread
 from .evidence.prelayout import checked_circuit, level_rules_for, settings_for
 from .analysis.return_ratio import opamp_loops
 from .target.sections import split_sections
 from .evidence.tolerance import monte_carlo
 from .units import finite_or_none, format_value
+
+if TYPE_CHECKING:
+    from .spec.reader import Spec
+    from .target.targets import Section
+    from .circuit.topology import Topology
 
 
 __all__ = [
@@ -119,6 +126,12 @@ class CandidateResult:
     gbw_hz, gbw_source : float, str
         Op-amp GBW the stage needs, Hz (None: no op-amp, or never met), and
         where the figure comes from, in words.
+    gbw_resolved_hz : float or None
+        With the "model" method: the GBW a design re-solved for the op-amp
+        needs (:func:`placer.place.gbw.required_gbw`), Hz; None otherwise, or
+        when no GBW up to the search's top does.
+    notes : tuple of str
+        What of the spec's ``[parts]`` the topology has no part for.
     gain : float
         Achieved signed pass-band gain, V/V (negative: inverting).
     rejection_db : float or None
@@ -159,6 +172,8 @@ class CandidateResult:
     gbw_drift_pct: float | None = None
     noise_rms_v: float | None = None
     worst_phase_margin_deg: float | None = None
+    gbw_resolved_hz: float | None = None
+    notes: tuple = ()
 
     @property
     def max_sensitivity(self):
@@ -197,35 +212,6 @@ class Comparison:
     seed: int
     gbw: str
     sections: tuple
-
-
-def candidate_seeds(seed, section_index, topology_id):
-    """Solver seed and Monte Carlo seed of one candidate, from its identity.
-
-    Parameters
-    ----------
-    seed : int
-        The run's seed, >= 0.
-    section_index : int
-    topology_id : str
-
-    Returns
-    -------
-    (int, numpy.random.SeedSequence)
-        The multi-start solver's seed and the Monte Carlo's seed sequence,
-        from ``SeedSequence([seed, section_index, crc32(topology_id)])``.
-
-    Examples
-    --------
-    >>> a, _ = candidate_seeds(0, 1, "mfb-lowpass")
-    >>> b, _ = candidate_seeds(0, 2, "mfb-lowpass")
-    >>> a == candidate_seeds(0, 1, "mfb-lowpass")[0], a == b
-    (True, False)
-    """
-    root = np.random.SeedSequence([int(seed), int(section_index),
-                                   zlib.crc32(str(topology_id).encode("utf-8"))])
-    solver, sampler = root.spawn(2)
-    return int(solver.generate_state(1)[0]), sampler
 
 
 def _finite(x):
@@ -333,36 +319,62 @@ def _prelayout_figures(spec, topology, values: dict) -> tuple:
     return noise, (min(margins) if margins else None)
 
 
-def _gbw_needed(section, topology, spec, method, candidate):
-    """(GBW in Hz or None, source in words) for one reachable candidate."""
+@dataclass(frozen=True)
+class _GBWFigure:
+    """The GBW a candidate needs: Hz (None: passive or never met), where from, re-solved Hz."""
+
+    gbw_hz: float | None
+    source: str
+    resolved_hz: float | None = None
+
+
+def _ideal_design(candidate: Candidate) -> tuple[dict, float]:
+    """(values, worst error %) of the candidate's ideal-op-amp design, as snapped.
+
+    With a real op-amp model the design compared is corrected for it; the
+    GBW figures still describe the ideal-op-amp design (what it needs as
+    built, what the rule of thumb costs it), so they mean the same with
+    and without ``[amplifier]``.
+    """
+    if isinstance(candidate, AmplifiedCandidate):
+        return candidate.ideal_snapped.values, worst_error_pct(candidate.ideal_errors)
+    return candidate.snapped.values, candidate.error_pct
+
+
+def _gbw_needed(section: Section, topology: Topology, spec: Spec, method: str,
+                candidate: Candidate, seed: int) -> _GBWFigure:
+    """The :class:`_GBWFigure` of one reachable candidate (`seed`: its solver's)."""
     if topology.opamp_count == 0:
-        return None, _SOURCES["passive"]
+        return _GBWFigure(None, _SOURCES["passive"])
     if method in ("built", "model"):
-        # The design compared is the ideal-op-amp one as snapped: what it needs as built.
+        # The ideal-op-amp design as snapped: what it needs as built.
         source = _SOURCES["built"]
-        if candidate.error_pct > GBW_ERROR_PCT:
-            return None, (source + f"; its error with ideal op-amps, {candidate.error_pct:.3g} %, "
-                          f"is already past the bound")
-        figure = as_built_gbw(topology, candidate.snapped.values, candidate.problem.goal,
+        values, error_pct = _ideal_design(candidate)
+        if error_pct > GBW_ERROR_PCT:
+            return _GBWFigure(None, source + f"; its error with ideal op-amps, {error_pct:.3g} %, "
+                                             f"is already past the bound")
+        figure = as_built_gbw(topology, values, candidate.problem.goal,
                               error_pct=GBW_ERROR_PCT, amplifier_gain=spec.amplifier.gain)
         if not math.isfinite(figure):
             goal = candidate.problem.goal
             top = search_top_hz(goal.omega0 / (2 * math.pi), goal.q)
             source += f"; not met up to {format_value(top, 'Hz')}"
+        resolved = None
         if method == "model":
             need = required_gbw(section, topology, error_pct=GBW_ERROR_PCT, parts=spec.parts,
-                                amplifier_gain=spec.amplifier.gain)
+                                amplifier_gain=spec.amplifier.gain, seed=seed)
             if math.isfinite(need.gbw_hz):
+                resolved = float(need.gbw_hz)
                 source += (f"; re-solved for the op-amp (placer.place.gbw.required_gbw), "
                            f"{format_value(need.gbw_hz, 'Hz')} would do")
             elif need.note:
                 source += f"; re-solved for the op-amp: {need.note}"
-        return (figure if math.isfinite(figure) else None), source
+        return _GBWFigure(figure if math.isfinite(figure) else None, source, resolved)
     kind = "practice" if topology.id.startswith(_RULE_FAMILIES) else "thumb"
     source = _SOURCES[kind]
     if section.q is None:
         source += "; Q taken as 1 for a first-order stage"
-    return _rule_gbw(section), source
+    return _GBWFigure(_rule_gbw(section), source)
 
 
 def _rule_gbw(section):
@@ -394,11 +406,15 @@ def _evaluate(task):
     """Measure one candidate; a plain :class:`CandidateResult` comes back."""
     topology, spec = task.topology, task.spec
     solver_seed, sampler_seed = candidate_seeds(task.seed, task.index, topology.id)
+    notes = ()
     try:
-        candidate = place_section(task.section, topology, parts=spec.parts, seed=solver_seed,
-                                  level=task.level)
+        candidate = place_candidate(task.section, topology, index=task.index, parts=spec.parts,
+                                    amplifier=real_amplifier(spec), seed=task.seed,
+                                    level=task.level)
+        notes = candidate.notes
         if not candidate.reachable:
-            return CandidateResult(task.index, topology.id, topology.title, reason=candidate.reason)
+            return CandidateResult(task.index, topology.id, topology.title, reason=candidate.reason,
+                                   notes=notes)
         nf = candidate.problem.nf
         values = candidate.snapped.values
         kinds = {s: topology.kind_of(s) for s in nf.symbols}
@@ -417,12 +433,14 @@ def _evaluate(task):
         # monte_carlo's sensitivities are sensitivities(nf, values) at these nominal values
         sens = result.sensitivities
         parts = [s for s, k in kinds.items() if k in _PART_KINDS]
-        gbw_hz, gbw_source = _gbw_needed(task.section, topology, spec, task.gbw, candidate)
+        gbw = _gbw_needed(task.section, topology, spec, task.gbw, candidate, solver_seed)
         rule_hz = _rule_gbw(task.section) if topology.opamp_count else None
-        drift = _drift_at(topology, values, candidate.problem.goal, rule_hz, spec.amplifier.gain)
-        noise_v, margin = _prelayout_figures(spec, topology, values)
+        drift = _drift_at(topology, _ideal_design(candidate)[0], candidate.problem.goal, rule_hz,
+                          spec.amplifier.gain)
+        noise_v, margin = _prelayout_figures(spec, topology, _ideal_design(candidate)[0])
     except SpecError as error:
-        return CandidateResult(task.index, topology.id, topology.title, reason=f"bad input: {error}")
+        return CandidateResult(task.index, topology.id, topology.title, reason=f"bad input: {error}",
+                               notes=notes)
     return CandidateResult(
         section=task.index, topology=topology.id, title=topology.title, reachable=True,
         parts=topology.part_count, opamps=topology.opamp_count,
@@ -430,11 +448,13 @@ def _evaluate(task):
         yield_pct=100.0 * target_yield,
         spread=value_spread(topology, values),
         max_sensitivity_w0=_largest(sens.omega0, parts), max_sensitivity_q=_largest(sens.q, parts),
-        gbw_hz=gbw_hz, gbw_source=gbw_source, gain=float(candidate.errors.gain),
+        gbw_hz=gbw.gbw_hz, gbw_source=gbw.source, gbw_resolved_hz=gbw.resolved_hz,
+        gain=float(candidate.errors.gain),
         values={k: float(v) for k, v in values.items()},
         rejection_db=(None if result.rejection_db is None
                       else float(result.statistics["rejection_db"].p01)),
         gbw_drift_pct=drift, noise_rms_v=noise_v, worst_phase_margin_deg=margin,
+        notes=tuple(notes),
     )
 
 
@@ -542,10 +562,15 @@ def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, pro
         if not isinstance(value, int) or isinstance(value, bool) or value < low:
             raise SpecError(f"{name} must be a whole number >= {low}, not {value!r}")
     sections = split_sections(spec.target, ordering=spec.ordering, gain=spec.gain_distribution)
+    amplifier = real_amplifier(spec)
+    if amplifier is not None:
+        for index, section in enumerate(sections, start=1):
+            check_amplifier(amplifier, section, index=index)
     tasks, failed = [], []
     levels = level_rules_for(spec, sections)
-    for index, section in enumerate(sections, start=1):
-        topologies, load_errors = candidate_topologies(section, spec)
+    plans = [candidate_topologies(section, spec) for section in sections]
+    check_part_names(spec, [t for topologies, _ in plans for t in topologies])
+    for index, (section, (topologies, load_errors)) in enumerate(zip(sections, plans), start=1):
         for topology in sorted(topologies, key=lambda t: t.id):
             tasks.append(_Task(spec, index, section, topology, samples, seed, gbw,
                                levels[index - 1]))

@@ -6,6 +6,11 @@ wins: smallest error, then fewest parts, then smallest value spread.
 Errors within 0.05 percentage points of the best count as equal, so a
 simpler circuit is not passed over for a difference no one could measure.
 
+Every candidate is placed by :func:`place_candidate`, the one placement
+``placer compare`` uses too: seeded from its identity, corrected for the
+spec's op-amp model when there is one, refused when its built circuit is
+unstable.
+
 The sections are then joined into one cascade circuit (a unity-gain
 buffer is placed after a section whose output is not driven by an
 amplifier, so the next section does not load it), and the cascade's poles,
@@ -16,20 +21,35 @@ circuit on its own.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, replace
-from functools import partial
+from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 
-from .place.amplifier import place_section_with_amplifier
+from .place.amplifier import AmplifiedCandidate, place_section_with_amplifier
 from .circuit.elements import Circuit, Element
 from .errors import SpecError, UnreachableTarget
 from .circuit.library import find_topologies, load_folder, realises, resolve_topology
 from .place.opamp import apply_amplifier, check_amplifier
 from .analysis.pencil import circuit_roots
 from .evidence.prelayout import level_rules_for
-from .place.placement import PART_KINDS, Candidate, place_ideal
+from .place.placement import (
+    PART_KINDS,
+    Candidate,
+    candidate_seeds,
+    parts_notes,
+    place_ideal,
+    require_stable,
+)
 from .target.sections import split_sections
+
+if TYPE_CHECKING:
+    from .place.opamp import AmplifierSpec
+    from .spec.reader import PartsSpec, Spec
+    from .place.level import LevelRule
+    from .target.targets import Section
+    from .circuit.topology import Topology
 
 __all__ = [
     "rank_placements",
@@ -38,6 +58,11 @@ __all__ = [
     "PartChoice",
     "candidate_topologies",
     "place_section",
+    "place_candidate",
+    "real_amplifier",
+    "check_part_names",
+    "PoleSplit",
+    "split_poles",
     "design",
     "cascade_circuit",
     "cascade_gain",
@@ -84,6 +109,10 @@ class Design:
     :func:`cascade_gain`), signed: negative when the cascade inverts. Each
     section quotes its own gain at its own reference, so their product is
     not the cascade's gain for a band-pass.
+    ``poles`` and ``zeros`` are the cascade's roots that realise the
+    target (each section's dominant roots, matched to the section's order);
+    ``parasitic_poles`` and ``parasitic_zeros`` the ones the op-amp model
+    adds (empty with ideal op-amps), rad/s.
     """
 
     spec: object
@@ -93,6 +122,8 @@ class Design:
     poles: tuple
     zeros: tuple
     gain: float
+    parasitic_poles: tuple = ()
+    parasitic_zeros: tuple = ()
 
     @property
     def parts(self):
@@ -159,6 +190,52 @@ def place_section(section, topology, *, parts=None, seed=0, level=None):
     )
 
 
+def place_candidate(section: Section, topology: Topology, *, index: int,
+                    parts: PartsSpec | None = None, amplifier: AmplifierSpec | None = None,
+                    seed: int = 0, level: LevelRule | None = None) -> Candidate:
+    """Place one candidate topology for one section: the step design and compare share.
+
+    The solver seed comes from the candidate's identity
+    (:func:`placer.place.placement.candidate_seeds`); with a real op-amp model
+    the placement is corrected for it
+    (:func:`placer.place.amplifier.place_section_with_amplifier`), otherwise
+    placed with ideal op-amps (:func:`place_section`). A placement whose
+    circuit as built (with the model, if any) has a natural frequency in
+    the right half-plane becomes unreachable
+    (:func:`placer.place.placement.require_stable`).
+
+    Parameters
+    ----------
+    section : placer.target.targets.Section
+    topology : Topology
+    index : int
+        The section's index, from 1 in cascade order.
+    parts : placer.spec.reader.PartsSpec, optional
+    amplifier : AmplifierSpec, optional
+        A real op-amp model (None: ideal op-amps).
+    seed : int
+        The run's seed.
+    level : placer.place.level.LevelRule, optional
+        How the section's impedance level is chosen (None: the solver's).
+
+    Returns
+    -------
+    Candidate
+        An :class:`placer.place.amplifier.AmplifiedCandidate` with a model;
+        ``notes`` lists the spec's fixed parts and constraints that the
+        topology has no part for (placed without them).
+    """
+    solver_seed = candidate_seeds(seed, index, topology.id).solver
+    if amplifier is None:
+        candidate = place_section(section, topology, parts=parts, seed=solver_seed, level=level)
+    else:
+        candidate = place_section_with_amplifier(section, topology, amplifier, parts=parts,
+                                                 seed=solver_seed, level=level)
+    candidate = replace(candidate, notes=parts_notes(topology, parts))
+    built = candidate.circuit if isinstance(candidate, AmplifiedCandidate) else topology.circuit
+    return require_stable(candidate, built)
+
+
 def rank_placements(candidates):
     """Reachable candidates best first: error, then parts, then spread.
 
@@ -186,7 +263,7 @@ def _alternatives_for(section):
             if t.opamp_count or section.order == 1 or (section.q or 0) <= 0.5]
 
 
-def design(spec, *, seed=None, progress=None, place=place_section):
+def design(spec, *, seed=None, progress=None, place=place_candidate):
     """Design every section of a spec's target and build the cascade.
 
     Parameters
@@ -196,6 +273,9 @@ def design(spec, *, seed=None, progress=None, place=place_section):
         Seed of the multi-start solver (default: the spec's tolerance seed).
     progress : callable, optional
         ``progress(done, total, label)`` after each candidate.
+    place : callable, optional
+        The placement of one candidate, with :func:`place_candidate`'s
+        signature (the default); the explorer passes a memoised one.
 
     Returns
     -------
@@ -211,33 +291,30 @@ def design(spec, *, seed=None, progress=None, place=place_section):
 
     Notes
     -----
-    With a real op-amp model in ``spec.amplifier`` (GBW and/or DC gain),
-    each candidate is placed by
-    :func:`placer.place.amplifier.place_section_with_amplifier` (unless `place`
-    is given): the dominant roots are solved onto the target with every
-    op-amp modelled, and the section circuits carry the model.
+    Each candidate is placed by :func:`place_candidate`, as ``placer
+    compare`` places it. With a real op-amp model in ``spec.amplifier``
+    (GBW and/or DC gain) the dominant roots are solved onto the target with
+    every op-amp modelled, and the section circuits carry the model.
     """
     if spec.target is None:
         raise SpecError(f"{spec.path}: designing a filter needs a [target] table")
     seed = spec.tolerance.seed if seed is None else seed
     sections = split_sections(spec.target, ordering=spec.ordering, gain=spec.gain_distribution)
-    amplifier = _real_amplifier(spec)
+    amplifier = real_amplifier(spec)
     if amplifier is not None:
         for index, section in enumerate(sections, start=1):
             check_amplifier(amplifier, section, index=index)
-        if place is place_section:
-            place = partial(place_section_with_amplifier, amplifier=amplifier)
     plans = [(section, *candidate_topologies(section, spec)) for section in sections]
     levels = level_rules_for(spec, sections)      # the impedance level of each section
-    _check_part_names(spec, [t for p in plans for t in p[1]])
+    check_part_names(spec, [t for p in plans for t in p[1]])
     total = sum(len(p[1]) for p in plans)
     done = 0
     built = []
     for index, (section, topologies, load_errors) in enumerate(plans, start=1):
         candidates = []
         for topology in topologies:
-            candidates.append(place(section, topology, parts=spec.parts, seed=seed,
-                                    level=levels[index - 1]))
+            candidates.append(place(section, topology, index=index, parts=spec.parts,
+                                    amplifier=amplifier, seed=seed, level=levels[index - 1]))
             done += 1
             if progress:
                 progress(done, total, topology.id)
@@ -257,14 +334,18 @@ def design(spec, *, seed=None, progress=None, place=place_section):
     return _assemble(spec, built)
 
 
-def _real_amplifier(spec):
+def real_amplifier(spec: Spec) -> AmplifierSpec | None:
     """The spec's op-amp model when it is not ideal, else None."""
     amplifier = getattr(spec, "amplifier", None)
     return None if amplifier is None or amplifier.is_ideal else amplifier
 
 
-def _check_part_names(spec, topologies):
-    """A fixed part or constraint must name a part of some candidate."""
+def check_part_names(spec: Spec, topologies: Sequence[Topology]) -> None:
+    """A fixed part or constraint must name a part of some candidate (SpecError).
+
+    ``placer design`` and ``placer compare`` both check it, over every
+    candidate of every section.
+    """
     names = {symbol for t in topologies for symbol in t.symbols}
     where = f"{spec.path}: parts"
     for name in spec.parts.fixed:
@@ -314,10 +395,11 @@ def _assemble(spec, built):
     # buffers go where a section's own output is not driven, so join the
     # sections as designed, then model every op-amp (sections' and buffers')
     cascade = unmodelled_cascade = cascade_circuit(unmodelled, counters)
-    if _real_amplifier(spec) is not None:
-        cascade = apply_amplifier(cascade, _real_amplifier(spec))
+    if real_amplifier(spec) is not None:
+        cascade = apply_amplifier(cascade, real_amplifier(spec))
     roots = circuit_roots(cascade)
-    poles, zeros = tuple(roots.poles), tuple(roots.zeros)
+    poles = split_poles(roots.poles, [p for s in section_designs for p in s.candidate.errors.poles])
+    zeros = split_poles(roots.zeros, [z for s in section_designs for z in s.candidate.errors.zeros])
     reference = spec.target.reference_omega
     gain = cascade_gain(roots, reference)
     if gain == 0.0 and math.isinf(reference) and cascade is not unmodelled_cascade:
@@ -325,7 +407,45 @@ def _assemble(spec, built):
         # plateau it would otherwise hold, that of the same parts with ideal op-amps
         gain = cascade_gain(circuit_roots(unmodelled_cascade), reference)
     return Design(spec=spec, target=spec.target, sections=tuple(section_designs),
-                  circuit=cascade, poles=poles, zeros=zeros, gain=gain)
+                  circuit=cascade, poles=poles.dominant, zeros=zeros.dominant, gain=gain,
+                  parasitic_poles=poles.parasitic, parasitic_zeros=zeros.parasitic)
+
+
+class PoleSplit(NamedTuple):
+    """A cascade's poles: those that realise the target, and the op-amps' own."""
+
+    dominant: tuple
+    parasitic: tuple
+
+
+def split_poles(poles: Sequence[complex], dominant: Sequence[complex]) -> PoleSplit:
+    """The cascade's poles nearest the sections' dominant ones, and the rest.
+
+    The same for zeros (finite zeros, the sections' dominant zeros).
+
+    Parameters
+    ----------
+    poles : sequence of complex
+        Every pole of the cascade circuit (rad/s).
+    dominant : sequence of complex
+        The sections' dominant poles (rad/s), one per order of each section.
+
+    Returns
+    -------
+    PoleSplit
+        The poles matched one by one to `dominant` (nearest first, each
+        used once), and the others: the op-amps' parasitic poles, those of
+        the buffers between sections included. With ideal op-amps the
+        second is empty.
+    """
+    rest = [complex(p) for p in poles]
+    matched = []
+    for wanted in sorted(dominant, key=abs):
+        if not rest:
+            break
+        i = int(np.argmin([abs(p - wanted) for p in rest]))
+        matched.append(rest.pop(i))
+    return PoleSplit(tuple(matched), tuple(rest))
 
 
 def cascade_gain(roots, reference_omega: float) -> float:

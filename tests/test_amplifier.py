@@ -155,6 +155,38 @@ def test_polished_roots_with_a_hint_find_spread_roots():
             assert np.min(np.abs(ours[j] - root)) <= 1e-8 * abs(root)
 
 
+class _GivenCoefficients:
+    """A stand-in network function whose denominator is given (any batch)."""
+
+    symbols = {}
+    gain_kind = "dc"
+
+    def __init__(self, denominator):
+        self.denominator = denominator
+
+    def coefficients(self, values):
+        return np.ones((1, self.denominator.shape[1])), self.denominator
+
+
+def test_dominant_pair_of_fifth_degree_where_the_quadratic_factor_search_fails():
+    # A 3rd-order Bessel section with three modelled op-amps: degree 5, a batch
+    # larger than the one-at-a-time path, no sample where Bairstow's search
+    # converges. It used to end in "ValueError: shape mismatch ... (0,0) ...
+    # (0,3)". Reference: numpy.roots, and the real pair nearest the target.
+    column = np.array([1.0444319526954103e-01, 1.3130372684834013e+07, 4.1447837409319469e+14,
+                       1.1320141316286418e+20, 1.4834887531750682e+25, 9.3244005493534635e+29])
+    target = (-65810.65851056643 + 62785.63624025595j, -65810.65851056643 - 62785.63624025595j)
+    full = _GivenCoefficients(np.repeat(column[:, None], 6, axis=1))
+    dominant = DominantFunction(full=full, target_poles=target, omega_ref=90956.46701410589)
+    _, denominator = dominant.coefficients({})
+    roots = np.roots(column)
+    pair = sorted((r for r in roots if abs(r.imag) > 1), key=lambda r: r.imag)
+    expected = np.real(np.poly(pair))
+    assert denominator.shape == (3, 6)
+    for j in range(6):
+        np.testing.assert_allclose(denominator[:, j], expected, rtol=1e-9)
+
+
 # -- symbolic against numeric with the model in place ----------------------------
 
 @pytest.mark.parametrize("topology_id, values", [

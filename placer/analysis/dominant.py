@@ -192,7 +192,14 @@ def _small_roots(monic):
 
 
 def _eigen_roots(monic):
-    """Companion-matrix eigenvalues of monic polynomials (n + 1, B) -> (B, n), polished."""
+    """Companion-matrix eigenvalues of monic polynomials (n + 1, B) -> (B, n), polished.
+
+    An empty batch (B = 0) gives an empty (0, n) array: the companion
+    routine cannot tell the degree of no polynomial at all (it would
+    answer degree 0), and callers assign the result into (B, n) slots.
+    """
+    if monic.shape[1] == 0:
+        return np.zeros((0, monic.shape[0] - 1), dtype=complex)
     return _polish(monic.T, batched_roots(monic))
 
 

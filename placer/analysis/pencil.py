@@ -20,7 +20,9 @@ from __future__ import annotations
 
 import math
 import warnings
+from collections.abc import Mapping
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 import scipy.linalg
@@ -28,10 +30,14 @@ import scipy.linalg
 from ..errors import NumericalWarning, TopologyError
 from .mna import numeric_system
 
+if TYPE_CHECKING:
+    from ..circuit.elements import Circuit
+
 __all__ = [
     "CircuitRoots",
     "circuit_roots",
     "circuit_poles",
+    "natural_frequencies",
     "circuit_zeros",
     "circuit_gain",
     "circuit_response",
@@ -103,6 +109,27 @@ def circuit_roots(circuit, values=None):
 def circuit_poles(circuit, values=None):
     """Poles (rad/s) of a circuit with numeric parts, from the MNA pencil."""
     return circuit_roots(circuit, values).poles
+
+
+def natural_frequencies(circuit: Circuit, values: Mapping[str, float] | None = None) -> np.ndarray:
+    """Every natural frequency (rad/s) of a circuit with numeric parts.
+
+    The finite eigenvalues of the MNA pencil, with none cancelled against
+    a zero: a mode the output does not see (or the input does not reach)
+    still grows if it lies in the right half-plane, so stability is judged
+    on these, not on :func:`circuit_poles`.
+
+    Examples
+    --------
+    >>> from placer.circuit.elements import Circuit, Element
+    >>> rc = Circuit((Element("R1", "resistor", ("vin", "vout"), value=1e3),
+    ...               Element("C1", "capacitor", ("vout", "gnd"), value=1e-6)))
+    >>> natural_frequencies(rc).round(6).tolist()
+    [(-1000+0j)]
+    """
+    system = numeric_system(circuit, values)
+    _require_regular(system)
+    return _finite_eigenvalues(-system.G, system.C)
 
 
 def circuit_zeros(circuit, values=None):

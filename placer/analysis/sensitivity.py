@@ -41,7 +41,7 @@ import numpy as np
 import sympy
 
 from ..errors import SpecError, TopologyError
-from .network import batched_roots, polynomial_values
+from .network import NetworkFunction, batched_roots, polynomial_values
 
 __all__ = ["Sensitivities", "sensitivities"]
 
@@ -208,8 +208,10 @@ def sensitivities(nf, values):
     """
     _check_order(nf)
     nominal = _nominal_values(nf, values)
-    if nf.order <= 2:
+    if nf.order <= 2 and isinstance(nf, NetworkFunction):
         return _symbolic_sensitivities(nf, nominal)
+    # a function with no symbolic figures (the dominant part of a circuit
+    # whose op-amps are modelled) is read numerically, at its own order
     return _numeric_sensitivities(nf, nominal, _reference(nf, nominal))
 
 
@@ -248,10 +250,14 @@ def _numeric_sensitivities(nf, nominal, ref):
     columns = {name: nominal[name] * factors[i] for i, name in enumerate(names)}
     omega0, q, gain = _figures(*nf.coefficients(columns), ref)
     out = {}
+    out["q"] = None
     for key, figure in (("omega0", omega0), ("q", q), ("gain", gain)):
+        if figure is None:      # first order: no Q
+            continue
         with np.errstate(divide="ignore", invalid="ignore"):
             logs = np.log(np.abs(figure))
         slopes = (logs[0::2] - logs[1::2]) / (2 * _LOG_STEP)
         out[key] = {name: float(slopes[i]) if nominal[name] != 0 else 0.0
                     for i, name in enumerate(names)}
-    return Sensitivities(out["omega0"], out["q"], out["gain"], "numeric", "dominant pole pair")
+    figure = {1: "first order", 2: "second order"}.get(ref.order, "dominant pole pair")
+    return Sensitivities(out["omega0"], out["q"], out["gain"], "numeric", figure)

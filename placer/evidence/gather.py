@@ -13,16 +13,21 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
 import scipy.optimize
 
 from ..target.mask import MASK_TOLERANCE_DB, Mask, band_points, grid_figures, mask_bands, mask_grid
-from ..analysis.network import polynomial_values
+from ..analysis.network import NetworkFunction, polynomial_values
 from ..analysis.response import Response
 from .tolerance import cascade_magnitude_blocks, monte_carlo
 from ..units import finite_or_none
 from .verify import verify
+
+if TYPE_CHECKING:
+    from ..analysis.dominant import DominantFunction
+    from ..place.placement import Candidate
 
 __all__ = ["SectionEvidence", "Evidence", "MaskFigures", "MaskVerdict", "gather_evidence",
            "part_tolerances", "check_mask", "mask_verdict"]
@@ -151,6 +156,19 @@ def _full(candidate):
     return getattr(candidate.problem.nf, "full", candidate.problem.nf)
 
 
+def _own_order(candidate: Candidate) -> NetworkFunction | DominantFunction:
+    """The section's function matched to its own order.
+
+    With a real op-amp model, the dominant part of the modelled function
+    (:class:`placer.analysis.dominant.DominantFunction`): its roots are the ones
+    nearest the section's target, as many as the section's order, so a
+    first-order section's f0, sensitivities and yield are read off its one
+    pole, not off a pair the op-amps' parasitic poles form. With ideal
+    op-amps, the network function itself.
+    """
+    return candidate.problem.nf
+
+
 def _response(sections_tf):
     return Response.from_sections(sections_tf)
 
@@ -193,7 +211,7 @@ def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=N
     total = len(design.sections)
     for i, s in enumerate(design.sections):
         candidate = s.candidate
-        nf = _full(candidate)
+        nf = _own_order(candidate)
         values = candidate.snapped.values
         varied = [p for p in nf.symbols if _is_part(candidate.topology, p)]
         tolerances = part_tolerances(candidate.topology, varied, spec.tolerance.tolerances)

@@ -25,12 +25,10 @@ import time
 import tomllib
 from collections import OrderedDict
 from dataclasses import dataclass, field, replace
-from functools import partial
 from pathlib import Path
 from typing import Any, Callable
 
-from ..place.amplifier import place_section_with_amplifier
-from ..design import Design, design, place_section
+from ..design import Design, design, place_candidate
 from ..errors import SpecError, UnreachableTarget
 from ..evidence.gather import gather_evidence
 from ..report.bom import bom_csv, bom_rows
@@ -246,10 +244,6 @@ class ExploreSession:
                              for s in sections)
         self.response = spec.target.response
         self.gain_db = float(spec.target.gain_db)
-        amplifier = spec.amplifier
-        real = amplifier is not None and not amplifier.is_ideal
-        self._place = (partial(place_section_with_amplifier, amplifier=amplifier) if real
-                       else place_section)
         self._placements = _LRU(_CACHE_SIZE)
         self._drawings = _LRU(256)
         self._work = threading.Lock()
@@ -385,12 +379,13 @@ class ExploreSession:
 
     def _placer(self, tracker: _Tracker) -> Callable:
         """design()'s `place`, memoised on (section, topology, seed)."""
-        def place(section: Section, topology: Any, *, parts: Any = None, seed: int = 0,
-                  level: Any = None) -> Any:
+        def place(section: Section, topology: Any, *, index: int, parts: Any = None,
+                  amplifier: Any = None, seed: int = 0, level: Any = None) -> Any:
             tracker.last = section
-            key = (section, topology.id, getattr(topology, "path", ""), seed, level)
+            key = (section, topology.id, getattr(topology, "path", ""), index, seed, level)
             candidate, made = self._placements.get(
-                key, lambda: self._place(section, topology, parts=parts, seed=seed, level=level))
+                key, lambda: place_candidate(section, topology, index=index, parts=parts,
+                                             amplifier=amplifier, seed=seed, level=level))
             if made:
                 tracker.placed.add(section)
             return candidate

@@ -55,12 +55,20 @@ if TYPE_CHECKING:
     )
     from .placement import (
         PART_KINDS,
+        UNSTABLE_REASON,
         Candidate,
+        CandidateSeeds,
+        candidate_seeds,
+        parts_notes,
+        right_half_plane_poles,
+        require_stable,
         IdealPlacement,
         problem_options,
         place_ideal,
         value_spread,
         worst_error_pct,
+        snap_weighs_gain,
+        GAIN_WITHIN_REACH,
     )
     from .snap import (
         SnapResult,
@@ -85,6 +93,10 @@ if TYPE_CHECKING:
         passband_gain,
         batched_least_squares,
         figure_error,
+    )
+    from .ties import (
+        Ties,
+        tie_parts,
     )
 
 #: Public name -> the module of this folder that defines it.
@@ -125,12 +137,20 @@ _EXPORTS = {
     "function_at_gbw": "opamp",
     "ScaledFunction": "opamp",
     "PART_KINDS": "placement",
+    "UNSTABLE_REASON": "placement",
     "Candidate": "placement",
+    "CandidateSeeds": "placement",
+    "candidate_seeds": "placement",
+    "parts_notes": "placement",
+    "right_half_plane_poles": "placement",
+    "require_stable": "placement",
     "IdealPlacement": "placement",
     "problem_options": "placement",
     "place_ideal": "placement",
     "value_spread": "placement",
     "worst_error_pct": "placement",
+    "snap_weighs_gain": "placement",
+    "GAIN_WITHIN_REACH": "placement",
     "SnapResult": "snap",
     "snap": "snap",
     "round_each": "snap",
@@ -151,6 +171,8 @@ _EXPORTS = {
     "passband_gain": "solve",
     "batched_least_squares": "solve",
     "figure_error": "solve",
+    "Ties": "ties",
+    "tie_parts": "ties",
 }
 
 __all__ = sorted(_EXPORTS)

@@ -46,7 +46,7 @@ from .opamp import (
     function_at_gbw,
 )
 from ..analysis.pencil import circuit_poles
-from .placement import Candidate, place_ideal, problem_options
+from .placement import Candidate, place_ideal, problem_options, snap_weighs_gain
 from .snap import COARSE_BUDGET, snap
 from .solve import make_problem, root_errors, solve
 
@@ -371,10 +371,11 @@ def correct_placement(ideal, topology, dominant, *, ranges=None, fixed=None, con
     solution = solve(problem, seed=seed, initial=[ideal.solution.u, *ideal.solution.alternatives],
                      starts=ROBUST_STARTS)
     if prefer is None:
-        return problem, solution, snap(problem, solution, series=series, coarse_budget=coarse_budget)
+        return problem, solution, snap(problem, solution, series=series, coarse_budget=coarse_budget,
+                                       with_gain=snap_weighs_gain(problem, solution))
     solution = robust_first(problem, solution, prefer)
     snapped = snap(problem, solution, series=series, coarse_budget=coarse_budget, prefer=prefer,
-                   spread_slack=ROBUST_SLACK)
+                   spread_slack=ROBUST_SLACK, with_gain=snap_weighs_gain(problem, solution))
     return problem, solution, snapped
 
 

@@ -31,6 +31,7 @@ from scipy.stats import qmc
 from ..errors import SpecError, UnreachableTarget
 from ..circuit.library import realises
 from ..analysis.network import network_function
+from .ties import tie_parts
 
 __all__ = [
     "Goal",
@@ -49,6 +50,11 @@ __all__ = [
 ]
 
 GAIN_WEIGHT = 0.1
+#: Residual floor of a denominator coefficient whose sign differs from the
+#: goal's: larger than any log ratio within the value ranges (ln 1e20 ≈ 46),
+#: so a solution with poles mirrored into the right half-plane (the same
+#: |coefficients|) never ranks beside one on target.
+WRONG_SIGN_RESIDUAL = 50.0
 
 
 @dataclass(frozen=True)
@@ -198,7 +204,7 @@ def residuals_from(numerator, denominator, goal, *, with_gain=True):
                 f"the topology's denominator has order {n}, the goal needs order {len(target) - 1}"
             )
         for i in range(1, n + 1):
-            rows.append(np.log(np.abs(monic[i]) / abs(target[i])) if target[i] != 0 else monic[i])
+            rows.append(_coefficient_residual(monic[i], target[i]))
         m = numerator.shape[0] - 1
         if len(goal.numerator_shape) > 1 or m > 0:
             nscale = goal.omega_ref ** np.arange(m, -1, -1).reshape((-1,) + (1,) * (numerator.ndim - 1))
@@ -226,6 +232,37 @@ def residuals_from(numerator, denominator, goal, *, with_gain=True):
     return np.where(np.isfinite(out), out, 1e3)
 
 
+def _coefficient_residual(achieved: np.ndarray, wanted: float) -> np.ndarray:
+    """ln(achieved/wanted) for a coefficient of the goal's sign, else a large negative residual.
+
+    Matching |coefficients| alone would accept a denominator whose poles
+    are mirrored into the right half-plane (an equal-component Sallen–Key
+    with K > 3 has the |a1| of the stable K < 3 design). A coefficient of
+    the wrong sign gets −(WRONG_SIGN_RESIDUAL + ln(1 + |ratio|)): its square
+    falls as the coefficient shrinks towards zero, the way back to the
+    goal's sign, and stays above that of any coefficient of the right sign.
+    """
+    if wanted == 0:
+        return achieved
+    ratio = achieved / wanted
+    with np.errstate(divide="ignore", invalid="ignore"):
+        right = np.log(np.abs(ratio))
+        wrong = -(WRONG_SIGN_RESIDUAL + np.log1p(np.abs(ratio)))
+    return np.where(ratio > 0, right, wrong)
+
+
+def _omega0_q(a2: np.ndarray, a1: np.ndarray, a0: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """ω0 and Q of a2·s² + a1·s + a0, Q signed (negative: poles in the right half-plane).
+
+    NaN for a pair of real poles on either side of the origin (a0/a2 < 0).
+    Works on numbers and arrays.
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        omega0 = np.sqrt(np.where(a0 / a2 >= 0, a0 / a2, np.nan))
+        q = np.sqrt(np.where(a0 * a2 >= 0, a0 * a2, np.nan)) / (a1 * np.sign(a2))
+    return omega0, q
+
+
 def passband_gain(numerator, denominator, kind):
     """Signed pass-band gain from coefficient arrays (highest power first).
 
@@ -240,8 +277,10 @@ def passband_gain(numerator, denominator, kind):
         return (numerator[-2] if numerator.shape[0] >= 2 else 0 * numerator[0]) / denominator[-2]
     if numerator.shape[0] == denominator.shape[0]:
         return numerator[0] / denominator[0]
-    if kind == "center":
+    if kind == "center" and numerator.shape[0] >= 2 and denominator.shape[0] >= 2:
         return numerator[-2] / denominator[-2]
+    # a numerator of lower degree (or a first-order denominator asked for a
+    # centre gain, a topology that cannot fit the section) has no such gain
     return 0 * denominator[0]
 
 
@@ -255,9 +294,7 @@ def figure_error(numerator, denominator, goal, *, with_gain=True):
     n = denominator.shape[0] - 1
     with np.errstate(divide="ignore", invalid="ignore"):
         if n == 2 and goal.q is not None:
-            a2, a1, a0 = denominator
-            omega0 = np.sqrt(a0 / a2)
-            q = np.sqrt(a0 * a2) / np.abs(a1)
+            omega0, q = _omega0_q(*denominator)
             errors = [np.abs(omega0 / goal.omega0 - 1), np.abs(q / goal.q - 1)]
         elif n == 1 and goal.omega0 is not None:
             errors = [np.abs(denominator[1] / denominator[0] / goal.omega0 - 1)]
@@ -288,20 +325,28 @@ def make_problem(topology, goal, *, ranges=None, fixed=None, constraints=None, n
     fixed : mapping, optional
         Part → value (SI) to hold fixed; must lie in the part's range.
     constraints : sequence of Constraint, optional
-        Added to the topology's own.
+        Added to the topology's own. A constraint the topology's own ties
+        already imply is dropped; a constraint that ties a fixed part fixes
+        its partner too (:func:`placer.ties.tie_parts`).
 
     Raises
     ------
     SpecError
-        A fixed part or constraint naming a part the topology lacks, or a
-        fixed value outside its range.
+        A fixed part or constraint naming a part the topology lacks, a
+        fixed value outside its range, or constraints and fixed parts of
+        the spec that contradict one another.
+    UnreachableTarget
+        When the topology's order or kind cannot fit the goal (checked
+        before anything is evaluated), or the spec's constraints contradict
+        the topology's own ties or values.
     """
+    reason = structural_reason(topology, goal)
+    if reason:
+        raise UnreachableTarget(reason)
     if ranges:
         topology = topology.with_ranges(ranges)
     nf = nf or network_function(topology.circuit)
     fixed = dict(fixed or {})
-    free = list(topology.free)
-    values = dict(topology.values)
     for part, value in fixed.items():
         if part not in topology.symbols:
             raise SpecError(
@@ -314,33 +359,15 @@ def make_problem(topology, goal, *, ranges=None, fixed=None, constraints=None, n
                 raise SpecError(
                     f"fixed part {part!r} = {value:g} lies outside its range [{low:g}, {high:g}]"
                 )
-        values[part] = float(value)
-        if part in free:
-            free.remove(part)
-    tied = {}
-    for constraint in tuple(topology.constraints) + tuple(constraints or ()):
+    for constraint in tuple(constraints or ()):
         for name in (constraint.part, constraint.source):
             if name not in topology.symbols:
                 raise SpecError(
                     f"constraint '{constraint}' names {name!r}, which topology "
                     f"{topology.id!r} lacks (parts: {', '.join(topology.symbols)})"
                 )
-        if constraint.part in fixed:
-            raise SpecError(f"constraint '{constraint}' ties {constraint.part!r}, which is fixed")
-        if constraint.part in tied:
-            raise SpecError(f"part {constraint.part!r} is tied by two constraints")
-        source, factor = constraint.source, constraint.factor
-        while source in tied:
-            source, extra = tied[source]
-            factor *= extra
-        tied[constraint.part] = (source, factor)
-        if constraint.part in free:
-            free.remove(constraint.part)
-    for part, (source, factor) in list(tied.items()):
-        if source in values:
-            values[part] = values[source] * factor
-            del tied[part]
-    independent = tuple(free)
+    ties = tie_parts(topology, tuple(constraints or ()), fixed)
+    tied, values, independent = ties.tied, ties.values, ties.independent
     low = np.log([topology.ranges[p][0] for p in independent]) if independent else np.zeros(0)
     high = np.log([topology.ranges[p][1] for p in independent]) if independent else np.zeros(0)
     # a tied part must stay within its own range: shrink the source's range
@@ -569,8 +596,14 @@ def _miss_reason(problem, u, error):
     numerator, denominator = problem.nf.coefficients(values)
     achieved = ""
     if denominator.shape[0] == 3:
-        a2, a1, a0 = denominator
-        achieved = f" (best reached: f0 {math.sqrt(a0 / a2) / (2 * math.pi):.4g} Hz, Q {math.sqrt(a0 * a2) / abs(a1):.4g})"
+        omega0, q = (float(x) for x in _omega0_q(*denominator))
+        if math.isfinite(omega0) and math.isfinite(q):
+            achieved = f" (best reached: f0 {omega0 / (2 * math.pi):.4g} Hz, Q {q:.4g})"
+    monic = np.asarray(denominator, float) / float(denominator[0])
+    if np.any(monic[1:] <= 0):
+        # a real polynomial with a coefficient of the wrong sign has a root in
+        # the right half-plane (or on the jω axis): Stodola's necessary condition
+        achieved += ("; its nearest design is unstable: poles in the right half-plane")
     return (
         f"topology {problem.topology.id!r} misses the goal by {100 * error:.3g} % within its "
         f"value ranges{achieved}; widen the ranges or choose another topology"
@@ -652,13 +685,13 @@ def root_errors(nf, values, goal):
     gain = float(passband_gain(numerator, denominator, goal.gain_kind))
     f0_pct = q_pct = zero_pct = None
     if denominator.shape[0] == 3:
-        a2, a1, a0 = denominator
-        omega0 = math.sqrt(a0 / a2)
-        q = math.sqrt(a0 * a2) / abs(a1)
+        omega0, q = (float(x) for x in _omega0_q(*denominator))
+        # a figure the roots do not define (real poles either side of the
+        # origin) is an infinite error, never a NaN that max() would skip
         if goal.omega0:
-            f0_pct = 100 * (omega0 / goal.omega0 - 1)
+            f0_pct = 100 * (omega0 / goal.omega0 - 1) if math.isfinite(omega0) else math.inf
         if goal.q:
-            q_pct = 100 * (q / goal.q - 1)
+            q_pct = 100 * (q / goal.q - 1) if math.isfinite(q) else math.inf
     elif denominator.shape[0] == 2 and goal.omega0:
         f0_pct = 100 * (denominator[1] / denominator[0] / goal.omega0 - 1)
     if goal.zero_omega and numerator.shape[0] == 3 and numerator[0] != 0:

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 
 from .. import __version__
-from ..compare import _SHORT, _SOURCES, RANK_KEYS
+from ..compare import _SHORT, _SOURCES, RANK_KEYS, SectionComparison
 from ..design import candidate_topologies
 from ..units import format_value
 from .console import fmt_rejection, table, windows_text
@@ -35,6 +35,19 @@ _LEGEND = [
     "the least phase margin of its op-amps' own loops (return ratio, the spec's op-amp model "
     "or the default '10 MHz' preset; below 45° is low)",
 ]
+_RESOLVED_HEADER = "GBW re-solved (Hz)"
+#: What each GBW method puts in the "GBW needed" column, for the heading.
+_METHOD_LINES = {
+    "built": "GBW needed (--gbw built): the single-pole op-amp model on each ideal-op-amp "
+             "design as snapped, the smallest GBW (at least 10·f0) that keeps it within 1 % "
+             "of the target as built",
+    "rule": "GBW needed (--gbw rule): the rule of thumb 100·f0·Q (f0 in Hz; Q taken as 1 "
+            "for a first-order stage)",
+    "model": "GBW needed (--gbw model): the op-amp model on each ideal-op-amp design as "
+             "snapped, as with --gbw built; GBW re-solved: the smallest GBW at which a "
+             "design re-solved and re-snapped for the op-amp stays within 1 % of the "
+             "target, also with the GBW 25 % off (placer.place.gbw.required_gbw)",
+}
 _REJECTION_LEGEND = ("rejection: what 99 % of the builds still take off the target's zero "
                      "frequency (pass-band gain over |H| there)")
 
@@ -51,7 +64,7 @@ def _short_source(source):
 
 
 def _heading(comparison):
-    """The two header lines: the ranking key, and what the yield counts."""
+    """The header lines: the ranking key, what the yield counts, the GBW method."""
     spec = comparison.spec
     windows = windows_text(spec.tolerance.windows)
     tolerances = ", ".join(f"{k} {100 * v:g} %" for k, v in spec.tolerance.tolerances.items())
@@ -60,7 +73,8 @@ def _heading(comparison):
             f"({spec.tolerance.distribution}; {tolerances}) inside {windows} of the TARGET"
             + ("" if "gain_db" in spec.tolerance.windows else ", gain ±0.5 dB")
             + f"; seed {comparison.seed}; one standard error of a yield is at most "
-            f"±{100 * math.sqrt(0.25 / comparison.samples):.1f} %")
+            f"±{100 * math.sqrt(0.25 / comparison.samples):.1f} %",
+            _METHOD_LINES.get(comparison.gbw, f"GBW needed (--gbw {comparison.gbw})"))
 
 
 def _section_line(s):
@@ -71,9 +85,13 @@ def _section_line(s):
             + f", gain {sec.gain_db + 0.0:+.3f} dB".replace("-0.000 ", "+0.000 "))
 
 
-def _rows(s):
-    """(headers, rows) of one section's reachable candidates, in rank order."""
+def _rows(s: SectionComparison, gbw: str = "built") -> tuple[list[str], list[list]]:
+    """(headers, rows) of one section's reachable candidates, in rank order.
+
+    With the "model" GBW method a column gives the re-solved design's GBW.
+    """
     notch = any(c.rejection_db is not None for c in s.candidates)
+    resolved = gbw == "model"
     rows = []
     for rank, c in enumerate((c for c in s.candidates if c.reachable), start=1):
         rows.append([rank, c.topology, c.parts, c.opamps, f"{c.error_pct:.3f}",
@@ -84,8 +102,17 @@ def _rows(s):
                      _short_source(c.gbw_source), _number(c.gbw_drift_pct),
                      "-" if c.noise_rms_v is None else f"{1e6 * c.noise_rms_v:.3g}",
                      "-" if c.worst_phase_margin_deg is None else f"{c.worst_phase_margin_deg:.1f}"]
+                    + (["-" if c.gbw_resolved_hz is None else format_value(c.gbw_resolved_hz, "Hz")]
+                       if resolved else [])
                     + ([fmt_rejection(c.rejection_db).removesuffix(" dB")] if notch else []))
-    return _HEADERS + (["rejection (dB)"] if notch else []), rows
+    headers = (_HEADERS + ([_RESOLVED_HEADER] if resolved else [])
+               + (["rejection (dB)"] if notch else []))
+    return headers, rows
+
+
+def _notes_lines(s: SectionComparison) -> list[str]:
+    """One line per candidate whose placement left out some of the spec's [parts]."""
+    return [f"    {c.topology}: {note}" for c in s.candidates for note in c.notes]
 
 
 def _notes(comparison):
@@ -101,16 +128,20 @@ def _notes(comparison):
 
 def comparison_text(comparison):
     """One console table per section, then the unreachable ones with reasons."""
-    ranked, counted = _heading(comparison)
-    lines = [f"Compare: {comparison.spec.title} — {ranked}", f"  {counted}"]
+    ranked, counted, method = _heading(comparison)
+    lines = [f"Compare: {comparison.spec.title} — {ranked}", f"  {counted}", f"  {method}"]
     for s in comparison.sections:
         lines += ["", _section_line(s)]
-        headers, rows = _rows(s)
+        headers, rows = _rows(s, comparison.gbw)
         lines.append(table(headers, rows) if rows else "  no candidate reaches this section")
         unreachable = [c for c in s.candidates if not c.reachable]
         if unreachable:
             lines.append("  cannot reach it:")
             lines.extend(f"    {c.topology}: {c.reason}" for c in unreachable)
+        noted = _notes_lines(s)
+        if noted:
+            lines.append("  placed without some of [parts]:")
+            lines.extend(noted)
     legend, methods = _notes(comparison)
     lines += ["", "Columns:"] + [f"  {line}" for line in legend]
     if methods:
@@ -164,16 +195,17 @@ def write_comparison_report(comparison, *, html_path=None, plots_dir=None, input
     spec = comparison.spec
     inputs = prepare_outputs(html_path, plots_dir, tuple(inputs) + (spec.path,))
     plots = Plots(plots_dir, inputs)
-    ranked, counted = _heading(comparison)
+    ranked, counted, method = _heading(comparison)
     title = f"Topology comparison: {spec.title}"
     parts = [f"<h1>{escape(title)}</h1>",
              paragraph(f"Made by placer {__version__}. Frequencies in hertz; errors, yields, "
                        "drifts and spreads as labelled."),
              "<h2>What was asked for</h2>", spec_block(spec.path),
-             "<h2>How the candidates are ranked</h2>", paragraph(ranked), paragraph(counted)]
+             "<h2>How the candidates are ranked</h2>", paragraph(ranked), paragraph(counted),
+             paragraph(method)]
     for s in comparison.sections:
         parts.append(f"<h2>{escape(_section_line(s))}</h2>")
-        headers, rows = _rows(s)
+        headers, rows = _rows(s, comparison.gbw)
         if rows:
             parts.append(html_table(headers, rows, numeric_from=2))
             reachable = [c for c in s.candidates if c.reachable]
@@ -194,6 +226,11 @@ def write_comparison_report(comparison, *, html_path=None, plots_dir=None, input
             parts.append("<ul>" + "".join(f"<li><code>{escape(c.topology)}</code>: "
                                           f"{escape(c.reason)}</li>" for c in unreachable)
                          + "</ul>")
+        noted = [(c.topology, note) for c in s.candidates for note in c.notes]
+        if noted:
+            parts.append(paragraph("Placed without some of [parts]:"))
+            parts.append("<ul>" + "".join(f"<li><code>{escape(t)}</code>: {escape(n)}</li>"
+                                          for t, n in noted) + "</ul>")
     legend, methods = _notes(comparison)
     parts.append("<h2>The columns</h2>")
     parts.append("<ul>" + "".join(f"<li>{escape(line)}</li>" for line in legend) + "</ul>")

@@ -130,6 +130,7 @@ def design_text(data):
                          p["series"] or "fixed", format_value(p["continuous"], _UNIT[p["kind"]], digits=4)])
         lines.append("")
         lines.append(table(["part", "kind", "value", "series", "continuous value"], rows))
+        lines.extend(f"  note: {note}" for note in s.get("notes", ()))
         if s.get("amplifier"):
             lines.append("")
             lines.extend(_amplifier_lines(s["amplifier"]))
@@ -142,7 +143,13 @@ def design_text(data):
             lines.extend(section_lines(data["prelayout"], s["index"]))
     achieved = data["achieved"]
     lines.append("")
-    lines.append(f"Whole cascade: {len(achieved['poles'])} poles, {len(achieved['zeros'])} zeros, "
+    parasitic = len(achieved.get("parasitic_poles", ()))
+    lines.append(f"Whole cascade: {len(achieved['poles'])} poles"
+                 + (f" (+{parasitic} op-amp parasitic pole{'s' if parasitic > 1 else ''})"
+                    if parasitic else "")
+                 + f", {len(achieved['zeros'])} zeros"
+                 + (f" (+{len(achieved['parasitic_zeros'])} op-amp parasitic)"
+                    if achieved.get("parasitic_zeros") else "") + ", "
                  f"gain {fmt_gain(achieved['gain_db'])} {fmt_where(achieved.get('gain_at_hz'))}"
                  f"{' (inverting)' if achieved['inverting'] else ''}")
     if data.get("prelayout"):

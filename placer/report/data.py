@@ -113,6 +113,7 @@ def design_to_dict(design, *, evidence=None, prelayout=None):
             "opamps": int(s.topology.opamp_count),
             "circuit": s.circuit.to_dict(),
             "candidates": [candidate_to_dict(k) for k in s.candidates],
+            "notes": list(c.notes),
         }
         amplifier = amplifier_summary(s)
         if amplifier is not None:
@@ -127,7 +128,9 @@ def design_to_dict(design, *, evidence=None, prelayout=None):
         "circuit": design.circuit.to_dict(),
         "achieved": {
             "poles": roots_to_list(design.poles),
+            "parasitic_poles": roots_to_list(design.parasitic_poles),
             "zeros": roots_to_list(design.zeros),
+            "parasitic_zeros": roots_to_list(design.parasitic_zeros),
             "gain_db": 20 * math.log10(abs(overall_gain)) if overall_gain else None,
             "inverting": overall_gain < 0,
             # where the gain was measured on the built cascade: the target's

@@ -154,7 +154,12 @@ def _section_tables(data):
     out.append(paragraph(f"Whole cascade: target gain {fmt_gain(data['target']['gain_db'])}, achieved "
                   f"{fmt_gain(achieved['gain_db'])} {fmt_where(achieved.get('gain_at_hz'))}"
                   f"{' (inverting)' if achieved.get('inverting') else ''}; "
-                  f"{len(achieved['poles'])} poles, {len(achieved['zeros'])} finite zeros."))
+                  f"{len(achieved['poles'])} poles"
+                  + (f" (+{len(achieved['parasitic_poles'])} op-amp parasitic)"
+                     if achieved.get("parasitic_poles") else "")
+                  + f", {len(achieved['zeros'])} finite zeros"
+                  + (f" (+{len(achieved['parasitic_zeros'])} op-amp parasitic)"
+                     if achieved.get("parasitic_zeros") else "") + "."))
     return out
 
 
