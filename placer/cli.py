@@ -15,13 +15,12 @@ import argparse
 import json
 import math
 import sys
-import tomllib
 from pathlib import Path
 
 from . import __version__
 from .errors import PlacerError, SpecError, UnreachableTarget
 from .report.files import check_output_path, write_text
-from .units import format_value, parse_value
+from .units import format_value
 
 # The analysis stack (sympy, scipy, python-control) loads inside the
 # commands, so `placer --help` answers at once.
@@ -141,34 +140,6 @@ def _emit_json(data, destination, *, inputs=(), option="--json"):
         write_text(destination, text, inputs=inputs, option=option)
 
 
-def _parse_settings(items):
-    values = {}
-    for item in items:
-        if "=" not in item:
-            raise SpecError(f"--set {item!r}: expected PART=VALUE, for example R1=10k")
-        name, text = item.split("=", 1)
-        name = name.strip()
-        values[name] = parse_value(text.strip(), field=f"--set {name}")
-    return values
-
-
-def _load_analysable(name):
-    """A library id, a topology file, or a plain circuit file."""
-    from .circuit import circuit_from_dict
-    from .library import resolve_topology
-
-    path = Path(name)
-    if path.suffix == ".toml" and path.is_file():
-        try:
-            data = tomllib.loads(path.read_text(encoding="utf-8"))
-        except tomllib.TOMLDecodeError as error:
-            raise SpecError(f"{name}: not valid TOML ({error})") from None
-        if "id" not in data:
-            return None, circuit_from_dict(data, source=str(path), parse=parse_value)
-    topology = resolve_topology(name)
-    return topology, topology.circuit
-
-
 def _pairs(roots):
     return [[float(r.real), float(r.imag)] for r in sorted(roots, key=lambda r: (abs(r), r.imag))]
 
@@ -176,19 +147,16 @@ def _pairs(roots):
 # -- analyze -------------------------------------------------------------------
 
 def _cmd_analyze(args):
+    from .circuit import read_settings
+    from .library import load_analysable
     from .network import network_function
     from .pencil import circuit_poles, circuit_zeros
     from .report.console import table
 
-    topology, circuit = _load_analysable(args.topology)
-    settings = _parse_settings(args.set)
+    loaded = load_analysable(args.topology)
+    topology, circuit = loaded.topology, loaded.circuit
+    settings = read_settings(circuit, args.set)
     symbols = circuit.symbols
-    for name in settings:
-        if name not in symbols:
-            raise SpecError(
-                f"--set {name}: the circuit has no symbolic part {name!r} "
-                f"(parts: {', '.join(symbols) or 'none'})"
-            )
     nf = network_function(circuit)
     values = dict(topology.values) if topology is not None else {}
     values.update(settings)
@@ -395,7 +363,7 @@ def _cmd_loop(args):
     try:
         result = run_loop(spec.loop, source=args.spec, samples=samples, seed=seed,
                           tolerances=tolerances, distribution=spec.tolerance.distribution,
-                          workers=args.workers)
+                          workers=args.workers, parts=spec.parts)
         progress(1, 1, "done")
     finally:
         progress.close()
