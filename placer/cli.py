@@ -20,7 +20,7 @@ from pathlib import Path
 from . import __version__
 from .errors import PlacerError, SpecError, UnreachableTarget
 from .report.files import check_output_path, write_text
-from .units import format_value
+from .units import finite_or_none, format_value
 
 # The analysis stack (sympy, scipy, python-control) loads inside the
 # commands, so `placer --help` answers at once.
@@ -195,18 +195,25 @@ def _cmd_analyze(args):
         lines.append(table(["root", "re (rad/s)", "im (rad/s)", "|root| (Hz)"], rows))
         if nf.order == 2:
             figures = nf.second_order_figures(values)
-            f0 = float(figures.omega0) / (2 * math.pi)
-            q = float(figures.q)
-            gain = float(figures.gain)
-            data.update({"f0_hz": f0, "q": q,
-                         "gain_db": 20 * math.log10(abs(gain)) if gain else None})
-            lines.append(f"  f0 = {format_value(f0, 'Hz', digits=4)}   Q = {q:.4f}   gain = "
-                         + (f"{20 * math.log10(abs(gain)):+.3f} dB" if gain else "0") + (" (inverting)" if gain < 0 else ""))
+            # No f0 or Q when D(s)'s coefficients differ in sign; no DC gain with a pole at 0.
+            f0 = finite_or_none(float(figures.omega0) / (2 * math.pi))
+            q = finite_or_none(float(figures.q))
+            gain = finite_or_none(float(figures.gain))
+            gain_db = 20 * math.log10(abs(gain)) if gain else None
+            data.update({"f0_hz": f0, "q": q, "gain_db": gain_db})
+            shown = ("0" if gain == 0 else "none (a pole at s = 0)" if gain is None
+                     else f"{gain_db:+.3f} dB" + (" (inverting)" if gain < 0 else ""))
+            lines.append((f"  f0 = {format_value(f0, 'Hz', digits=4)}   Q = {q:.4f}"
+                          if f0 is not None and q is not None else
+                          "  f0, Q: none (D(s) has coefficients of both signs: real poles, "
+                          "one in the right half-plane)") + f"   gain = {shown}")
         elif nf.order == 1:
             numerator, denominator = nf.coefficients(values)
-            f0 = float(denominator[1] / denominator[0]) / (2 * math.pi)
+            f0 = finite_or_none(float(denominator[1]) / float(denominator[0])
+                                / (2 * math.pi)) if float(denominator[0]) else None
             data["f0_hz"] = f0
-            lines.append(f"  f0 = {format_value(f0, 'Hz', digits=4)}")
+            lines.append(f"  f0 = {format_value(f0, 'Hz', digits=4)}" if f0 is not None
+                         else "  f0: none")
     elif settings:
         lines.append("")
         lines.append(f"  (give every part a value for numbers; still missing: {', '.join(missing)})")

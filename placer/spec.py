@@ -234,10 +234,11 @@ def _folder(folder, source):
 def _candidates(table, source):
     check_table(table, "candidates", source=source)
     folder = table.get("folder")
-    own = {}
+    own, failed = {}, {}
     if folder is not None:
         folder = _folder(folder, source)
-        own = load_folder(folder)["topologies"]
+        loaded = load_folder(folder)
+        own, failed = loaded["topologies"], loaded["errors"]
     topologies = table.get("topologies")
     if topologies is not None:
         if not topologies:
@@ -255,7 +256,9 @@ def _candidates(table, source):
             try:  # an unknown id or a bad file is bad input here, not at design time
                 resolve_topology(item)
             except SpecError as error:
-                raise SpecError(f"{source}: candidates.topologies: {error}") from None
+                why = "".join(f"; the folder's {Path(path).name} did not load: {message}"
+                              for path, message in list(failed.items())[:1])
+                raise SpecError(f"{source}: candidates.topologies: {error}{why}") from None
             resolved.append(item)
         topologies = tuple(resolved)
     return topologies, folder
