@@ -29,6 +29,7 @@ _EXPORTS = {
     "Topology": "topology", "load_topology": "topology",
     "library_topologies": "library", "get_topology": "library",
     "resolve_topology": "library", "find_topologies": "library",
+    "load_analysable": "library", "SPEC_TABLES": "schema", "read_toml": "schema",
     "NetworkFunction": "network", "network_function": "network",
     "circuit_poles": "pencil", "circuit_zeros": "pencil", "circuit_response": "pencil",
     "circuit_roots": "pencil", "circuit_gain": "pencil",
