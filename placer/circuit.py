@@ -18,6 +18,8 @@ from __future__ import annotations
 
 import math
 import re
+from collections.abc import Callable, Iterable
+from typing import Any
 from dataclasses import dataclass, field, replace
 
 import networkx as nx
@@ -509,7 +511,8 @@ def _check_source_loops(circuit, where):
         forest.add_edge(a, b, element=data["element"])
 
 
-def circuit_from_dict(data, *, source="circuit", parse=None):
+def circuit_from_dict(data: Any, *, source: str = "circuit",
+                      parse: Callable[..., float] | None = None) -> Circuit:
     """Build a Circuit from a dict in the schema (TOML or JSON shape).
 
     Parameters
@@ -557,7 +560,8 @@ def circuit_from_dict(data, *, source="circuit", parse=None):
         raise type(error)(f"{source}: {error}") from None
 
 
-def _element_from_dict(item, index: int, source: str, parse) -> Element:
+def _element_from_dict(item: Any, index: int, source: str,
+                       parse: Callable[..., float] | None) -> Element:
     """One element table: keys, types, values in the kind's unit and bounds."""
     label = f"{source}: element {index + 1}"
     if not isinstance(item, dict):
@@ -571,6 +575,7 @@ def _element_from_dict(item, index: int, source: str, parse) -> Element:
             raise unknown_key(key, ELEMENT_KEYS, label, noun="field")
     kind = item.get("kind")
     check_type(kind, "name", f"{label}: kind", ELEMENT_KEYS["kind"].description)
+    assert isinstance(kind, str)  # for the type checker: check_type made sure
     nodes = item.get("nodes")
     if not isinstance(nodes, list):
         raise SpecError(f"{label}: 'nodes' must be a list of node names")
@@ -602,12 +607,13 @@ def _element_from_dict(item, index: int, source: str, parse) -> Element:
     return element
 
 
-def _node_name(raw):
+def _node_name(raw: Any) -> Any:
     """Node names are strings; a whole number (``0``, ``1``) is read as one."""
     return str(raw) if isinstance(raw, int) and not isinstance(raw, bool) else raw
 
 
-def _number(raw, field_name, parse, unit=None):
+def _number(raw: Any, field_name: str, parse: Callable[..., float] | None,
+            unit: str | None = None) -> float:
     if isinstance(raw, bool):
         raise SpecError(f"{field_name}: expected a number, not {raw!r}")
     if isinstance(raw, (int, float)):
@@ -618,7 +624,7 @@ def _number(raw, field_name, parse, unit=None):
                     f"not {brief(raw)}")
 
 
-def read_settings(circuit: Circuit, items, *, option: str = "--set") -> dict:
+def read_settings(circuit: Circuit, items: Iterable[str], *, option: str = "--set") -> dict:
     """Read ``PART=VALUE`` texts for a circuit's symbolic parts.
 
     Each value is read in the unit of its part's kind (``C1=10n`` or
@@ -656,7 +662,7 @@ def read_settings(circuit: Circuit, items, *, option: str = "--set") -> dict:
     ...
     placer.errors.SpecError: --set R1: a resistor value of -1000 is outside 1 mΩ to 1 TΩ
     """
-    kinds = {}
+    kinds: dict[str, str] = {}
     for element in circuit.elements:
         if element.is_symbolic:
             kinds.setdefault(element.symbol, element.kind)

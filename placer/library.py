@@ -83,7 +83,7 @@ def _names_a_file(text: str) -> bool:
         return False
 
 
-def resolve_topology(name_or_path):
+def resolve_topology(name_or_path: str | Path) -> Topology:
     """A library id, or a path to a topology file (ends in .toml or exists)."""
     text = str(name_or_path)
     if _names_a_file(text):

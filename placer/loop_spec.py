@@ -12,6 +12,7 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
+from typing import Any
 
 from .circuit import check_part_value
 from .eseries import check_series
@@ -54,7 +55,7 @@ class LoopResult:
     monte_carlo: LoopMonteCarlo | None
 
 
-def _series_and_ranges(loop, parts, where):
+def _series_and_ranges(loop: Mapping, parts: Any, where: str) -> dict:
     """The parts' series ([loop] or [parts], not both at odds) and [parts] ranges."""
     given = parts.given if parts is not None else frozenset()
     out = {}
@@ -74,7 +75,7 @@ def _series_and_ranges(loop, parts, where):
     return out
 
 
-def loop_from_table(table, *, source="spec", parts=None):
+def loop_from_table(table: Mapping, *, source: str = "spec", parts: Any = None) -> LoopSpec:
     """Read the ``[loop]`` table of a parsed spec file.
 
     Parameters

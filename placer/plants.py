@@ -414,11 +414,11 @@ _CONVERTER_BOUNDS = {"vin": "voltage", "vout": "voltage", "inductance": "inducto
 _ROOT_LIMIT = 2 * math.pi * LIMITS["frequency"].high
 
 
-def check_keys(table, accepted, where):
+def check_keys(table: dict, accepted: set, where: str) -> None:
     """SpecError for the first key of `table` not in `accepted`, with the nearest."""
     for key in table:
         if key not in accepted:
-            raise unknown_key(key, sorted(accepted), where)
+            raise unknown_key(key, tuple(sorted(accepted)), where)
 
 
 def _read(table, key, where, unit=None):
@@ -427,7 +427,7 @@ def _read(table, key, where, unit=None):
     return parse_value(table[key], unit=unit, field=f"{where}.{key}")
 
 
-def _bounded(key, value, where):
+def _bounded(key: str, value: float, where: str) -> float:
     """A converter figure within its bounds (esr may be 0, duty is checked later)."""
     bound = _CONVERTER_BOUNDS.get(key)
     if bound is None or (key == "esr" and value == 0):
@@ -437,7 +437,7 @@ def _bounded(key, value, where):
     return check_part_value(bound, value, f"{where}.{key}")
 
 
-def _roots_of(raw, where, scale):
+def _roots_of(raw: list, where: str, scale: float) -> list:
     roots = []
     for item in raw:
         if isinstance(item, list):

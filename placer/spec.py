@@ -41,6 +41,7 @@ import difflib
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
 from .circuit import KIND_UNITS, VALUE_LIMITS, check_part_value
 from .errors import SpecError, brief
@@ -116,7 +117,7 @@ class Spec:
     raw: dict
 
 
-def load_spec(path):
+def load_spec(path: str | Path) -> Spec:
     """Read and validate a spec file.
 
     Raises
@@ -130,7 +131,7 @@ def load_spec(path):
     return spec_from_dict(data, source=str(path))
 
 
-def spec_from_dict(data, *, source="spec"):
+def spec_from_dict(data: dict, *, source: str = "spec") -> Spec:
     """Validate a parsed spec (see the module docstring for the keys)."""
     check_table(data, "", source=source)
     target = None
@@ -161,7 +162,7 @@ def spec_from_dict(data, *, source="spec"):
     )
 
 
-def _choice(value, valid, where):
+def _choice(value: Any, valid: tuple, where: str) -> str:
     if value not in valid:
         text = str(value)
         close = difflib.get_close_matches(text, valid, n=1) if len(text) <= 100 else []
@@ -170,7 +171,7 @@ def _choice(value, valid, where):
     return value
 
 
-def _range(raw, kind, where):
+def _range(raw: Any, kind: str, where: str) -> tuple:
     if not isinstance(raw, list) or len(raw) != 2:
         raise SpecError(f"{where} must be two values [low, high], not {brief(raw)}")
     low, high = (_value(v, KIND_UNITS[kind], where) for v in raw)
@@ -183,7 +184,7 @@ def _range(raw, kind, where):
     return (low, high)
 
 
-def _value(raw, unit, where):
+def _value(raw: Any, unit: str | None, where: str) -> float:
     """A finite number (TOML's inf and nan are refused) in `unit` or none."""
     if isinstance(raw, bool):
         raise SpecError(f"{where}: expected a number, not {raw!r}")
@@ -192,7 +193,7 @@ def _value(raw, unit, where):
     raise SpecError(f"{where}: expected a number or a string such as '10k', not {brief(raw)}")
 
 
-def _parts(table, source):
+def _parts(table: dict, source: str) -> PartsSpec:
     check_table(table, "parts", source=source)
     series = dict(_DEFAULT_SERIES)
     ranges = dict(_DEFAULT_RANGES)
@@ -222,7 +223,7 @@ def _parts(table, source):
                      given=frozenset(table))
 
 
-def _folder(folder, source):
+def _folder(folder: str, source: str) -> str:
     """The candidates folder as a path (relative to the spec's folder)."""
     path = Path(folder)
     if not path.is_absolute():
@@ -231,7 +232,7 @@ def _folder(folder, source):
     return str(path)
 
 
-def _candidates(table, source):
+def _candidates(table: dict, source: str) -> tuple:
     check_table(table, "candidates", source=source)
     folder = table.get("folder")
     own, failed = {}, {}
@@ -264,7 +265,8 @@ def _candidates(table, source):
     return topologies, folder
 
 
-def _check_named_parts(parts, candidates, folder, source):
+def _check_named_parts(parts: PartsSpec, candidates: tuple, folder: str | None,
+                       source: str) -> None:
     """Constraints and fixed parts must name parts of some named candidate."""
     topologies = [resolve_topology(item) for item in candidates]
     if folder is not None:
@@ -285,7 +287,7 @@ def _check_named_parts(parts, candidates, folder, source):
             )
 
 
-def _fraction(raw, where):
+def _fraction(raw: Any, where: str) -> float:
     if isinstance(raw, str):
         quantity = parse_quantity(raw, field=where)
         if quantity.unit not in ("%", ""):
@@ -296,7 +298,7 @@ def _fraction(raw, where):
     raise SpecError(f"{where}: expected a percentage such as '1%', not {brief(raw)}")
 
 
-def _percent_window(table, key, source):
+def _percent_window(table: dict, key: str, source: str) -> float:
     value = _fraction(table[key], f"{source}: tolerance.{key}")
     if not 0 < value < 1:
         raise SpecError(
@@ -305,7 +307,7 @@ def _percent_window(table, key, source):
     return value
 
 
-def _db_window(table, key, limit, source, words):
+def _db_window(table: dict, key: str, limit: str, source: str, words: str) -> float:
     where = f"{source}: tolerance.{key}"
     value = _value(table[key], "dB", where)
     if not value > 0:
@@ -313,7 +315,7 @@ def _db_window(table, key, limit, source, words):
     return check_limit(value, limit, where, shown=table[key])
 
 
-def _tolerance(table, parts, source):
+def _tolerance(table: dict, parts: PartsSpec, source: str) -> ToleranceSpec:
     check_table(table, "tolerance", source=source)
     tolerances = {kind: usual_tolerance(parts.series[kind]) for kind in parts.series}
     for kind in ("resistor", "capacitor", "inductor"):
@@ -343,7 +345,7 @@ def _tolerance(table, parts, source):
                          samples=samples, seed=seed, windows=windows)
 
 
-def _amplifier_gain(raw, where):
+def _amplifier_gain(raw: Any, where: str) -> float:
     """An open-loop gain in dB ("100 dB") or V/V (a number), as V/V."""
     if isinstance(raw, str):
         quantity = parse_quantity(raw, field=f"{where} gain")
@@ -365,7 +367,7 @@ def _amplifier_gain(raw, where):
     return check_limit(gain, "opamp_gain", f"{where} gain", shown=raw)
 
 
-def amplifier_from_table(table, *, source="spec"):
+def amplifier_from_table(table: dict, *, source: str = "spec") -> AmplifierSpec:
     """Read an ``[amplifier]`` table into an :class:`AmplifierSpec`.
 
     ``gain`` in dB ("100 dB") or V/V (a plain number); ``gbw`` in Hz;

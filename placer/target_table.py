@@ -9,6 +9,7 @@ the JSON shape the ``target`` command and the reports write.
 
 import math
 from collections.abc import Mapping, Sequence
+from typing import Any
 
 from placer.approximations import (
     APPROXIMATIONS,
@@ -20,7 +21,7 @@ from placer.approximations import (
     suggest,
 )
 from placer.errors import SpecError, brief
-from placer.schema import LIMITS, SPEC_TABLES, check_limit, check_type, unknown_key
+from placer.schema import LIMITS, SPEC_TABLES, check_limit, check_type
 from placer.sections import split_sections
 from placer.targets import (
     RESPONSES,
@@ -49,7 +50,7 @@ _TWO_PI = 2.0 * math.pi
 class _TableReader:
     """Reads a table's keys, naming source, key and value in every error."""
 
-    def __init__(self, table, source, where, schema):
+    def __init__(self, table: Any, source: str, where: str, schema: Mapping) -> None:
         if not isinstance(table, Mapping):
             raise SpecError(f"{source}: {where} must be a table, not {brief(table)}")
         for key, value in table.items():
@@ -59,7 +60,8 @@ class _TableReader:
                                 f"{brief(value)}{hint} (accepted: {', '.join(schema)})")
             check_type(value, schema[key].type, f"{source}: {where}.{key}",
                        schema[key].description)
-        self.table, self.source, self.where, self.used = table, source, where, set()
+        self.table, self.source, self.where = table, source, where
+        self.used: set[str] = set()
 
     def __contains__(self, key):
         return key in self.table
@@ -72,7 +74,8 @@ class _TableReader:
         self.used.add(key)
         return self.table.get(key, default)
 
-    def number(self, key, unit, limit, *, positive=True):
+    def number(self, key: str, unit: str | None, limit: str, *,
+               positive: bool = True) -> float | None:
         """The key's number in `unit`, within ``LIMITS[limit]``; None if absent."""
         if key not in self.table:
             return None
@@ -108,7 +111,7 @@ _SECTION_DEFAULT_KIND = {"lowpass": "lowpass", "highpass": "highpass",
                          "allpass": "allpass", "custom": "lowpass"}
 
 
-def _read_roots(reader, key, units):
+def _read_roots(reader: _TableReader, key: str, units: str) -> list:
     raw = reader.raw(key, [])
     if not isinstance(raw, Sequence) or isinstance(raw, str):
         reader.fail(key, "must be a list of numbers or [re, im] pairs")

@@ -34,6 +34,7 @@ from __future__ import annotations
 import math
 import re
 import tomllib
+from typing import Any
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
@@ -200,7 +201,7 @@ def topology_from_text(text, *, source="topology"):
     return topology_from_dict(data, source=source)
 
 
-def load_topology(path):
+def load_topology(path: str | Path) -> Topology:
     """Read a topology file from any path.
 
     Raises
@@ -213,7 +214,7 @@ def load_topology(path):
     return replace(topology, path=str(path))
 
 
-def topology_from_dict(data, *, source="topology"):
+def topology_from_dict(data: Any, *, source: str = "topology") -> Topology:
     """Build a Topology from parsed TOML (see :func:`topology_from_text`).
 
     Raises
@@ -301,7 +302,7 @@ def topology_from_dict(data, *, source="topology"):
     )
 
 
-def _ranges(raw_ranges, free, symbols, kinds, source):
+def _ranges(raw_ranges: dict, free: list, symbols: tuple, kinds: dict, source: str) -> dict:
     """Symbol → (low, high) for every free part: given, or by kind."""
     for symbol in raw_ranges:
         if symbol not in symbols:
@@ -326,7 +327,7 @@ def _ranges(raw_ranges, free, symbols, kinds, source):
     return ranges
 
 
-def _part_number(raw, kind, where):
+def _part_number(raw: Any, kind: str, where: str) -> float:
     """A part value or range end: finite, in the kind's unit, within its bounds."""
     try:
         value = parse_value(raw, unit=KIND_UNITS[kind] or None, field=where)

@@ -9,6 +9,7 @@ check the result against a handbook formula named beside the check.
 import json
 import math
 import textwrap
+from pathlib import Path
 
 import pytest
 
@@ -42,13 +43,13 @@ nodes = ["vout", "gnd"]
 """
 
 
-def write(tmp_path, text, name="spec.toml"):
+def write(tmp_path: Path, text: str, name: str = "spec.toml") -> Path:
     path = tmp_path / name
     path.write_text(textwrap.dedent(text), encoding="utf-8")
     return path
 
 
-def run(argv, capsys):
+def run(argv: list, capsys: pytest.CaptureFixture) -> tuple:
     """Exit status and stderr of the command; bad input is exactly one error line."""
     status = main([str(a) for a in argv])
     err = capsys.readouterr().err
@@ -58,7 +59,7 @@ def run(argv, capsys):
     return status, err
 
 
-def spec_error(tmp_path, text):
+def spec_error(tmp_path: Path, text: str) -> str:
     path = write(tmp_path, text)
     with pytest.raises(SpecError) as caught:
         load_spec(path)
