@@ -388,31 +388,31 @@ def _check(case: Case) -> None:
     assert not outcome.problems, (case.argv, outcome.problems)
 
 
-@_settings(150)
+@_settings(300)
 @given(target_cases())
 def test_fuzz_target(case):
     _check(case)
 
 
-@_settings(120)
+@_settings(250)
 @given(analyze_cases())
 def test_fuzz_analyze(case):
     _check(case)
 
 
-@_settings(50)
+@_settings(80)
 @given(topologies_cases())
 def test_fuzz_topologies(case):
     _check(case)
 
 
-@_settings(25)
+@_settings(40)
 @given(loop_cases())
 def test_fuzz_loop(case):
     _check(case)
 
 
-@_settings(12)
+@_settings(25)
 @given(design_cases())
 def test_fuzz_design(case):
     _check(case)
