@@ -33,7 +33,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from placer.compare import compare, comparison_to_dict  # noqa: E402
 from placer.report.console import table  # noqa: E402
-from placer.spec import spec_from_dict  # noqa: E402
+from placer.spec.reader import spec_from_dict  # noqa: E402
 
 TARGET_S = 20.0
 SPEC = {

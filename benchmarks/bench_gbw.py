@@ -1,15 +1,15 @@
-"""Benchmark: the GBW search of :func:`placer.gbw.required_gbw`, old and new.
+"""Benchmark: the GBW search of :func:`placer.place.gbw.required_gbw`, old and new.
 
 For one second-order low-pass section (default f0 = 10 kHz, Q = 2, made
-by :func:`placer.targets.make_section`) and each topology, this times
+by :func:`placer.target.targets.make_section`) and each topology, this times
 
 * old: a faithful copy of the algorithm as it was before the search was
   reworked (kept below as :func:`old_required_gbw`): plain bisection in
   log GBW over [2·f0, 1e4·f0·max(Q, 1)], every step re-solving and
-  re-snapping with :func:`placer.amplifier.place_section_with_amplifier`
+  re-snapping with :func:`placer.place.amplifier.place_section_with_amplifier`
   and checking GBW·(1 ± spread), each with a fresh symbolic derivation of
   the modelled circuit (the GBW number enters the derivation);
-* new: :func:`placer.gbw.required_gbw` (one derivation at ωt = 1 rad/s
+* new: :func:`placer.place.gbw.required_gbw` (one derivation at ωt = 1 rad/s
   scaled to every GBW; the corrected search guided by a guess, deciding
   a midpoint from points already tried when that is implied).
 
@@ -48,16 +48,16 @@ import numpy as np  # noqa: E402
 import sympy  # noqa: E402
 from sympy.external.gmpy import GROUND_TYPES  # noqa: E402
 
-from placer.amplifier import place_section_with_amplifier  # noqa: E402
-from placer.opamp import GBW_SPREAD, AmplifierSpec, apply_amplifier, check_amplifier  # noqa: E402
-from placer.dominant import DominantFunction  # noqa: E402
+from placer.place.amplifier import place_section_with_amplifier  # noqa: E402
+from placer.place.opamp import GBW_SPREAD, AmplifierSpec, apply_amplifier, check_amplifier  # noqa: E402
+from placer.analysis.dominant import DominantFunction  # noqa: E402
 from placer.errors import SpecError, UnreachableTarget  # noqa: E402
-from placer.gbw import required_gbw  # noqa: E402
-from placer.library import get_topology  # noqa: E402
-from placer.network import network_function  # noqa: E402
-from placer.placement import place_ideal, worst_error_pct  # noqa: E402
-from placer.solve import root_errors  # noqa: E402
-from placer.targets import make_section  # noqa: E402
+from placer.place.gbw import required_gbw  # noqa: E402
+from placer.circuit.library import get_topology  # noqa: E402
+from placer.analysis.network import network_function  # noqa: E402
+from placer.place.placement import place_ideal, worst_error_pct  # noqa: E402
+from placer.place.solve import root_errors  # noqa: E402
+from placer.target.targets import make_section  # noqa: E402
 
 TOPOLOGIES = ("sallen-key-lowpass-unity", "mfb-lowpass", "tow-thomas-lowpass", "khn-lowpass")
 

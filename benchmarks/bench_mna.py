@@ -2,7 +2,7 @@
 
 Compares, per ladder order, the time of
 
-* placer: :func:`placer.network.network_function` (polynomial entries in a
+* placer: :func:`placer.analysis.network.network_function` (polynomial entries in a
   sympy polynomial ring, fraction-free determinants), and
 * plain: the derivation as one would write it by hand with sympy: the MNA
   matrix as a ``sympy.Matrix`` of rational expressions (1/R, s*C, 1/(s*L)
@@ -44,8 +44,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 import sympy  # noqa: E402
 
-from placer.circuit import Circuit, Element  # noqa: E402
-from placer.network import S, network_function  # noqa: E402
+from placer.circuit.elements import Circuit, Element  # noqa: E402
+from placer.analysis.network import S, network_function  # noqa: E402
 
 TARGET_ORDER = 9
 TARGET_SECONDS = 0.2

@@ -4,7 +4,7 @@ A fourth-order Butterworth low-pass at 1 kHz as two unity-gain Sallen–Key
 sections (Q = 0.5412 and 1.3066, equal resistors, C1/C2 = 4Q²), every
 part ±1 % uniform, 10,000 samples:
 
-- vectorised: ``placer.tolerance.cascade_monte_carlo`` (one coefficient
+- vectorised: ``placer.evidence.tolerance.cascade_monte_carlo`` (one coefficient
   evaluation per section for all samples, batched roots);
 - loop: for every sample and section, build a python-control
   TransferFunction and read its poles (run on fewer samples when slow and
@@ -33,10 +33,10 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from placer.circuit import Circuit, Element  # noqa: E402
-from placer.network import network_function  # noqa: E402
-from placer.library import get_topology  # noqa: E402
-from placer.tolerance import cascade_monte_carlo, monte_carlo  # noqa: E402
+from placer.circuit.elements import Circuit, Element  # noqa: E402
+from placer.analysis.network import network_function  # noqa: E402
+from placer.circuit.library import get_topology  # noqa: E402
+from placer.evidence.tolerance import cascade_monte_carlo, monte_carlo  # noqa: E402
 
 F0_HZ = 1e3
 C2_F = 10e-9

@@ -9,11 +9,11 @@ DC gain 100 dB, resistors E96 and capacitors E12:
   (:func:`placer.design.place_section`), built with the real op-amp:
   its f0 and Q errors against the target;
 * corrected: the design re-solved and snapped with the op-amp modelled
-  (:func:`placer.amplifier.place_section_with_amplifier`): its errors,
+  (:func:`placer.place.amplifier.place_section_with_amplifier`): its errors,
   which must be within 1 %;
 * check: the corrected design's f0 and Q read independently from the
   numeric MNA poles of the modelled circuit with the snapped values
-  (:func:`placer.network.circuit_poles`), not from the dominant-root
+  (:func:`placer.analysis.network.circuit_poles`), not from the dominant-root
   evaluator the design used;
 * low GBW: the corrected design's errors when the op-amp's GBW is 25 %
   below the model's (the correction leans on the GBW; datasheet GBW is a
@@ -41,12 +41,12 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 import numpy as np  # noqa: E402
 
-from placer.amplifier import place_section_with_amplifier  # noqa: E402
-from placer.opamp import apply_amplifier  # noqa: E402
-from placer.library import get_topology  # noqa: E402
-from placer.network import circuit_poles  # noqa: E402
-from placer.spec import AmplifierSpec, PartsSpec  # noqa: E402
-from placer.targets import make_section  # noqa: E402
+from placer.place.amplifier import place_section_with_amplifier  # noqa: E402
+from placer.place.opamp import apply_amplifier  # noqa: E402
+from placer.circuit.library import get_topology  # noqa: E402
+from placer.analysis.network import circuit_poles  # noqa: E402
+from placer.spec.reader import AmplifierSpec, PartsSpec  # noqa: E402
+from placer.target.targets import make_section  # noqa: E402
 
 TOPOLOGIES = ("sallen-key-lowpass-unity", "mfb-lowpass")
 QS = (0.7, 1.0, 2.0, 3.0, 5.0)

@@ -5,14 +5,14 @@ For seeded random second-order low-pass targets (f0 log-uniform over
 low-pass (``sallen-key-lowpass-unity``) with E96 resistors in 1 kΩ–1 MΩ and
 E12 capacitors in 100 pF–10 µF, this compares three ways of choosing parts:
 
-* placer: :func:`placer.solve.solve` (continuous) then
-  :func:`placer.snap.snap` (the search), each timed on its own; by default
+* placer: :func:`placer.place.solve.solve` (continuous) then
+  :func:`placer.place.snap.snap` (the search), each timed on its own; by default
   the search gives up to ``SPREAD_SLACK`` of error for a smaller value
   spread (never past ``ERROR_CEILING`` = 0.1 % unless the optimum is), and
   it is run again with ``spread_slack=0`` (least error), which is what the
   exhaustive search is compared with; the value spreads of both are
   printed (resistor max/min times capacitor max/min);
-* naive: :func:`placer.snap.round_each`, every part rounded to its nearest
+* naive: :func:`placer.place.snap.round_each`, every part rounded to its nearest
   series value on its own (the baseline);
 * exhaustive: every E96 R1, R2 and every E12 C1, C2 in the ranges, the
   closed-form figures (common practice; Sallen and Key 1955, as in Carter
@@ -28,7 +28,7 @@ The error of a choice is the worst of the relative errors of ω0 and Q, in
 percent. Bar: worst ≤ 0.1 % on every target, median snap time < 0.1 s.
 
 Each snapped design is also analysed as a circuit on its own, by the
-numeric MNA path (:func:`placer.network.circuit_poles` of the topology's
+numeric MNA path (:func:`placer.analysis.network.circuit_poles` of the topology's
 circuit with the chosen values), which must give the poles the symbolic
 network function gives (rtol 1e-6, order-independent matching), and the ω0
 and Q read from those poles must lie within the reported error of the
@@ -53,12 +53,12 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 import numpy as np  # noqa: E402
 
 from placer.eseries import series_values  # noqa: E402
-from placer.library import get_topology  # noqa: E402
-from placer.network import circuit_poles, network_function  # noqa: E402
-from placer.placement import value_spread  # noqa: E402
-from placer.snap import SPREAD_SLACK, round_each, snap  # noqa: E402
-from placer.solve import goal_from_section, make_problem, solve  # noqa: E402
-from placer.targets import make_section  # noqa: E402
+from placer.circuit.library import get_topology  # noqa: E402
+from placer.analysis.network import circuit_poles, network_function  # noqa: E402
+from placer.place.placement import value_spread  # noqa: E402
+from placer.place.snap import SPREAD_SLACK, round_each, snap  # noqa: E402
+from placer.place.solve import goal_from_section, make_problem, solve  # noqa: E402
+from placer.target.targets import make_section  # noqa: E402
 
 TOPOLOGY = "sallen-key-lowpass-unity"
 RANGES = {"resistor": (1e3, 1e6), "capacitor": (100e-12, 10e-6)}

@@ -147,10 +147,10 @@ def _pairs(roots):
 # -- analyze -------------------------------------------------------------------
 
 def _cmd_analyze(args):
-    from .circuit import read_settings
-    from .library import load_analysable
-    from .network import network_function
-    from .pencil import circuit_poles, circuit_zeros
+    from .circuit.elements import read_settings
+    from .circuit.library import load_analysable
+    from .analysis.network import network_function
+    from .analysis.pencil import circuit_poles, circuit_zeros
     from .report.console import table
 
     loaded = load_analysable(args.topology)
@@ -229,9 +229,9 @@ def _cmd_analyze(args):
 
 def _cmd_target(args):
     from .report.console import target_text
-    from .spec import load_spec
-    from .sections import split_sections
-    from .target_table import target_to_dict
+    from .spec.reader import load_spec
+    from .target.sections import split_sections
+    from .spec.target_table import target_to_dict
 
     spec = load_spec(args.spec)
     if spec.target is None:
@@ -256,11 +256,11 @@ def _check_counts(*options):
 
 def _cmd_design(args):
     from .design import design
-    from .evidence import gather_evidence
+    from .evidence.gather import gather_evidence
     from .report.console import Progress, design_text, evidence_text
     from .report.bom import bom_csv, bom_rows
     from .report.data import design_to_dict
-    from .spec import load_spec
+    from .spec.reader import load_spec
 
     spec = load_spec(args.spec)
     inputs = (args.spec,)
@@ -310,7 +310,7 @@ def _cmd_compare(args):
     from .compare import compare, comparison_to_dict
     from .report.comparison import comparison_text
     from .report.console import Progress
-    from .spec import load_spec
+    from .spec.reader import load_spec
 
     spec = load_spec(args.spec)
     inputs = [spec.path] + [c for c in (spec.candidates or ()) if c.endswith(".toml")]
@@ -347,8 +347,8 @@ def _cmd_compare(args):
 
 def _cmd_loop(args):
     from .report.console import Progress
-    from .loop_spec import loop_to_dict, run_loop
-    from .spec import load_spec
+    from .spec.loop_table import loop_to_dict, run_loop
+    from .spec.reader import load_spec
 
     spec = load_spec(args.spec)
     if spec.loop is None:
@@ -457,8 +457,8 @@ def _solved_for(topology):
 
 
 def _cmd_topologies(args):
-    from .library import library_topologies, load_folder, resolve_topology
-    from .network import network_function
+    from .circuit.library import library_topologies, load_folder, resolve_topology
+    from .analysis.network import network_function
     from .report.console import table
 
     pool = dict(library_topologies())

@@ -10,11 +10,11 @@ measured on what a designer weighs when choosing a circuit:
 * value spread: largest/smallest value among the resistors and among the
   capacitors;
 * the largest |S| of ω0 and of Q to any part, S = ∂ln y/∂ln x
-  (:func:`placer.sensitivity.sensitivities` at the snapped values);
+  (:func:`placer.analysis.sensitivity.sensitivities` at the snapped values);
 * the op-amp gain-bandwidth the stage needs, Hz (see :data:`GBW_METHODS`);
 * Monte Carlo yield: the share of samples whose f0 and Q stay within the
   spec's windows around nominal, every part drawn within the spec's
-  tolerance for its kind (:func:`placer.tolerance.monte_carlo`).
+  tolerance for its kind (:func:`placer.evidence.tolerance.monte_carlo`).
 
 Candidates are evaluated in worker processes, one candidate (section ×
 topology) per task. Each candidate's solver and Monte Carlo seeds come
@@ -33,14 +33,14 @@ from dataclasses import asdict, dataclass, field
 
 import numpy as np
 
-from .amplifier import built_drift
+from .place.amplifier import built_drift
 from .design import candidate_topologies, place_section
 from .errors import PlacerError, SpecError
-from .gbw import as_built_gbw, required_gbw, search_top_hz
-from .opamp import AmplifierSpec
-from .placement import value_spread
-from .sections import split_sections
-from .tolerance import monte_carlo
+from .place.gbw import as_built_gbw, required_gbw, search_top_hz
+from .place.opamp import AmplifierSpec
+from .place.placement import value_spread
+from .target.sections import split_sections
+from .evidence.tolerance import monte_carlo
 from .units import finite_or_none, format_value
 
 
@@ -76,7 +76,7 @@ _SOURCES = {
     "thumb": "rule of thumb: GBW >= 100·f0·Q, the Sallen–Key/MFB practice applied to "
              "a topology it was not stated for",
     "passive": "no op-amp",
-    "built": f"op-amp model (single pole, placer.gbw.as_built_gbw): the smallest GBW, and at "
+    "built": f"op-amp model (single pole, placer.place.gbw.as_built_gbw): the smallest GBW, and at "
              f"least 10·f0, at which the snapped design, as built, stays within "
              f"{GBW_ERROR_PCT:g} % of the target",
 }
@@ -323,7 +323,7 @@ def _gbw_needed(section, topology, spec, method, candidate):
             need = required_gbw(section, topology, error_pct=GBW_ERROR_PCT, parts=spec.parts,
                                 amplifier_gain=spec.amplifier.gain)
             if math.isfinite(need.gbw_hz):
-                source += (f"; re-solved for the op-amp (placer.gbw.required_gbw), "
+                source += (f"; re-solved for the op-amp (placer.place.gbw.required_gbw), "
                            f"{format_value(need.gbw_hz, 'Hz')} would do")
             elif need.note:
                 source += f"; re-solved for the op-amp: {need.note}"
@@ -465,7 +465,7 @@ def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, pro
 
     Parameters
     ----------
-    spec : placer.spec.Spec
+    spec : placer.spec.reader.Spec
     rank_by : {"yield", "error", "parts", "sensitivity"}
         Ranking key, see :data:`RANK_KEYS` (by yield, statistical ties go
         to the simpler stage: :func:`rank_candidates` with `samples`).
@@ -481,11 +481,11 @@ def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, pro
     gbw : {"built", "rule", "model"}
         "built" (default): the finite-GBW op-amp model on each candidate's
         snapped design, the smallest GBW that keeps it within
-        GBW_ERROR_PCT of the target as built (:func:`placer.gbw.as_built_gbw`).
+        GBW_ERROR_PCT of the target as built (:func:`placer.place.gbw.as_built_gbw`).
         "rule": GBW >= 100·f0·Q (f0 in Hz), common practice for Sallen–Key
         and multiple-feedback stages, a labelled rule of thumb for other
         active ones. "model": "built", and also what a design re-solved for
-        the op-amp would need (:func:`placer.gbw.required_gbw`; seconds per
+        the op-amp would need (:func:`placer.place.gbw.required_gbw`; seconds per
         candidate).
 
     Returns

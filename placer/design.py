@@ -18,14 +18,14 @@ import math
 from dataclasses import dataclass, replace
 from functools import partial
 
-from .amplifier import place_section_with_amplifier
-from .circuit import Circuit, Element
+from .place.amplifier import place_section_with_amplifier
+from .circuit.elements import Circuit, Element
 from .errors import SpecError, UnreachableTarget
-from .library import find_topologies, load_folder, resolve_topology
-from .opamp import apply_amplifier, check_amplifier
-from .pencil import circuit_roots
-from .placement import PART_KINDS, Candidate, place_ideal
-from .sections import split_sections
+from .circuit.library import find_topologies, load_folder, resolve_topology
+from .place.opamp import apply_amplifier, check_amplifier
+from .analysis.pencil import circuit_roots
+from .place.placement import PART_KINDS, Candidate, place_ideal
+from .target.sections import split_sections
 
 __all__ = [
     "rank_placements",
@@ -118,15 +118,15 @@ def candidate_topologies(section, spec=None):
 def place_section(section, topology, *, parts=None, seed=0):
     """Solve and snap one topology for one section, as a Candidate.
 
-    The placement is :func:`placer.placement.place_ideal`'s (ideal op-amps;
+    The placement is :func:`placer.place.placement.place_ideal`'s (ideal op-amps;
     the same `parts` and `seed`); a topology that cannot reach the section
     becomes an unreachable candidate instead of an error.
 
     Parameters
     ----------
-    section : placer.targets.Section
+    section : placer.target.targets.Section
     topology : Topology
-    parts : placer.spec.PartsSpec, optional
+    parts : placer.spec.reader.PartsSpec, optional
         Series, ranges, fixed parts and constraints.
     seed : int
 
@@ -177,7 +177,7 @@ def design(spec, *, seed=None, progress=None, place=place_section):
 
     Parameters
     ----------
-    spec : placer.spec.Spec
+    spec : placer.spec.reader.Spec
     seed : int, optional
         Seed of the multi-start solver (default: the spec's tolerance seed).
     progress : callable, optional
@@ -199,7 +199,7 @@ def design(spec, *, seed=None, progress=None, place=place_section):
     -----
     With a real op-amp model in ``spec.amplifier`` (GBW and/or DC gain),
     each candidate is placed by
-    :func:`placer.amplifier.place_section_with_amplifier` (unless `place`
+    :func:`placer.place.amplifier.place_section_with_amplifier` (unless `place`
     is given): the dominant roots are solved onto the target with every
     op-amp modelled, and the section circuits carry the model.
     """

@@ -9,7 +9,7 @@ what it means, for people and for generated documentation.
 
 :data:`LIMITS` holds the bounds of the figures a person types (frequencies,
 Q, ripple, attenuation, gains); part values have theirs beside the part
-kinds in :mod:`placer.circuit`. :func:`read_toml` reads an input file with
+kinds in :mod:`placer.circuit.elements`. :func:`read_toml` reads an input file with
 one-line errors for every way a file can be bad (missing, a directory, a
 path too long, not UTF-8, not TOML, nested too deeply).
 

@@ -1,4 +1,4 @@
-"""Tests of placer.amplifier, placer.dominant and placer.gbw: op-amp models,
+"""Tests of placer.place.amplifier, placer.analysis.dominant and placer.place.gbw: op-amp models,
 dominant roots, correction, GBW.
 
 Outside references are named beside each check.
@@ -9,18 +9,18 @@ import math
 import numpy as np
 import pytest
 
-from placer.amplifier import AmplifiedCandidate, amplifier_summary, place_section_with_amplifier
-from placer.opamp import apply_amplifier, check_amplifier
-from placer.circuit import Circuit, Element, circuit_from_dict
+from placer.place.amplifier import AmplifiedCandidate, amplifier_summary, place_section_with_amplifier
+from placer.place.opamp import apply_amplifier, check_amplifier
+from placer.circuit.elements import Circuit, Element, circuit_from_dict
 from placer.design import design
-from placer.dominant import DominantFunction, polished_roots
+from placer.analysis.dominant import DominantFunction, polished_roots
 from placer.errors import SpecError
-from placer.gbw import required_gbw
-from placer.library import get_topology
-from placer.network import circuit_poles, network_function
-from placer.solve import goal_from_section
-from placer.spec import AmplifierSpec, amplifier_from_table, spec_from_dict
-from placer.targets import make_section
+from placer.place.gbw import required_gbw
+from placer.circuit.library import get_topology
+from placer.analysis.network import circuit_poles, network_function
+from placer.place.solve import goal_from_section
+from placer.spec.reader import AmplifierSpec, amplifier_from_table, spec_from_dict
+from placer.target.targets import make_section
 
 TWO_PI = 2 * math.pi
 F0 = 10e3

@@ -1,4 +1,4 @@
-"""Tests of placer.circuit: the element schema, validation and views.
+"""Tests of placer.circuit.elements: the element schema, validation and views.
 
 Expected transfer functions of the one-kind circuits below are the
 textbook results for each element (common practice, no source).
@@ -11,9 +11,9 @@ import networkx as nx
 import numpy as np
 import pytest
 
-from placer.circuit import Circuit, Element, circuit_from_dict
+from placer.circuit.elements import Circuit, Element, circuit_from_dict
 from placer.errors import SpecError, TopologyError
-from placer.network import circuit_response, network_function
+from placer.analysis.network import circuit_response, network_function
 from placer.units import parse_value
 
 

@@ -14,13 +14,13 @@ from placer.compare import (
     comparison_to_dict,
     rank_candidates,
 )
-from placer.opamp import AmplifierSpec, apply_amplifier
+from placer.place.opamp import AmplifierSpec, apply_amplifier
 from placer.design import place_section
 from placer.errors import SpecError
-from placer.library import LIBRARY_DIR, get_topology
-from placer.network import circuit_poles
-from placer.spec import PartsSpec, load_spec
-from placer.targets import make_section
+from placer.circuit.library import LIBRARY_DIR, get_topology
+from placer.analysis.network import circuit_poles
+from placer.spec.reader import PartsSpec, load_spec
+from placer.target.targets import make_section
 
 TWO_PI = 2 * math.pi
 REQUIRED = ("topology", "reachable", "error_pct", "yield_pct", "parts", "opamps", "spread",

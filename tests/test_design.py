@@ -6,7 +6,7 @@ Outside references, named beside each check:
   coefficient table a1 = 1.8478, a2 = 0.7654, b = 1: Carter and Mancini,
   *Op Amps for Everyone*, active filter design chapter, from memory), and
   the Butterworth poles from scipy.signal.butter (reference library);
-* the numeric MNA path (:func:`placer.network.circuit_poles`), analysing
+* the numeric MNA path (:func:`placer.analysis.network.circuit_poles`), analysing
   the built circuits on their own, against the symbolic network functions
   the design used.
 """
@@ -21,8 +21,8 @@ from scipy import signal
 from placer.design import design
 from placer.errors import UnreachableTarget
 from placer.eseries import nearest
-from placer.network import circuit_poles, circuit_response, network_function
-from placer.spec import load_spec
+from placer.analysis.network import circuit_poles, circuit_response, network_function
+from placer.spec.reader import load_spec
 
 TWO_PI = 2.0 * math.pi
 CUTOFF_HZ = 2e3

@@ -5,7 +5,7 @@ import pytest
 from placer.cli import main
 from placer.design import design
 from placer.errors import SpecError
-from placer.spec import load_spec
+from placer.spec.reader import load_spec
 
 SPEC = """
 [target]

@@ -15,9 +15,9 @@ import pathlib
 import numpy as np
 import pytest
 
-from placer.circuit import circuit_from_dict
+from placer.circuit.elements import circuit_from_dict
 from placer.cli import main
-from placer.network import circuit_poles
+from placer.analysis.network import circuit_poles
 
 EXAMPLES = pathlib.Path(__file__).resolve().parents[1] / "examples"
 FILTERS = sorted(p for p in EXAMPLES.glob("*.toml") if "[target]" in p.read_text())

@@ -1,4 +1,4 @@
-"""Tests of placer.gbw: the GBW a section needs, and the searches behind it.
+"""Tests of placer.place.gbw: the GBW a section needs, and the searches behind it.
 
 Outside references are named beside each check. Nothing here times anything
 (benchmarks/bench_gbw.py compares the speed of the old and the new search).
@@ -11,15 +11,15 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from placer.amplifier import place_section_with_amplifier
-from placer.opamp import GBW_SPREAD, AmplifierSpec, apply_amplifier, function_at_gbw
-from placer.dominant import DominantFunction
-from placer.gbw import _bisect, _guided_bisect, required_gbw
-from placer.library import get_topology
-from placer.network import circuit_poles, network_function
-from placer.placement import place_ideal, worst_error_pct
-from placer.solve import goal_from_section, root_errors
-from placer.targets import make_section
+from placer.place.amplifier import place_section_with_amplifier
+from placer.place.opamp import GBW_SPREAD, AmplifierSpec, apply_amplifier, function_at_gbw
+from placer.analysis.dominant import DominantFunction
+from placer.place.gbw import _bisect, _guided_bisect, required_gbw
+from placer.circuit.library import get_topology
+from placer.analysis.network import circuit_poles, network_function
+from placer.place.placement import place_ideal, worst_error_pct
+from placer.place.solve import goal_from_section, root_errors
+from placer.target.targets import make_section
 
 TWO_PI = 2 * math.pi
 F0 = 10e3

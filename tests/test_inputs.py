@@ -15,11 +15,11 @@ import pytest
 
 from placer.cli import main
 from placer.errors import SpecError
-from placer.library import LIBRARY_DIR, load_analysable
-from placer.loop_spec import loop_from_table, run_loop
+from placer.circuit.library import LIBRARY_DIR, load_analysable
+from placer.spec.loop_table import loop_from_table, run_loop
 from placer.schema import SPEC_TABLES
-from placer.spec import load_spec
-from placer.topology import load_topology
+from placer.spec.reader import load_spec
+from placer.circuit.topology import load_topology
 
 TARGET = """
 [target]

@@ -5,14 +5,14 @@ import pytest
 from scipy.signal import buttap
 
 from placer.errors import SpecError
-from placer.ladders import (
+from placer.circuit.ladders import (
     butterworth_ladder_values,
     generated_topologies,
     ladder_part_values,
     ladder_topology,
 )
-from placer.library import get_topology, library_topologies
-from placer.network import circuit_response, network_function
+from placer.circuit.library import get_topology, library_topologies
+from placer.analysis.network import circuit_response, network_function
 
 # Matthaei, Young and Jones, Microwave Filters, Impedance-Matching Networks and
 # Coupling Structures (1964), Butterworth low-pass prototype table, g1 ... gn at the

@@ -1,4 +1,4 @@
-"""Tests of placer.loop, placer.loop_tolerance, placer.loop_spec and placer.plants.
+"""Tests of placer.loops.compensator, placer.loops.tolerance, placer.spec.loop_table and placer.loops.plants.
 
 K-factor design, margins, Monte Carlo, [loop] specs.
 """
@@ -13,22 +13,22 @@ import control
 import numpy as np
 import pytest
 
-from placer.circuit import Circuit, Element, circuit_from_dict
+from placer.circuit.elements import Circuit, Element, circuit_from_dict
 from placer.errors import SpecError, UnreachableTarget
 from placer.eseries import nearest
-from placer.library import find_topologies
-from placer.loop import MAX_BOOST_DEG, design_compensator, k_factor, k_factor_placement
-from placer.loop_spec import loop_from_table, loop_to_dict, run_loop
-from placer.loop_tolerance import loop_monte_carlo
-from placer.network import circuit_response
-from placer.plants import (
+from placer.circuit.library import find_topologies
+from placer.loops.compensator import MAX_BOOST_DEG, design_compensator, k_factor, k_factor_placement
+from placer.spec.loop_table import loop_from_table, loop_to_dict, run_loop
+from placer.loops.tolerance import loop_monte_carlo
+from placer.analysis.network import circuit_response
+from placer.loops.plants import (
     boost_plant,
     buck_plant,
     plant_from_coefficients,
     plant_from_roots,
     plant_from_table,
 )
-from placer.verify import margins
+from placer.evidence.verify import margins
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 TWO_PI = 2 * math.pi
@@ -273,7 +273,7 @@ def test_monte_carlo_spread_and_yield(examples):
 def test_monte_carlo_in_worker_processes_gives_the_same_builds(examples, monkeypatch):
     # The issue's requirement: the same result with 1 or N workers (seeded). The
     # threshold is lowered so a small run uses the workers (forked, they see it).
-    import placer.loop_tolerance as loop_tolerance
+    import placer.loops.tolerance as loop_tolerance
 
     monkeypatch.setattr(loop_tolerance, "PARALLEL_MIN_SAMPLES", 1000)
     design = examples["boost-loop.toml"].design

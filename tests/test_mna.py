@@ -1,4 +1,4 @@
-"""Tests of placer.mna: unknowns, stamps and the numeric MNA system.
+"""Tests of placer.analysis.mna: unknowns, stamps and the numeric MNA system.
 
 The stamps are those of modified nodal analysis as C.-W. Ho, A. E. Ruehli
 and P. A. Brennan, "The modified nodal approach to network analysis",
@@ -14,10 +14,10 @@ import numpy as np
 import pytest
 import scipy.signal
 
-from placer.circuit import Circuit, Element
+from placer.circuit.elements import Circuit, Element
 from placer.errors import TopologyError
-from placer.mna import layout, numeric_system, stamps
-from placer.network import circuit_response
+from placer.analysis.mna import layout, numeric_system, stamps
+from placer.analysis.network import circuit_response
 
 
 def rc_lowpass(r=1e3, c=1e-6):

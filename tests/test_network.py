@@ -1,4 +1,4 @@
-"""Tests of placer.network: symbolic network functions and the numeric path.
+"""Tests of placer.analysis.network: symbolic network functions and the numeric path.
 
 Outside references are named beside each check. The symbolic path
 (``network_function`` and the evaluators of its coefficients) and the numeric
@@ -18,9 +18,9 @@ import sympy
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from placer.circuit import Circuit, Element
+from placer.circuit.elements import Circuit, Element
 from placer.errors import TopologyError
-from placer.network import (
+from placer.analysis.network import (
     S,
     circuit_gain,
     circuit_poles,

@@ -19,12 +19,12 @@ import math
 import numpy as np
 import pytest
 
-from placer.opamp import AmplifierSpec, apply_amplifier
+from placer.place.opamp import AmplifierSpec, apply_amplifier
 from placer.design import place_section
-from placer.library import get_topology
-from placer.network import circuit_gain, circuit_poles, circuit_zeros, network_function
-from placer.solve import goal_from_section, make_problem, solve
-from placer.targets import make_section
+from placer.circuit.library import get_topology
+from placer.analysis.network import circuit_gain, circuit_poles, circuit_zeros, network_function
+from placer.place.solve import goal_from_section, make_problem, solve
+from placer.target.targets import make_section
 
 RNG = np.random.default_rng(7)
 

@@ -13,9 +13,9 @@ def test_every_public_name_resolves():
 
 
 def test_topology_files_are_package_data():
-    # a plain `pip install .` ships placer/topologies/*.toml (declared package data)
-    folder = pathlib.Path(importlib.import_module("placer.library").LIBRARY_DIR)
+    # a plain `pip install .` ships placer/circuit/topologies/*.toml (declared package data)
+    folder = pathlib.Path(importlib.import_module("placer.circuit.library").LIBRARY_DIR)
     files = sorted(folder.glob("*.toml"))
     assert len(files) >= 24
     text = pathlib.Path(__file__).resolve().parents[1].joinpath("pyproject.toml").read_text()
-    assert '"placer.topologies" = ["*.toml"]' in text
+    assert '"placer.circuit.topologies" = ["*.toml"]' in text

@@ -15,8 +15,8 @@ from matplotlib.lines import Line2D
 from placer.cli import main
 from placer.design import design
 from placer.errors import SpecError
-from placer.evidence import gather_evidence
-from placer.loop_spec import loop_to_dict, run_loop
+from placer.evidence.gather import gather_evidence
+from placer.spec.loop_table import loop_to_dict, run_loop
 from placer.report.data import design_to_dict
 from placer.report.html import write_design_report, write_loop_report
 from placer.report.page import inline_svg
@@ -31,7 +31,7 @@ from placer.report.plots import (
     save_figure,
     step_figure,
 )
-from placer.spec import load_spec
+from placer.spec.reader import load_spec
 from placer.units import format_value
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"

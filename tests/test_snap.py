@@ -1,4 +1,4 @@
-"""Tests of placer.snap: choosing preferred values for the free parts.
+"""Tests of placer.place.snap: choosing preferred values for the free parts.
 
 Outside references, named beside each check:
 
@@ -8,7 +8,7 @@ Outside references, named beside each check:
   Mancini, *Op Amps for Everyone*, active filter design chapter, from
   memory), used for an exhaustive search written here and for checking
   the reported error;
-* the numeric MNA path (:func:`placer.network.circuit_poles`) as a second
+* the numeric MNA path (:func:`placer.analysis.network.circuit_poles`) as a second
   route to the snapped circuit's poles.
 """
 
@@ -20,13 +20,13 @@ import pytest
 
 from placer.eseries import mantissas
 from placer.errors import SpecError
-from placer.library import get_topology
-from placer.network import circuit_poles
-from placer.placement import value_spread
-from placer.snap import ERROR_CEILING, SPREAD_SLACK, round_each, snap
-from placer.solve import goal_from_section, make_problem, solve
-from placer.targets import make_section
-from placer.topology import parse_constraint
+from placer.circuit.library import get_topology
+from placer.analysis.network import circuit_poles
+from placer.place.placement import value_spread
+from placer.place.snap import ERROR_CEILING, SPREAD_SLACK, round_each, snap
+from placer.place.solve import goal_from_section, make_problem, solve
+from placer.target.targets import make_section
+from placer.circuit.topology import parse_constraint
 
 TWO_PI = 2.0 * math.pi
 

@@ -1,4 +1,4 @@
-"""Tests of placer.solve: continuous part values for a section.
+"""Tests of placer.place.solve: continuous part values for a section.
 
 Outside references, named beside each check:
 
@@ -7,7 +7,7 @@ Outside references, named beside each check:
   Everyone*, active filter design chapter (Sallen–Key, MFB); Schaumann and
   Van Valkenburg, *Design of Analog Filters*, 2001 (Tow–Thomas) — formulas
   recalled from memory, and each also checked here against the numeric MNA
-  path (:func:`placer.network.circuit_poles`) rather than the symbolic one;
+  path (:func:`placer.analysis.network.circuit_poles`) rather than the symbolic one;
 * a worked example of a unity-gain Sallen–Key design: Carter and Mancini,
   *Op Amps for Everyone*, active filter design chapter, the second-order
   3 dB Tschebyscheff low-pass example (from memory);
@@ -22,11 +22,11 @@ from numpy.testing import assert_allclose
 from scipy import signal
 
 from placer.errors import SpecError, UnreachableTarget
-from placer.library import get_topology
-from placer.network import circuit_poles
-from placer.solve import goal_from_roots, goal_from_section, make_problem, solve
-from placer.targets import make_section
-from placer.topology import parse_constraint, topology_from_text
+from placer.circuit.library import get_topology
+from placer.analysis.network import circuit_poles
+from placer.place.solve import goal_from_roots, goal_from_section, make_problem, solve
+from placer.target.targets import make_section
+from placer.circuit.topology import parse_constraint, topology_from_text
 
 TWO_PI = 2.0 * math.pi
 

@@ -1,4 +1,4 @@
-"""Tests of placer.spec: reading spec files and naming what is wrong.
+"""Tests of placer.spec.reader: reading spec files and naming what is wrong.
 
 Every bad input must raise SpecError with a message that names the file,
 the field, the offending value and what is accepted. No outside reference:
@@ -12,7 +12,7 @@ import pytest
 
 from placer.design import design
 from placer.errors import SpecError
-from placer.spec import load_spec
+from placer.spec.reader import load_spec
 
 GOOD = """
 title = "test low-pass"

@@ -1,4 +1,4 @@
-"""Tests of placer.targets, placer.sections, placer.target_table and placer.approximations.
+"""Tests of placer.target.targets, placer.target.sections, placer.spec.target_table and placer.target.approximations.
 
 Outside references: handbook pole and Q tables (Williams & Taylor,
 *Electronic Filter Design Handbook*, recalled from memory and each checked
@@ -15,7 +15,7 @@ import pytest
 from numpy.testing import assert_allclose
 from scipy import optimize, signal
 
-from placer.approximations import (
+from placer.target.approximations import (
     HALF_POWER_LOSS_DB,
     band_from_edges,
     estimate_order,
@@ -23,9 +23,9 @@ from placer.approximations import (
     lowpass_prototype,
 )
 from placer.errors import SpecError
-from placer.sections import split_sections
-from placer.target_table import target_from_table, target_to_dict
-from placer.targets import (
+from placer.target.sections import split_sections
+from placer.spec.target_table import target_from_table, target_to_dict
+from placer.target.targets import (
     Section,
     Target,
     design_target,

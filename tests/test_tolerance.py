@@ -1,4 +1,4 @@
-"""Tests of placer.sensitivity and placer.tolerance: sensitivities and Monte Carlo."""
+"""Tests of placer.analysis.sensitivity and placer.evidence.tolerance: sensitivities and Monte Carlo."""
 
 import math
 import warnings
@@ -6,11 +6,11 @@ import warnings
 import numpy as np
 import pytest
 
-from placer.circuit import Circuit, Element
+from placer.circuit.elements import Circuit, Element
 from placer.errors import NumericalWarning, SpecError
-from placer.network import circuit_poles, network_function
-from placer.sensitivity import sensitivities
-from placer.tolerance import (
+from placer.analysis.network import circuit_poles, network_function
+from placer.analysis.sensitivity import sensitivities
+from placer.evidence.tolerance import (
     MAX_SAMPLES,
     cascade_monte_carlo,
     monte_carlo,
@@ -212,7 +212,7 @@ def test_contributions_sum_to_one_and_rank_the_loosest_part_first():
 
 def test_rc_ladder_dominant_pair_from_the_two_slowest_real_poles():
     result = monte_carlo(LADDER, LADDER_VALUES, 0.01, samples=50)
-    # Independent check through the numeric MNA pencil (placer.network.circuit_poles)
+    # Independent check through the numeric MNA pencil (placer.analysis.network.circuit_poles)
     circuit = Circuit(_ladder_circuit())
     poles = np.sort(np.abs(circuit_poles(circuit)))
     omega0 = math.sqrt(poles[0] * poles[1])
@@ -345,7 +345,7 @@ def _notch_magnitude(omega, omega0, q):
 
 
 def _fliege():
-    from placer.library import get_topology
+    from placer.circuit.library import get_topology
 
     r, rq, c = 10e3, 40e3, 1 / (2 * math.pi * 50 * 10e3)
     values = {"R1": 10e3, "R2": 10e3, "R3": r, "R4": r, "R5": rq, "R6": rq, "C1": c, "C2": c}
@@ -398,7 +398,7 @@ def test_rejection_window_needs_a_frequency():
 def test_worker_processes_give_the_same_samples():
     # The draws are made once, up front; the figures are per sample, so 1 or 2
     # workers give identical arrays (the issue's requirement: same result, seeded).
-    from placer.tolerance import PARALLEL_MIN_SAMPLES
+    from placer.evidence.tolerance import PARALLEL_MIN_SAMPLES
 
     nf, values = _fliege()
     kwargs = dict(samples=PARALLEL_MIN_SAMPLES + 1, seed=4, reject_hz=50.0,

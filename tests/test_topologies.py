@@ -15,9 +15,9 @@ import numpy as np
 import pytest
 import sympy
 
-from placer.library import LIBRARY_DIR, find_topologies, get_topology, library_topologies
-from placer.network import network_function
-from placer.topology import load_topology
+from placer.circuit.library import LIBRARY_DIR, find_topologies, get_topology, library_topologies
+from placer.analysis.network import network_function
+from placer.circuit.topology import load_topology
 
 RTOL = 1e-9
 SAMPLES = 6

@@ -1,4 +1,4 @@
-"""Tests of topology files: placer.topology parsing and placer.library loading.
+"""Tests of topology files: placer.circuit.topology parsing and placer.circuit.library loading.
 
 Every error must name the file and the key or element at fault
 (DESIGN.md, "Errors").
@@ -10,8 +10,8 @@ import textwrap
 import pytest
 
 from placer.errors import SpecError, TopologyError
-from placer.library import LIBRARY_DIR, get_topology, load_folder, resolve_topology
-from placer.topology import (
+from placer.circuit.library import LIBRARY_DIR, get_topology, load_folder, resolve_topology
+from placer.circuit.topology import (
     DEFAULT_RANGES,
     Constraint,
     load_topology,

@@ -1,4 +1,4 @@
-"""Tests of placer.verify: step and frequency figures, deviations, margins."""
+"""Tests of placer.evidence.verify: step and frequency figures, deviations, margins."""
 
 import math
 
@@ -8,8 +8,8 @@ import pytest
 import scipy.signal
 
 from placer.errors import SpecError
-from placer.response import Response
-from placer.verify import (
+from placer.analysis.response import Response
+from placer.evidence.verify import (
     HALF_POWER_DB,
     deviation,
     frequency_figures,
@@ -303,10 +303,10 @@ def test_margins_of_a_response_cascade():
 
 
 def test_sallen_key_network_through_verify():
-    # A unity-gain Sallen–Key from placer.network with Butterworth values
+    # A unity-gain Sallen–Key from placer.analysis.network with Butterworth values
     # (equal R, C1 = 2 C2 for Q = 1/√2; derived by hand) against the scipy target
-    from placer.circuit import Circuit, Element
-    from placer.network import network_function
+    from placer.circuit.elements import Circuit, Element
+    from placer.analysis.network import network_function
 
     nf = network_function(Circuit((
         Element("R1", "resistor", ("vin", "n1"), symbol="R1"),

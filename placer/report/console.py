@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 import sys
 
-from ..tolerance import MAX_REJECTION_DB
+from ..evidence.tolerance import MAX_REJECTION_DB
 from ..units import format_value
 
 __all__ = ["table", "design_text", "target_text", "evidence_text", "Progress", "fmt_pct", "fmt_db",

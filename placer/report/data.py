@@ -10,9 +10,9 @@ import math
 
 import numpy as np
 
-from ..amplifier import amplifier_summary
-from ..solve import passband_gain
-from ..target_table import target_to_dict
+from ..place.amplifier import amplifier_summary
+from ..place.solve import passband_gain
+from ..spec.target_table import target_to_dict
 from ..units import finite_or_none
 
 __all__ = ["roots_to_list", "section_figures", "design_to_dict", "candidate_to_dict"]

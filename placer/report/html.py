@@ -17,7 +17,7 @@ import control
 import numpy as np
 
 from .. import __version__
-from ..tolerance import MAX_REJECTION_DB
+from ..evidence.tolerance import MAX_REJECTION_DB
 from ..units import format_value
 from .console import fmt_db, fmt_gain, fmt_hz, fmt_pct, fmt_q, fmt_rejection, windows_text
 from .page import (POWER_CAUTION, Plots, caution_block, escape, finish_report, number_or_dash,
@@ -74,7 +74,7 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
     design : placer.design.Design
     data : dict
         :func:`placer.report.data.design_to_dict` of the design.
-    evidence : placer.evidence.Evidence or None
+    evidence : placer.evidence.gather.Evidence or None
         Responses, sensitivities and Monte Carlo; None leaves those out.
     html_path : str or Path, optional
         The HTML file to write (one self-contained file).
@@ -367,9 +367,9 @@ def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=()
 
     Parameters
     ----------
-    result : placer.loop.LoopResult
+    result : placer.loops.compensator.LoopResult
     data : dict
-        :func:`placer.loop.loop_to_dict` of the result.
+        :func:`placer.loops.compensator.loop_to_dict` of the result.
     html_path, plots_dir, inputs
         As for :func:`write_design_report`; the plots are ``loop-gain``
         and ``phase-margin-histogram``.

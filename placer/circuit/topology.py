@@ -1,0 +1,338 @@
+"""Topologies: a circuit with symbolic parts plus what a solver needs to know.
+
+A topology file is TOML in placer's own format (docs/topology-format.md):
+metadata at top level, the DESIGN.md element schema in ``[[elements]]``,
+a part carrying ``symbol`` instead of ``value`` where the solver chooses it.
+
+Examples
+--------
+>>> text = '''
+... id = "rc-demo"
+... title = "RC low-pass"
+... response = "lowpass"
+... order = 1
+... [[elements]]
+... name = "R1"
+... kind = "resistor"
+... nodes = ["vin", "vout"]
+... symbol = "R1"
+... [[elements]]
+... name = "C1"
+... kind = "capacitor"
+... nodes = ["vout", "gnd"]
+... symbol = "C1"
+... '''
+>>> topology = topology_from_text(text, source="demo")
+>>> topology.free
+('R1', 'C1')
+>>> topology.kind_of("C1")
+'capacitor'
+"""
+
+from __future__ import annotations
+
+import math
+import re
+import tomllib
+from typing import Any
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+
+from .elements import KIND_UNITS, Circuit, check_part_value, check_symbol, circuit_from_dict
+from ..errors import SpecError, TopologyError, brief, brief_path
+from ..schema import CIRCUIT_KEYS, TOPOLOGY_KEYS, check_type, read_toml, unknown_key
+from ..units import parse_value
+
+__all__ = [
+    "RESPONSES",
+    "DEFAULT_RANGES",
+    "Constraint",
+    "Topology",
+    "parse_constraint",
+    "topology_from_text",
+    "topology_from_dict",
+    "load_topology",
+]
+
+RESPONSES = ("lowpass", "highpass", "bandpass", "notch", "allpass", "compensator")
+
+#: Default value range of a free part by element kind (SI units).
+DEFAULT_RANGES = {
+    "resistor": (1e3, 1e6),
+    "capacitor": (100e-12, 10e-6),
+    "inductor": (1e-6, 1.0),
+    "vcvs": (1.0, 100.0),
+    "vccs": (1e-6, 1.0),
+    "cccs": (1.0, 100.0),
+    "ccvs": (1.0, 1e6),
+}
+
+_PASSIVE = ("resistor", "capacitor", "inductor")
+_CONSTRAINT = re.compile(
+    r"^\s*([A-Za-z][A-Za-z0-9_]*)\s*=\s*(?:([0-9]*\.?[0-9]+(?:[eE][+-]?[0-9]+)?)\s*\*\s*)?"
+    r"([A-Za-z][A-Za-z0-9_]*)\s*$"
+)
+_ID = re.compile(r"^[a-z0-9][a-z0-9-]*$")
+
+
+@dataclass(frozen=True)
+class Constraint:
+    """``part = factor * source``: one part tied to another."""
+
+    part: str
+    factor: float
+    source: str
+
+    def __str__(self):
+        if self.factor == 1.0:
+            return f"{self.part} = {self.source}"
+        return f"{self.part} = {self.factor:g}*{self.source}"
+
+
+def parse_constraint(text, *, where="constraints"):
+    """Parse ``"C1 = C2"`` or ``"R2 = 4*R1"`` (no eval).
+
+    >>> parse_constraint("R2 = 4*R1")
+    Constraint(part='R2', factor=4.0, source='R1')
+    """
+    match = _CONSTRAINT.match(text) if isinstance(text, str) else None
+    if not match:
+        raise SpecError(
+            f"{where}: cannot read constraint {brief(text)}; accepted forms: 'C1 = C2', "
+            "'R2 = 4*R1'"
+        )
+    part, factor, source = match.groups()
+    factor = float(factor) if factor else 1.0
+    if not (math.isfinite(factor) and 1e-6 <= factor <= 1e6):
+        raise SpecError(f"{where}: constraint {brief(text)} needs a factor from 1e-06 to 1e+06")
+    if part == source:
+        raise SpecError(f"{where}: constraint {brief(text)} ties a part to itself")
+    for name in (part, source):
+        check_symbol(name, where=f"{where}: constraint {brief(text)}")
+    return Constraint(part, factor, source)
+
+
+@dataclass(frozen=True)
+class Topology:
+    """A circuit with symbolic parts and its metadata.
+
+    Attributes
+    ----------
+    id, title : str
+    response : str
+        One of :data:`RESPONSES`.
+    order : int
+        Denominator order with ideal op-amps.
+    circuit : Circuit
+        Parts the solver chooses carry a symbol and no value.
+    free : tuple of str
+        Symbols the solver may move.
+    ranges : dict
+        Symbol → (low, high) in SI units, for every free symbol.
+    values : dict
+        Symbol → number for symbols that are fixed by default.
+    constraints : tuple of Constraint
+    family : str
+        Sub-kind for compensators (``type2``, ``pid`` …), else "".
+    inverting : bool
+        True when the pass-band gain is negative.
+    """
+
+    id: str
+    title: str
+    response: str
+    order: int
+    circuit: Circuit
+    free: tuple
+    ranges: dict = field(default_factory=dict)
+    values: dict = field(default_factory=dict)
+    constraints: tuple = ()
+    family: str = ""
+    inverting: bool = False
+    description: str = ""
+    formula: str = ""
+    path: str = ""
+
+    @property
+    def symbols(self):
+        """Every symbol of the circuit, in element order."""
+        return self.circuit.symbols
+
+    def kind_of(self, symbol):
+        """Element kind that carries `symbol`."""
+        for element in self.circuit.elements:
+            if element.symbol == symbol:
+                return element.kind
+        raise KeyError(f"topology {self.id!r} has no part {symbol!r}")
+
+    @property
+    def part_count(self):
+        """Resistors, capacitors and inductors in the circuit."""
+        return sum(1 for e in self.circuit.elements if e.kind in _PASSIVE)
+
+    @property
+    def opamp_count(self):
+        return self.circuit.opamp_count
+
+    def with_ranges(self, by_kind):
+        """Copy with the range of every free part of a kind replaced.
+
+        Parameters
+        ----------
+        by_kind : mapping
+            Element kind → (low, high), for example ``{"resistor": (1e3, 1e6)}``.
+        """
+        ranges = dict(self.ranges)
+        for symbol in self.free:
+            kind = self.kind_of(symbol)
+            if kind in by_kind:
+                ranges[symbol] = tuple(by_kind[kind])
+        return replace(self, ranges=ranges)
+
+
+def topology_from_text(text, *, source="topology"):
+    """Parse topology TOML text; `source` names it in error messages."""
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as error:
+        raise TopologyError(f"{source}: not valid TOML ({error})") from None
+    except RecursionError:
+        raise TopologyError(f"{source}: arrays or tables nested too deeply") from None
+    return topology_from_dict(data, source=source)
+
+
+def load_topology(path: str | Path) -> Topology:
+    """Read a topology file from any path.
+
+    Raises
+    ------
+    SpecError
+        If the file is missing, unreadable or malformed (the message names it).
+    """
+    data = read_toml(path, what="topology file")
+    topology = topology_from_dict(data, source=brief_path(path))
+    return replace(topology, path=str(path))
+
+
+def topology_from_dict(data: Any, *, source: str = "topology") -> Topology:
+    """Build a Topology from parsed TOML (see :func:`topology_from_text`).
+
+    Raises
+    ------
+    TopologyError
+        An unknown key (the accepted ones listed), a value of the wrong
+        type, a missing key, a part value or range in another kind's unit,
+        out of bounds or not finite, a constraint on a part that is not free.
+    """
+    if not isinstance(data, dict):
+        raise TopologyError(f"{source}: a topology must be a table")
+    for key, value in data.items():
+        if key not in TOPOLOGY_KEYS:
+            raise TopologyError(str(unknown_key(key, TOPOLOGY_KEYS, source)))
+        if key != "elements":
+            try:
+                check_type(value, TOPOLOGY_KEYS[key].type, f"{source}: {key}",
+                           TOPOLOGY_KEYS[key].description)
+            except SpecError as error:
+                raise TopologyError(str(error)) from None
+    for key in ("id", "title", "response", "order", "elements"):
+        if key not in data:
+            raise TopologyError(f"{source}: missing required key {key!r}")
+    topology_id = data["id"]
+    if not _ID.match(topology_id):
+        raise TopologyError(
+            f"{source}: id {brief(topology_id)} must use lowercase letters, digits and '-'"
+        )
+    response = data["response"]
+    if response not in RESPONSES:
+        raise TopologyError(
+            f"{source}: unknown response kind {brief(response)}; accepted: {', '.join(RESPONSES)}"
+        )
+    order = data["order"]
+    if not 0 <= order <= 24:
+        raise TopologyError(f"{source}: order = {order!r} must be a whole number from 0 to 24")
+    circuit = circuit_from_dict({k: data[k] for k in CIRCUIT_KEYS if k in data},
+                                source=source, parse=parse_value)
+    circuit = replace(circuit, name=topology_id)
+    symbols = circuit.symbols
+    kinds = {e.symbol: e.kind for e in circuit.elements if e.symbol}
+    values = {}
+    for symbol, raw in data.get("values", {}).items():
+        if symbol not in symbols:
+            raise TopologyError(f"{source}: values: {brief(symbol)} is not a part of the topology")
+        values[symbol] = _part_number(raw, kinds[symbol], f"{source}: values.{symbol}")
+    free = data.get("free")
+    if free is None:
+        free = [s for s in symbols if s not in values]
+    for symbol in free:
+        if symbol not in symbols:
+            raise TopologyError(
+                f"{source}: free part {brief(symbol)} is not a symbol of any element"
+            )
+    for symbol in symbols:
+        if symbol not in free and symbol not in values:
+            raise TopologyError(
+                f"{source}: part {symbol!r} is neither free nor given a value in [values]"
+            )
+    ranges = _ranges(data.get("ranges", {}), free, symbols, kinds, source)
+    constraints = []
+    for text in data.get("constraints", []):
+        constraint = parse_constraint(text, where=f"{source}: constraints")
+        for name in (constraint.part, constraint.source):
+            if name not in free:
+                raise TopologyError(
+                    f"{source}: constraint {brief(text)} names {name!r}, which is not a free part"
+                )
+        constraints.append(constraint)
+    return Topology(
+        id=topology_id,
+        title=data["title"],
+        response=response,
+        order=order,
+        circuit=circuit,
+        free=tuple(check_symbol(s) for s in free),
+        ranges=ranges,
+        values=values,
+        constraints=tuple(constraints),
+        family=data.get("family", ""),
+        inverting=data.get("inverting", False),
+        description=data.get("description", ""),
+        formula=data.get("formula", ""),
+        path="",
+    )
+
+
+def _ranges(raw_ranges: dict, free: list, symbols: tuple, kinds: dict, source: str) -> dict:
+    """Symbol → (low, high) for every free part: given, or by kind."""
+    for symbol in raw_ranges:
+        if symbol not in symbols:
+            raise TopologyError(f"{source}: ranges: {brief(symbol)} is not a part of the topology")
+    ranges = {}
+    for symbol in free:
+        if symbol in raw_ranges:
+            where = f"{source}: ranges.{symbol}"
+            low, high = (_part_number(x, kinds[symbol], where) for x in raw_ranges[symbol])
+        elif kinds[symbol] in DEFAULT_RANGES:
+            low, high = DEFAULT_RANGES[kinds[symbol]]
+        else:
+            raise TopologyError(
+                f"{source}: free part {symbol!r} ({kinds[symbol]}) has no range; "
+                f"give ranges.{symbol} = [low, high]"
+            )
+        if not (0 < low < high):
+            raise TopologyError(
+                f"{source}: ranges.{symbol} must satisfy 0 < low < high, not [{low:g}, {high:g}]"
+            )
+        ranges[symbol] = (low, high)
+    return ranges
+
+
+def _part_number(raw: Any, kind: str, where: str) -> float:
+    """A part value or range end: finite, in the kind's unit, within its bounds."""
+    try:
+        value = parse_value(raw, unit=KIND_UNITS[kind] or None, field=where)
+        return check_part_value(kind, value, where)
+    except TopologyError:
+        raise
+    except SpecError as error:
+        raise TopologyError(str(error)) from None

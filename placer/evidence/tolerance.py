@@ -1,0 +1,642 @@
+"""Tolerance Monte Carlo of a network function.
+
+The Monte Carlo draws every toleranced part independently, evaluates the
+coefficient polynomials for all samples at once through
+:meth:`NetworkFunction.coefficients` (no Python loop over samples) and
+reads f0 (Hz), Q and the gain off them, the same figures
+:mod:`placer.analysis.sensitivity` reads; the sensitivities at the nominal values
+give each part's share of the spread. For a notch it also reads the
+rejection at a fixed frequency (the interference the notch is there for):
+how far below the pass band each build sits at that frequency, in dB.
+
+Examples
+--------
+>>> from placer.circuit.elements import Circuit, Element
+>>> from placer.analysis.network import network_function
+>>> rc = Circuit((Element("R1", "resistor", ("vin", "vout"), symbol="R1"),
+...               Element("C1", "capacitor", ("vout", "gnd"), symbol="C1")))
+>>> nf = network_function(rc)
+>>> result = monte_carlo(nf, {"R1": 1e3, "C1": 1e-6}, {"R1": 0.01, "C1": 0.05},
+...                      samples=1000, seed=1)
+>>> round(result.nominal_f0_hz, 2), result.ranking["f0"]
+(159.15, ('C1', 'R1'))
+
+References
+----------
+R. Schaumann and M. E. Van Valkenburg, *Design of Analog Filters*,
+Oxford University Press, 2001 (sensitivity chapter).
+"""
+
+from __future__ import annotations
+
+import math
+import numbers
+import os
+import warnings
+from collections.abc import Mapping
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import NumericalWarning, SpecError
+from ..analysis.network import polynomial_values
+from ..analysis.sensitivity import (
+    Sensitivities,
+    _check_order,
+    _figures,
+    _is_number,
+    _nominal_values,
+    _reference,
+    sensitivities,
+)
+
+__all__ = [
+    "DISTRIBUTIONS",
+    "WINDOW_KEYS",
+    "MAX_REJECTION_DB",
+    "MAX_SAMPLES",
+    "CHUNK",
+    "PARALLEL_MIN_SAMPLES",
+    "check_workers",
+    "worker_ranges",
+    "Statistics",
+    "MonteCarloResult",
+    "CascadeMonteCarloResult",
+    "monte_carlo",
+    "cascade_monte_carlo",
+]
+
+#: Accepted values of ``distribution``.
+DISTRIBUTIONS = ("uniform", "gaussian")
+#: Accepted keys of ``windows``.
+WINDOW_KEYS = ("f0", "q", "gain_db", "rejection_db")
+#: Largest rejection reported, dB (an exact null would be infinite).
+MAX_REJECTION_DB = 200.0
+#: Upper limit on Monte Carlo samples; larger requests are capped.
+MAX_SAMPLES = 1_000_000
+#: Samples per chunk when a progress callback is given.
+CHUNK = 2_000
+#: Fewest samples for which worker processes are started (below it, starting
+#: them costs more than they save).
+PARALLEL_MIN_SAMPLES = 50_000
+
+
+@dataclass(frozen=True)
+class Statistics:
+    """Summary of one Monte Carlo figure (population std, ddof = 0)."""
+
+    mean: float
+    std: float
+    minimum: float
+    maximum: float
+    p01: float
+    p99: float
+
+    @classmethod
+    def of(cls, samples):
+        """Statistics of a sample array."""
+        samples = np.asarray(samples, dtype=float)
+        low, high = float(np.min(samples)), float(np.max(samples))
+        if low == high:     # constant: exact, without summation round-off
+            return cls(low, 0.0, low, high, low, high)
+        p01, p99 = np.percentile(samples, [1.0, 99.0])
+        return cls(float(np.mean(samples)), float(np.std(samples)), low, high,
+                   float(p01), float(p99))
+
+
+@dataclass(frozen=True, eq=False)
+class MonteCarloResult:
+    """Samples and statistics of f0, Q and gain under part tolerances.
+
+    Attributes
+    ----------
+    samples, distribution, tolerances
+        As applied (tolerances: part → fraction; parts absent are exact).
+    nominal_f0_hz, nominal_q, nominal_gain : float
+        Figures at the nominal values (``nominal_q`` None for first order).
+    gain_reference : str
+        Where the gain is read: "dc", "hf", "center" (signed), or
+        "|H| at <f> Hz" when the network has none of those (e.g. 4th-order
+        band-pass): the magnitude at the reference frequency.
+    f0_hz, q, gain : ndarray
+        One value per sample (read-only); ``q`` None for first order.
+    statistics : dict
+        "f0_hz", "q", "gain", "gain_db" → :class:`Statistics`.
+    windows, window_yield, yield_fraction, passed
+        The yield windows ("f0", "q" relative: 0.02 = ±2 % of nominal;
+        "gain_db" absolute, dB; "rejection_db" a minimum, dB), the
+        fraction inside each window alone,
+        inside all at once, and the per-sample pass mask (None without
+        windows).
+    contributions, ranking : dict
+        "f0", "q", "gain" → {part: share of the variance} from first-order
+        sensitivity × tolerance (sums to 1; all 0 when nothing varies), and
+        → parts sorted by falling share.
+    sensitivities : Sensitivities
+    reject_hz : float or None
+        Frequency at which the rejection is read (Hz), when asked for.
+    nominal_rejection_db : float or None
+    rejection_db : ndarray or None
+        Pass-band gain over |H(j2π·reject_hz)|, dB, per sample (read-only;
+        each build against its own pass-band gain), capped at
+        MAX_REJECTION_DB; ``statistics["rejection_db"]`` summarises it.
+    """
+
+    samples: int
+    distribution: str
+    tolerances: dict
+    nominal_f0_hz: float
+    nominal_q: float | None
+    nominal_gain: float
+    gain_reference: str
+    f0_hz: np.ndarray
+    q: np.ndarray | None
+    gain: np.ndarray
+    statistics: dict
+    windows: dict | None
+    window_yield: dict | None
+    yield_fraction: float | None
+    passed: np.ndarray | None
+    contributions: dict
+    ranking: dict
+    sensitivities: Sensitivities
+    reject_hz: float | None = None
+    nominal_rejection_db: float | None = None
+    rejection_db: np.ndarray | None = None
+
+    @property
+    def gain_db(self):
+        """20·log10|gain| per sample, dB."""
+        return _db(self.gain)
+
+    @property
+    def nominal_gain_db(self):
+        """20·log10|nominal gain|, dB."""
+        return float(_db(self.nominal_gain))
+
+
+@dataclass(frozen=True, eq=False)
+class CascadeMonteCarloResult:
+    """Monte Carlo of a cascade: per-section results and the overall gain.
+
+    Attributes
+    ----------
+    sections : tuple of MonteCarloResult
+    gain : ndarray
+        Product of the section gains per sample (signed).
+    nominal_gain : float
+    statistics : dict
+        "gain", "gain_db" → :class:`Statistics` of the overall gain.
+    yield_fraction : float or None
+        Fraction of samples where every section is inside its "f0" and "q"
+        windows and the *overall* gain inside the "gain_db" window.
+    passed : ndarray of bool or None
+    """
+
+    sections: tuple
+    gain: np.ndarray
+    nominal_gain: float
+    statistics: dict
+    windows: dict | None
+    yield_fraction: float | None
+    passed: np.ndarray | None
+
+    @property
+    def gain_db(self):
+        """20·log10|overall gain| per sample, dB."""
+        return _db(self.gain)
+
+
+# -- validation -------------------------------------------------------------
+
+def _db(x):
+    with np.errstate(divide="ignore"):
+        return 20.0 * np.log10(np.abs(x))
+
+
+def _percent(fraction):
+    return f"{fraction * 100:g} %"
+
+
+
+def _check_tolerances(tolerances, names, allow_zero):
+    if _is_number(tolerances):
+        tolerances = {name: tolerances for name in names}
+    if not isinstance(tolerances, Mapping):
+        raise SpecError(
+            f"tolerances must map part names to fractions (0.01 = 1 %), not {tolerances!r}"
+        )
+    out = {}
+    for name, tolerance in tolerances.items():
+        if name not in names:
+            raise SpecError(
+                f"tolerance given for {name!r}, which is not a part of this network "
+                f"(parts: {', '.join(names)})"
+            )
+        if not _is_number(tolerance):
+            raise SpecError(f"tolerance of {name!r} must be a number (0.01 = 1 %), not {tolerance!r}")
+        tolerance = float(tolerance)
+        low_ok = tolerance >= 0 if allow_zero else tolerance > 0
+        if not (math.isfinite(tolerance) and low_ok and tolerance < 1):
+            shown = _percent(tolerance) if math.isfinite(tolerance) else repr(tolerance)
+            raise SpecError(f"tolerance of {name!r} must be between 0 and 100 %, not {shown}")
+        out[name] = tolerance
+    return {name: out[name] for name in names if name in out}
+
+
+def _check_samples(samples):
+    if not (_is_number(samples) and isinstance(samples, numbers.Integral)):
+        raise SpecError(f"samples must be a whole number of at least 1, not {samples!r}")
+    if samples < 1:
+        raise SpecError(f"samples must be at least 1, not {samples}")
+    if samples > MAX_SAMPLES:
+        warnings.warn(
+            f"{samples} Monte Carlo samples requested; capped at {MAX_SAMPLES:,}",
+            NumericalWarning, stacklevel=3,
+        )
+        return MAX_SAMPLES
+    return int(samples)
+
+
+def _choices(options):
+    return "{" + ", ".join(repr(o) for o in options) + "}"
+
+
+def _check_windows(windows, order, reject_hz):
+    if windows is None:
+        return None
+    if not isinstance(windows, Mapping):
+        raise SpecError(f"windows must map {set(WINDOW_KEYS)} to widths, not {windows!r}")
+    out = {}
+    for key, width in windows.items():
+        if key not in WINDOW_KEYS:
+            raise SpecError(f"window key must be one of {_choices(WINDOW_KEYS)}, not {key!r}")
+        if key == "q" and order == 1:
+            raise SpecError("window 'q' given, but a first-order network has no Q")
+        if key == "rejection_db" and reject_hz is None:
+            raise SpecError("window 'rejection_db' needs the frequency to read it at (reject_hz)")
+        if not (_is_number(width) and math.isfinite(width) and width > 0):
+            raise SpecError(f"window {key!r} must be a positive number, not {width!r}")
+        out[key] = float(width)
+    return out
+
+
+# -- Monte Carlo ------------------------------------------------------------
+
+def _draw(rng, tolerances, samples, distribution):
+    """Multipliers (parts, samples) around 1."""
+    widths = np.array(list(tolerances.values()))[:, None]
+    if distribution == "uniform":
+        return 1.0 + widths * rng.uniform(-1.0, 1.0, size=(len(tolerances), samples))
+    sigma = widths / 3.0
+    multipliers = 1.0 + sigma * rng.standard_normal(size=(len(tolerances), samples))
+    # A part cannot change sign; redraw the (astronomically rare) ones that would.
+    bad = multipliers <= 0
+    while bad.any():
+        redraw = 1.0 + (sigma * rng.standard_normal(size=multipliers.shape))
+        multipliers = np.where(bad, redraw, multipliers)
+        bad = multipliers <= 0
+    return multipliers
+
+
+def _window_masks(windows, f0, q, gain_db, nominal_f0, nominal_q, nominal_gain_db,
+                  rejection_db=None):
+    masks = {}
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if "f0" in windows:
+            masks["f0"] = np.abs(f0 / nominal_f0 - 1.0) <= windows["f0"]
+        if "q" in windows and q is not None:
+            masks["q"] = np.abs(q / nominal_q - 1.0) <= windows["q"]
+        if "gain_db" in windows:
+            masks["gain_db"] = np.abs(gain_db - nominal_gain_db) <= windows["gain_db"]
+        if "rejection_db" in windows and rejection_db is not None:
+            masks["rejection_db"] = rejection_db >= windows["rejection_db"]
+    return masks
+
+
+def _check_reject_hz(reject_hz):
+    if reject_hz is None:
+        return None
+    if not (_is_number(reject_hz) and math.isfinite(reject_hz) and reject_hz > 0):
+        raise SpecError(f"reject_hz must be a positive frequency in Hz, not {reject_hz!r}")
+    return float(reject_hz)
+
+
+def _rejection_db(numerator, denominator, gain, omega):
+    """|gain| / |H(jω)| in dB per sample, capped at MAX_REJECTION_DB."""
+    top = polynomial_values(numerator, 1j * omega)
+    bottom = polynomial_values(denominator, 1j * omega)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = np.abs(gain) * np.abs(bottom) / np.abs(top)
+        db = 20.0 * np.log10(ratio)
+    return np.minimum(np.where(np.isnan(db), MAX_REJECTION_DB, db), MAX_REJECTION_DB)
+
+
+def _contributions(sens, tolerances):
+    contributions, ranking = {}, {}
+    for key, per_part in (("f0", sens.omega0), ("q", sens.q), ("gain", sens.gain)):
+        if per_part is None:
+            continue
+        variance = {name: (per_part[name] * tolerances[name]) ** 2 for name in tolerances}
+        total = sum(variance.values())
+        shares = {name: (v / total if total > 0 else 0.0) for name, v in variance.items()}
+        contributions[key] = shares
+        ranking[key] = tuple(sorted(shares, key=lambda n: (-shares[n], n)))
+    return contributions, ranking
+
+
+def _readonly(array):
+    array = np.asarray(array)
+    array.flags.writeable = False
+    return array
+
+
+def _evaluate_block(nf, nominal, multipliers, index, ref, reject_hz):
+    """(ω0, Q or None, gain, rejection dB or None) for consecutive samples.
+
+    The columns are evaluated CHUNK at a time, from the first, so the
+    arithmetic (and numpy's vectorised loops, whose last bits can depend on
+    where a value falls in an array) is the same however the samples are
+    split between processes, as long as each part starts at a multiple of
+    CHUNK.
+    """
+    parts = []
+    for start in range(0, multipliers.shape[1], CHUNK):
+        block = multipliers[:, start:start + CHUNK]
+        count = block.shape[1]
+        columns = {
+            name: (nominal[name] * block[index[name]] if name in index
+                   else np.full(count, nominal[name]))
+            for name in nf.symbols
+        }
+        numerator, denominator = nf.coefficients(columns)
+        omega0, q, gain = _figures(numerator, denominator, ref)
+        rejection = None
+        if reject_hz is not None:
+            rejection = _rejection_db(numerator, denominator, gain, 2 * math.pi * reject_hz)
+        parts.append((omega0, q, gain, rejection))
+
+    def join(k):
+        if parts[0][k] is None:
+            return None
+        return np.concatenate([np.broadcast_to(p[k], (len(p[0]),)) for p in parts])
+
+    return join(0), join(1), join(2), join(3)
+
+
+def worker_ranges(total, workers, chunk):
+    """(start, stop) ranges of `total` samples for `workers` processes.
+
+    About four ranges per worker, each a whole number of `chunk`s and so
+    starting at a multiple of `chunk`: evaluated `chunk` at a time from its
+    start, every sample meets the same arithmetic as in one process.
+
+    Examples
+    --------
+    >>> worker_ranges(20, 1, 2)
+    [(0, 6), (6, 12), (12, 18), (18, 20)]
+    """
+    chunks = -(-total // chunk)
+    size = chunk * max(1, -(-chunks // (4 * workers)))
+    return [(start, min(start + size, total)) for start in range(0, total, size)]
+
+
+def check_workers(workers):
+    """A worker count: None means every core; else a whole number >= 1."""
+    if workers is None:
+        return os.cpu_count() or 1
+    if not (isinstance(workers, numbers.Integral) and not isinstance(workers, bool) and workers >= 1):
+        raise SpecError(f"workers must be a whole number >= 1, not {workers!r}")
+    return int(workers)
+
+
+def _blocks(total, workers, progress):
+    """Column ranges handed out at once: in-process everything, or CHUNK at a
+    time to report progress; with workers, :func:`worker_ranges`."""
+    if workers > 1:
+        return worker_ranges(total, workers, CHUNK)
+    size = CHUNK if progress is not None else total
+    return [(start, min(start + size, total)) for start in range(0, total, size)]
+
+
+def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform", seed=0,
+                windows=None, progress=None, allow_zero=False, reject_hz=None, workers=1):
+    """Tolerance Monte Carlo of f0, Q and gain, vectorised over samples.
+
+    Parameters
+    ----------
+    nf : NetworkFunction
+    values : mapping of str to float
+        Nominal value of every part symbol (SI units).
+    tolerances : mapping of str to float, or float
+        Part → tolerance as a fraction (0.01 = ±1 %); one float applies to
+        every part. Parts absent are exact.
+    samples : int, optional
+        Number of samples, 1 … 1,000,000 (more is capped with a warning).
+    distribution : {"uniform", "gaussian"}, optional
+        "uniform": each part uniform within ±tolerance; "gaussian": normal
+        with 3σ = tolerance, not truncated (a value that would come out
+        ≤ 0 is redrawn, which matters only for tolerances above ~30 %).
+    seed : int, numpy.random.SeedSequence or numpy.random.Generator, optional
+    windows : mapping, optional
+        Yield windows around nominal: {"f0": 0.02, "q": 0.05, "gain_db": 0.5}
+        means f0 within ±2 %, Q within ±5 %, gain within ±0.5 dB;
+        "rejection_db": 40 asks for at least 40 dB of rejection at
+        `reject_hz`.
+    progress : callable, optional
+        ``progress(done, total)``, called after each chunk of 2,000 samples.
+        Without it all samples are evaluated in one call.
+    allow_zero : bool, optional
+        Accept tolerances of exactly 0 (a check that samples equal nominal).
+    reject_hz : float, optional
+        Read each build's rejection at this frequency (Hz): its pass-band
+        gain over |H| there, in dB. For a notch, the frequency it must
+        remove (50 Hz hum), which the builds' nulls scatter around.
+    workers : int, optional
+        Worker processes (default 1, in-process; None: every core). Used
+        from PARALLEL_MIN_SAMPLES samples up; the draws are made once, up
+        front, so the result does not depend on it.
+
+    Returns
+    -------
+    MonteCarloResult
+        Figures: second order — f0 = ω0/2π, Q, gain of the network; first
+        order — f0 of the pole and the gain; higher orders — f0 and Q of
+        the dominant pole pair (see
+        :func:`placer.analysis.sensitivity.sensitivities`) and the gain at the
+        reference.
+
+    Raises
+    ------
+    SpecError
+        For a missing value, a tolerance outside (0, 100 %), samples < 1,
+        an unknown distribution or window key.
+
+    Examples
+    --------
+    >>> from placer.circuit.library import get_topology
+    >>> from placer.analysis.network import network_function
+    >>> nf = network_function(get_topology("rc-lowpass").circuit)
+    >>> r = monte_carlo(nf, {"R1": 1e3, "C1": 1e-9}, {"R1": 0.01, "C1": 0.05},
+    ...                 samples=20000, windows={"f0": 0.05})
+    >>> round(r.yield_fraction, 2), r.contributions["f0"]["C1"] > 0.9
+    (0.95, True)
+    """
+    _check_order(nf)
+    nominal = _nominal_values(nf, values)
+    names = list(nf.symbols)
+    tolerances = _check_tolerances(tolerances, names, allow_zero)
+    samples = _check_samples(samples)
+    if distribution not in DISTRIBUTIONS:
+        raise SpecError(f"distribution must be one of {_choices(DISTRIBUTIONS)}, "
+                        f"not {distribution!r}")
+    reject_hz = _check_reject_hz(reject_hz)
+    windows = _check_windows(windows, nf.order, reject_hz)
+    workers = check_workers(workers)
+    rng = np.random.default_rng(seed)
+    ref = _reference(nf, nominal)
+
+    multipliers = _draw(rng, tolerances, samples, distribution)
+    # Column 0 is the nominal itself, so nominal and samples share one code path.
+    multipliers = np.concatenate([np.ones((len(tolerances), 1)), multipliers], axis=1)
+    total = samples + 1
+    if samples < PARALLEL_MIN_SAMPLES:
+        workers = 1
+    omega0 = np.empty(total)
+    q = np.empty(total) if nf.order >= 2 else None
+    gain = np.empty(total)
+    rejection = np.empty(total) if reject_hz is not None else None
+    index = {name: i for i, name in enumerate(tolerances)}
+    blocks = _blocks(total, workers, progress)
+
+    def store(block, figures):
+        start, stop = block
+        w, quality, k, rejected = figures
+        omega0[start:stop] = w
+        if q is not None:
+            q[start:stop] = quality
+        gain[start:stop] = k
+        if rejection is not None:
+            rejection[start:stop] = rejected
+        if progress is not None:
+            progress(stop - 1, samples)
+
+    if workers == 1 or len(blocks) == 1:
+        for block in blocks:
+            start, stop = block
+            store(block, _evaluate_block(nf, nominal, multipliers[:, start:stop], index, ref,
+                                         reject_hz))
+    else:
+        with ProcessPoolExecutor(max_workers=min(workers, len(blocks))) as pool:
+            futures = [pool.submit(_evaluate_block, nf, nominal, multipliers[:, start:stop],
+                                   index, ref, reject_hz) for start, stop in blocks]
+            for block, future in zip(blocks, futures):
+                store(block, future.result())
+    if not (np.all(np.isfinite(omega0)) and np.all(np.isfinite(gain))):
+        warnings.warn("some Monte Carlo samples gave non-finite figures (NaN or inf)",
+                      NumericalWarning, stacklevel=2)
+
+    f0 = omega0 / (2 * math.pi)
+    nominal_f0, f0 = float(f0[0]), _readonly(f0[1:])
+    nominal_gain, gain = float(gain[0]), _readonly(gain[1:])
+    nominal_q = None
+    if q is not None:
+        nominal_q, q = float(q[0]), _readonly(q[1:])
+    statistics = {"f0_hz": Statistics.of(f0), "gain": Statistics.of(gain),
+                  "gain_db": Statistics.of(_db(gain))}
+    if q is not None:
+        statistics["q"] = Statistics.of(q)
+    nominal_rejection = None
+    if rejection is not None:
+        nominal_rejection, rejection = float(rejection[0]), _readonly(rejection[1:])
+        statistics["rejection_db"] = Statistics.of(rejection)
+
+    window_yield = yield_fraction = passed = None
+    if windows is not None:
+        masks = _window_masks(windows, f0, q, _db(gain), nominal_f0, nominal_q,
+                              float(_db(nominal_gain)), rejection)
+        window_yield = {key: float(mask.mean()) for key, mask in masks.items()}
+        passed = _readonly(np.logical_and.reduce(list(masks.values())) if masks
+                           else np.ones(samples, bool))
+        yield_fraction = float(passed.mean())
+
+    sens = sensitivities(nf, nominal)
+    contributions, ranking = _contributions(sens, tolerances)
+    return MonteCarloResult(
+        samples=samples, distribution=distribution, tolerances=dict(tolerances),
+        nominal_f0_hz=nominal_f0, nominal_q=nominal_q, nominal_gain=nominal_gain,
+        gain_reference=ref.gain_label, f0_hz=f0, q=q, gain=gain, statistics=statistics,
+        windows=windows, window_yield=window_yield, yield_fraction=yield_fraction,
+        passed=passed, contributions=contributions, ranking=ranking, sensitivities=sens,
+        reject_hz=reject_hz, nominal_rejection_db=nominal_rejection, rejection_db=rejection,
+    )
+
+
+def cascade_monte_carlo(sections, *, samples=10_000, distribution="uniform", seed=0,
+                        windows=None, progress=None, allow_zero=False):
+    """Monte Carlo of a cascade, each section sampled independently.
+
+    Parameters
+    ----------
+    sections : sequence of (NetworkFunction, values, tolerances)
+    samples, distribution, windows, allow_zero
+        As in :func:`monte_carlo`; the windows apply to every section.
+    seed : int, SeedSequence or Generator, optional
+        One generator; each section gets its own child stream
+        (``Generator.spawn``), so sections are independent and the whole
+        is reproducible.
+    progress : callable, optional
+        ``progress(done, total)`` over all sections' samples.
+
+    Returns
+    -------
+    CascadeMonteCarloResult
+        The overall gain is the product of the section gains; its yield
+        needs every section inside its "f0"/"q" windows and the overall
+        gain inside "gain_db".
+
+    Examples
+    --------
+    >>> from placer.circuit.library import get_topology
+    >>> from placer.analysis.network import network_function
+    >>> nf = network_function(get_topology("rc-lowpass").circuit)
+    >>> part = (nf, {"R1": 1e3, "C1": 1e-9}, {"R1": 0.01, "C1": 0.01})
+    >>> r = cascade_monte_carlo([part, part], samples=500)
+    >>> len(r.sections), r.nominal_gain
+    (2, 1.0)
+    """
+    sections = list(sections)
+    if not sections:
+        raise SpecError("a cascade needs at least one section")
+    for i, section in enumerate(sections):
+        if not (isinstance(section, (tuple, list)) and len(section) == 3):
+            raise SpecError(
+                f"cascade section {i} must be (network function, values, tolerances), "
+                f"not {section!r}"
+            )
+    samples = _check_samples(samples)
+    streams = np.random.default_rng(seed).spawn(len(sections))
+    results = []
+    for i, ((nf, values, tolerances), stream) in enumerate(zip(sections, streams)):
+        def report(done, total, _offset=i * samples):
+            progress(_offset + done, len(sections) * samples)
+        results.append(monte_carlo(nf, values, tolerances, samples=samples,
+                                   distribution=distribution, seed=stream, windows=windows,
+                                   progress=None if progress is None else report,
+                                   allow_zero=allow_zero))
+    gain = _readonly(np.prod([r.gain for r in results], axis=0))
+    nominal_gain = float(np.prod([r.nominal_gain for r in results]))
+    statistics = {"gain": Statistics.of(gain), "gain_db": Statistics.of(_db(gain))}
+    yield_fraction = passed = None
+    checked = results[0].windows
+    if checked is not None:
+        shape = {k: v for k, v in checked.items() if k != "gain_db"}
+        masks = [m for r in results for m in _window_masks(
+            shape, r.f0_hz, r.q, None, r.nominal_f0_hz, r.nominal_q, None).values()]
+        if "gain_db" in checked:
+            masks.append(np.abs(_db(gain) - _db(nominal_gain)) <= checked["gain_db"])
+        passed = _readonly(np.logical_and.reduce(masks) if masks else np.ones(samples, bool))
+        yield_fraction = float(passed.mean())
+    return CascadeMonteCarloResult(tuple(results), gain, nominal_gain, statistics, checked,
+                                   yield_fraction, passed)

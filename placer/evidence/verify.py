@@ -1,0 +1,664 @@
+"""Checks of a design with python-control: step, frequency response, margins.
+
+A response is held as a cascade of small sections
+(:class:`placer.analysis.response.Response`), never as one high-order polynomial:
+frequency responses are products of section responses, step responses
+come from the series connection of the sections' state-space forms, and
+poles are the sections' poles.
+
+Conventions: frequencies are in hertz at this module's surface (fields
+ending ``_hz``) and rad/s inside; "−3 dB" is half power,
+10·log10(2) ≈ 3.0103 dB below the reference gain; phases are in degrees.
+
+Examples
+--------
+>>> import control
+>>> lowpass = Response.from_sections([control.tf([1.0], [1.0, 2**0.5, 1.0])])
+>>> figures = frequency_figures(lowpass)
+>>> round(figures.f3db_hz * 2 * 3.141592653589793, 6)
+1.0
+>>> round(step_figures(lowpass).overshoot_pct, 3)
+4.321
+
+References
+----------
+K. Ogata, *Modern Control Engineering*, 5th ed., Prentice Hall, 2010
+(transient-response specifications: rise, peak and settling time,
+overshoot). python-control, ``stability_margins`` (gain and phase margins).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import control
+import numpy as np
+import scipy.linalg
+import scipy.optimize
+
+from ..errors import SpecError
+from ..analysis.response import Response
+
+__all__ = [
+    "HALF_POWER_DB",
+    "StepFigures",
+    "FrequencyFigures",
+    "Figures",
+    "Deviation",
+    "Verification",
+    "Margins",
+    "step_figures",
+    "frequency_figures",
+    "deviation",
+    "verify",
+    "margins",
+]
+
+#: The "−3 dB" level: half power, in dB.
+HALF_POWER_DB = 10 * math.log10(2.0)
+_TWO_PI = 2 * math.pi
+
+
+# -- step -------------------------------------------------------------------
+
+@dataclass(frozen=True, eq=False)
+class StepFigures:
+    """Figures of the unit-step response.
+
+    Attributes
+    ----------
+    overshoot_pct : float or None
+        Peak above the final value, % of the final value (≥ 0).
+    rise_time_s : float or None
+        10 % → 90 % of the final value, first crossings, interpolated.
+    settling_time_s : float or None
+        Last time outside ±2 % of the final value (zero-DC responses:
+        outside ±2 % of the peak around zero).
+    final_value : float or None
+        H(0) (0.0 for zero-DC responses).
+    peak, peak_time_s : float or None
+        Value and time of the largest |y|.
+    zero_dc_gain : bool
+        True for high-pass and band-pass responses: overshoot and rise time
+        do not apply there (None), settling is relative to the peak.
+    notes : tuple of str
+    time_s, output : ndarray
+        The grid (ends at 12/min|Re p|) and the response, for plots.
+    """
+
+    overshoot_pct: float | None
+    rise_time_s: float | None
+    settling_time_s: float | None
+    final_value: float | None
+    peak: float | None
+    peak_time_s: float | None
+    zero_dc_gain: bool
+    notes: tuple
+    time_s: np.ndarray = field(repr=False)
+    output: np.ndarray = field(repr=False)
+
+
+def _time_grid(poles):
+    decay = np.abs(poles.real)
+    end = 12.0 / decay.min()
+    step = 0.01 / np.abs(poles).max()
+    points = int(np.clip(math.ceil(end / step) + 1, 2001, 200_001))
+    return np.linspace(0.0, end, points)
+
+
+def _step_output(system, t):
+    """Exact unit-step output of a stable state-space system on a uniform grid.
+
+    y(t) = C e^{At} v − C v + D with v = A⁻¹B. The products e^{A t_k} v are
+    taken in blocks of about √N steps (one propagator per block), so the
+    work is vectorised instead of a Python loop over the N time points
+    (python-control's forced_response loops over them).
+    """
+    A, B, C, D = (np.atleast_2d(np.asarray(x, float)) for x in (system.A, system.B, system.C,
+                                                                  system.D))
+    v = np.linalg.solve(A, B[:, 0])
+    dt = t[1] - t[0]
+    width = int(math.ceil(math.sqrt(t.size)))
+    step = scipy.linalg.expm(A * dt)
+    block = np.empty((v.size, width))
+    w = v
+    for j in range(width):
+        block[:, j] = w
+        w = step @ w
+    jump = scipy.linalg.expm(A * (dt * width))
+    rows = []
+    for _ in range(0, t.size, width):
+        rows.append(C[0] @ block)
+        block = jump @ block
+    return np.concatenate(rows)[: t.size] - C[0] @ v + D[0, 0]
+
+
+def _crossing(t, y, level):
+    """First time where y reaches `level`, interpolated linearly."""
+    above = np.nonzero(y >= level)[0]
+    if not above.size:
+        return None
+    i = int(above[0])
+    if i == 0:
+        return float(t[0])
+    return float(t[i - 1] + (level - y[i - 1]) * (t[i] - t[i - 1]) / (y[i] - y[i - 1]))
+
+
+def _settling(t, deviation, band):
+    outside = np.nonzero(deviation > band)[0]
+    if not outside.size:
+        return 0.0
+    i = int(outside[-1])
+    if i == t.size - 1:
+        return None
+    return float(t[i] + (deviation[i] - band) * (t[i + 1] - t[i]) / (deviation[i] - deviation[i + 1]))
+
+
+def _refined_peak(t, y):
+    i = int(np.argmax(y))
+    if 0 < i < y.size - 1:
+        y0, y1, y2 = y[i - 1], y[i], y[i + 1]
+        curvature = y0 - 2 * y1 + y2
+        if curvature < 0:
+            shift = 0.5 * (y0 - y2) / curvature
+            return float(y1 - 0.25 * (y0 - y2) * shift), float(t[i] + shift * (t[1] - t[0]))
+    return float(y[i]), float(t[i])
+
+
+def step_figures(response):
+    """Overshoot, 10–90 % rise, 2 % settling and final value of a step.
+
+    The time grid is explicit and dense: from 0 to 12/min|Re p| (twelve
+    time constants of the slowest pole), steps of at most 0.01/max|p|,
+    2,001 to 200,001 points. Crossings are interpolated linearly, the peak
+    parabolically. For responses with zero DC gain (high-pass, band-pass)
+    the figures that apply are returned (peak, settling to 2 % of the peak
+    around zero) and ``zero_dc_gain`` says so.
+
+    Parameters
+    ----------
+    response : Response
+
+    Returns
+    -------
+    StepFigures
+        All times None, with a note, when the response is not stable.
+
+    Examples
+    --------
+    >>> import control
+    >>> r = Response.from_sections([control.tf([1.0], [1e-3, 1.0])])
+    >>> round(step_figures(r).rise_time_s / 1e-3, 4)   # ln 9 · τ
+    2.1972
+    """
+    poles = response.poles()
+    notes = []
+    if poles.size and np.any(poles.real >= -1e-12 * np.maximum(np.abs(poles), 1e-300)):
+        return StepFigures(None, None, None, None, None, None, False,
+                           ("not stable: a pole lies on or right of the jω axis; "
+                            "step figures do not apply",), np.array([]), np.array([]))
+    if not poles.size:
+        gain = response.dc_gain
+        return StepFigures(0.0, 0.0, 0.0, gain, gain, 0.0, gain == 0,
+                           ("no dynamics: the response is a constant gain",),
+                           np.array([0.0]), np.array([gain]))
+    t = _time_grid(poles)
+    y = _step_output(response.state_space(), t)
+    y0 = float(y[0])
+    if abs(y0) > 0:
+        notes.append(f"direct feed-through: the step starts at y(0+) = {y0:.6g}")
+    final = response.dc_gain
+    peak_index = int(np.argmax(np.abs(y)))
+    sign = 1.0 if y[peak_index] >= 0 else -1.0
+    peak, peak_time = _refined_peak(t, sign * y)
+    peak *= sign
+    if final == 0.0:
+        notes.append("zero DC gain (high-pass or band-pass): overshoot and rise time do not "
+                     "apply; settling is to within 2 % of the peak around zero")
+        settling = _settling(t, np.abs(y), 0.02 * abs(peak))
+        if settling is None:
+            notes.append("not settled within the time grid")
+        return StepFigures(None, None, settling, 0.0, peak, peak_time, True, tuple(notes), t, y)
+    normalised = y / final
+    top, top_time = _refined_peak(t, normalised)
+    overshoot = max(0.0, (top - 1.0) * 100.0)
+    start = _crossing(t, normalised, 0.1)
+    end = _crossing(t, normalised, 0.9)
+    rise = None if start is None or end is None else end - start
+    settling = _settling(t, np.abs(normalised - 1.0), 0.02)
+    if settling is None:
+        notes.append("not settled within the time grid")
+    return StepFigures(overshoot, rise, settling, final, top * final, top_time, False,
+                       tuple(notes), t, y)
+
+
+# -- frequency --------------------------------------------------------------
+
+@dataclass(frozen=True, eq=False)
+class FrequencyFigures:
+    """Figures of the magnitude response.
+
+    Attributes
+    ----------
+    kind : str
+        {"lowpass", "highpass", "bandpass", "bandstop", "flat", "integrating"}
+        from the DC and high-frequency gains.
+    gain_db : float or None
+        Reference gain: DC (lowpass, bandstop, flat), high frequency
+        (highpass) or the peak (bandpass); None when integrating.
+    f3db_hz : float or None
+        Half-power frequency (lowpass: highest fall through the level;
+        highpass: lowest rise through it).
+    band_low_hz, band_high_hz : float or None
+        Half-power band edges (bandpass: pass band; bandstop: stop band).
+    peak_db, peak_hz : float
+        Largest gain and where (0.0 Hz when the peak is at DC; None for
+        ``peak_hz`` when it is at the high-frequency limit).
+    notes : tuple of str
+    frequency_hz, magnitude_db, phase_deg : ndarray
+        The grid (unwrapped phase), for plots.
+    """
+
+    kind: str
+    gain_db: float | None
+    f3db_hz: float | None
+    band_low_hz: float | None
+    band_high_hz: float | None
+    peak_db: float
+    peak_hz: float | None
+    notes: tuple
+    frequency_hz: np.ndarray = field(repr=False)
+    magnitude_db: np.ndarray = field(repr=False)
+    phase_deg: np.ndarray = field(repr=False)
+
+
+def _frequency_grid(response, per_decade=200):
+    roots = np.concatenate([response.poles(), response.zeros()])
+    magnitudes = np.abs(roots)
+    magnitudes = magnitudes[magnitudes > 0]
+    low, high = (magnitudes.min(), magnitudes.max()) if magnitudes.size else (1.0, 1.0)
+    low, high = low / 100.0, high * 100.0
+    points = max(2001, int(per_decade * math.log10(high / low)) + 1)
+    return np.geomspace(low, high, points)
+
+
+def _db_of(response, omega):
+    with np.errstate(divide="ignore"):
+        return 20 * np.log10(np.abs(response.evaluate(omega)))
+
+
+def _crossings(response, omega, magnitude_db, level):
+    """Refined (ω, direction) where the magnitude passes `level` (brentq in ln ω)."""
+    above = magnitude_db >= level
+    out = []
+    for i in np.nonzero(above[1:] != above[:-1])[0]:
+        def f(u):
+            return float(_db_of(response, np.exp(u))) - level
+        a, b = math.log(omega[i]), math.log(omega[i + 1])
+        fa, fb = f(a), f(b)
+        if fa * fb < 0:
+            u = scipy.optimize.brentq(f, a, b, xtol=1e-14, rtol=4 * np.finfo(float).eps)
+        else:   # the level sits on a grid point, up to rounding
+            u = a if abs(fa) <= abs(fb) else b
+        out.append((math.exp(u), "up" if above[i + 1] else "down"))
+    return out
+
+
+def frequency_figures(response):
+    """Reference gain, half-power edges and peak of the magnitude response.
+
+    The grid spans 1/100 of the smallest to 100× the largest root
+    magnitude, 200 points per decade; half-power crossings are refined with
+    brentq and the peak with a bounded scalar search.
+
+    Parameters
+    ----------
+    response : Response
+
+    Returns
+    -------
+    FrequencyFigures
+
+    Examples
+    --------
+    >>> import control
+    >>> bp = Response.from_sections([control.tf([0.1, 0.0], [1.0, 0.1, 1.0])])
+    >>> f = frequency_figures(bp)
+    >>> f.kind, round(f.gain_db, 9), round(f.peak_hz * 2 * 3.141592653589793, 6)
+    ('bandpass', 0.0, 1.0)
+    """
+    omega = _frequency_grid(response)
+    h = response.evaluate(omega)
+    with np.errstate(divide="ignore"):
+        magnitude_db = 20 * np.log10(np.abs(h))
+    phase_deg = np.degrees(np.unwrap(np.angle(h)))
+    dc, hf = response.dc_gain, response.hf_gain
+    notes = []
+
+    # The peak: at DC or at the high-frequency limit unless an interior
+    # maximum rises above both ends.
+    ends = []
+    if math.isfinite(dc) and dc != 0:
+        ends.append((20 * math.log10(abs(dc)), 0.0))
+    if hf != 0:
+        ends.append((20 * math.log10(abs(hf)), None))
+    peak_db, peak_hz = max(ends, key=lambda e: e[0]) if ends else (-math.inf, None)
+    i = int(np.argmax(magnitude_db))
+    if 0 < i < omega.size - 1 and magnitude_db[i] > peak_db + 1e-9:
+        found = scipy.optimize.minimize_scalar(
+            lambda u: -float(_db_of(response, np.exp(u))),
+            bounds=(math.log(omega[i - 1]), math.log(omega[i + 1])), method="bounded",
+            options={"xatol": 1e-12})
+        peak_db, peak_hz = -float(found.fun), math.exp(found.x) / _TWO_PI
+        if peak_db < magnitude_db[i]:
+            peak_db, peak_hz = float(magnitude_db[i]), omega[i] / _TWO_PI
+    elif not ends:
+        peak_db, peak_hz = float(magnitude_db[i]), omega[i] / _TWO_PI
+    elif peak_hz is None:
+        notes.append("the peak is at the high-frequency limit")
+
+    f3db = low = high = None
+    if math.isinf(dc):
+        kind, gain_db = "integrating", None
+        notes.append("a pole at the origin: no finite DC gain, no half-power edge")
+    else:
+        kind = {(True, False): "lowpass", (False, True): "highpass",
+                (False, False): "bandpass", (True, True): "flat"}[(dc != 0, hf != 0)]
+        gain_db = peak_db if kind == "bandpass" else 20 * math.log10(abs(hf if kind == "highpass"
+                                                                         else dc))
+        found = _crossings(response, omega, magnitude_db, gain_db - HALF_POWER_DB)
+        ups = [w / _TWO_PI for w, direction in found if direction == "up"] or [None]
+        downs = [w / _TWO_PI for w, direction in found if direction == "down"] or [None]
+        if kind == "lowpass":
+            f3db = downs[-1]
+        elif kind == "highpass":
+            f3db = ups[0]
+        elif kind == "bandpass":
+            low, high = ups[0], downs[-1]
+            notes.append("band-pass: the reference gain is the peak")
+        elif found:
+            kind, low, high = "bandstop", downs[0], ups[-1]
+        else:
+            notes.append("gain at both DC and high frequency, never 3 dB below: no edge")
+    if f3db is None and kind in ("lowpass", "highpass"):
+        notes.append("the response never passes the half-power level inside the grid")
+    return FrequencyFigures(kind, gain_db, f3db, low, high, float(peak_db), peak_hz,
+                            tuple(notes), omega / _TWO_PI, magnitude_db, phase_deg)
+
+
+# -- comparison -------------------------------------------------------------
+
+@dataclass(frozen=True)
+class Deviation:
+    """Worst deviation of a design's response from a target's over a band.
+
+    Attributes
+    ----------
+    magnitude_db : float
+        Largest |20 log10|H_design| − 20 log10|H_target||, dB.
+    magnitude_at_hz : float
+    phase_deg : float
+        Largest |phase difference|, degrees, modulo 360° (after removing
+        a 180° inversion when ``inverted``).
+    phase_at_hz : float
+    inverted : bool
+        The design inverts relative to the target (H_design/H_target < 0
+        at the target's band peak).
+    band_hz : tuple of float
+    floor_db : float
+        Points where the target is more than this below its band peak are
+        not compared (deep stop band, transmission zeros).
+    """
+
+    magnitude_db: float
+    magnitude_at_hz: float
+    phase_deg: float
+    phase_at_hz: float
+    inverted: bool
+    band_hz: tuple
+    floor_db: float
+
+
+def _default_band(target):
+    reference = target.reference_hz
+    return (0.1 * reference, 10.0 * reference)
+
+
+def _check_band(band_hz):
+    try:
+        low, high = (float(x) for x in band_hz)
+    except (TypeError, ValueError):
+        raise SpecError(f"band_hz must be (low, high) in Hz, not {band_hz!r}") from None
+    if not (0 < low < high < math.inf):
+        raise SpecError(f"band_hz must satisfy 0 < low < high (Hz), not {band_hz!r}")
+    return low, high
+
+
+def deviation(design, target, band_hz=None, *, floor_db=60.0, points=4001):
+    """Worst magnitude (dB) and phase (°) deviation over a band.
+
+    Parameters
+    ----------
+    design, target : Response
+    band_hz : (float, float), optional
+        Band in Hz; default 0.1× to 10× the target's reference frequency
+        (geometric mean of its pole magnitudes).
+    floor_db : float, optional
+        Skip points where the target is more than `floor_db` below its
+        peak in the band.
+    points : int, optional
+        Log-spaced grid points over the band.
+
+    Returns
+    -------
+    Deviation
+
+    Examples
+    --------
+    >>> import control
+    >>> t = Response.from_sections([control.tf([1.0], [1.0, 1.0])])
+    >>> d = Response.from_sections([control.tf([-1.0], [1.0, 1.0])])
+    >>> dev = deviation(d, t)
+    >>> dev.inverted, round(dev.magnitude_db, 12), round(dev.phase_deg, 9)
+    (True, 0.0, 0.0)
+    """
+    low, high = _check_band(_default_band(target) if band_hz is None else band_hz)
+    omega = np.geomspace(low, high, points) * _TWO_PI
+    h_target = target.evaluate(omega)
+    h_design = design.evaluate(omega)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        target_db = 20 * np.log10(np.abs(h_target))
+        design_db = 20 * np.log10(np.abs(h_design))
+        ratio = h_design / h_target
+    reference = int(np.argmax(target_db))
+    inverted = bool(ratio[reference].real < 0)
+    if inverted:
+        ratio = -ratio
+    compared = target_db >= target_db[reference] - floor_db
+    magnitude = np.where(compared, np.abs(design_db - target_db), -np.inf)
+    phase = np.where(compared, np.abs(np.degrees(np.angle(ratio))), -np.inf)
+    i, j = int(np.argmax(magnitude)), int(np.argmax(phase))
+    return Deviation(float(magnitude[i]), float(omega[i] / _TWO_PI), float(phase[j]),
+                     float(omega[j] / _TWO_PI), inverted, (low, high), float(floor_db))
+
+
+@dataclass(frozen=True, eq=False)
+class Figures:
+    """Step and frequency figures of one response."""
+
+    step: StepFigures
+    frequency: FrequencyFigures
+
+
+def _figures(response):
+    return Figures(step_figures(response), frequency_figures(response))
+
+
+@dataclass(frozen=True, eq=False)
+class Verification:
+    """Target, snapped design and (optionally) continuous design, compared.
+
+    Attributes
+    ----------
+    target, design : Figures
+    continuous : Figures or None
+    deviation : Deviation
+        Snapped design against the target.
+    continuous_deviation : Deviation or None
+        Continuous design against the target: what solving left over.
+    snapping_deviation : Deviation or None
+        Snapped against continuous: the cost of preferred values.
+    band_hz : tuple of float
+    """
+
+    target: Figures
+    design: Figures
+    continuous: Figures | None
+    deviation: Deviation
+    continuous_deviation: Deviation | None
+    snapping_deviation: Deviation | None
+    band_hz: tuple
+
+
+def _as_response(value, what):
+    if not isinstance(value, Response):
+        raise SpecError(
+            f"{what} must be a placer.analysis.response.Response (Response.from_sections or "
+            f"Response.from_zpk), not {type(value).__name__}"
+        )
+    return value
+
+
+def verify(design, target, *, band_hz=None, continuous=None):
+    """Compare a snapped design (and its continuous values) with a target.
+
+    Parameters
+    ----------
+    design, target : Response
+    band_hz : (float, float), optional
+        Comparison band in Hz; default 0.1× to 10× the target's reference
+        frequency (see :func:`deviation`).
+    continuous : Response, optional
+        The design with its continuous (unsnapped) part values.
+
+    Returns
+    -------
+    Verification
+
+    Examples
+    --------
+    >>> import control
+    >>> target = Response.from_zpk([], [-1 + 1j, -1 - 1j], 2.0)
+    >>> design = Response.from_zpk([], [-1.01 + 1j, -1.01 - 1j], 2.0201)
+    >>> v = verify(design, target)
+    >>> v.deviation.magnitude_db < 0.1, v.target.frequency.kind
+    (True, 'lowpass')
+    """
+    design = _as_response(design, "design")
+    target = _as_response(target, "target")
+    band = _check_band(_default_band(target) if band_hz is None else band_hz)
+    result_continuous = continuous_deviation = snapping = None
+    if continuous is not None:
+        continuous = _as_response(continuous, "continuous")
+        result_continuous = _figures(continuous)
+        continuous_deviation = deviation(continuous, target, band)
+        snapping = deviation(design, continuous, band)
+    return Verification(_figures(target), _figures(design), result_continuous,
+                        deviation(design, target, band), continuous_deviation, snapping, band)
+
+
+# -- loop margins -----------------------------------------------------------
+
+@dataclass(frozen=True)
+class Margins:
+    """Gain and phase margins of a loop gain L(s) (negative feedback).
+
+    Attributes
+    ----------
+    gain_margin_db : float or None
+        The phase crossover with the smallest |margin| in dB; None when the
+        phase never crosses −180°.
+    phase_margin_deg : float or None
+        The smallest phase margin over all gain crossovers; None when
+        |L| never crosses 1.
+    crossover_hz : float or None
+        Gain crossover of the reported phase margin.
+    phase_crossover_hz : float or None
+        Phase crossover of the reported gain margin.
+    stable : bool
+        From the closed-loop poles (roots of 1 + L), not from the margins.
+    closed_loop_poles : tuple of complex
+    notes : tuple of str
+    """
+
+    gain_margin_db: float | None
+    phase_margin_deg: float | None
+    crossover_hz: float | None
+    phase_crossover_hz: float | None
+    stable: bool
+    closed_loop_poles: tuple
+    notes: tuple
+
+
+def margins(loop):
+    """Margins of a loop gain, every crossover considered.
+
+    Parameters
+    ----------
+    loop : control.TransferFunction, control.StateSpace or Response
+        The loop gain L(s); the closed loop is L/(1 + L).
+
+    Returns
+    -------
+    Margins
+
+    Examples
+    --------
+    >>> import control
+    >>> m = margins(control.tf([10 * 2**0.5], [0.1, 1.0, 0.0]))   # k/(s(1 + s/10))
+    >>> round(m.phase_margin_deg, 9), round(m.crossover_hz * 2 * 3.141592653589793, 9)
+    (45.0, 10.0)
+    >>> m.gain_margin_db is None, m.notes[0]
+    (True, 'no phase crossover: the phase never reaches -180°, so the gain margin is unbounded')
+    """
+    if isinstance(loop, Response):
+        loop = loop.state_space()
+    if not isinstance(loop, (control.TransferFunction, control.StateSpace)):
+        raise SpecError(
+            f"loop must be a control.TransferFunction, StateSpace or Response, "
+            f"not {type(loop).__name__}"
+        )
+    if not loop.issiso():
+        raise SpecError("loop must be SISO (one input, one output)")
+    gm, pm, _, wpc, wgc, _ = (np.atleast_1d(np.asarray(x, float)) for x in
+                              control.stability_margins(loop, returnall=True))
+    notes = []
+    keep = np.isfinite(pm) & np.isfinite(wgc)
+    pm, wgc = pm[keep], wgc[keep]
+    if pm.size:
+        i = int(np.argmin(pm))
+        phase_margin, crossover = float(pm[i]), float(wgc[i] / _TWO_PI)
+        if pm.size > 1:
+            notes.append(f"{pm.size} gain crossovers; the smallest phase margin is reported")
+    else:
+        phase_margin = crossover = None
+        notes.append("no gain crossover: |L| never crosses 1, so the phase margin is undefined")
+    keep = np.isfinite(gm) & (gm > 0) & np.isfinite(wpc)
+    gm, wpc = gm[keep], wpc[keep]
+    if gm.size:
+        gm_db = 20 * np.log10(gm)
+        i = int(np.argmin(np.abs(gm_db)))
+        gain_margin, phase_crossover = float(gm_db[i]), float(wpc[i] / _TWO_PI)
+        if gm.size > 1:
+            notes.append(f"{gm.size} phase crossovers; the gain margin nearest 0 dB is reported")
+    else:
+        gain_margin = phase_crossover = None
+        notes.append("no phase crossover: the phase never reaches -180°, "
+                     "so the gain margin is unbounded")
+    poles = np.asarray(control.feedback(loop, 1).poles(), complex)
+    stable = bool(np.all(poles.real < -1e-12 * np.maximum(np.abs(poles), 1e-300)))
+    if not stable:
+        notes.append("closed loop not stable: a pole of 1 + L lies on or right of the jω axis")
+    return Margins(gain_margin, phase_margin, crossover, phase_crossover, stable,
+                   tuple(complex(p) for p in poles), tuple(notes))

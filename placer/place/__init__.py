@@ -1,0 +1,143 @@
+"""Placement: continuous solve, preferred-value snapping, op-amp models and correction, GBW.
+
+The public names load their module on first use (so that the command line
+answers fast); ``__all__`` lists them all.
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:
+    from .amplifier import (
+        Drift,
+        AmplifiedCandidate,
+        place_section_with_amplifier,
+        amplifier_summary,
+        built_drift,
+        correct_placement,
+        gbw_spread_error,
+        robust_first,
+        ROBUST_STARTS,
+        ROBUST_SLACK,
+    )
+    from .gbw import (
+        GBWRequirement,
+        required_gbw,
+        as_built_gbw,
+        AS_BUILT_FLOOR,
+        search_top_hz,
+    )
+    from .opamp import (
+        AMPLIFIER_PRESETS,
+        AmplifierSpec,
+        GBW_SPREAD,
+        apply_amplifier,
+        check_amplifier,
+        describe_amplifier,
+        function_at_gbw,
+        ScaledFunction,
+    )
+    from .placement import (
+        PART_KINDS,
+        Candidate,
+        IdealPlacement,
+        problem_options,
+        place_ideal,
+        value_spread,
+        worst_error_pct,
+    )
+    from .snap import (
+        SnapResult,
+        snap,
+        round_each,
+        default_series,
+        COARSE_BUDGET,
+        SPREAD_SLACK,
+        ERROR_CEILING,
+    )
+    from .solve import (
+        Goal,
+        goal_from_section,
+        goal_from_roots,
+        Problem,
+        make_problem,
+        Solution,
+        solve,
+        RootErrors,
+        root_errors,
+        structural_reason,
+        passband_gain,
+        batched_least_squares,
+        figure_error,
+    )
+
+#: Public name -> the module of this folder that defines it.
+_EXPORTS = {
+    "Drift": "amplifier",
+    "AmplifiedCandidate": "amplifier",
+    "place_section_with_amplifier": "amplifier",
+    "amplifier_summary": "amplifier",
+    "built_drift": "amplifier",
+    "correct_placement": "amplifier",
+    "gbw_spread_error": "amplifier",
+    "robust_first": "amplifier",
+    "ROBUST_STARTS": "amplifier",
+    "ROBUST_SLACK": "amplifier",
+    "GBWRequirement": "gbw",
+    "required_gbw": "gbw",
+    "as_built_gbw": "gbw",
+    "AS_BUILT_FLOOR": "gbw",
+    "search_top_hz": "gbw",
+    "AMPLIFIER_PRESETS": "opamp",
+    "AmplifierSpec": "opamp",
+    "GBW_SPREAD": "opamp",
+    "apply_amplifier": "opamp",
+    "check_amplifier": "opamp",
+    "describe_amplifier": "opamp",
+    "function_at_gbw": "opamp",
+    "ScaledFunction": "opamp",
+    "PART_KINDS": "placement",
+    "Candidate": "placement",
+    "IdealPlacement": "placement",
+    "problem_options": "placement",
+    "place_ideal": "placement",
+    "value_spread": "placement",
+    "worst_error_pct": "placement",
+    "SnapResult": "snap",
+    "snap": "snap",
+    "round_each": "snap",
+    "default_series": "snap",
+    "COARSE_BUDGET": "snap",
+    "SPREAD_SLACK": "snap",
+    "ERROR_CEILING": "snap",
+    "Goal": "solve",
+    "goal_from_section": "solve",
+    "goal_from_roots": "solve",
+    "Problem": "solve",
+    "make_problem": "solve",
+    "Solution": "solve",
+    "solve": "solve",
+    "RootErrors": "solve",
+    "root_errors": "solve",
+    "structural_reason": "solve",
+    "passband_gain": "solve",
+    "batched_least_squares": "solve",
+    "figure_error": "solve",
+}
+
+__all__ = sorted(_EXPORTS)
+
+
+def __getattr__(name: str) -> Any:
+    module = _EXPORTS.get(name)
+    if module is None:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    value = getattr(importlib.import_module(f".{module}", __name__), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return list(__all__)

@@ -1,0 +1,462 @@
+"""How much op-amp GBW a section needs, with and without correction.
+
+A design solved with ideal op-amps drifts when it is built with a finite
+gain-bandwidth product; a design re-solved with the op-amp modelled
+(:func:`placer.place.amplifier.place_section_with_amplifier`) does not, down to
+a GBW of a few times f0 on paper. :func:`required_gbw` finds the smallest
+GBW (Hz) at which each still meets an error bound; the corrected design
+must also bear the op-amp's GBW spread (:data:`placer.place.amplifier.GBW_SPREAD`),
+so the figure does not lean on the datasheet's typical GBW.
+:func:`as_built_gbw` is the quick half: the smallest GBW at which one set
+of part values, built as it is, stays within the bound.
+
+References
+----------
+R. Schaumann and M. E. Van Valkenburg, *Design of Analog Filters*, Oxford
+University Press, 2001, the chapters on active-filter non-idealities
+(Q enhancement by finite GBW; from memory).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from .amplifier import correct_placement, gbw_spread_error
+from ..analysis.dominant import DominantFunction
+from ..errors import SpecError, UnreachableTarget
+from .opamp import GBW_SPREAD, AmplifierSpec, check_amplifier, function_at_gbw
+from .placement import place_ideal, problem_options, worst_error_pct
+from .solve import root_errors
+from ..units import format_value
+
+__all__ = [
+    "GBWRequirement",
+    "required_gbw",
+    "as_built_gbw",
+    "AS_BUILT_FLOOR",
+    "search_top_hz",
+]
+
+#: The least GBW :func:`as_built_gbw` gives, in units of the section's f0.
+AS_BUILT_FLOOR = 10.0
+
+
+def search_top_hz(f0_hz, q):
+    """The top of every GBW search, Hz: 1e4·f0·max(Q, 1) (Q None: first order)."""
+    return 1e4 * f0_hz * max(q or 1.0, 1.0)
+
+
+@dataclass(frozen=True)
+class GBWRequirement:
+    """The smallest op-amp GBW (Hz) for a section within an error bound.
+
+    Attributes
+    ----------
+    gbw_hz : float
+        Smallest typical GBW for which the corrected (re-solved, snapped)
+        design meets the bound, also when the op-amp's actual GBW is off by
+        ± ``gbw_spread``; ``inf`` when none up to the search's top does.
+    uncorrected_gbw_hz : float
+        Smallest GBW for which the ideal-op-amp design, built as it is,
+        meets the bound.
+    parasitic_poles_hz : tuple of float
+        The corrected design's parasitic poles at ``gbw_hz``, Hz.
+    error_pct : float
+        The bound, percent (worst of the f0, Q and gain errors).
+    gbw_spread : float
+        The relative GBW spread the corrected design was required to bear.
+    note : str
+    """
+
+    gbw_hz: float
+    uncorrected_gbw_hz: float
+    parasitic_poles_hz: tuple
+    error_pct: float
+    gbw_spread: float = 0.0
+    note: str = ""
+
+
+def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain=None,
+                 gbw_spread=GBW_SPREAD, seed=0, rtol=0.02, coarse_budget=400):
+    """Smallest GBW (Hz) for which a corrected design meets `error_pct`.
+
+    Bisection in log GBW over [2·f0, 1e4·f0·max(Q, 1)] (Hz): at each GBW the
+    section is re-solved and snapped with the single-pole model, and the
+    result must meet the bound at that GBW and at GBW·(1 ± `gbw_spread`).
+    Without the spread the search would return designs that lean on the
+    op-amp's exact GBW (a GBW of a few f0 can be "corrected" on paper; the
+    built filter then moves with every op-amp). The quick uncorrected figure
+    is found the same way on the ideal design's snapped values. Both
+    searches assume the error falls as GBW rises.
+
+    The modelled circuit is derived once, at ωt = 1 rad/s, and scaled to
+    each GBW (s·C and s/ωt are all that the GBW enters; exact, see
+    :class:`placer.place.amplifier.ScaledFunction`). The corrected search, where every step
+    costs a re-solve and a re-snap, visits the midpoints plain bisection
+    would, but decides one without a re-solve when a GBW already tried
+    decides it (met at g: met above g; missed at g: missed below), and
+    tries first the points a guess of the answer puts on either side of
+    it (:func:`_guided_bisect`). Where the error does fall with the GBW
+    this returns what plain bisection returns, with fewer re-solves; the
+    answer is always a GBW tried and met, with a GBW tried and missed at
+    most a factor 1 + `rtol` below it (or the bracket's bottom).
+
+    Parameters
+    ----------
+    section : placer.target.targets.Section
+    topology : Topology
+    error_pct : float
+        Bound on the worst of the f0, Q and gain errors, percent.
+    parts : placer.spec.reader.PartsSpec, optional
+    amplifier_gain : float, optional
+        DC open-loop gain, V/V (None: infinite, the integrator model).
+    gbw_spread : float
+        Relative GBW spread in [0, 1) the corrected design must bear
+        (default :data:`GBW_SPREAD`).
+    seed : int
+    rtol : float
+        Relative width of the GBW bracket at which the bisection stops.
+    coarse_budget : int
+        Coarse combinations per snap (smaller is faster, see
+        :func:`placer.place.snap.snap`).
+
+    Returns
+    -------
+    GBWRequirement
+
+    Raises
+    ------
+    SpecError
+        For a non-positive bound or gain, or a spread outside [0, 1).
+
+    Examples
+    --------
+    >>> from placer.circuit.library import get_topology
+    >>> from placer.target.targets import make_section
+    >>> need = required_gbw(make_section("lowpass", 2 * math.pi * 10e3, 2.0),
+    ...                     get_topology("sallen-key-lowpass-unity"), rtol=0.1)
+    >>> 10e3 < need.gbw_hz < need.uncorrected_gbw_hz
+    True
+    """
+    if not (math.isfinite(error_pct) and error_pct > 0):
+        raise SpecError(f"error_pct = {error_pct!r} must be a positive percentage")
+    if not (math.isfinite(gbw_spread) and 0 <= gbw_spread < 1):
+        raise SpecError(f"gbw_spread = {gbw_spread!r} must be a fraction in [0, 1), e.g. 0.25")
+    check_amplifier(AmplifierSpec(gain=amplifier_gain), section)
+    f0 = section.omega0 / (2 * math.pi)
+    low, high = 2 * f0, search_top_hz(f0, section.q)
+    try:
+        ideal = place_ideal(section, topology, parts=parts, seed=seed)
+    except UnreachableTarget as reason:
+        return GBWRequirement(math.inf, math.inf, (), error_pct, gbw_spread,
+                              note=f"the topology cannot reach the section: {reason.reason}")
+    if worst_error_pct(ideal.errors) > error_pct:
+        return GBWRequirement(
+            math.inf, math.inf, (), error_pct, gbw_spread,
+            note=f"even with ideal op-amps the snapped design misses by "
+                 f"{worst_error_pct(ideal.errors):.3g} %, more than the bound",
+        )
+    if topology.circuit.opamp_count == 0:
+        return GBWRequirement(0.0, 0.0, (), error_pct, gbw_spread, note="the topology has no op-amp")
+    corrected_at = {}
+    function_at = function_at_gbw(topology.circuit, AmplifierSpec(gain=amplifier_gain))
+    ranges, series, fixed, constraints = problem_options(topology, parts)
+
+    def worst_at(gbw, values):
+        dominant = DominantFunction.for_goal(function_at(gbw), ideal.goal)
+        return worst_error_pct(root_errors(dominant, values, ideal.goal))
+
+    def corrected(gbw):
+        if gbw not in corrected_at:
+            prefer = None
+            if gbw_spread:
+                prefer = gbw_spread_error(topology, ideal.goal, function_at, gbw, ranges=ranges,
+                                          fixed=fixed, constraints=constraints, spread=gbw_spread)
+            corrected_at[gbw] = _correct(ideal, topology, function_at(gbw), ranges, series,
+                                         fixed, constraints, seed, coarse_budget, prefer)
+        return corrected_at[gbw]
+
+    def corrected_worst(gbw):
+        """Worst error (percent) of the design corrected at `gbw`, at it and its spread."""
+        design = corrected(gbw)
+        if design is None:
+            return math.inf
+        edges = (gbw * (1 - gbw_spread), gbw * (1 + gbw_spread)) if gbw_spread else ()
+        return max([design.error_pct] + [worst_at(edge, design.values) for edge in edges])
+
+    notes = []
+    uncorrected = as_built_gbw(topology, ideal.snapped.values, ideal.goal, error_pct=error_pct,
+                               amplifier_gain=amplifier_gain, rtol=rtol)
+    hint = _corrected_hint(function_at, ideal, error_pct, gbw_spread, low, high)
+    gbw = _guided_bisect(corrected_worst, error_pct, low, high, rtol, hint)
+    parasitic = ()
+    if math.isfinite(gbw):
+        parasitic = corrected(gbw).parasitic_poles_hz
+        if gbw == low:
+            notes.append(f"met already at the search's lowest GBW, 2·f0 = {format_value(low, 'Hz')}")
+        if gbw_spread:
+            notes.append(f"the corrected design holds for GBW within ±{100 * gbw_spread:.3g} %")
+    else:
+        notes.append(f"not met up to {format_value(high, 'Hz')}")
+    if math.isfinite(gbw) and math.isfinite(uncorrected):
+        notes.append(f"correcting for the op-amp lowers the GBW needed {uncorrected / gbw:.3g}-fold")
+    return GBWRequirement(gbw, uncorrected, tuple(parasitic), error_pct, gbw_spread,
+                          note="; ".join(notes))
+
+
+def as_built_gbw(topology, values, goal, *, error_pct=1.0, amplifier_gain=None, rtol=0.02):
+    """Smallest GBW (Hz) at which a design, built as it is, meets `error_pct`.
+
+    Bisection in log GBW over [10·f0, 1e4·f0·max(Q, 1)] (f0 of the goal,
+    Hz) on the worst of the f0, Q (zero f0) and gain errors of the dominant
+    roots against the goal, the part values held: what the design needs
+    from its op-amps without being re-solved for them. Assumes the error
+    falls as the GBW rises. Quick: one symbolic derivation of the modelled
+    circuit, scaled to each GBW. The floor, 10·f0, is there because the
+    dominant roots are not the whole story: below it the op-amp's own pole
+    sits within a decade of the band and bends the response there whatever
+    the roots do (common practice, no source).
+
+    Parameters
+    ----------
+    topology : Topology
+    values : mapping of str to float
+        Every part symbol's value (SI), e.g. a snapped ideal-op-amp design.
+    goal : placer.place.solve.Goal
+    error_pct : float
+        Bound, percent; the design's own error with ideal op-amps counts.
+    amplifier_gain : float, optional
+        DC open-loop gain, V/V (None: infinite).
+    rtol : float
+        Relative width of the bracket at which the bisection stops.
+
+    Returns
+    -------
+    float
+        Hz; 0 for a topology with no op-amp, inf when not met up to the
+        search's top.
+
+    Examples
+    --------
+    A unity-gain Sallen–Key for Q = 2 at 10 kHz needs far more than the
+    100·f0·Q rule of thumb to stay within 1 % as built:
+
+    >>> from placer.design import place_section
+    >>> from placer.circuit.library import get_topology
+    >>> from placer.target.targets import make_section
+    >>> section = make_section("lowpass", 2 * math.pi * 10e3, 2.0)
+    >>> c = place_section(section, get_topology("sallen-key-lowpass-unity"))
+    >>> as_built_gbw(c.topology, c.snapped.values, c.problem.goal) > 100 * 10e3 * 2.0
+    True
+    """
+    if not (math.isfinite(error_pct) and error_pct > 0):
+        raise SpecError(f"error_pct = {error_pct!r} must be a positive percentage")
+    if topology.circuit.opamp_count == 0:
+        return 0.0
+    f0 = goal.omega0 / (2 * math.pi)
+    low, high = AS_BUILT_FLOOR * f0, search_top_hz(f0, goal.q)
+    function_at = function_at_gbw(topology.circuit, AmplifierSpec(gain=amplifier_gain))
+
+    def ok(gbw):
+        dominant = DominantFunction.for_goal(function_at(gbw), goal)
+        return worst_error_pct(root_errors(dominant, values, goal)) <= error_pct
+
+    return _bisect(ok, low, high, rtol)
+
+
+# -- the searches ------------------------------------------------------------------
+
+def _bisect(ok, low, high, rtol):
+    """Smallest x in [low, high] with ok(x), by bisection in log x (inf: none)."""
+    if not ok(high):
+        return math.inf
+    if ok(low):
+        return low
+    while high / low > 1 + rtol:
+        middle = math.sqrt(low * high)
+        if ok(middle):
+            high = middle
+        else:
+            low = middle
+    return high
+
+
+def _bisection_path(low, high, rtol, threshold):
+    """The midpoints :func:`_bisect` visits when ok(x) is x ≥ `threshold`."""
+    points = []
+    while high / low > 1 + rtol:
+        middle = math.sqrt(low * high)
+        points.append(middle)
+        if middle >= threshold:
+            high = middle
+        else:
+            low = middle
+    return points
+
+
+def _guided_bisect(worst, bound, low, high, rtol, hint):
+    """The bisection of :func:`_bisect` on ``worst(x) <= bound``, with fewer calls.
+
+    It walks the same path as :func:`_bisect` (the same endpoint checks,
+    the same midpoints, the same answer) when ok is monotone, the premise
+    of any bisection: a point tried and met decides every point above it,
+    one tried and missed every point below. Instead of trying the next
+    midpoint at once, it first tries the deepest point of the path a
+    guess of the threshold predicts, on each side of the guess, as long
+    as that point lies a safe distance from the guess; a right guess then
+    decides many midpoints with two calls, a wrong one still narrows the
+    bracket (and corrects the guess). The guess starts from `hint` and is
+    replaced by a secant of log worst against log x through the tightest
+    bracketing points once both sides are known.
+
+    Returns the smallest point tried and met inside the final bracket,
+    whose bottom is a point tried and missed (when ok is monotone, the
+    bracket's top, as :func:`_bisect` returns), `low` when met there,
+    ``inf`` when not met at `high`.
+    """
+    tried = {}
+
+    def evaluate(x):
+        if x not in tried:
+            tried[x] = worst(x)
+        return tried[x] <= bound
+
+    def known(x):
+        if x in tried:
+            return tried[x] <= bound
+        if any(p <= x and w <= bound for p, w in tried.items()):
+            return True
+        if any(p >= x and w > bound for p, w in tried.items()):
+            return False
+        return None
+
+    def guess():
+        met = [p for p, w in tried.items() if w <= bound]
+        missed = [p for p, w in tried.items() if w > bound]
+        top = min(met) if met else None
+        bottom = max(missed) if missed else None
+        ratio = 1.2
+        if top is not None and bottom is not None and 0 < tried[top] and math.isfinite(tried[bottom]):
+            # log worst is close to linear in log x (the error goes as 1/GBW)
+            ya, yb = math.log(bottom), math.log(top)
+            fa, fb = math.log(tried[bottom] / bound), math.log(tried[top] / bound)
+            y = ya + (yb - ya) * fa / (fa - fb) if fa > fb else 0.5 * (ya + yb)
+            return math.exp(min(max(y, ya), yb)), max(1 + rtol / 2, (top / bottom) ** 0.1)
+        if top is not None and tried[top] > 0:
+            return top * min(tried[top] / bound, 1.0), ratio
+        if bottom is not None and math.isfinite(tried[bottom]):
+            return bottom * max(tried[bottom] / bound, 1.0), ratio
+        return hint, ratio
+
+    def decide(x, lo, hi):
+        while known(x) is None:
+            centre, margin = guess()
+            path = [p for p in _bisection_path(lo, hi, rtol, centre)
+                    if p not in tried and abs(math.log(p / centre)) >= math.log(margin)]
+            # the deepest point on each side of the guess, below and above
+            above = [p for p in path if p >= centre]
+            below = [p for p in path if p < centre]
+            target = x
+            if x >= centre and above:
+                target = above[-1]
+            elif x < centre and below:
+                target = below[-1]
+            evaluate(target)
+        return known(x)
+
+    if not decide(high, low, high):
+        return math.inf
+    if decide(low, low, high):
+        return low
+    lo, hi = low, high
+    while True:
+        while hi / lo > 1 + rtol:
+            middle = math.sqrt(lo * hi)
+            if decide(middle, lo, hi):
+                hi = middle
+            else:
+                lo = middle
+        # The bracket's bottom must be a tried miss, as in _bisect, not one
+        # inferred; if it is met after all (ok not monotone here), search on below it.
+        if not evaluate(lo):
+            break
+        if lo == low:
+            return low
+        hi = lo
+        lo = max([p for p, w in tried.items() if w > bound and p < hi], default=low)
+        if lo == low and evaluate(low):
+            return low
+    met = [p for p, w in tried.items() if lo < p <= hi and w <= bound]
+    return min(met) if met else hi
+
+
+def _corrected_hint(function_at, ideal, error_pct, gbw_spread, low, high):
+    """A guess (Hz) of the corrected search's answer, from the ideal design alone.
+
+    A design corrected at a GBW g sits on target there (up to its snapping
+    error) and drifts, as the GBW moves to g·(1 ± spread), about as the
+    ideal design's figures drift between the same GBWs. The guess is the
+    smallest g at which that drift, plus the ideal design's snapping
+    error, meets the bound. It only steers :func:`_guided_bisect`, which
+    checks every decision on corrected designs.
+    """
+    goal, values = ideal.goal, ideal.snapped.values
+    floor = worst_error_pct(ideal.errors)
+    if not gbw_spread:
+        return low
+
+    def figures(gbw):
+        errors = root_errors(DominantFunction.for_goal(function_at(gbw), goal), values, goal)
+        named = [errors.f0_pct, errors.q_pct, errors.zero_f0_pct]
+        if all(x is None for x in named):
+            named = [errors.worst_root_pct]
+        if errors.gain_db is not None:
+            named.append(100 * (10 ** (errors.gain_db / 20) - 1))
+        return np.array([0.0 if x is None else x for x in named], dtype=float)
+
+    def drift_ok(gbw):
+        centre = figures(gbw)
+        drift = max(float(np.max(np.abs(figures(edge) - centre)))
+                    for edge in (gbw * (1 - gbw_spread), gbw * (1 + gbw_spread)))
+        return floor + drift <= error_pct
+
+    guess = _bisect(drift_ok, low, high, 0.005)
+    return guess if math.isfinite(guess) else high
+
+
+@dataclass(frozen=True)
+class _Corrected:
+    """A design re-solved and snapped for one GBW: its values and figures."""
+
+    values: dict
+    error_pct: float
+    parasitic_poles_hz: tuple
+
+
+def _correct(ideal, topology, function, ranges, series, fixed, constraints, seed, coarse_budget,
+             prefer=None):
+    """The corrected design for one modelled function (None: unreachable).
+
+    The steps of :func:`placer.place.amplifier.place_section_with_amplifier`
+    (re-solve the dominant roots from the ideal solution, prefer the
+    solutions that bear the GBW spread, snap), on a network function given
+    rather than derived, and without the drift figures the GBW search does
+    not read.
+    """
+    goal = ideal.goal
+    dominant = DominantFunction.for_goal(function, goal)
+    try:
+        _, _, snapped = correct_placement(ideal, topology, dominant, ranges=ranges, fixed=fixed,
+                                          constraints=constraints, series=series, seed=seed,
+                                          coarse_budget=coarse_budget, prefer=prefer)
+    except UnreachableTarget:
+        return None
+    parasitic = dominant.parasitic_poles(snapped.values)
+    return _Corrected(
+        values=snapped.values,
+        error_pct=worst_error_pct(root_errors(dominant, snapped.values, goal)),
+        parasitic_poles_hz=tuple(sorted(float(abs(p)) / (2 * math.pi) for p in parasitic)),
+    )

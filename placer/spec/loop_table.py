@@ -1,0 +1,220 @@
+"""The ``[loop]`` table of a spec file: read, design, check, report.
+
+:func:`loop_from_table` reads and checks the table into a :class:`LoopSpec`;
+:func:`run_loop` designs the compensator (:func:`placer.loops.compensator.design_compensator`)
+and runs the tolerance Monte Carlo (:func:`placer.loops.tolerance.loop_monte_carlo`);
+:func:`loop_to_dict` gives the result the JSON shape the ``loop`` command
+writes.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any
+
+from ..circuit.elements import check_part_value
+from ..eseries import check_series
+from ..errors import SpecError, brief
+from ..loops.compensator import LoopDesign, check_compensator, design_compensator
+from ..loops.tolerance import LoopMonteCarlo, loop_monte_carlo
+from ..loops.plants import Plant, plant_from_table
+from ..schema import check_limit, check_table
+from ..units import parse_value
+
+__all__ = ["LoopSpec", "LoopResult", "loop_from_table", "run_loop", "loop_to_dict"]
+
+#: Series and ranges of a loop's parts when neither [loop] nor [parts] names them.
+_DEFAULT_SERIES = {"resistor": "E96", "capacitor": "E12"}
+_DEFAULT_RANGES = {"resistor": (1e3, 1e6), "capacitor": (100e-12, 10e-6)}
+
+
+@dataclass(frozen=True)
+class LoopSpec:
+    """A ``[loop]`` table, read and checked."""
+
+    plant: Plant
+    crossover_hz: float
+    phase_margin_deg: float
+    compensator: str = "type2"
+    margin_floor_deg: float | None = None
+    r1: float = 10e3
+    resistor_series: str = "E96"
+    capacitor_series: str = "E12"
+    resistor_range: tuple = _DEFAULT_RANGES["resistor"]
+    capacitor_range: tuple = _DEFAULT_RANGES["capacitor"]
+
+
+@dataclass(frozen=True)
+class LoopResult:
+    """What :func:`run_loop` returns: the spec, the design, the Monte Carlo."""
+
+    spec: LoopSpec
+    design: LoopDesign
+    monte_carlo: LoopMonteCarlo | None
+
+
+def _series_and_ranges(loop: Mapping, parts: Any, where: str) -> dict:
+    """The parts' series ([loop] or [parts], not both at odds) and [parts] ranges."""
+    given = parts.given if parts is not None else frozenset()
+    out = {}
+    for kind in ("resistor", "capacitor"):
+        key = f"{kind}_series"
+        from_parts = parts.series[kind] if parts is not None and key in given else None
+        if key in loop:
+            series = check_series(loop[key], field=f"{where}.{key}")
+            if from_parts is not None and from_parts != series:
+                raise SpecError(f"{where}.{key} = {brief(loop[key])} differs from [parts] "
+                                f"{key} = {from_parts!r}; give the series in one place")
+        else:
+            series = from_parts or _DEFAULT_SERIES[kind]
+        out[key] = series
+        ranges = parts.ranges if parts is not None else _DEFAULT_RANGES
+        out[f"{kind}_range"] = tuple(ranges.get(kind, _DEFAULT_RANGES[kind]))
+    return out
+
+
+def loop_from_table(table: Mapping, *, source: str = "spec", parts: Any = None) -> LoopSpec:
+    """Read the ``[loop]`` table of a parsed spec file.
+
+    Parameters
+    ----------
+    table : mapping
+        The parsed file (with a ``loop`` table) or the ``[loop]`` table
+        itself. Keys: ``plant`` (see :func:`placer.loops.plants.plant_from_table`),
+        ``crossover`` ("20 kHz"), ``phase_margin`` ("60 deg" or a number),
+        and optional ``compensator`` {"type2", "type3"} (default "type2"),
+        ``margin_floor`` (degrees), ``r1`` (Ω), ``resistor_series``,
+        ``capacitor_series`` (:data:`placer.schema.SPEC_TABLES` ``"loop"``).
+    source : str
+        The file name, used in messages.
+    parts : placer.spec.reader.PartsSpec, optional
+        The spec's ``[parts]``: its ranges bound the loop's resistors and
+        capacitors, and its series apply unless ``[loop]`` names them (the
+        two may not differ).
+
+    Raises
+    ------
+    SpecError
+        Naming the key and the value at fault.
+
+    Examples
+    --------
+    >>> spec = loop_from_table({"loop": {"crossover": "2 kHz", "phase_margin": "45 deg",
+    ...     "plant": {"type": "roots", "poles": [-100, -1000], "dc_gain": 10}}})
+    >>> spec.crossover_hz, spec.phase_margin_deg, spec.compensator
+    (2000.0, 45.0, 'type2')
+    """
+    where = f"{source}: loop"
+    if not isinstance(table, Mapping):
+        raise SpecError(f"{source}: a spec must be a table, not {type(table).__name__}")
+    if "loop" in table:
+        loop = table["loop"]
+    elif "plant" in table or "crossover" in table:
+        loop = table
+    else:
+        raise SpecError(f"{source}: no [loop] table (keys: {', '.join(map(str, table)) or 'none'})")
+    if not isinstance(loop, Mapping):
+        raise SpecError(f"{where} must be a table, not {brief(loop)}")
+    check_table(dict(loop), "loop", source=source)
+    for key in ("plant", "crossover", "phase_margin"):
+        if key not in loop:
+            raise SpecError(f"{where}: missing key {key!r}")
+    crossover = parse_value(loop["crossover"], unit="Hz", field=f"{where}.crossover")
+    if not crossover > 0:
+        raise SpecError(f"{where}.crossover must be a positive frequency, "
+                        f"not {brief(loop['crossover'])}")
+    check_limit(crossover, "frequency", f"{where}.crossover", shown=loop["crossover"])
+    pm = parse_value(loop["phase_margin"], unit="deg", field=f"{where}.phase_margin")
+    if not 0 < pm < 180:
+        raise SpecError(f"{where}.phase_margin must lie between 0 and 180 deg, "
+                        f"not {brief(loop['phase_margin'])}")
+    compensator = loop.get("compensator", "type2")
+    try:
+        check_compensator(compensator)
+    except SpecError as error:
+        raise SpecError(f"{where}.{error}") from None
+    floor = loop.get("margin_floor")
+    if floor is not None:
+        floor = check_limit(parse_value(floor, unit="deg", field=f"{where}.margin_floor"),
+                            "margin_deg", f"{where}.margin_floor", shown=floor)
+    chosen = _series_and_ranges(loop, parts, where)
+    if "r1" in loop:
+        r1 = parse_value(loop["r1"], unit="ohm", field=f"{where}.r1")
+        check_part_value("resistor", r1, f"{where}.r1")
+    else:  # 10 kΩ, or the nearer end of a resistor range that leaves it out
+        low, high = chosen["resistor_range"]
+        r1 = min(max(10e3, low), high)
+    return LoopSpec(plant_from_table(loop["plant"], source=f"{where}.plant"), crossover, pm,
+                    compensator, floor, r1, **chosen)
+
+
+def run_loop(spec_table, *, source="spec", samples=1000, seed=0, tolerances=None,
+             distribution="uniform", topologies=None, workers=1, parts=None):
+    """Read a ``[loop]`` spec, design the compensator, run the Monte Carlo.
+
+    Parameters
+    ----------
+    spec_table : mapping
+        The parsed spec file, see :func:`loop_from_table`.
+    source : str
+        The file name, for messages.
+    samples, seed : int
+        Monte Carlo size (0 skips it) and seed.
+    tolerances, distribution
+        As for :func:`loop_monte_carlo` (default: each series' usual tolerance).
+    topologies : mapping, optional
+        Where to look the compensator up (default: the library).
+    workers : int or None, optional
+        Worker processes of the Monte Carlo (see :func:`loop_monte_carlo`).
+    parts : placer.spec.reader.PartsSpec, optional
+        The spec's ``[parts]`` (series and ranges), as for :func:`loop_from_table`.
+
+    Returns
+    -------
+    LoopResult
+    """
+    spec = loop_from_table(spec_table, source=source, parts=parts)
+    design = design_compensator(
+        spec.plant, spec.crossover_hz, spec.phase_margin_deg, compensator=spec.compensator,
+        resistor_series=spec.resistor_series, capacitor_series=spec.capacitor_series,
+        resistor_range=spec.resistor_range, capacitor_range=spec.capacitor_range,
+        r1=spec.r1, topologies=topologies)
+    monte_carlo = (loop_monte_carlo(design, tolerances, samples=samples, seed=seed,
+                                    distribution=distribution, margin_floor_deg=spec.margin_floor_deg,
+                                    workers=workers) if samples else None)
+    return LoopResult(spec, design, monte_carlo)
+
+
+def _margins_dict(m):
+    return {"crossover_hz": m.crossover_hz, "phase_margin_deg": m.phase_margin_deg,
+            "gain_margin_db": m.gain_margin_db, "phase_crossover_hz": m.phase_crossover_hz,
+            "stable": m.stable}
+
+
+def loop_to_dict(result):
+    """A LoopResult as JSON-ready data (SI units, Hz, degrees, dB, rad/s roots)."""
+    design = result.design
+    placement = design.placement
+    parts = [{"name": e.name, "kind": e.kind, "value": design.snapped[e.symbol],
+              "series": design.series[e.symbol], "continuous": design.continuous[e.symbol]}
+             for e in design.topology.circuit.elements if e.symbol in design.series]
+    return {
+        **_margins_dict(design.snapped_margins),
+        "target": {"crossover_hz": placement.crossover_hz,
+                   "phase_margin_deg": placement.phase_margin_deg},
+        "continuous": _margins_dict(design.continuous_margins),
+        "plant": design.plant.to_dict(),
+        "k_factor": {"k": placement.k, "boost_deg": placement.boost_deg,
+                     "required_boost_deg": placement.required_boost_deg,
+                     "plant_phase_deg": placement.plant_phase_deg,
+                     "plant_gain_db": 20 * math.log10(placement.plant_gain),
+                     "zero_hz": placement.zero_hz, "pole_hz": placement.pole_hz,
+                     "integrator_rad_s": placement.integrator},
+        "compensator": {"family": placement.family, "topology": design.topology.id,
+                        "circuit": design.circuit().to_dict()},
+        "parts": parts,
+        "monte_carlo": result.monte_carlo.summary() if result.monte_carlo else None,
+        "notes": list(design.notes) + list(design.snapped_margins.notes),
+    }
