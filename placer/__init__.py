@@ -29,6 +29,7 @@ _EXPORTS = {
     "Topology": "circuit.topology", "load_topology": "circuit.topology",
     "library_topologies": "circuit.library", "get_topology": "circuit.library",
     "resolve_topology": "circuit.library", "find_topologies": "circuit.library",
+    "load_analysable": "circuit.library", "SPEC_TABLES": "schema", "read_toml": "schema",
     "NetworkFunction": "analysis.network", "network_function": "analysis.network",
     "circuit_poles": "analysis.pencil", "circuit_zeros": "analysis.pencil", "circuit_response": "analysis.pencil",
     "circuit_roots": "analysis.pencil", "circuit_gain": "analysis.pencil",

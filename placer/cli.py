@@ -15,13 +15,12 @@ import argparse
 import json
 import math
 import sys
-import tomllib
 from pathlib import Path
 
 from . import __version__
 from .errors import PlacerError, SpecError, UnreachableTarget
 from .report.files import check_output_path, write_text
-from .units import format_value, parse_value
+from .units import finite_or_none, format_value
 
 # The analysis stack (sympy, scipy, python-control) loads inside the
 # commands, so `placer --help` answers at once.
@@ -164,34 +163,6 @@ def _emit_json(data, destination, *, inputs=(), option="--json"):
         write_text(destination, text, inputs=inputs, option=option)
 
 
-def _parse_settings(items):
-    values = {}
-    for item in items:
-        if "=" not in item:
-            raise SpecError(f"--set {item!r}: expected PART=VALUE, for example R1=10k")
-        name, text = item.split("=", 1)
-        name = name.strip()
-        values[name] = parse_value(text.strip(), field=f"--set {name}")
-    return values
-
-
-def _load_analysable(name):
-    """A library id, a topology file, or a plain circuit file."""
-    from .circuit.elements import circuit_from_dict
-    from .circuit.library import resolve_topology
-
-    path = Path(name)
-    if path.suffix == ".toml" and path.is_file():
-        try:
-            data = tomllib.loads(path.read_text(encoding="utf-8"))
-        except tomllib.TOMLDecodeError as error:
-            raise SpecError(f"{name}: not valid TOML ({error})") from None
-        if "id" not in data:
-            return None, circuit_from_dict(data, source=str(path), parse=parse_value)
-    topology = resolve_topology(name)
-    return topology, topology.circuit
-
-
 def _pairs(roots):
     return [[float(r.real), float(r.imag)] for r in sorted(roots, key=lambda r: (abs(r), r.imag))]
 
@@ -199,19 +170,16 @@ def _pairs(roots):
 # -- analyze -------------------------------------------------------------------
 
 def _cmd_analyze(args):
+    from .circuit.elements import read_settings
+    from .circuit.library import load_analysable
     from .analysis.network import network_function
     from .analysis.pencil import circuit_poles, circuit_zeros
     from .report.console import table
 
-    topology, circuit = _load_analysable(args.topology)
-    settings = _parse_settings(args.set)
+    loaded = load_analysable(args.topology)
+    topology, circuit = loaded.topology, loaded.circuit
+    settings = read_settings(circuit, args.set)
     symbols = circuit.symbols
-    for name in settings:
-        if name not in symbols:
-            raise SpecError(
-                f"--set {name}: the circuit has no symbolic part {name!r} "
-                f"(parts: {', '.join(symbols) or 'none'})"
-            )
     nf = network_function(circuit)
     values = dict(topology.values) if topology is not None else {}
     values.update(settings)
@@ -250,18 +218,25 @@ def _cmd_analyze(args):
         lines.append(table(["root", "re (rad/s)", "im (rad/s)", "|root| (Hz)"], rows))
         if nf.order == 2:
             figures = nf.second_order_figures(values)
-            f0 = float(figures.omega0) / (2 * math.pi)
-            q = float(figures.q)
-            gain = float(figures.gain)
-            data.update({"f0_hz": f0, "q": q,
-                         "gain_db": 20 * math.log10(abs(gain)) if gain else None})
-            lines.append(f"  f0 = {format_value(f0, 'Hz', digits=4)}   Q = {q:.4f}   gain = "
-                         + (f"{20 * math.log10(abs(gain)):+.3f} dB" if gain else "0") + (" (inverting)" if gain < 0 else ""))
+            # No f0 or Q when D(s)'s coefficients differ in sign; no DC gain with a pole at 0.
+            f0 = finite_or_none(float(figures.omega0) / (2 * math.pi))
+            q = finite_or_none(float(figures.q))
+            gain = finite_or_none(float(figures.gain))
+            gain_db = 20 * math.log10(abs(gain)) if gain else None
+            data.update({"f0_hz": f0, "q": q, "gain_db": gain_db})
+            shown = ("0" if gain == 0 else "none (a pole at s = 0)" if gain is None
+                     else f"{gain_db:+.3f} dB" + (" (inverting)" if gain < 0 else ""))
+            lines.append((f"  f0 = {format_value(f0, 'Hz', digits=4)}   Q = {q:.4f}"
+                          if f0 is not None and q is not None else
+                          "  f0, Q: none (D(s) has coefficients of both signs: real poles, "
+                          "one in the right half-plane)") + f"   gain = {shown}")
         elif nf.order == 1:
             numerator, denominator = nf.coefficients(values)
-            f0 = float(denominator[1] / denominator[0]) / (2 * math.pi)
+            f0 = finite_or_none(float(denominator[1]) / float(denominator[0])
+                                / (2 * math.pi)) if float(denominator[0]) else None
             data["f0_hz"] = f0
-            lines.append(f"  f0 = {format_value(f0, 'Hz', digits=4)}")
+            lines.append(f"  f0 = {format_value(f0, 'Hz', digits=4)}" if f0 is not None
+                         else "  f0: none")
     elif settings:
         lines.append("")
         lines.append(f"  (give every part a value for numbers; still missing: {', '.join(missing)})")
@@ -429,7 +404,7 @@ def _cmd_loop(args):
     try:
         result = run_loop(spec.loop, source=args.spec, samples=samples, seed=seed,
                           tolerances=tolerances, distribution=spec.tolerance.distribution,
-                          workers=args.workers)
+                          workers=args.workers, parts=spec.parts)
         progress(1, 1, "done")
     finally:
         progress.close()

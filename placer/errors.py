@@ -3,9 +3,14 @@
 Bad input is a :class:`SpecError` (a ``ValueError``); a target that a
 topology cannot reach is an :class:`UnreachableTarget`, which carries the
 reason in words and the library topologies that could reach it.
+:func:`brief` shows a user's value in a message, cut to a readable length.
 """
 
+from typing import Any
+
 __all__ = [
+    "brief",
+    "brief_path",
     "PlacerError",
     "SpecError",
     "TopologyError",
@@ -22,8 +27,34 @@ class SpecError(PlacerError, ValueError):
     """Bad input: a spec, topology or circuit file, a field or an argument.
 
     The message names the file, field or element at fault and says what
-    would be accepted.
+    would be accepted. It is one line: line breaks in it (from a file name,
+    say) are shown as ``\\n``.
     """
+
+    def __init__(self, message: object = "", *args: object) -> None:
+        text = str(message).replace("\r", "\\r").replace("\n", "\\n")
+        super().__init__(text, *args)
+
+
+#: The longest a user's value is shown in a message, in characters.
+BRIEF_LENGTH = 60
+
+
+def brief(value: Any, limit: int = BRIEF_LENGTH, *, quote: bool = True) -> str:
+    """A user's value for a message: its repr (or str), cut to `limit`.
+
+    Examples
+    --------
+    >>> brief("x" * 100)
+    "'xxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxx..."
+    >>> brief(["lowpass"]), brief("C1", quote=False)
+    ("['lowpass']", 'C1')
+    """
+    try:
+        text = repr(value) if quote else str(value)
+    except RecursionError:
+        return "<a value nested too deeply to show>"
+    return text if len(text) <= limit else text[:limit - 3] + "..."
 
 
 class TopologyError(SpecError):
@@ -53,3 +84,17 @@ class UnreachableTarget(PlacerError):
 
 class NumericalWarning(UserWarning):
     """Numerical trouble: ill-conditioning, a root finder that lost accuracy."""
+
+
+def brief_path(path: Any, *, quote: bool = False) -> str:
+    """A file path for a message; one past 160 characters keeps its ends.
+
+    Examples
+    --------
+    >>> brief_path("/tmp/" + "d" * 300 + "/spec.toml")[-13:]
+    'ddd/spec.toml'
+    """
+    text = str(path)
+    if len(text) > 160:
+        text = text[:40] + "..." + text[-100:]
+    return repr(text) if quote else text

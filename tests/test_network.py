@@ -324,7 +324,7 @@ def test_symbolic_result_is_shown_in_resistances():
     _, nf = cached(mfb_lowpass)
     names = {str(s) for s in nf.denominator.free_symbols | nf.numerator.free_symbols}
     assert names == {"s", "R1", "R2", "R3", "C1", "C2"}
-    assert not any(name.startswith("G__") for name in names)
+    assert not any(name.startswith("_G_") for name in names)
 
 
 # -- sensitivity sums -------------------------------------------------------------

@@ -415,7 +415,7 @@ def network_function(circuit):
     lay = layout(circuit)
     by_name = {e.name: e for e in circuit.elements}
     part_symbols = {}      # part symbol name -> sympy Symbol (R form)
-    generators = [S]       # ring generators (conductances as G__name)
+    generators = [S]       # ring generators (conductances as _G_name)
     generator_of = {}      # (symbol, role) -> generator
     role_of_symbol = {}
     for element in circuit.elements:
@@ -432,7 +432,9 @@ def network_function(circuit):
         positive = element.kind in ("resistor", "capacitor", "inductor")
         part = sympy.Symbol(element.symbol, positive=True) if positive else sympy.Symbol(element.symbol)
         part_symbols[element.symbol] = part
-        generator = sympy.Symbol(f"G__{element.symbol}", positive=True) if role == "conductance" else part
+        # A leading "_" keeps the conductance apart from every part symbol
+        # (circuit.SYMBOL_PATTERN starts with a letter).
+        generator = sympy.Symbol(f"_G_{element.symbol}", positive=True) if role == "conductance" else part
         generators.append(generator)
         generator_of[element.symbol] = generator
 
@@ -476,6 +478,13 @@ def network_function(circuit):
     for r in range(size):
         replaced[r][lay.output_index] = domain.one if r == lay.input_row else domain.zero
     numerator = fraction_free_det(replaced, domain)
+    if numerator == domain.zero:
+        where = f"circuit {circuit.name!r}: " if circuit.name else ""
+        raise TopologyError(
+            f"{where}the output {circuit.output!r} does not depend on the input {circuit.input!r}: "
+            "H(s) = 0 for every part value (check the connections, and for a "
+            "controlled source or op-amp gain of 0)"
+        )
     common, numerator, denominator = _cancel(domain, numerator, denominator)
     if _leading_sign(denominator) < 0:
         numerator, denominator = -numerator, -denominator

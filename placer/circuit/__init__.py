@@ -29,12 +29,17 @@ if TYPE_CHECKING:
     )
     from .elements import (
         KINDS,
+        KIND_UNITS,
+        VALUE_LIMITS,
+        RESERVED_SYMBOLS,
         NODE_COUNT,
         SYMBOL_PATTERN,
         Element,
         Circuit,
         circuit_from_dict,
         check_symbol,
+        check_part_value,
+        read_settings,
     )
     from .ladders import (
         LADDER_ORDERS,
@@ -52,6 +57,8 @@ if TYPE_CHECKING:
         load_folder,
         find_topologies,
         realises,
+        Analysable,
+        load_analysable,
     )
     from .topology import (
         RESPONSES,
@@ -81,12 +88,17 @@ _EXPORTS = {
     "automatic_plan": "drawing_auto",
     "plan_for": "drawing_auto",
     "KINDS": "elements",
+    "KIND_UNITS": "elements",
+    "VALUE_LIMITS": "elements",
+    "RESERVED_SYMBOLS": "elements",
     "NODE_COUNT": "elements",
     "SYMBOL_PATTERN": "elements",
     "Element": "elements",
     "Circuit": "elements",
     "circuit_from_dict": "elements",
     "check_symbol": "elements",
+    "check_part_value": "elements",
+    "read_settings": "elements",
     "LADDER_ORDERS": "ladders",
     "GENERATED_ORDERS": "ladders",
     "ladder_topology": "ladders",
@@ -100,6 +112,8 @@ _EXPORTS = {
     "load_folder": "library",
     "find_topologies": "library",
     "realises": "library",
+    "Analysable": "library",
+    "load_analysable": "library",
     "RESPONSES": "topology",
     "NOTCH_KINDS": "topology",
     "DEFAULT_RANGES": "topology",

@@ -18,20 +18,29 @@ from __future__ import annotations
 
 import math
 import re
+from collections.abc import Callable, Iterable
+from typing import Any
 from dataclasses import dataclass, field, replace
 
 import networkx as nx
 
-from ..errors import SpecError, TopologyError
+from ..errors import SpecError, TopologyError, brief
+from ..schema import CIRCUIT_KEYS, ELEMENT_KEYS, LIMITS, check_type, unknown_key
+from ..units import format_value, parse_value
 
 __all__ = [
     "KINDS",
+    "KIND_UNITS",
+    "VALUE_LIMITS",
+    "RESERVED_SYMBOLS",
     "NODE_COUNT",
     "SYMBOL_PATTERN",
     "Element",
     "Circuit",
     "circuit_from_dict",
     "check_symbol",
+    "check_part_value",
+    "read_settings",
 ]
 
 #: Number of nodes each element kind connects, in schema order.
@@ -51,16 +60,114 @@ KINDS = tuple(NODE_COUNT)
 PASSIVE_KINDS = ("resistor", "capacitor", "inductor")
 CONTROLLED_KINDS = ("vcvs", "vccs", "cccs", "ccvs")
 SYMBOL_PATTERN = re.compile(r"[A-Za-z][A-Za-z0-9_]*")
+#: Names a part symbol may not take: ``s`` is the Laplace variable. (The
+#: analysis's own symbols start with ``_``, which no part symbol can.)
+RESERVED_SYMBOLS = frozenset({"s"})
+
+#: The one part-kind → unit table: the unit of each kind's value (a
+#: controlled source's or op-amp's gain has none; a ccvs's is ohm).
+KIND_UNITS = {
+    "resistor": "ohm",
+    "capacitor": "F",
+    "inductor": "H",
+    "vsource": "V",
+    "isource": "A",
+    "vcvs": "",
+    "vccs": "",
+    "cccs": "",
+    "ccvs": "ohm",
+    "opamp": "",
+}
+#: Sane bounds of a part value by kind, SI units: wider than any part one
+#: can buy, narrow enough that the numerics stay finite (common practice,
+#: no source).
+VALUE_LIMITS = {
+    "resistor": (1e-3, 1e12),
+    "capacitor": (1e-15, 10.0),
+    "inductor": (1e-12, 1e3),
+}
+#: A controlled source's gain is 0 or of magnitude within these; a source's
+#: value within ±SOURCE_LIMIT.
+GAIN_LIMITS = (1e-12, 1e12)
+SOURCE_LIMIT = 1e6
 
 
 def check_symbol(name, *, where="symbol"):
-    """Return `name` if it is a safe symbol name, else raise SpecError."""
+    """Return `name` if it is a safe symbol name, else raise SpecError.
+
+    >>> check_symbol("s", where="element 'C1'")
+    Traceback (most recent call last):
+    ...
+    placer.errors.SpecError: element 'C1': symbol 's' is reserved for the Laplace variable; choose another name
+    """
     if not isinstance(name, str) or not SYMBOL_PATTERN.fullmatch(name):
         raise SpecError(
-            f"{where}: {name!r} is not a valid symbol name; "
+            f"{where}: {brief(name)} is not a valid symbol name; "
             "use a letter followed by letters, digits or '_' (for example 'R1')"
         )
+    if name in RESERVED_SYMBOLS:
+        raise SpecError(f"{where}: symbol {name!r} is reserved for the Laplace variable; "
+                        "choose another name")
     return name
+
+
+def _span(low: float, high: float, unit: str) -> str:
+    return f"{format_value(low, unit)} to {format_value(high, unit)}"
+
+
+def check_part_value(kind: str, value: float, where: str, *, role: str = "value") -> float:
+    """Return `value` if it is a sane `role` for an element of `kind`, else raise.
+
+    Parameters
+    ----------
+    kind : str
+        One of :data:`KINDS`.
+    value : float
+        In SI units (see :data:`KIND_UNITS`).
+    where : str
+        File and element, for the message.
+    role : {"value", "gain", "gbw"}
+        Which number of the element.
+
+    Raises
+    ------
+    SpecError
+        A non-finite number, or one outside :data:`VALUE_LIMITS` (R, L, C),
+        :data:`GAIN_LIMITS` (controlled sources: 0 allowed, either sign),
+        ±:data:`SOURCE_LIMIT` (sources) or the op-amp limits of
+        :data:`placer.schema.LIMITS`.
+
+    Examples
+    --------
+    >>> check_part_value("capacitor", 1e300, "c.toml: element 'C1'")
+    Traceback (most recent call last):
+    ...
+    placer.errors.SpecError: c.toml: element 'C1': a capacitor value of 1e+300 is outside 1 fF to 10 F
+    """
+    shown = f"{value:g}" if isinstance(value, float) else brief(value)
+    if not math.isfinite(value):
+        raise SpecError(f"{where}: {role} {shown} is not a finite number")
+    if kind == "opamp":
+        limit = LIMITS["opamp_gain" if role == "gain" else "opamp_gbw"]
+        low, high, unit = limit.low, limit.high, "Hz" if role == "gbw" else ""
+    elif kind in VALUE_LIMITS:
+        (low, high), unit = VALUE_LIMITS[kind], KIND_UNITS[kind]
+    elif kind in CONTROLLED_KINDS:
+        low, high = GAIN_LIMITS
+        if value == 0 or low <= abs(value) <= high:
+            return value
+        raise SpecError(f"{where}: a {kind} gain of {shown} must be 0 or of magnitude "
+                        f"{low:g} to {high:g}")
+    else:
+        if abs(value) <= SOURCE_LIMIT:
+            return value
+        raise SpecError(f"{where}: a {kind} value of {shown} lies beyond ±{SOURCE_LIMIT:g} "
+                        f"{KIND_UNITS[kind]}")
+    if not low <= value <= high:
+        article = "an" if kind[0] in "aeiou" else "a"
+        raise SpecError(f"{where}: {article} {kind} {role} of {shown} is outside "
+                        f"{_span(low, high, unit)}")
+    return value
 
 
 @dataclass(frozen=True)
@@ -98,13 +205,16 @@ class Element:
     control: str | None = None
 
     def __post_init__(self):
-        object.__setattr__(self, "nodes", tuple(self.nodes))
-        where = f"element {self.name!r}"
         if not isinstance(self.name, str) or not self.name:
-            raise TopologyError(f"element name {self.name!r} must be a non-empty string")
-        if self.kind not in NODE_COUNT:
+            raise TopologyError(f"element name {brief(self.name)} must be a non-empty string")
+        where = f"element {brief(self.name)}"
+        if not isinstance(self.nodes, (list, tuple)):
+            raise TopologyError(f"{where}: nodes must be a list of node names, "
+                                f"not {brief(self.nodes)}")
+        object.__setattr__(self, "nodes", tuple(self.nodes))
+        if not isinstance(self.kind, str) or self.kind not in NODE_COUNT:
             raise TopologyError(
-                f"{where}: unknown kind {self.kind!r}; accepted kinds: {', '.join(KINDS)}"
+                f"{where}: unknown kind {brief(self.kind)}; accepted kinds: {', '.join(KINDS)}"
             )
         expected = NODE_COUNT[self.kind]
         if len(self.nodes) != expected:
@@ -114,14 +224,15 @@ class Element:
             )
         for node in self.nodes:
             if not isinstance(node, str) or not node:
-                raise TopologyError(f"{where}: node names must be non-empty strings, not {node!r}")
+                raise TopologyError(f"{where}: node names must be non-empty strings, "
+                                    f"not {brief(node)}")
         if self.symbol is not None:
             check_symbol(self.symbol, where=where)
         for label in ("value", "gain", "gbw"):
             number = getattr(self, label)
             if number is not None and (isinstance(number, bool) or not isinstance(number, (int, float))):
                 raise TopologyError(
-                    f"{where}: {label} must be a number in SI units, not {number!r} "
+                    f"{where}: {label} must be a number in SI units, not {brief(number)} "
                     "(strings such as '10k' are read by circuit_from_dict)"
                 )
         if self.kind in PASSIVE_KINDS:
@@ -144,6 +255,9 @@ class Element:
                 raise TopologyError(
                     f"{where}: a {self.kind} needs 'control', the name of a vsource"
                 )
+            if not isinstance(self.control, str):
+                raise TopologyError(f"{where}: 'control' must be the name of a vsource, "
+                                    f"not {brief(self.control)}")
         elif self.control is not None:
             raise TopologyError(f"{where}: only cccs and ccvs take 'control'")
         if self.kind == "opamp":
@@ -296,11 +410,16 @@ class Circuit:
     # -- validation --------------------------------------------------------
     def validate(self):
         """Check the schema's rules; raise TopologyError naming the culprit."""
-        where = f"circuit {self.name!r}: " if self.name else ""
+        where = f"circuit {brief(self.name)}: " if self.name else ""
+        for label in ("reference", "input", "output"):
+            node = getattr(self, label)
+            if not isinstance(node, str) or not node:
+                raise TopologyError(f"{where}the {label} node must be a non-empty string, "
+                                    f"not {brief(node)}")
         names = set()
         for element in self.elements:
             if element.name in names:
-                raise TopologyError(f"{where}element name {element.name!r} is used twice")
+                raise TopologyError(f"{where}element name {brief(element.name)} is used twice")
             names.add(element.name)
         if not self.elements:
             raise TopologyError(f"{where}the circuit has no elements")
@@ -308,13 +427,13 @@ class Circuit:
         for element in self.elements:
             if element.kind in ("cccs", "ccvs") and element.control not in vsources:
                 raise TopologyError(
-                    f"{where}element {element.name!r}: control {element.control!r} "
+                    f"{where}element {brief(element.name)}: control {brief(element.control)} "
                     "is not the name of a vsource in the circuit"
                 )
         for label, node in (("input", self.input), ("output", self.output)):
             if node == self.reference:
                 raise TopologyError(
-                    f"{where}{label} node {node!r} cannot be the reference node; "
+                    f"{where}{label} node {brief(node)} cannot be the reference node; "
                     "name a node other than the reference"
                 )
         touched = {}
@@ -324,11 +443,11 @@ class Circuit:
         for label, node in (("input", self.input), ("output", self.output)):
             if node not in touched:
                 raise TopologyError(
-                    f"{where}{label} node {node!r} is not connected to any element"
+                    f"{where}{label} node {brief(node)} is not connected to any element"
                 )
         if self.reference not in touched:
             raise TopologyError(
-                f"{where}reference node {self.reference!r} is not connected to any element"
+                f"{where}reference node {brief(self.reference)} is not connected to any element"
             )
         # The input source and the output detector count as one terminal each.
         for node, count in touched.items():
@@ -336,7 +455,7 @@ class Circuit:
             if count + extra < 2:
                 owner = next(e.name for e in self.elements if node in e.nodes)
                 raise TopologyError(
-                    f"{where}element {owner!r} connects node {node!r}, "
+                    f"{where}element {brief(owner)} connects node {brief(node)}, "
                     "which nothing else touches"
                 )
         graph = nx.MultiGraph(self.graph)
@@ -345,7 +464,7 @@ class Circuit:
         for node in self.nodes:
             if node not in reachable:
                 raise TopologyError(
-                    f"{where}node {node!r} has no path to the reference {self.reference!r}"
+                    f"{where}node {brief(node)} has no path to the reference {brief(self.reference)}"
                 )
         _check_source_loops(self, where)
 
@@ -378,8 +497,8 @@ def _check_source_loops(circuit, where):
     for a, b, key, data in graph.edges(keys=True, data=True):
         if a == b:
             raise TopologyError(
-                f"{where}element {data['element']!r} shorts its own output: "
-                f"both ends on node {a!r}"
+                f"{where}element {brief(data['element'])} shorts its own output: "
+                f"both ends on node {brief(a)}"
             )
     forest = nx.Graph()
     for a, b, data in graph.edges(data=True):
@@ -394,83 +513,175 @@ def _check_source_loops(circuit, where):
         forest.add_edge(a, b, element=data["element"])
 
 
-def circuit_from_dict(data, *, source="circuit", parse=None):
+def circuit_from_dict(data: Any, *, source: str = "circuit",
+                      parse: Callable[..., float] | None = None) -> Circuit:
     """Build a Circuit from a dict in the schema (TOML or JSON shape).
 
     Parameters
     ----------
     data : mapping
         ``elements`` (list of tables) and optional ``reference``, ``input``,
-        ``output``.
+        ``output`` (:data:`placer.schema.CIRCUIT_KEYS`; nothing else).
     source : str
         Name of the file or field, used in error messages.
     parse : callable, optional
-        ``parse(text, field=...) -> float`` for values given as strings
-        (placer.units.parse_value); numbers pass through.
+        ``parse(text, unit=..., field=...) -> float`` for values given as
+        strings (:func:`placer.units.parse_value`), called with the unit of
+        the element's kind (:data:`KIND_UNITS`); numbers pass through.
 
     Raises
     ------
     SpecError
-        For a malformed table, naming `source` and the element.
+        For a malformed table, naming `source` and the element: an unknown
+        key, a value of the wrong type, a value in another kind's unit, a
+        value outside its kind's bounds (:func:`check_part_value`).
     """
     if not isinstance(data, dict):
         raise SpecError(f"{source}: a circuit must be a table with 'elements'")
+    nodes = {}
+    for key, value in data.items():
+        if key not in CIRCUIT_KEYS:
+            raise unknown_key(key, CIRCUIT_KEYS, source)
+        if key != "elements":
+            value = _node_name(value)
+            check_type(value, CIRCUIT_KEYS[key].type, f"{source}: {key}",
+                       CIRCUIT_KEYS[key].description)
+            nodes[key] = value
     raw = data.get("elements")
     if not isinstance(raw, list) or not raw:
         raise SpecError(f"{source}: 'elements' must be a non-empty list of element tables")
-    allowed = {"name", "kind", "nodes", "value", "symbol", "gain", "gbw", "control"}
-    elements = []
-    for index, item in enumerate(raw):
-        label = f"{source}: element {index + 1}"
-        if not isinstance(item, dict):
-            raise SpecError(f"{label}: each element must be a table")
-        name = item.get("name")
-        if not isinstance(name, str) or not name:
-            raise SpecError(f"{label}: 'name' is missing or not a string")
-        label = f"{source}: element {name!r}"
-        unknown = sorted(set(item) - allowed)
-        if unknown:
-            raise SpecError(
-                f"{label}: unknown field {unknown[0]!r}; accepted: {', '.join(sorted(allowed))}"
-            )
-        kind = item.get("kind")
-        nodes = item.get("nodes")
-        if not isinstance(nodes, list):
-            raise SpecError(f"{label}: 'nodes' must be a list of node names")
-        numbers = {}
-        for key in ("value", "gain", "gbw"):
-            if key in item:
-                numbers[key] = _number(item[key], f"{label} {key}", parse)
-        symbol = item.get("symbol")
-        try:
-            elements.append(
-                Element(
-                    name=name,
-                    kind=kind,
-                    nodes=tuple(str(n) if isinstance(n, (int,)) else n for n in nodes),
-                    symbol=symbol,
-                    control=item.get("control"),
-                    **numbers,
-                )
-            )
-        except SpecError as error:
-            raise type(error)(f"{source}: {error}") from None
+    elements = [_element_from_dict(item, index, source, parse) for index, item in enumerate(raw)]
     try:
         return Circuit(
             tuple(elements),
-            reference=str(data.get("reference", "gnd")),
-            input=str(data.get("input", "vin")),
-            output=str(data.get("output", "vout")),
+            reference=nodes.get("reference", "gnd"),
+            input=nodes.get("input", "vin"),
+            output=nodes.get("output", "vout"),
         )
     except SpecError as error:
         raise type(error)(f"{source}: {error}") from None
 
 
-def _number(raw, field_name, parse):
+def _element_from_dict(item: Any, index: int, source: str,
+                       parse: Callable[..., float] | None) -> Element:
+    """One element table: keys, types, values in the kind's unit and bounds."""
+    label = f"{source}: element {index + 1}"
+    if not isinstance(item, dict):
+        raise SpecError(f"{label}: each element must be a table")
+    name = item.get("name")
+    if not isinstance(name, str) or not name:
+        raise SpecError(f"{label}: 'name' is missing or not a string")
+    label = f"{source}: element {brief(name)}"
+    for key in item:
+        if key not in ELEMENT_KEYS:
+            raise unknown_key(key, ELEMENT_KEYS, label, noun="field")
+    kind = item.get("kind")
+    check_type(kind, "name", f"{label}: kind", ELEMENT_KEYS["kind"].description)
+    assert isinstance(kind, str)  # for the type checker: check_type made sure
+    nodes = item.get("nodes")
+    if not isinstance(nodes, list):
+        raise SpecError(f"{label}: 'nodes' must be a list of node names")
+    for key in ("symbol", "control"):
+        if key in item:
+            check_type(item[key], "string", f"{label}: {key}")
+    numbers = {}
+    for key in ("value", "gain", "gbw"):
+        if key in item:
+            numbers[key] = _number(item[key], f"{label} {key}", parse,
+                                   "Hz" if key == "gbw" else KIND_UNITS.get(kind))
+    try:
+        element = Element(
+            name=name,
+            kind=kind,
+            nodes=tuple(_node_name(n) for n in nodes),
+            symbol=item.get("symbol"),
+            control=item.get("control"),
+            **numbers,
+        )
+    except SpecError as error:
+        raise type(error)(f"{source}: {error}") from None
+    if "value" in numbers and kind in CONTROLLED_KINDS + ("opamp",):
+        raise SpecError(f"{label}: a {kind} takes 'gain', not 'value'")
+    if "gain" in numbers and kind not in CONTROLLED_KINDS + ("opamp",):
+        raise SpecError(f"{label}: a {kind} takes 'value', not 'gain'")
+    for key, number in numbers.items():
+        check_part_value(kind, number, label, role=key)
+    return element
+
+
+def _node_name(raw: Any) -> Any:
+    """Node names are strings; a whole number (``0``, ``1``) is read as one."""
+    return str(raw) if isinstance(raw, int) and not isinstance(raw, bool) else raw
+
+
+def _number(raw: Any, field_name: str, parse: Callable[..., float] | None,
+            unit: str | None = None) -> float:
     if isinstance(raw, bool):
         raise SpecError(f"{field_name}: expected a number, not {raw!r}")
     if isinstance(raw, (int, float)):
-        return float(raw)
+        return parse_value(raw, field=field_name)  # rejects inf and nan
     if isinstance(raw, str) and parse is not None:
-        return parse(raw, field=field_name)
-    raise SpecError(f"{field_name}: expected a number or a string such as '10k', not {raw!r}")
+        return parse(raw, unit=unit or None, field=field_name)
+    raise SpecError(f"{field_name}: expected a number or a string such as '10k', "
+                    f"not {brief(raw)}")
+
+
+def read_settings(circuit: Circuit, items: Iterable[str], *, option: str = "--set") -> dict:
+    """Read ``PART=VALUE`` texts for a circuit's symbolic parts.
+
+    Each value is read in the unit of its part's kind (``C1=10n`` or
+    ``C1=10 nF``, not ``C1=10 kHz``) and must be a sane value for it
+    (:func:`check_part_value`); a controlled source's gain must not be 0.
+
+    Parameters
+    ----------
+    circuit : Circuit
+    items : iterable of str
+        ``"R1=10k"`` texts.
+    option : str
+        The option's name, for messages.
+
+    Returns
+    -------
+    dict
+        Symbol → value in SI units.
+
+    Raises
+    ------
+    SpecError
+        A text without ``=``, a name that is not a symbolic part, a value
+        that cannot be read, is in another unit, or is out of bounds.
+
+    Examples
+    --------
+    >>> rc = circuit_from_dict({"elements": [
+    ...     {"name": "R1", "kind": "resistor", "nodes": ["vin", "vout"], "symbol": "R1"},
+    ...     {"name": "C1", "kind": "capacitor", "nodes": ["vout", "gnd"], "symbol": "C1"}]})
+    >>> read_settings(rc, ["R1=10k", "C1 = 1 nF"])
+    {'R1': 10000.0, 'C1': 1e-09}
+    >>> read_settings(rc, ["R1=-1k"])
+    Traceback (most recent call last):
+    ...
+    placer.errors.SpecError: --set R1: a resistor value of -1000 is outside 1 mΩ to 1 TΩ
+    """
+    kinds: dict[str, str] = {}
+    for element in circuit.elements:
+        if element.is_symbolic:
+            kinds.setdefault(element.symbol, element.kind)
+    values = {}
+    for item in items:
+        if "=" not in item:
+            raise SpecError(f"{option} {brief(item)}: expected PART=VALUE, for example R1=10k")
+        name, text = (part.strip() for part in item.split("=", 1))
+        if name not in kinds:
+            raise SpecError(
+                f"{option} {brief(name, quote=False)}: the circuit has no symbolic part "
+                f"{brief(name)} (parts: {', '.join(kinds) or 'none'})"
+            )
+        kind = kinds[name]
+        where = f"{option} {name}"
+        value = parse_value(text, unit=KIND_UNITS[kind] or None, field=where)
+        if kind in CONTROLLED_KINDS and value == 0:
+            raise SpecError(f"{where}: a {kind} gain of 0 leaves the output without the input")
+        values[name] = check_part_value(kind, value, where)
+    return values

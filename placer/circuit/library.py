@@ -15,12 +15,16 @@ Examples
 from __future__ import annotations
 
 import difflib
+from dataclasses import dataclass, replace
 from functools import lru_cache
 from pathlib import Path
 
-from ..errors import SpecError
+from .elements import Circuit, circuit_from_dict
+from ..errors import SpecError, brief, brief_path
 from .ladders import generated_topologies
-from .topology import load_topology
+from ..schema import check_path, read_toml
+from .topology import Topology, load_topology, topology_from_dict
+from ..units import parse_value
 
 __all__ = [
     "LIBRARY_DIR",
@@ -30,6 +34,8 @@ __all__ = [
     "load_folder",
     "find_topologies",
     "realises",
+    "Analysable",
+    "load_analysable",
 ]
 
 LIBRARY_DIR = Path(__file__).resolve().parent / "topologies"
@@ -66,19 +72,64 @@ def get_topology(topology_id):
     topologies = library_topologies()
     if topology_id in topologies:
         return topologies[topology_id]
-    close = difflib.get_close_matches(str(topology_id), list(topologies), n=3, cutoff=0.4)
+    text = str(topology_id)
+    close = (difflib.get_close_matches(text, list(topologies), n=3, cutoff=0.4)
+             if len(text) <= 100 else [])
     hint = f"; did you mean {', '.join(repr(c) for c in close)}?" if close else ""
     raise SpecError(
-        f"unknown topology id {topology_id!r}{hint} (`placer topologies` lists them)"
+        f"unknown topology id {brief(topology_id)}{hint} (`placer topologies` lists them)"
     )
 
 
-def resolve_topology(name_or_path):
+def _names_a_file(text: str) -> bool:
+    """True when `text` reads as a file path rather than a library id."""
+    if text.endswith(".toml") or "/" in text:
+        return True
+    try:
+        return Path(text).is_file()
+    except (OSError, ValueError):  # a name too long for the file system, a NUL byte
+        return False
+
+
+def resolve_topology(name_or_path: str | Path) -> Topology:
     """A library id, or a path to a topology file (ends in .toml or exists)."""
     text = str(name_or_path)
-    if text.endswith(".toml") or "/" in text or Path(text).is_file():
+    if _names_a_file(text):
         return load_topology(text)
     return get_topology(text)
+
+
+@dataclass(frozen=True)
+class Analysable:
+    """What ``placer analyze`` reads: a circuit, and its topology if it has one."""
+
+    topology: Topology | None
+    circuit: Circuit
+
+
+def load_analysable(name: str) -> Analysable:
+    """A library id, a topology file, or a plain circuit file.
+
+    A ``.toml`` file with an ``id`` is a topology file, one without is a
+    circuit file (:data:`placer.schema.CIRCUIT_KEYS`).
+
+    Raises
+    ------
+    SpecError
+        An unknown id, or a file that is missing, unreadable, not UTF-8,
+        not TOML, or not a valid topology or circuit (naming the file).
+    """
+    text = str(name)
+    if not _names_a_file(text):
+        topology = get_topology(text)
+        return Analysable(topology, topology.circuit)
+    data = read_toml(text, what="topology or circuit file")
+    source = brief_path(text)
+    if "id" in data:
+        topology = replace(topology_from_dict(data, source=source), path=text)
+        return Analysable(topology, topology.circuit)
+    circuit = circuit_from_dict(data, source=source, parse=parse_value)
+    return Analysable(None, replace(circuit, name=source))
 
 
 def load_folder(folder):
@@ -90,9 +141,7 @@ def load_folder(folder):
         ``{"topologies": {id: Topology}, "errors": {path: message}}`` — one bad
         file does not stop the others.
     """
-    folder = Path(folder)
-    if not folder.is_dir():
-        raise SpecError(f"topology folder {str(folder)!r} does not exist")
+    folder = check_path(folder, what="topology folder", folder=True)
     topologies, errors = {}, {}
     for path in sorted(folder.glob("*.toml")):
         try:

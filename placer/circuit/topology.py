@@ -31,14 +31,17 @@ Examples
 
 from __future__ import annotations
 
+import math
 import re
 import tomllib
+from typing import Any
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
-from .elements import Circuit, check_symbol, circuit_from_dict
+from .elements import KIND_UNITS, Circuit, check_part_value, check_symbol, circuit_from_dict
+from ..errors import SpecError, TopologyError, brief, brief_path
+from ..schema import CIRCUIT_KEYS, TOPOLOGY_KEYS, check_type, read_toml, unknown_key
 from .drawing import drawing_from_table
-from ..errors import SpecError, TopologyError
 from ..units import parse_value
 
 __all__ = [
@@ -69,7 +72,7 @@ DEFAULT_RANGES = {
     "ccvs": (1.0, 1e6),
 }
 
-_UNITS = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
+_PASSIVE = ("resistor", "capacitor", "inductor")
 _CONSTRAINT = re.compile(
     r"^\s*([A-Za-z][A-Za-z0-9_]*)\s*=\s*(?:([0-9]*\.?[0-9]+(?:[eE][+-]?[0-9]+)?)\s*\*\s*)?"
     r"([A-Za-z][A-Za-z0-9_]*)\s*$"
@@ -100,14 +103,17 @@ def parse_constraint(text, *, where="constraints"):
     match = _CONSTRAINT.match(text) if isinstance(text, str) else None
     if not match:
         raise SpecError(
-            f"{where}: cannot read constraint {text!r}; accepted forms: 'C1 = C2', 'R2 = 4*R1'"
+            f"{where}: cannot read constraint {brief(text)}; accepted forms: 'C1 = C2', "
+            "'R2 = 4*R1'"
         )
     part, factor, source = match.groups()
     factor = float(factor) if factor else 1.0
-    if factor <= 0:
-        raise SpecError(f"{where}: constraint {text!r} needs a positive factor")
+    if not (math.isfinite(factor) and 1e-6 <= factor <= 1e6):
+        raise SpecError(f"{where}: constraint {brief(text)} needs a factor from 1e-06 to 1e+06")
     if part == source:
-        raise SpecError(f"{where}: constraint {text!r} ties a part to itself")
+        raise SpecError(f"{where}: constraint {brief(text)} ties a part to itself")
+    for name in (part, source):
+        check_symbol(name, where=f"{where}: constraint {brief(text)}")
     return Constraint(part, factor, source)
 
 
@@ -173,7 +179,7 @@ class Topology:
     @property
     def part_count(self):
         """Resistors, capacitors and inductors in the circuit."""
-        return sum(1 for e in self.circuit.elements if e.kind in _UNITS)
+        return sum(1 for e in self.circuit.elements if e.kind in _PASSIVE)
 
     @property
     def opamp_count(self):
@@ -201,10 +207,12 @@ def topology_from_text(text, *, source="topology"):
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as error:
         raise TopologyError(f"{source}: not valid TOML ({error})") from None
+    except RecursionError:
+        raise TopologyError(f"{source}: arrays or tables nested too deeply") from None
     return topology_from_dict(data, source=source)
 
 
-def load_topology(path):
+def load_topology(path: str | Path) -> Topology:
     """Read a topology file from any path.
 
     Raises
@@ -212,100 +220,79 @@ def load_topology(path):
     SpecError
         If the file is missing, unreadable or malformed (the message names it).
     """
-    path = Path(path)
-    if not path.is_file():
-        raise SpecError(f"topology file {str(path)!r} does not exist")
-    try:
-        text = path.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as error:
-        raise SpecError(f"topology file {str(path)!r} cannot be read ({error})") from None
-    topology = topology_from_text(text, source=str(path))
+    data = read_toml(path, what="topology file")
+    topology = topology_from_dict(data, source=brief_path(path))
     return replace(topology, path=str(path))
 
 
-def topology_from_dict(data, *, source="topology"):
-    """Build a Topology from parsed TOML (see :func:`topology_from_text`)."""
-    allowed = {
-        "id", "title", "response", "order", "family", "inverting", "reference",
-        "input", "output", "free", "constraints", "description", "formula",
-        "ranges", "values", "elements", "drawing", "notch_kinds",
-    }
-    unknown = sorted(set(data) - allowed)
-    if unknown:
-        raise TopologyError(
-            f"{source}: unknown key {unknown[0]!r}; accepted keys: {', '.join(sorted(allowed))}"
-        )
+def topology_from_dict(data: Any, *, source: str = "topology") -> Topology:
+    """Build a Topology from parsed TOML (see :func:`topology_from_text`).
+
+    Raises
+    ------
+    TopologyError
+        An unknown key (the accepted ones listed), a value of the wrong
+        type, a missing key, a part value or range in another kind's unit,
+        out of bounds or not finite, a constraint on a part that is not free.
+    """
+    if not isinstance(data, dict):
+        raise TopologyError(f"{source}: a topology must be a table")
+    for key, value in data.items():
+        if key not in TOPOLOGY_KEYS:
+            raise TopologyError(str(unknown_key(key, TOPOLOGY_KEYS, source)))
+        if key != "elements":
+            try:
+                check_type(value, TOPOLOGY_KEYS[key].type, f"{source}: {key}",
+                           TOPOLOGY_KEYS[key].description)
+            except SpecError as error:
+                raise TopologyError(str(error)) from None
     for key in ("id", "title", "response", "order", "elements"):
         if key not in data:
             raise TopologyError(f"{source}: missing required key {key!r}")
     topology_id = data["id"]
     if not isinstance(topology_id, str) or not _ID.fullmatch(topology_id):
         raise TopologyError(
-            f"{source}: id {topology_id!r} must use lowercase letters, digits and '-'"
+            f"{source}: id {brief(topology_id)} must use lowercase letters, digits and '-'"
         )
     response = data["response"]
     if response not in RESPONSES:
         raise TopologyError(
-            f"{source}: unknown response kind {response!r}; accepted: {', '.join(RESPONSES)}"
+            f"{source}: unknown response kind {brief(response)}; accepted: {', '.join(RESPONSES)}"
         )
     order = data["order"]
-    if not isinstance(order, int) or isinstance(order, bool) or not 0 <= order <= 24:
-        raise TopologyError(f"{source}: order must be an integer 0–24, not {order!r}")
-    circuit = circuit_from_dict(data, source=source, parse=parse_value)
+    if not 0 <= order <= 24:
+        raise TopologyError(f"{source}: order = {order!r} must be a whole number from 0 to 24")
+    circuit = circuit_from_dict({k: data[k] for k in CIRCUIT_KEYS if k in data},
+                                source=source, parse=parse_value)
     circuit = replace(circuit, name=topology_id)
     symbols = circuit.symbols
+    kinds = {e.symbol: e.kind for e in circuit.elements if e.symbol}
     values = {}
-    for symbol, raw in dict(data.get("values", {})).items():
+    for symbol, raw in data.get("values", {}).items():
         if symbol not in symbols:
-            raise TopologyError(f"{source}: values: {symbol!r} is not a part of the topology")
-        values[symbol] = _number(raw, f"{source}: values.{symbol}")
+            raise TopologyError(f"{source}: values: {brief(symbol)} is not a part of the topology")
+        values[symbol] = _part_number(raw, kinds[symbol], f"{source}: values.{symbol}")
     free = data.get("free")
     if free is None:
         free = [s for s in symbols if s not in values]
-    if not isinstance(free, list) or not all(isinstance(s, str) for s in free):
-        raise TopologyError(f"{source}: 'free' must be a list of part symbols")
     for symbol in free:
         if symbol not in symbols:
             raise TopologyError(
-                f"{source}: free part {symbol!r} is not a symbol of any element"
+                f"{source}: free part {brief(symbol)} is not a symbol of any element"
             )
     for symbol in symbols:
         if symbol not in free and symbol not in values:
             raise TopologyError(
                 f"{source}: part {symbol!r} is neither free nor given a value in [values]"
             )
-    kinds = {e.symbol: e.kind for e in circuit.elements if e.symbol}
-    ranges = {}
-    raw_ranges = dict(data.get("ranges", {}))
-    for symbol in raw_ranges:
-        if symbol not in symbols:
-            raise TopologyError(f"{source}: ranges: {symbol!r} is not a part of the topology")
-    for symbol in free:
-        if symbol in raw_ranges:
-            raw = raw_ranges[symbol]
-            if not isinstance(raw, list) or len(raw) != 2:
-                raise TopologyError(f"{source}: ranges.{symbol} must be [low, high]")
-            low = _number(raw[0], f"{source}: ranges.{symbol}")
-            high = _number(raw[1], f"{source}: ranges.{symbol}")
-        elif kinds[symbol] in DEFAULT_RANGES:
-            low, high = DEFAULT_RANGES[kinds[symbol]]
-        else:
-            raise TopologyError(
-                f"{source}: free part {symbol!r} ({kinds[symbol]}) has no range; "
-                f"give ranges.{symbol} = [low, high]"
-            )
-        if not (0 < low < high):
-            raise TopologyError(
-                f"{source}: ranges.{symbol} must satisfy 0 < low < high, not [{low}, {high}]"
-            )
-        ranges[symbol] = (low, high)
+    ranges = _ranges(data.get("ranges", {}), free, symbols, kinds, source)
     constraints = []
     for text in data.get("constraints", []):
         constraint = parse_constraint(text, where=f"{source}: constraints")
         for name in (constraint.part, constraint.source):
             if name not in free:
                 raise TopologyError(
-                    f"{source}: constraint {text!r} names {name!r}, which is not a free part"
+                    f"{source}: constraint {brief(text)} names {name!r}, which is not a free part"
                 )
         constraints.append(constraint)
     for key in ("title", "description", "formula", "family"):
@@ -327,7 +314,7 @@ def topology_from_dict(data, *, source="topology"):
         values=values,
         constraints=tuple(constraints),
         family=data.get("family", ""),
-        inverting=bool(data.get("inverting", False)),
+        inverting=data.get("inverting", False),
         description=data.get("description", ""),
         formula=data.get("formula", ""),
         path="",
@@ -350,11 +337,37 @@ def _notch_kinds(data: dict, response: str, source: str) -> tuple:
     return tuple(dict.fromkeys(raw))
 
 
-def _number(raw, where):
-    if isinstance(raw, bool):
-        raise TopologyError(f"{where}: expected a number, not {raw!r}")
-    if isinstance(raw, (int, float)):
-        return float(raw)
-    if isinstance(raw, str):
-        return parse_value(raw, field=where)
-    raise TopologyError(f"{where}: expected a number or a string such as '10k', not {raw!r}")
+def _ranges(raw_ranges: dict, free: list, symbols: tuple, kinds: dict, source: str) -> dict:
+    """Symbol → (low, high) for every free part: given, or by kind."""
+    for symbol in raw_ranges:
+        if symbol not in symbols:
+            raise TopologyError(f"{source}: ranges: {brief(symbol)} is not a part of the topology")
+    ranges = {}
+    for symbol in free:
+        if symbol in raw_ranges:
+            where = f"{source}: ranges.{symbol}"
+            low, high = (_part_number(x, kinds[symbol], where) for x in raw_ranges[symbol])
+        elif kinds[symbol] in DEFAULT_RANGES:
+            low, high = DEFAULT_RANGES[kinds[symbol]]
+        else:
+            raise TopologyError(
+                f"{source}: free part {symbol!r} ({kinds[symbol]}) has no range; "
+                f"give ranges.{symbol} = [low, high]"
+            )
+        if not (0 < low < high):
+            raise TopologyError(
+                f"{source}: ranges.{symbol} must satisfy 0 < low < high, not [{low:g}, {high:g}]"
+            )
+        ranges[symbol] = (low, high)
+    return ranges
+
+
+def _part_number(raw: Any, kind: str, where: str) -> float:
+    """A part value or range end: finite, in the kind's unit, within its bounds."""
+    try:
+        value = parse_value(raw, unit=KIND_UNITS[kind] or None, field=where)
+        return check_part_value(kind, value, where)
+    except TopologyError:
+        raise
+    except SpecError as error:
+        raise TopologyError(str(error)) from None

@@ -35,7 +35,9 @@ from dataclasses import dataclass
 import control
 import numpy as np
 
-from ..errors import NumericalWarning, SpecError
+from ..circuit.elements import check_part_value
+from ..errors import NumericalWarning, SpecError, brief
+from ..schema import LIMITS, PLANT_TABLES, check_limit, check_table, unknown_key
 from ..units import format_value, parse_value
 
 __all__ = [
@@ -402,26 +404,21 @@ def boost_plant(vin, *, duty=None, vout=None, inductance, capacitance, esr, load
 
 # -- spec tables -------------------------------------------------------------
 
-_KEYS = {
-    "roots": {"type", "poles", "zeros", "units", "gain", "dc_gain", "description"},
-    "coefficients": {"type", "numerator", "denominator", "description"},
-    "buck": {"type", "vin", "inductance", "capacitance", "esr", "load", "ramp"},
-    "boost": {"type", "vin", "vout", "duty", "inductance", "capacitance", "esr",
-              "load", "ramp"},
-}
-_CONVERTER_UNITS = {"vin": "V", "vout": "V", "duty": "", "inductance": "H",
-                    "capacitance": "F", "esr": "ohm", "load": "ohm", "ramp": "V"}
+_KEYS = {kind: set(keys) for kind, keys in PLANT_TABLES.items()}
+# Converter figures: the kind whose bounds apply (placer.circuit.elements.VALUE_LIMITS),
+# or a LIMITS name; esr may also be 0.
+_CONVERTER_BOUNDS = {"vin": "voltage", "vout": "voltage", "inductance": "inductor",
+                     "capacitance": "capacitor", "esr": "resistor", "load": "resistor",
+                     "ramp": "voltage"}
+#: Largest size of a plant root, rad/s (the frequency bound, 10 GHz).
+_ROOT_LIMIT = 2 * math.pi * LIMITS["frequency"].high
 
 
-def check_keys(table, accepted, where):
+def check_keys(table: dict, accepted: set, where: str) -> None:
     """SpecError for the first key of `table` not in `accepted`, with the nearest."""
     for key in table:
         if key not in accepted:
-            close = difflib.get_close_matches(str(key), sorted(accepted), n=1)
-            hint = f"; did you mean {close[0]!r}?" if close else ""
-            raise SpecError(
-                f"{where}: unknown key {key!r}{hint} (accepted: {', '.join(sorted(accepted))})"
-            )
+            raise unknown_key(key, tuple(sorted(accepted)), where)
 
 
 def _read(table, key, where, unit=None):
@@ -430,18 +427,28 @@ def _read(table, key, where, unit=None):
     return parse_value(table[key], unit=unit, field=f"{where}.{key}")
 
 
-def _roots_of(raw, where, scale):
-    if not isinstance(raw, list):
-        raise SpecError(f"{where}: expected a list of numbers or [re, im] pairs, not {raw!r}")
+def _bounded(key: str, value: float, where: str) -> float:
+    """A converter figure within its bounds (esr may be 0, duty is checked later)."""
+    bound = _CONVERTER_BOUNDS.get(key)
+    if bound is None or (key == "esr" and value == 0):
+        return value
+    if bound in LIMITS:
+        return check_limit(value, bound, f"{where}.{key}")
+    return check_part_value(bound, value, f"{where}.{key}")
+
+
+def _roots_of(raw: list, where: str, scale: float) -> list:
     roots = []
     for item in raw:
         if isinstance(item, list):
-            if len(item) != 2:
-                raise SpecError(f"{where}: a complex root is a pair [re, im], not {item!r}")
             re_, im_ = (parse_value(x, field=where) for x in item)
         else:
             re_, im_ = parse_value(item, field=where), 0.0
-        roots.append(complex(re_, im_))
+        root = complex(re_, im_)
+        if abs(root) * scale > _ROOT_LIMIT:
+            raise SpecError(f"{where}: a root {brief(item)} lies beyond "
+                            f"{LIMITS['frequency'].high:g} Hz")
+        roots.append(root)
     # Pairs are checked in the units the user typed, so the message shows their numbers.
     return [r * scale for r in _clean_roots(roots, where)]
 
@@ -480,17 +487,18 @@ def plant_from_table(table, *, source="plant"):
     if not isinstance(table, dict):
         raise SpecError(f"{source}: the plant must be a table with a 'type' key")
     kind = table.get("type")
-    if kind not in PLANT_TYPES:
-        close = difflib.get_close_matches(str(kind), PLANT_TYPES, n=1)
+    if not isinstance(kind, str) or kind not in PLANT_TYPES:
+        text = str(kind)
+        close = difflib.get_close_matches(text, PLANT_TYPES, n=1) if len(text) <= 100 else []
         hint = f"; did you mean {close[0]!r}?" if close else ""
         raise SpecError(
-            f"{source}.type must be one of {', '.join(PLANT_TYPES)}, not {kind!r}{hint}"
+            f"{source}.type must be one of {', '.join(PLANT_TYPES)}, not {brief(kind)}{hint}"
         )
-    check_keys(table, _KEYS[kind], source)
+    check_table(table, "", source=source, label="", keys=PLANT_TABLES[kind])
     if kind == "roots":
         units = table.get("units", "Hz")
         if units not in ("Hz", "rad/s"):
-            raise SpecError(f"{source}.units must be 'Hz' or 'rad/s', not {units!r}")
+            raise SpecError(f"{source}.units must be 'Hz' or 'rad/s', not {brief(units)}")
         scale = 2 * math.pi if units == "Hz" else 1.0
         poles = _roots_of(table.get("poles", []), f"{source}.poles", scale)
         zeros = _roots_of(table.get("zeros", []), f"{source}.zeros", scale)
@@ -501,19 +509,24 @@ def plant_from_table(table, *, source="plant"):
             return plant_from_roots(poles, zeros, _read(table, "gain", source),
                                     description=description)
         unit_plant = plant_from_roots(poles, zeros, 1.0)
-        k = _read(table, "dc_gain", source) / unit_plant.low_frequency_gain
+        dc_gain = _read(table, "dc_gain", source)
+        if dc_gain != 0:
+            check_limit(abs(dc_gain), "plant_gain", f"{source}.dc_gain", shown=table["dc_gain"])
+        k = dc_gain / unit_plant.low_frequency_gain
         return plant_from_roots(poles, zeros, k, description=description)
     if kind == "coefficients":
         coefficients = []
         for key in ("numerator", "denominator"):
             raw = table.get(key)
             if not isinstance(raw, list) or not raw:
-                raise SpecError(f"{source}.{key} must be a non-empty list of numbers, not {raw!r}")
+                raise SpecError(f"{source}.{key} must be a non-empty list of numbers, "
+                                f"not {brief(raw)}")
             coefficients.append([parse_value(x, field=f"{source}.{key}") for x in raw])
         return plant_from_coefficients(*coefficients,
                                        description=str(table.get("description", "")))
-    values = {key: _read(table, key, source, _CONVERTER_UNITS[key] or None)
-              for key in _KEYS[kind] if key in table and key != "type"}
+    values = {key: _bounded(key, _read(table, key, source, PLANT_TABLES[kind][key].unit or None),
+                            source)
+              for key in PLANT_TABLES[kind] if key in table and key != "type"}
     values.setdefault("esr", 0.0)
     for key in ("vin", "inductance", "capacitance", "load", "ramp"):
         if key not in values:

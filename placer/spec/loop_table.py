@@ -12,18 +12,22 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
+from typing import Any
 
+from ..circuit.elements import check_part_value
 from ..eseries import check_series
-from ..errors import SpecError
+from ..errors import SpecError, brief
 from ..loops.compensator import LoopDesign, check_compensator, design_compensator
 from ..loops.tolerance import LoopMonteCarlo, loop_monte_carlo
-from ..loops.plants import Plant, check_keys, plant_from_table
+from ..loops.plants import Plant, plant_from_table
+from ..schema import check_limit, check_table
 from ..units import parse_value
 
 __all__ = ["LoopSpec", "LoopResult", "loop_from_table", "run_loop", "loop_to_dict"]
 
-_LOOP_KEYS = ("plant", "crossover", "phase_margin", "compensator", "margin_floor", "r1",
-              "resistor_series", "capacitor_series")
+#: Series and ranges of a loop's parts when neither [loop] nor [parts] names them.
+_DEFAULT_SERIES = {"resistor": "E96", "capacitor": "E12"}
+_DEFAULT_RANGES = {"resistor": (1e3, 1e6), "capacitor": (100e-12, 10e-6)}
 
 
 @dataclass(frozen=True)
@@ -38,6 +42,8 @@ class LoopSpec:
     r1: float = 10e3
     resistor_series: str = "E96"
     capacitor_series: str = "E12"
+    resistor_range: tuple = _DEFAULT_RANGES["resistor"]
+    capacitor_range: tuple = _DEFAULT_RANGES["capacitor"]
 
 
 @dataclass(frozen=True)
@@ -49,7 +55,27 @@ class LoopResult:
     monte_carlo: LoopMonteCarlo | None
 
 
-def loop_from_table(table, *, source="spec"):
+def _series_and_ranges(loop: Mapping, parts: Any, where: str) -> dict:
+    """The parts' series ([loop] or [parts], not both at odds) and [parts] ranges."""
+    given = parts.given if parts is not None else frozenset()
+    out = {}
+    for kind in ("resistor", "capacitor"):
+        key = f"{kind}_series"
+        from_parts = parts.series[kind] if parts is not None and key in given else None
+        if key in loop:
+            series = check_series(loop[key], field=f"{where}.{key}")
+            if from_parts is not None and from_parts != series:
+                raise SpecError(f"{where}.{key} = {brief(loop[key])} differs from [parts] "
+                                f"{key} = {from_parts!r}; give the series in one place")
+        else:
+            series = from_parts or _DEFAULT_SERIES[kind]
+        out[key] = series
+        ranges = parts.ranges if parts is not None else _DEFAULT_RANGES
+        out[f"{kind}_range"] = tuple(ranges.get(kind, _DEFAULT_RANGES[kind]))
+    return out
+
+
+def loop_from_table(table: Mapping, *, source: str = "spec", parts: Any = None) -> LoopSpec:
     """Read the ``[loop]`` table of a parsed spec file.
 
     Parameters
@@ -60,9 +86,13 @@ def loop_from_table(table, *, source="spec"):
         ``crossover`` ("20 kHz"), ``phase_margin`` ("60 deg" or a number),
         and optional ``compensator`` {"type2", "type3"} (default "type2"),
         ``margin_floor`` (degrees), ``r1`` (Ω), ``resistor_series``,
-        ``capacitor_series``.
+        ``capacitor_series`` (:data:`placer.schema.SPEC_TABLES` ``"loop"``).
     source : str
         The file name, used in messages.
+    parts : placer.spec.reader.PartsSpec, optional
+        The spec's ``[parts]``: its ranges bound the loop's resistors and
+        capacitors, and its series apply unless ``[loop]`` names them (the
+        two may not differ).
 
     Raises
     ------
@@ -86,18 +116,20 @@ def loop_from_table(table, *, source="spec"):
     else:
         raise SpecError(f"{source}: no [loop] table (keys: {', '.join(map(str, table)) or 'none'})")
     if not isinstance(loop, Mapping):
-        raise SpecError(f"{where} must be a table, not {loop!r}")
-    check_keys(loop, _LOOP_KEYS, where)
+        raise SpecError(f"{where} must be a table, not {brief(loop)}")
+    check_table(dict(loop), "loop", source=source)
     for key in ("plant", "crossover", "phase_margin"):
         if key not in loop:
             raise SpecError(f"{where}: missing key {key!r}")
     crossover = parse_value(loop["crossover"], unit="Hz", field=f"{where}.crossover")
     if not crossover > 0:
-        raise SpecError(f"{where}.crossover must be a positive frequency, not {loop['crossover']!r}")
+        raise SpecError(f"{where}.crossover must be a positive frequency, "
+                        f"not {brief(loop['crossover'])}")
+    check_limit(crossover, "frequency", f"{where}.crossover", shown=loop["crossover"])
     pm = parse_value(loop["phase_margin"], unit="deg", field=f"{where}.phase_margin")
     if not 0 < pm < 180:
         raise SpecError(f"{where}.phase_margin must lie between 0 and 180 deg, "
-                        f"not {loop['phase_margin']!r}")
+                        f"not {brief(loop['phase_margin'])}")
     compensator = loop.get("compensator", "type2")
     try:
         check_compensator(compensator)
@@ -105,17 +137,21 @@ def loop_from_table(table, *, source="spec"):
         raise SpecError(f"{where}.{error}") from None
     floor = loop.get("margin_floor")
     if floor is not None:
-        floor = parse_value(floor, unit="deg", field=f"{where}.margin_floor")
-    r1 = parse_value(loop.get("r1", 10e3), unit="ohm", field=f"{where}.r1")
-    series = {}
-    for key, default in (("resistor_series", "E96"), ("capacitor_series", "E12")):
-        series[key] = check_series(loop.get(key, default), field=f"{where}.{key}")
+        floor = check_limit(parse_value(floor, unit="deg", field=f"{where}.margin_floor"),
+                            "margin_deg", f"{where}.margin_floor", shown=floor)
+    chosen = _series_and_ranges(loop, parts, where)
+    if "r1" in loop:
+        r1 = parse_value(loop["r1"], unit="ohm", field=f"{where}.r1")
+        check_part_value("resistor", r1, f"{where}.r1")
+    else:  # 10 kΩ, or the nearer end of a resistor range that leaves it out
+        low, high = chosen["resistor_range"]
+        r1 = min(max(10e3, low), high)
     return LoopSpec(plant_from_table(loop["plant"], source=f"{where}.plant"), crossover, pm,
-                    compensator, floor, r1, **series)
+                    compensator, floor, r1, **chosen)
 
 
 def run_loop(spec_table, *, source="spec", samples=1000, seed=0, tolerances=None,
-             distribution="uniform", topologies=None, workers=1):
+             distribution="uniform", topologies=None, workers=1, parts=None):
     """Read a ``[loop]`` spec, design the compensator, run the Monte Carlo.
 
     Parameters
@@ -132,15 +168,18 @@ def run_loop(spec_table, *, source="spec", samples=1000, seed=0, tolerances=None
         Where to look the compensator up (default: the library).
     workers : int or None, optional
         Worker processes of the Monte Carlo (see :func:`loop_monte_carlo`).
+    parts : placer.spec.reader.PartsSpec, optional
+        The spec's ``[parts]`` (series and ranges), as for :func:`loop_from_table`.
 
     Returns
     -------
     LoopResult
     """
-    spec = loop_from_table(spec_table, source=source)
+    spec = loop_from_table(spec_table, source=source, parts=parts)
     design = design_compensator(
         spec.plant, spec.crossover_hz, spec.phase_margin_deg, compensator=spec.compensator,
         resistor_series=spec.resistor_series, capacitor_series=spec.capacitor_series,
+        resistor_range=spec.resistor_range, capacitor_range=spec.capacitor_range,
         r1=spec.r1, topologies=topologies)
     monte_carlo = (loop_monte_carlo(design, tolerances, samples=samples, seed=seed,
                                     distribution=distribution, margin_floor_deg=spec.margin_floor_deg,

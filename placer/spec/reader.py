@@ -37,21 +37,29 @@ engineering string read by :mod:`placer.units`):
 ``[signal]``
     ``amplitude``: the full-scale input, V peak (default 1 V).
 ``[loop]``
-    A control loop (see :func:`placer.spec.loop_table.loop_from_table`).
+    A control loop (see :func:`placer.spec.loop_table.loop_from_table`); it reads
+    the same ``[parts]`` series and ranges as a design.
+
+The accepted keys and their types are :data:`placer.schema.SPEC_TABLES`;
+an unknown table or key is an error that lists the accepted ones, and
+every number must be finite and within the bounds its field allows.
 """
 
 from __future__ import annotations
 
 import difflib
 import math
-import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
-from ..place.opamp import AMPLIFIER_PRESETS, AmplifierSpec
-from ..errors import SpecError
+from ..circuit.elements import KIND_UNITS, VALUE_LIMITS, check_part_value
+from ..errors import SpecError, brief
 from ..eseries import check_series, usual_tolerance
 from ..circuit.library import load_folder, resolve_topology
+from .loop_table import loop_from_table
+from ..place.opamp import AMPLIFIER_PRESETS, AmplifierSpec
+from ..schema import LIMITS, SPEC_TABLES, check_limit, check_path, check_table, read_toml
 from .target_table import target_from_table
 from ..circuit.topology import parse_constraint
 from ..units import parse_quantity, parse_value
@@ -71,24 +79,27 @@ __all__ = [
     "signal_from_table",
 ]
 
-TABLES = ("title", "description", "target", "cascade", "parts", "candidates",
-          "tolerance", "amplifier", "loop",
-          "noise", "signal")          # pre-layout checks (placer.evidence.prelayout)
+#: The top-level keys of a spec file (see :data:`placer.schema.SPEC_TABLES`).
+TABLES = tuple(SPEC_TABLES[""])
 
 
 _DEFAULT_SERIES = {"resistor": "E96", "capacitor": "E12", "inductor": "E12"}
 _DEFAULT_RANGES = {"resistor": (1e3, 1e6), "capacitor": (100e-12, 10e-6), "inductor": (1e-6, 1.0)}
-_UNITS = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 
 
 @dataclass(frozen=True)
 class PartsSpec:
-    """Series, ranges, fixed parts and constraints for the parts."""
+    """Series, ranges, fixed parts and constraints for the parts.
+
+    ``given`` holds the ``[parts]`` keys the spec wrote (the rest are
+    defaults).
+    """
 
     series: dict = field(default_factory=lambda: dict(_DEFAULT_SERIES))
     ranges: dict = field(default_factory=lambda: dict(_DEFAULT_RANGES))
     fixed: dict = field(default_factory=dict)
     constraints: tuple = ()
+    given: frozenset = frozenset()
 
 
 @dataclass(frozen=True)
@@ -100,8 +111,6 @@ class ToleranceSpec:
     samples: int = 2000
     seed: int = 0
     windows: dict = field(default_factory=lambda: {"f0": 0.02, "q": 0.05})
-
-
 
 
 @dataclass(frozen=True)
@@ -124,110 +133,86 @@ class Spec:
     signal: SignalSpec = field(default_factory=lambda: SignalSpec())
 
 
-def load_spec(path):
+def load_spec(path: str | Path) -> Spec:
     """Read and validate a spec file.
 
     Raises
     ------
     SpecError
-        A missing or unreadable file, bad TOML, or a bad field (the message
-        names the file and the field and says what is accepted).
+        A missing, unreadable or non-UTF-8 file, a directory, a path too
+        long, bad TOML, or a bad field (the message names the file and the
+        field and says what is accepted).
     """
-    path = Path(path)
-    if not path.is_file():
-        raise SpecError(f"spec file {str(path)!r} does not exist")
-    try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
-    except tomllib.TOMLDecodeError as error:
-        raise SpecError(f"{path}: not valid TOML ({error})") from None
-    except (OSError, UnicodeDecodeError) as error:
-        raise SpecError(f"{path}: cannot be read ({error})") from None
+    data = read_toml(path, what="spec file")
     return spec_from_dict(data, source=str(path))
 
 
-def _unknown(keys, valid, where):
-    for key in keys:
-        if key not in valid:
-            close = difflib.get_close_matches(key, valid, n=1)
-            hint = f"; did you mean {close[0]!r}?" if close else ""
-            raise SpecError(f"{where}: unknown key {key!r}{hint} (accepted: {', '.join(valid)})")
-
-
-def _table(data, name, source):
-    value = data.get(name, {})
-    if not isinstance(value, dict):
-        raise SpecError(f"{source}: [{name}] must be a table")
-    return value
-
-
-def spec_from_dict(data, *, source="spec"):
+def spec_from_dict(data: dict, *, source: str = "spec") -> Spec:
     """Validate a parsed spec (see the module docstring for the keys)."""
-    _unknown(data, TABLES, source)
+    check_table(data, "", source=source)
     target = None
     if "target" in data:
-        target = target_from_table(_table(data, "target", source), source=source)
-    cascade = _table(data, "cascade", source)
-    _unknown(cascade, ("ordering", "gain_distribution"), f"{source}: [cascade]")
+        target = target_from_table(data["target"], source=source)
+    cascade = data.get("cascade", {})
+    check_table(cascade, "cascade", source=source)
     ordering = cascade.get("ordering", "ascending-q")
     _choice(ordering, ("ascending-q", "descending-q", "as-given"), f"{source}: cascade.ordering")
     distribution = cascade.get("gain_distribution", "headroom")
     _choice(distribution, ("headroom", "first", "equal"), f"{source}: cascade.gain_distribution")
-    parts = _parts(_table(data, "parts", source), source)
-    candidates, folder = _candidates(_table(data, "candidates", source), source)
+    parts = _parts(data.get("parts", {}), source)
+    candidates, folder = _candidates(data.get("candidates", {}), source)
     if candidates:
         _check_named_parts(parts, candidates, folder, source)
-    tolerance = _tolerance(_table(data, "tolerance", source), parts, source)
-    amplifier = amplifier_from_table(_table(data, "amplifier", source), source=source)
+    tolerance = _tolerance(data.get("tolerance", {}), parts, source)
+    amplifier = amplifier_from_table(data.get("amplifier", {}), source=source)
     loop = data.get("loop")
-    if loop is not None and not isinstance(loop, dict):
-        raise SpecError(f"{source}: [loop] must be a table")
+    if loop is not None:
+        loop_from_table(data, source=source, parts=parts)  # every key checked at load
     if target is None and loop is None:
         raise SpecError(f"{source}: a spec needs a [target] table (or a [loop] table)")
     title = data.get("title", Path(source).stem)
-    if not isinstance(title, str):
-        raise SpecError(f"{source}: title must be a string")
     return Spec(
         path=source, title=title, target=target, ordering=ordering,
         gain_distribution=distribution, parts=parts, candidates=candidates,
         folder=folder, tolerance=tolerance, amplifier=amplifier, loop=loop, raw=data,
-        noise=noise_from_table(_table(data, "noise", source), source=source),
-        signal=signal_from_table(_table(data, "signal", source), source=source),
+        noise=noise_from_table(data.get("noise", {}), source=source),
+        signal=signal_from_table(data.get("signal", {}), source=source),
     )
 
 
-def _choice(value, valid, where):
+def _choice(value: Any, valid: tuple, where: str) -> str:
     if value not in valid:
-        close = difflib.get_close_matches(str(value), valid, n=1)
+        text = str(value)
+        close = difflib.get_close_matches(text, valid, n=1) if len(text) <= 100 else []
         hint = f"; did you mean {close[0]!r}?" if close else ""
-        raise SpecError(f"{where} must be one of {', '.join(valid)}, not {value!r}{hint}")
+        raise SpecError(f"{where} must be one of {', '.join(valid)}, not {brief(value)}{hint}")
     return value
 
 
-def _range(raw, kind, where):
+def _range(raw: Any, kind: str, where: str) -> tuple:
     if not isinstance(raw, list) or len(raw) != 2:
-        raise SpecError(f"{where} must be two values [low, high], not {raw!r}")
-    low, high = (_value(v, _UNITS[kind], where) for v in raw)
+        raise SpecError(f"{where} must be two values [low, high], not {brief(raw)}")
+    low, high = (_value(v, KIND_UNITS[kind], where) for v in raw)
     if not (low > 0 and high > 0):
-        raise SpecError(f"{where} = {raw!r}: values must be positive")
+        raise SpecError(f"{where} = {brief(raw)}: values must be positive")
     if low >= high:
-        raise SpecError(f"{where} = {raw!r}: low must be below high (the range is empty)")
+        raise SpecError(f"{where} = {brief(raw)}: low must be below high (the range is empty)")
+    for value in (low, high):
+        check_part_value(kind, value, where)
     return (low, high)
 
 
-def _value(raw, unit, where):
+def _value(raw: Any, unit: str | None, where: str) -> float:
+    """A finite number (TOML's inf and nan are refused) in `unit` or none."""
     if isinstance(raw, bool):
         raise SpecError(f"{where}: expected a number, not {raw!r}")
-    if isinstance(raw, (int, float)):
-        return float(raw)
-    if isinstance(raw, str):
+    if isinstance(raw, (int, float, str)):
         return parse_value(raw, unit=unit, field=where)
-    raise SpecError(f"{where}: expected a number or a string such as '10k', not {raw!r}")
+    raise SpecError(f"{where}: expected a number or a string such as '10k', not {brief(raw)}")
 
 
-def _parts(table, source):
-    valid = ("resistor_series", "capacitor_series", "inductor_series", "resistor_range",
-             "capacitor_range", "inductor_range", "fixed", "constraints")
-    _unknown(table, valid, f"{source}: [parts]")
+def _parts(table: dict, source: str) -> PartsSpec:
+    check_table(table, "parts", source=source)
     series = dict(_DEFAULT_SERIES)
     ranges = dict(_DEFAULT_RANGES)
     for kind in ("resistor", "capacitor", "inductor"):
@@ -238,58 +223,68 @@ def _parts(table, source):
         if key in table:
             ranges[kind] = _range(table[key], kind, f"{source}: parts.{key}")
     fixed = {}
-    raw_fixed = table.get("fixed", {})
-    if not isinstance(raw_fixed, dict):
-        raise SpecError(f"{source}: parts.fixed must be a table such as {{ R3 = \"10k\" }}")
-    for name, raw in raw_fixed.items():
-        value = _value(raw, None, f"{source}: parts.fixed.{name}")
+    lowest = min(low for low, _ in VALUE_LIMITS.values())
+    highest = max(high for _, high in VALUE_LIMITS.values())
+    for name, raw in table.get("fixed", {}).items():
+        where = f"{source}: parts.fixed.{brief(name, quote=False)}"
+        value = _value(raw, None, where)
         if not value > 0:
-            raise SpecError(f"{source}: parts.fixed.{name} = {raw!r} must be positive")
+            raise SpecError(f"{where} = {brief(raw)} must be positive")
+        if not lowest <= value <= highest:
+            raise SpecError(f"{where} = {brief(raw)} lies outside {lowest:g} to {highest:g}")
         fixed[name] = value
-    raw_constraints = table.get("constraints", [])
-    if not isinstance(raw_constraints, list):
-        raise SpecError(f"{source}: parts.constraints must be a list such as [\"C1 = C2\"]")
     constraints = tuple(
-        parse_constraint(text, where=f"{source}: parts.constraints") for text in raw_constraints
+        parse_constraint(text, where=f"{source}: parts.constraints")
+        for text in table.get("constraints", [])
     )
-    return PartsSpec(series=series, ranges=ranges, fixed=fixed, constraints=constraints)
+    return PartsSpec(series=series, ranges=ranges, fixed=fixed, constraints=constraints,
+                     given=frozenset(table))
 
 
-def _candidates(table, source):
-    _unknown(table, ("topologies", "folder"), f"{source}: [candidates]")
+def _folder(folder: str, source: str) -> str:
+    """The candidates folder as a path (relative to the spec's folder)."""
+    path = Path(folder)
+    if not path.is_absolute():
+        path = Path(source).parent / path
+    check_path(path, what=f"{source}: candidates.folder", folder=True)
+    return str(path)
+
+
+def _candidates(table: dict, source: str) -> tuple:
+    check_table(table, "candidates", source=source)
+    folder = table.get("folder")
+    own, failed = {}, {}
+    if folder is not None:
+        folder = _folder(folder, source)
+        loaded = load_folder(folder)
+        own, failed = loaded["topologies"], loaded["errors"]
     topologies = table.get("topologies")
     if topologies is not None:
-        if not isinstance(topologies, list) or not topologies or not all(
-            isinstance(t, str) for t in topologies
-        ):
+        if not topologies:
             raise SpecError(
                 f"{source}: candidates.topologies must be a non-empty list of topology ids"
             )
         base = Path(source).parent
         resolved = []
         for item in topologies:
+            if item in own:  # an id of one of the folder's files
+                resolved.append(own[item].path)
+                continue
             if item.endswith(".toml") and not Path(item).is_absolute():
                 item = str(base / item)
             try:  # an unknown id or a bad file is bad input here, not at design time
                 resolve_topology(item)
             except SpecError as error:
-                raise SpecError(f"{source}: candidates.topologies: {error}") from None
+                why = "".join(f"; the folder's {Path(path).name} did not load: {message}"
+                              for path, message in list(failed.items())[:1])
+                raise SpecError(f"{source}: candidates.topologies: {error}{why}") from None
             resolved.append(item)
         topologies = tuple(resolved)
-    folder = table.get("folder")
-    if folder is not None:
-        if not isinstance(folder, str):
-            raise SpecError(f"{source}: candidates.folder must be a path string")
-        path = Path(folder)
-        if not path.is_absolute():
-            path = Path(source).parent / path
-        if not path.is_dir():
-            raise SpecError(f"{source}: candidates.folder {folder!r} does not exist")
-        folder = str(path)
     return topologies, folder
 
 
-def _check_named_parts(parts, candidates, folder, source):
+def _check_named_parts(parts: PartsSpec, candidates: tuple, folder: str | None,
+                       source: str) -> None:
     """Constraints and fixed parts must name parts of some named candidate."""
     topologies = [resolve_topology(item) for item in candidates]
     if folder is not None:
@@ -305,117 +300,134 @@ def _check_named_parts(parts, candidates, folder, source):
     for name in parts.fixed:
         if not any(name in t.symbols for t in topologies):
             raise SpecError(
-                f"{source}: parts.fixed.{name}: no candidate topology has a part {name!r} "
-                f"(parts: {where})"
+                f"{source}: parts.fixed.{brief(name, quote=False)}: no candidate topology has "
+                f"a part {brief(name)} (parts: {where})"
             )
 
 
-def _fraction(raw, where):
+def _fraction(raw: Any, where: str) -> float:
     if isinstance(raw, str):
         quantity = parse_quantity(raw, field=where)
         if quantity.unit not in ("%", ""):
-            raise SpecError(f"{where}: expected a percentage such as '1%', not {raw!r}")
+            raise SpecError(f"{where}: expected a percentage such as '1%', not {brief(raw)}")
         return quantity.value
     if isinstance(raw, (int, float)) and not isinstance(raw, bool):
-        return float(raw)
-    raise SpecError(f"{where}: expected a percentage such as '1%', not {raw!r}")
+        return parse_value(raw, field=where)
+    raise SpecError(f"{where}: expected a percentage such as '1%', not {brief(raw)}")
 
 
-def _tolerance(table, parts, source):
-    valid = ("resistor", "capacitor", "inductor", "distribution", "samples", "seed",
-             "f0", "q", "gain", "rejection")
-    _unknown(table, valid, f"{source}: [tolerance]")
+def _percent_window(table: dict, key: str, source: str) -> float:
+    value = _fraction(table[key], f"{source}: tolerance.{key}")
+    if not 0 < value < 1:
+        raise SpecError(
+            f"{source}: tolerance.{key} = {brief(table[key])} must be between 0 and 100 %"
+        )
+    return value
+
+
+def _db_window(table: dict, key: str, limit: str, source: str, words: str) -> float:
+    where = f"{source}: tolerance.{key}"
+    value = _value(table[key], "dB", where)
+    if not value > 0:
+        raise SpecError(f"{where} = {brief(table[key])} must be {words}")
+    return check_limit(value, limit, where, shown=table[key])
+
+
+def _tolerance(table: dict, parts: PartsSpec, source: str) -> ToleranceSpec:
+    check_table(table, "tolerance", source=source)
     tolerances = {kind: usual_tolerance(parts.series[kind]) for kind in parts.series}
     for kind in ("resistor", "capacitor", "inductor"):
         if kind in table:
-            value = _fraction(table[kind], f"{source}: tolerance.{kind}")
-            if not 0 < value < 1:
-                raise SpecError(
-                    f"{source}: tolerance.{kind} = {table[kind]!r} must be between 0 and 100 %"
-                )
-            tolerances[kind] = value
+            tolerances[kind] = _percent_window(table, kind, source)
     distribution = _choice(table.get("distribution", "uniform"), ("uniform", "gaussian"),
                            f"{source}: tolerance.distribution")
     samples = table.get("samples", 2000)
-    if not isinstance(samples, int) or isinstance(samples, bool) or samples < 1:
-        raise SpecError(f"{source}: tolerance.samples = {samples!r} must be a whole number >= 1")
+    limit = LIMITS["samples"]
+    if not limit.low <= samples <= limit.high:
+        raise SpecError(f"{source}: tolerance.samples = {samples!r} must be a whole number "
+                        f"from {limit.low:,} to {limit.high:,}")
     seed = table.get("seed", 0)
-    if not isinstance(seed, int) or isinstance(seed, bool) or seed < 0:
+    if seed < 0:
         raise SpecError(f"{source}: tolerance.seed = {seed!r} must be a whole number >= 0")
     windows = {"f0": 0.02, "q": 0.05}
     for key in ("f0", "q"):
         if key in table:
-            value = _fraction(table[key], f"{source}: tolerance.{key}")
-            if not 0 < value < 1:
-                raise SpecError(f"{source}: tolerance.{key} = {table[key]!r} must be between 0 and 100 %")
-            windows[key] = value
+            windows[key] = _percent_window(table, key, source)
     if "gain" in table:
-        value = _value(table["gain"], "dB", f"{source}: tolerance.gain")
-        if not value > 0:
-            raise SpecError(f"{source}: tolerance.gain = {table['gain']!r} must be a positive dB window")
-        windows["gain_db"] = value
+        windows["gain_db"] = _db_window(table, "gain", "window_db", source,
+                                        "a positive dB window")
     if "rejection" in table:
-        value = _value(table["rejection"], "dB", f"{source}: tolerance.rejection")
-        if not value > 0:
-            raise SpecError(f"{source}: tolerance.rejection = {table['rejection']!r} must be a "
-                            f"positive number of dB, such as '40 dB'")
-        windows["rejection_db"] = value
+        windows["rejection_db"] = _db_window(table, "rejection", "rejection_db", source,
+                                             "a positive number of dB, such as '40 dB'")
     return ToleranceSpec(tolerances=tolerances, distribution=distribution,
                          samples=samples, seed=seed, windows=windows)
 
 
-def amplifier_from_table(table, *, source="spec"):
+def _amplifier_gain(raw: Any, where: str) -> float:
+    """An open-loop gain in dB ("100 dB") or V/V (a number), as V/V."""
+    if isinstance(raw, str):
+        quantity = parse_quantity(raw, field=f"{where} gain")
+        if quantity.unit not in ("dB", ""):
+            raise SpecError(f"{where} gain = {brief(raw)}: give dB ('100 dB') or V/V (a number)")
+        if quantity.unit == "dB":
+            limit = LIMITS["opamp_gain"]
+            low, high = (20 * math.log10(x) for x in (limit.low, limit.high))
+            if not low <= quantity.value <= high:
+                raise SpecError(f"{where} gain = {brief(raw)} lies outside the accepted span "
+                                f"of an op-amp DC gain, {low:g} to {high:g} dB")
+            return 10 ** (quantity.value / 20)
+        gain = quantity.value
+    else:
+        gain = _value(raw, None, f"{where} gain")
+    if gain <= 0:
+        raise SpecError(f"{where} gain = {brief(raw)} must be a positive open-loop gain "
+                        "(V/V, or dB)")
+    return check_limit(gain, "opamp_gain", f"{where} gain", shown=raw)
+
+
+def amplifier_from_table(table: dict, *, source: str = "spec") -> AmplifierSpec:
     """Read an ``[amplifier]`` table into an :class:`AmplifierSpec`.
 
-    ``gain`` in dB ("100 dB") or V/V (a plain number); ``gbw`` in Hz.
+    ``gain`` in dB ("100 dB") or V/V (a plain number); ``gbw`` in Hz;
+    ``output_resistance`` in ohm. Each must lie within its bounds in
+    :data:`placer.schema.LIMITS` (``opamp_gbw``, ``opamp_gain``,
+    ``opamp_output_resistance``; an output resistance may also be 0).
 
     Raises
     ------
     SpecError
-        A non-positive GBW, a negative or zero gain, an unknown preset.
+        A figure out of bounds or not finite, an unknown key or preset.
     """
     where = f"{source}: [amplifier]"
-    _unknown(table, ("gbw", "gain", "output_resistance", "preset") + PRELAYOUT_AMPLIFIER_KEYS,
-             where)
+    check_table(table, "amplifier", source=source)
     values = {}
     preset = table.get("preset", "")
     if preset:
         if preset not in AMPLIFIER_PRESETS:
-            close = difflib.get_close_matches(str(preset), list(AMPLIFIER_PRESETS), n=1)
+            close = (difflib.get_close_matches(preset, list(AMPLIFIER_PRESETS), n=1)
+                     if len(preset) <= 100 else [])
             hint = f"; did you mean {close[0]!r}?" if close else ""
             raise SpecError(
-                f"{where} preset {preset!r} is unknown{hint} "
+                f"{where} preset {brief(preset)} is unknown{hint} "
                 f"(presets: {', '.join(repr(p) for p in AMPLIFIER_PRESETS)})"
             )
         values.update(AMPLIFIER_PRESETS[preset])
     if "gbw" in table:
         gbw = _value(table["gbw"], "Hz", f"{where} gbw")
-        if not (gbw > 0 and math.isfinite(gbw)):
-            raise SpecError(f"{where} gbw = {table['gbw']!r} must be a positive frequency in Hz")
-        values["gbw"] = gbw
+        if not gbw > 0:
+            raise SpecError(f"{where} gbw = {brief(table['gbw'])} must be a positive "
+                            "frequency in Hz")
+        values["gbw"] = check_limit(gbw, "opamp_gbw", f"{where} gbw", shown=table["gbw"])
     if "gain" in table:
-        raw = table["gain"]
-        if isinstance(raw, str):
-            quantity = parse_quantity(raw, field=f"{where} gain")
-            if quantity.unit == "dB":
-                gain = 10 ** (quantity.value / 20)
-            elif quantity.unit == "":
-                gain = quantity.value
-            else:
-                raise SpecError(f"{where} gain = {raw!r}: give dB ('100 dB') or V/V (a number)")
-            negative = quantity.value <= 0 and quantity.unit == ""
-        else:
-            gain = _value(raw, None, f"{where} gain")
-            negative = gain <= 0
-        if negative:
-            raise SpecError(
-                f"{where} gain = {raw!r} must be a positive open-loop gain (V/V, or dB)"
-            )
-        values["gain"] = gain
+        values["gain"] = _amplifier_gain(table["gain"], where)
     if "output_resistance" in table:
-        resistance = _value(table["output_resistance"], "ohm", f"{where} output_resistance")
+        raw = table["output_resistance"]
+        resistance = _value(raw, "ohm", f"{where} output_resistance")
         if resistance < 0:
-            raise SpecError(f"{where} output_resistance = {table['output_resistance']!r} must be >= 0")
+            raise SpecError(f"{where} output_resistance = {brief(raw)} must be >= 0")
+        if resistance != 0:
+            check_limit(resistance, "opamp_output_resistance", f"{where} output_resistance",
+                        shown=raw)
         values["output_resistance"] = resistance
     return AmplifierSpec(
         gbw=values.get("gbw"), gain=values.get("gain"),
@@ -524,7 +536,7 @@ def noise_from_table(table: dict, *, source: str = "spec") -> NoiseSpec:
         non-positive temperature or target.
     """
     where = f"{source}: [noise]"
-    _unknown(table, ("band", "temperature", "target"), where)
+    check_table(table, "noise", source=source)
     band = None
     if "band" in table:
         raw = table["band"]
@@ -555,7 +567,7 @@ def signal_from_table(table: dict, *, source: str = "spec") -> SignalSpec:
         An unknown key or an amplitude that is not positive.
     """
     where = f"{source}: [signal]"
-    _unknown(table, ("amplitude",), where)
+    check_table(table, "signal", source=source)
     if "amplitude" not in table:
         return SignalSpec()
     return SignalSpec(amplitude_v=_positive(table["amplitude"], "V", f"{where} amplitude",

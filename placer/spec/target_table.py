@@ -10,6 +10,7 @@ the JSON shape the ``target`` command and the reports write.
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import replace
+from typing import Any
 
 import numpy as np
 
@@ -22,7 +23,8 @@ from placer.target.approximations import (
     estimate_order,
     suggest,
 )
-from placer.errors import SpecError
+from placer.errors import SpecError, brief
+from placer.schema import LIMITS, SPEC_TABLES, check_limit, check_type
 from placer.target.mask import approximation_mask, grid_figures, headroom_design, mask_grid
 from placer.target.sections import split_sections
 from placer.target.targets import (
@@ -44,13 +46,8 @@ __all__ = [
     "target_to_dict",
 ]
 
-TARGET_KEYS = (
-    "response", "approximation", "order", "cutoff", "center", "bandwidth",
-    "passband_edge", "stopband_edge", "low_edge", "high_edge", "ripple",
-    "attenuation", "gain", "bessel_norm", "poles", "zeros", "units",
-    "sections", "complete_conjugates", "allow_unstable", "margin",
-)
-SECTION_KEYS = ("kind", "f0", "q", "zero_f0")
+TARGET_KEYS = tuple(SPEC_TABLES["target"])
+SECTION_KEYS = tuple(SPEC_TABLES["target.sections"])
 
 _TWO_PI = 2.0 * math.pi
 
@@ -58,34 +55,40 @@ _TWO_PI = 2.0 * math.pi
 class _TableReader:
     """Reads a table's keys, naming source, key and value in every error."""
 
-    def __init__(self, table, source, where, valid):
+    def __init__(self, table: Any, source: str, where: str, schema: Mapping) -> None:
         if not isinstance(table, Mapping):
-            raise SpecError(f"{source}: {where} must be a table, not {table!r}")
-        for key in table:
-            if key not in valid:
-                raise SpecError(f"{source}: unknown key {where}.{key} = "
-                                f"{table[key]!r}" + suggest(key, valid))
-        self.table, self.source, self.where, self.used = table, source, where, set()
+            raise SpecError(f"{source}: {where} must be a table, not {brief(table)}")
+        for key, value in table.items():
+            if key not in schema:
+                hint = suggest(key, schema) if len(str(key)) <= 100 else ""
+                raise SpecError(f"{source}: unknown key {where}.{brief(key, quote=False)} = "
+                                f"{brief(value)}{hint} (accepted: {', '.join(schema)})")
+            check_type(value, schema[key].type, f"{source}: {where}.{key}",
+                       schema[key].description)
+        self.table, self.source, self.where = table, source, where
+        self.used: set[str] = set()
 
     def __contains__(self, key):
         return key in self.table
 
     def fail(self, key, detail):
         raise SpecError(f"{self.source}: {self.where}.{key} = "
-                        f"{self.table.get(key)!r} {detail}")
+                        f"{brief(self.table.get(key))} {detail}")
 
     def raw(self, key, default=None):
         self.used.add(key)
         return self.table.get(key, default)
 
-    def number(self, key, unit, *, positive=True):
+    def number(self, key: str, unit: str | None, limit: str, *,
+               positive: bool = True) -> float | None:
+        """The key's number in `unit`, within ``LIMITS[limit]``; None if absent."""
         if key not in self.table:
             return None
-        value = parse_value(self.raw(key), unit=unit,
-                            field=f"{self.source}: {self.where}.{key}")
+        where = f"{self.source}: {self.where}.{key}"
+        value = parse_value(self.raw(key), unit=unit, field=where)
         if positive and not value > 0:
             self.fail(key, "must be positive")
-        return value
+        return check_limit(value, limit, where, shown=self.table[key])
 
     def flag(self, key):
         value = self.raw(key, False)
@@ -98,7 +101,8 @@ class _TableReader:
         lookup = {v.lower(): v for v in valid} if fold else {v: v for v in valid}
         found = lookup.get(value.lower() if fold and isinstance(value, str) else value)
         if found is None:
-            self.fail(key, f"is not one of {', '.join(valid)}" + suggest(value, valid))
+            hint = suggest(value, valid) if len(str(value)) <= 100 else ""
+            self.fail(key, f"is not one of {', '.join(valid)}" + hint)
         return found
 
     def check_all_used(self, context):
@@ -112,19 +116,27 @@ _SECTION_DEFAULT_KIND = {"lowpass": "lowpass", "highpass": "highpass",
                          "allpass": "allpass", "custom": "lowpass"}
 
 
-def _read_roots(reader, key, units):
+def _read_roots(reader: _TableReader, key: str, units: str) -> list:
     raw = reader.raw(key, [])
     if not isinstance(raw, Sequence) or isinstance(raw, str):
         reader.fail(key, "must be a list of numbers or [re, im] pairs")
     roots = []
+    # A root's size in Hz must lie in the frequency bounds (or be 0).
+    to_hz = 1.0 / _TWO_PI if units == "rad/s" else 1.0
+    frequency = LIMITS["frequency"]
     for i, item in enumerate(raw):
         field = f"{reader.source}: {reader.where}.{key}[{i}]"
         if isinstance(item, Sequence) and not isinstance(item, str):
             if len(item) != 2:
-                raise SpecError(f"{field} = {item!r} must be a number or an [re, im] pair")
-            roots.append(complex(*(parse_value(x, unit=units, field=field) for x in item)))
+                raise SpecError(f"{field} = {brief(item)} must be a number or an [re, im] pair")
+            root = complex(*(parse_value(x, unit=units, field=field) for x in item))
         else:
-            roots.append(complex(parse_value(item, unit=units, field=field)))
+            root = complex(parse_value(item, unit=units, field=field))
+        size = abs(root) * to_hz
+        if root != 0 and not frequency.low <= size <= frequency.high:
+            raise SpecError(f"{field} = {brief(item)}: a root of size {size:g} Hz lies outside "
+                            f"{frequency.low:g} to {frequency.high:g} Hz (or give 0)")
+        roots.append(root)
     return roots
 
 
@@ -135,11 +147,11 @@ def _read_sections(reader, response):
     sections = []
     for i, table in enumerate(raw):
         entry = _TableReader(table, reader.source, f"{reader.where}.sections[{i}]",
-                             SECTION_KEYS)
+                             SPEC_TABLES["target.sections"])
         if "f0" not in entry:
             raise SpecError(f"{reader.source}: {entry.where} needs f0 (Hz)")
-        f0, q = entry.number("f0", "Hz"), entry.number("q", None)
-        zero_f0 = entry.number("zero_f0", "Hz")
+        f0, q = entry.number("f0", "Hz", "frequency"), entry.number("q", None, "q")
+        zero_f0 = entry.number("zero_f0", "Hz", "frequency")
         default = "notch" if zero_f0 is not None else _SECTION_DEFAULT_KIND[response]
         kind = entry.choice("kind", SECTION_KINDS, default)
         if kind in NOTCH_KINDS and zero_f0 is None:
@@ -165,10 +177,10 @@ def _read_frequencies(reader, response):
     if response in ("bandpass", "bandstop"):
         present = {k for k in ("center", "bandwidth", "low_edge", "high_edge") if k in reader}
         if present == {"center", "bandwidth"}:
-            return dict(center_hz=reader.number("center", "Hz"),
-                        bandwidth_hz=reader.number("bandwidth", "Hz")), None
+            return dict(center_hz=reader.number("center", "Hz", "frequency"),
+                        bandwidth_hz=reader.number("bandwidth", "Hz", "frequency")), None
         if present == {"low_edge", "high_edge"}:
-            low, high = reader.number("low_edge", "Hz"), reader.number("high_edge", "Hz")
+            low, high = reader.number("low_edge", "Hz", "frequency"), reader.number("high_edge", "Hz", "frequency")
             if not low < high:
                 reader.fail("high_edge", f"must lie above low_edge = {low:g} Hz")
             center, width = band_from_edges(low, high)
@@ -179,7 +191,7 @@ def _read_frequencies(reader, response):
     edges = ("cutoff",) if response == "allpass" else ("cutoff", "passband_edge", "stopband_edge")
     present = {k for k in edges if k in reader}
     if present == {"passband_edge", "stopband_edge"}:
-        mask = (reader.number("passband_edge", "Hz"), reader.number("stopband_edge", "Hz"))
+        mask = (reader.number("passband_edge", "Hz", "frequency"), reader.number("stopband_edge", "Hz", "frequency"))
         return dict(frequency_hz=mask[0], normalisation="passband_edge"), mask
     if len(present) != 1:
         raise SpecError(f"{reader.source}: a {response} target needs one of "
@@ -188,7 +200,7 @@ def _read_frequencies(reader, response):
                            " (or passband_edge and stopband_edge as a mask)")
                         + f"; got {sorted(present) or 'none'}")
     (key,) = present
-    return dict(frequency_hz=reader.number(key, "Hz"),
+    return dict(frequency_hz=reader.number(key, "Hz", "frequency"),
                 normalisation="cutoff" if key == "cutoff" else key), None
 
 
@@ -199,14 +211,14 @@ def _approximation_target(reader, response, gain_db):
         options.get("normalisation") == "passband_edge"
     needs_attenuation = approximation in ("chebyshev2", "elliptic") or mask or \
         options.get("normalisation") == "stopband_edge"
-    ripple = reader.number("ripple", "dB") if needs_ripple else None
-    attenuation = reader.number("attenuation", "dB") if needs_attenuation else None
+    ripple = reader.number("ripple", "dB", "ripple") if needs_ripple else None
+    attenuation = reader.number("attenuation", "dB", "attenuation") if needs_attenuation else None
     if approximation == "bessel" and options.get("normalisation", "cutoff") == "cutoff":
         norm = reader.choice("bessel_norm", BESSEL_NORMS, "mag")
         options["bessel_norm"] = norm
         if norm != "mag":
             options["normalisation"] = "natural"
-    margin = reader.number("margin", "dB") if "margin" in reader else 0.0
+    margin = reader.number("margin", "dB", "margin_db", positive=False) if "margin" in reader else 0.0
     if margin and ripple is not None and margin >= ripple:
         reader.fail("margin", f"leaves no ripple to design with: it must be below ripple = "
                               f"{ripple:g} dB")
@@ -349,11 +361,11 @@ def target_from_table(table, *, source="spec"):
     ...
     placer.errors.SpecError: spec: target.approximation = 'buterworth' is not one of butterworth, chebyshev1, chebyshev2, bessel, elliptic, linkwitz-riley; did you mean 'butterworth'?
     """
-    reader = _TableReader(table, source, "target", TARGET_KEYS)
+    reader = _TableReader(table, source, "target", SPEC_TABLES["target"])
     explicit = "poles" in reader or "zeros" in reader
     default = "custom" if explicit else "lowpass"
     response = reader.choice("response", RESPONSES, default)
-    gain = reader.number("gain", "dB", positive=False)
+    gain = reader.number("gain", "dB", "gain_db", positive=False)
     gain_db = 0.0 if gain is None else gain
     if explicit:
         if "units" not in reader:

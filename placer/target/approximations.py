@@ -282,6 +282,14 @@ def frequency_at_loss(approximation, prototype, loss_db, *, ripple_db=None,
             low /= 2.0
         while excess(high) > 0:
             high *= 2.0
+    if excess(low) * excess(high) > 0 or not math.isfinite(excess(low) * excess(high)):
+        # Rounding in a degenerate design (attenuation a hair above the ripple, say)
+        # leaves no sign change to bracket: no clean frequency to give.
+        raise SpecError(
+            f"no frequency where a {approximation} response loses {loss_db:.4g} dB "
+            f"could be found (ripple {ripple_db} dB, attenuation {attenuation_db} dB); "
+            "the design is too close to degenerate: widen the gap between ripple "
+            "and attenuation")
     return float(optimize.brentq(excess, low, high, xtol=1e-15, rtol=1e-15,
                                  maxiter=500))
 
