@@ -7,7 +7,7 @@ IEC 60063 preferred values, and gives the evidence: achieved roots,
 responses, tolerance spread, op-amp effects and loop margins.
 
 The analysis underneath is modified nodal analysis (MNA): symbolic
-network functions by fraction-free determinants in a polynomial ring,
+network functions by expansion into shared minors in a polynomial ring,
 and numeric poles, zeros and responses from the matrix pencil.
 
 The public names below load their module on first use, so that
@@ -22,6 +22,7 @@ __version__ = "0.1.0"
 _EXPORTS = {
     "PlacerError": "errors", "SpecError": "errors", "TopologyError": "errors",
     "UnreachableTarget": "errors", "NumericalWarning": "errors",
+    "SymbolicSizeError": "errors",
     "parse_quantity": "units", "parse_value": "units", "format_value": "units",
     "SERIES_NAMES": "eseries", "series_values": "eseries", "nearest": "eseries",
     "neighbours": "eseries", "usual_tolerance": "eseries",

@@ -16,11 +16,15 @@ import json
 import math
 import sys
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from . import __version__
-from .errors import PlacerError, SpecError, UnreachableTarget
+from .errors import PlacerError, SpecError, SymbolicSizeError, UnreachableTarget
 from .report.files import check_output_path, write_text
 from .units import finite_or_none, format_value
+
+if TYPE_CHECKING:
+    from .circuit.elements import Circuit
 
 # The analysis stack (sympy, scipy, python-control) loads inside the
 # commands, so `placer --help` answers at once.
@@ -49,6 +53,9 @@ def build_parser():
     p.add_argument("--set", action="append", default=[], metavar="PART=VALUE",
                    help="give a part a value, e.g. --set R1=10k (repeatable)")
     p.add_argument("--latex", action="store_true", help="also print H(s) in LaTeX")
+    p.add_argument("--symbolic", action="store_true",
+                   help=f"derive and print H(s) even past {ANALYZE_MAX_TERMS} terms (up to "
+                        f"{SYMBOLIC_MAX_TERMS:,}); otherwise a larger one is analysed numerically")
     p.add_argument("--json", nargs="?", const="-", metavar="OUT",
                    help="write the result as JSON to OUT (or stdout)")
 
@@ -169,6 +176,14 @@ def _pairs(roots):
 
 # -- analyze -------------------------------------------------------------------
 
+#: Terms (N and D together) past which ``analyze`` gives numbers instead of
+#: H(s): 2000 terms print as some 50 kB, past reading, while every library
+#: function stays under 611 (see the README).
+ANALYZE_MAX_TERMS = 2000
+#: The ceiling with ``--symbolic``: about 1 kB of memory per term in sympy form.
+SYMBOLIC_MAX_TERMS = 1_000_000
+
+
 def _cmd_analyze(args):
     from .circuit.elements import read_settings
     from .circuit.library import load_analysable
@@ -180,16 +195,21 @@ def _cmd_analyze(args):
     topology, circuit = loaded.topology, loaded.circuit
     settings = read_settings(circuit, args.set)
     symbols = circuit.symbols
-    nf = network_function(circuit)
     values = dict(topology.values) if topology is not None else {}
     values.update(settings)
     label = topology.id if topology is not None else args.topology
+    limit = SYMBOLIC_MAX_TERMS if args.symbolic else ANALYZE_MAX_TERMS
+    try:
+        nf = network_function(circuit, max_terms=limit)
+    except SymbolicSizeError as error:
+        return _analyze_numerically(args, circuit, values, label, error)
     lines = [f"H(s) of {label}" + (f" — {topology.title}" if topology is not None else "") + ":"]
-    lines.append(f"  N(s) = {nf.numerator.as_expr()}")
-    lines.append(f"  D(s) = {nf.denominator.as_expr()}")
+    numerator_text, denominator_text = str(nf.numerator.as_expr()), str(nf.denominator.as_expr())
+    lines.append(f"  N(s) = {numerator_text}")
+    lines.append(f"  D(s) = {denominator_text}")
     lines.append(f"  order {nf.order}")
-    data = {"id": label, "numerator": str(nf.numerator.as_expr()),
-            "denominator": str(nf.denominator.as_expr()), "order": nf.order}
+    data = {"id": label, "numerator": numerator_text,
+            "denominator": denominator_text, "order": nf.order}
     if nf.order in (1, 2):
         lines.append(f"  w0 = {nf.omega0}   (rad/s)")
         if nf.q is not None:
@@ -202,8 +222,11 @@ def _cmd_analyze(args):
         data["latex"] = nf.latex()
     missing = [s for s in symbols if s not in values]
     if not missing:
-        poles = nf.poles(values) if symbols else circuit_poles(circuit)
-        zeros = nf.zeros(values) if symbols else circuit_zeros(circuit)
+        # A function past the readable size (--symbolic) is too long to compile
+        # into an evaluator: its numbers come from the pencil.
+        numeric = not symbols or nf.term_count > ANALYZE_MAX_TERMS
+        poles = circuit_poles(circuit, values) if numeric else nf.poles(values)
+        zeros = circuit_zeros(circuit, values) if numeric else nf.zeros(values)
         data["poles"] = _pairs(poles)
         data["zeros"] = _pairs(zeros)
         lines.append("")
@@ -244,6 +267,67 @@ def _cmd_analyze(args):
         _emit_json(data, args.json, inputs=(args.topology,))
         if args.json == "-":
             return 0
+    print("\n".join(lines))
+    return 0
+
+
+def _analyze_numerically(args: argparse.Namespace, circuit: Circuit, values: dict, label: str,
+                         error: SymbolicSizeError) -> int:
+    """``analyze`` past the term limit: poles, zeros and response from the pencil."""
+    import numpy as np
+
+    from .analysis.pencil import circuit_response, circuit_roots
+    from .report.console import table
+
+    hint = "" if args.symbolic else " (--symbolic to derive it anyway)"
+    reason = (f"H(s) of {label} is too large to read: its derivation passed {error.limit:,} "
+              f"terms{hint}")
+    missing = [s for s in circuit.symbols if s not in values]
+    if missing:
+        raise PlacerError(f"{reason}; numeric poles, zeros and response need a value for every "
+                          f"part: give {', '.join(missing)} with --set NAME=VALUE or [values] "
+                          f"in the topology file")
+    roots = circuit_roots(circuit, values)
+    # A decade below the lowest root to a decade above the highest, in 1-2-5
+    # steps; the phase is unwrapped on a grid of 40 points a decade.
+    magnitudes = np.abs(np.concatenate([roots.poles, roots.zeros])) / (2 * math.pi)
+    magnitudes = magnitudes[magnitudes > 0]
+    low, high = (magnitudes.min() / 10, magnitudes.max() * 10) if magnitudes.size else (0.1, 10.0)
+    decades = range(math.floor(math.log10(low)), math.ceil(math.log10(high)) + 1)
+    steps = (1.0, 2.0, 5.0) if len(decades) <= 8 else (1.0,)
+    f_hz = np.array([m * 10.0 ** d for d in decades for m in steps
+                     if low <= m * 10.0 ** d <= high] or [low, high])
+    dense = np.unique(np.concatenate([f_hz, np.geomspace(f_hz[0], f_hz[-1], 40 * len(decades))]))
+    h = circuit_response(circuit, 2 * np.pi * dense, values)
+    shown = np.searchsorted(dense, f_hz)
+    with np.errstate(divide="ignore"):
+        db = 20 * np.log10(np.abs(h[shown]))
+    phase = np.degrees(np.unwrap(np.angle(h)))[shown]
+    data = {"id": label, "symbolic": False, "reason": reason, "order": int(roots.poles.size),
+            "poles": _pairs(roots.poles), "zeros": _pairs(roots.zeros),
+            "gain_constant": roots.gain,
+            "response": [{"f_hz": float(f), "magnitude_db": float(m) if np.isfinite(m) else None,
+                          "phase_deg": float(p)} for f, m, p in zip(f_hz, db, phase)]}
+    if args.json:
+        _emit_json(data, args.json, inputs=(args.topology,))
+        if args.json == "-":
+            return 0
+
+    def row(kind, r):
+        return [kind, f"{r.real + 0.0:.6g}", f"{r.imag + 0.0:+.6g}",
+                format_value(abs(r) / (2 * math.pi), "Hz", digits=4)]
+
+    lines = [f"{reason}; numeric analysis instead.", f"  order {roots.poles.size}", "",
+             "With values: " + (", ".join(f"{k} = {format_value(v)}" for k, v in values.items())
+                                or "all given in the file")]
+    rows = [row("pole", p) for p in sorted(roots.poles, key=lambda r: (abs(r), r.imag))]
+    rows += [row("zero", z) for z in sorted(roots.zeros, key=lambda r: (abs(r), r.imag))]
+    lines.append(table(["root", "re (rad/s)", "im (rad/s)", "|root| (Hz)"], rows))
+    lines.append(f"  H(s) = k·Π(s − z)/Π(s − p), k = {roots.gain:.6g}")
+    lines.append("")
+    lines.append(table(["f", "|H| (dB)", "phase (deg)"],
+                       [[format_value(f, "Hz", digits=3), f"{m:+.2f}", f"{p:+.1f}"]
+                        for f, m, p in zip(f_hz, db, phase)]))
     print("\n".join(lines))
     return 0
 

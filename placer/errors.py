@@ -15,6 +15,7 @@ __all__ = [
     "SpecError",
     "TopologyError",
     "UnreachableTarget",
+    "SymbolicSizeError",
     "NumericalWarning",
 ]
 
@@ -80,6 +81,26 @@ class UnreachableTarget(PlacerError):
         if self.alternatives:
             message += "; topologies that can: " + ", ".join(self.alternatives)
         super().__init__(message)
+
+
+class SymbolicSizeError(PlacerError):
+    """A symbolic derivation stopped because it grew past a term limit.
+
+    Attributes
+    ----------
+    terms : int
+        Terms the derivation held when it stopped.
+    limit : int
+        The limit it was given.
+    """
+
+    def __init__(self, terms: int, limit: int) -> None:
+        self.terms = int(terms)
+        self.limit = int(limit)
+        super().__init__(
+            f"the symbolic network function is too large: the derivation held {self.terms} "
+            f"terms, more than the limit of {self.limit}"
+        )
 
 
 class NumericalWarning(UserWarning):

@@ -1,4 +1,5 @@
-"""Tests of placer.analysis.mna: unknowns, stamps and the numeric MNA system.
+"""Tests of placer.analysis.mna: unknowns, stamps, the numeric MNA system and the
+determinant of the symbolic one.
 
 The stamps are those of modified nodal analysis as C.-W. Ho, A. E. Ruehli
 and P. A. Brennan, "The modified nodal approach to network analysis",
@@ -10,13 +11,17 @@ branch equation).
 
 import math
 
+import flint
 import numpy as np
 import pytest
 import scipy.signal
+import sympy
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from placer.circuit.elements import Circuit, Element
 from placer.errors import TopologyError
-from placer.analysis.mna import layout, numeric_system, stamps
+from placer.analysis.mna import layout, minor_expansion_det, numeric_system, stamps
 from placer.analysis.network import circuit_response
 
 
@@ -142,3 +147,49 @@ def test_singular_matrix_in_response_is_a_topology_error():
                        Element("R1", "resistor", ("vin", "gnd"), value=1e3)))
     with pytest.raises(TopologyError, match="singular"):
         circuit_response(circuit, [1.0, 10.0])
+
+
+# -- the determinant of the symbolic system ---------------------------------------
+
+_X, _Y = sympy.symbols("x y")
+_RING = flint.fmpz_mpoly_ctx.get(("x", "y"), "lex")
+
+
+def _sparse_matrix(size, cells):
+    """A size×size matrix of small polynomials in x, y from hypothesis' draws."""
+    rows = [[0] * size for _ in range(size)]
+    for (r, c), (a, b, k) in cells.items():
+        if r < size and c < size:
+            rows[r][c] = a + b * _X ** k + (a - b) * _Y
+    return rows
+
+
+def _as_flint(expression):
+    poly = sympy.Poly(expression, _X, _Y)
+    return _RING.from_dict({m: int(c) for m, c in poly.terms()})
+
+
+@settings(max_examples=60, deadline=None)
+@given(size=st.integers(1, 7),
+       cells=st.dictionaries(st.tuples(st.integers(0, 6), st.integers(0, 6)),
+                             st.tuples(st.integers(-3, 3), st.integers(-3, 3), st.integers(0, 2)),
+                             max_size=30))
+def test_minor_expansion_det_is_sympys_determinant(size, cells):
+    # Reference: sympy's Berkowitz determinant of the same matrix (a reference
+    # library); sparse draws include singular matrices, empty rows and columns.
+    rows = _sparse_matrix(size, cells)
+    expected = sympy.expand(sympy.Matrix(rows).det(method="berkowitz"))
+    entries = {(r, c): _as_flint(v) for r, row in enumerate(rows) for c, v in enumerate(row)
+               if v != 0}
+    got = minor_expansion_det(entries, size, _RING.constant(1))
+    assert got == _as_flint(expected)
+
+
+def test_minor_expansion_det_of_a_permutation_matrix_is_its_sign():
+    # det of a permutation matrix is the permutation's sign (linear algebra,
+    # common practice, no source): (0 1 2 3) -> (1 2 3 0), a 4-cycle, is odd.
+    one = _RING.constant(1)
+    entries = {(0, 1): one, (1, 2): one, (2, 3): one, (3, 0): one}
+    assert minor_expansion_det(entries, 4, one) == -one
+    entries = {(0, 1): one, (1, 0): one, (2, 3): one, (3, 2): one}  # two swaps: even
+    assert minor_expansion_det(entries, 4, one) == one

@@ -7,7 +7,10 @@ pencil) share only the stamps, so checks between them are real checks; the
 stamps themselves are checked against hand-written matrices in test_mna.py.
 """
 
+import json
 import math
+import multiprocessing
+from concurrent.futures import ProcessPoolExecutor
 from functools import lru_cache
 
 import control
@@ -19,7 +22,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from placer.circuit.elements import Circuit, Element
-from placer.errors import TopologyError
+from placer.cli import main
+from placer.errors import SymbolicSizeError, TopologyError
 from placer.analysis.network import (
     S,
     circuit_gain,
@@ -449,11 +453,11 @@ def test_active_rc_poles_and_zeros_agree(builder, data):
 @PROPERTY
 @given(st.data())
 def test_rc_ladder_poles_agree(data):
-    sections = data.draw(st.integers(1, 6), label="sections")
-    # Bridging capacitors (real zeros) only up to three sections: the
-    # symbolic determinant of longer bridged ladders takes minutes.
+    sections = data.draw(st.integers(1, 8), label="sections")
+    # Bridging capacitors (real zeros) only up to four sections: every
+    # pattern is its own circuit, derived and compiled into evaluators.
     bridged = tuple(data.draw(st.lists(st.booleans(), min_size=sections, max_size=sections))
-                    ) if sections <= 3 else (False,) * sections
+                    ) if sections <= 4 else (False,) * sections
     circuit, nf = cached(rc_ladder, bridged)
     v = data.draw(values_strategy(circuit))
     poles = nf.poles(v)
@@ -653,3 +657,197 @@ def test_shared_symbol_is_one_part():
     assert evaluate(nf.omega0, nf, v) == pytest.approx(1 / (4.7e3 * math.sqrt(22e-9 * 10e-9)),
                                                        rel=1e-9)
     assert S in nf.denominator.gens
+
+
+# -- RC ladders past the readable size: the flint path and the analyze fallback --------
+
+
+def uniform_rc_ladder(sections, shared=True):
+    """n sections of series R, shunt C; one symbol R and one C, or R1…Rn, C1…Cn."""
+    elements, previous = [], "vin"
+    for i in range(1, sections + 1):
+        node = "vout" if i == sections else f"n{i}"
+        r, c = ("R", "C") if shared else (f"R{i}", f"C{i}")
+        elements.append(Element(f"R{i}", "resistor", (previous, node), symbol=r))
+        elements.append(Element(f"C{i}", "capacitor", (node, "gnd"), symbol=c))
+        previous = node
+    return Circuit(tuple(elements))
+
+
+def morgan_voyce(sections):
+    """Coefficients of b_n(x) = Σ C(n+k, 2k) x^k, x = sRC, lowest power first.
+
+    The denominator of a uniform n-section RC ladder (A. M. Morgan-Voyce,
+    "Ladder network analysis using Fibonacci numbers", IRE Trans. Circuit
+    Theory 6(3), 1959, from memory).
+    """
+    return [math.comb(sections + k, 2 * k) for k in range(sections + 1)]
+
+
+def float_coefficients(poly, values):
+    """A Poly in S at part values, highest power first, term by term in float.
+
+    Independent of the compiled evaluators (which a 10946-term coefficient
+    would overflow Python's compiler with).
+    """
+    ring = poly.domain
+    names = [str(g) for g in ring.symbols]
+    x = np.array([values[n] for n in names])
+    out = []
+    for coefficient in poly.rep.to_list():
+        terms = list(coefficient.terms())
+        exponents = np.array([m for m, _ in terms], dtype=float)
+        weights = np.array([float(c) for _, c in terms])
+        out.append(float(weights @ np.prod(x ** exponents, axis=1)))
+    return np.array(out)
+
+
+def test_uniform_rc_ladder_is_the_morgan_voyce_polynomial():
+    # Ten sections with one R and one C: D = Σ C(10+k, 2k) (sRC)^k, N = 1
+    # (Morgan-Voyce, from memory: see morgan_voyce).
+    nf = network_function(uniform_rc_ladder(10))
+    r, c = nf.symbols["R"], nf.symbols["C"]
+    expected = [coefficient * (r * c) ** k for k, coefficient in enumerate(morgan_voyce(10))]
+    assert [sympy.expand(a) for a in reversed(nf.denominator.all_coeffs())] == expected
+    assert nf.numerator.as_expr() == 1
+
+
+def test_ten_distinct_sections_reduce_to_morgan_voyce_at_equal_parts():
+    # With R1…R10 and C1…C10 all 1 the coefficients add up to b_10's, C(10+k, 2k)
+    # (Morgan-Voyce, from memory); every term has coefficient +1, so D has
+    # Σ C(10+k, 2k) = F(21) = 10946 terms (the Fibonacci identity of the same paper).
+    nf = network_function(uniform_rc_ladder(10, shared=False))
+    sums = [sum(int(c) for _, c in coefficient.terms())
+            for coefficient in reversed(nf.denominator.rep.to_list())]
+    assert sums == morgan_voyce(10)
+    assert nf.term_count == 10946 + 1
+    assert all(int(c) == 1 for coefficient in nf.denominator.rep.to_list()
+               for _, c in coefficient.terms())
+
+
+def test_ten_section_rc_ladder_agrees_with_the_pencil():
+    # Symbolic N/D of ten distinct sections at random part values against the
+    # numeric path (the MNA pencil solved at each frequency): they share only
+    # the stamps.
+    circuit = uniform_rc_ladder(10, shared=False)
+    nf = network_function(circuit)
+    rng = np.random.default_rng(20)
+    for _ in range(3):
+        values = random_values(circuit, rng)
+        numerator = float_coefficients(nf.numerator, values)
+        denominator = float_coefficients(nf.denominator, values)
+        tau = np.exp(np.mean([math.log(values[f"R{i}"] * values[f"C{i}"]) for i in range(1, 11)]))
+        omega = np.logspace(-2, 1, 13) / tau
+        symbolic = np.polyval(numerator, 1j * omega) / np.polyval(denominator, 1j * omega)
+        np.testing.assert_allclose(symbolic, circuit_response(circuit, omega, values), rtol=1e-8)
+
+
+def test_uniform_rc_ladder_response_against_scipy_freqs():
+    # b_6(sRC) by scipy.signal.freqs (reference library) against the symbolic
+    # function and the pencil, R = 10 kΩ, C = 4.7 nF.
+    r, c = 10e3, 4.7e-9
+    denominator = [m * (r * c) ** k for k, m in enumerate(morgan_voyce(6))][::-1]
+    omega = np.logspace(2, 6, 41)
+    _, expected = scipy.signal.freqs([1.0], denominator, worN=omega)
+    circuit = uniform_rc_ladder(6)
+    values = {"R": r, "C": c}
+    np.testing.assert_allclose(network_function(circuit).response_at(values, omega), expected,
+                               rtol=1e-9)
+    np.testing.assert_allclose(circuit_response(circuit, omega, values), expected, rtol=1e-9)
+
+
+def test_max_terms_stops_the_derivation_at_the_size_of_the_result():
+    # D of ten distinct sections has 10946 terms (Morgan-Voyce, above): the
+    # minors held along the way never pass the result, so 10946 is enough and
+    # 10945 is not.
+    circuit = uniform_rc_ladder(10, shared=False)
+    assert network_function(circuit, max_terms=10946).term_count == 10947
+    with pytest.raises(SymbolicSizeError) as stopped:
+        network_function(circuit, max_terms=10945)
+    assert stopped.value.limit == 10945 and stopped.value.terms > 10945
+    # Forty sections: F(81) terms, about 3.8e16; stopped at once.
+    with pytest.raises(SymbolicSizeError, match="more than the limit of 2000"):
+        network_function(uniform_rc_ladder(40, shared=False), max_terms=2000)
+
+
+def _derived_in_a_worker(sections):
+    nf = network_function(uniform_rc_ladder(sections, shared=False))
+    values = {f"{kind}{i}": (1.1 + 0.1 * i) * scale for i in range(1, sections + 1)
+              for kind, scale in (("R", 1e3), ("C", 1e-8))}
+    numerator, denominator = nf.coefficients(values)
+    return str(nf.denominator.as_expr()), numerator.tobytes(), denominator.tobytes()
+
+
+def test_network_function_is_the_same_bits_in_a_fresh_process():
+    # Worker processes must compute what the parent does, to the bit (common
+    # practice, no source: results may not depend on the number of workers).
+    with ProcessPoolExecutor(1, mp_context=multiprocessing.get_context("spawn")) as pool:
+        theirs = pool.submit(_derived_in_a_worker, 6).result()
+    assert theirs == _derived_in_a_worker(6)
+
+
+def _ladder_file(folder, sections, *, values=True):
+    lines = [f'id = "rc-ladder-{sections}"', f'title = "RC ladder, {sections} sections"',
+             'response = "lowpass"', f"order = {sections}", ""]
+    previous = "vin"
+    for i in range(1, sections + 1):
+        node = "vout" if i == sections else f"n{i}"
+        lines += ["[[elements]]", f'name = "R{i}"', 'kind = "resistor"',
+                  f'nodes = ["{previous}", "{node}"]', f'symbol = "R{i}"', "",
+                  "[[elements]]", f'name = "C{i}"', 'kind = "capacitor"',
+                  f'nodes = ["{node}", "gnd"]', f'symbol = "C{i}"', ""]
+        previous = node
+    if values:
+        lines += ["[values]"] + [f'R{i} = "10k"' for i in range(1, sections + 1)]
+        lines += [f'C{i} = "4.7n"' for i in range(1, sections + 1)]
+    path = folder / f"rc-ladder-{sections}.toml"
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return path
+
+
+def uniform_ladder_poles(sections, r, c):
+    """s_k = −(4/RC) sin²((2k−1)π/(4n+2)), k = 1…n: the roots of b_n(sRC)
+    (Morgan-Voyce polynomial, from memory)."""
+    k = np.arange(1, sections + 1)
+    return -4 / (r * c) * np.sin((2 * k - 1) * np.pi / (4 * sections + 2)) ** 2
+
+
+def test_analyze_past_the_limit_gives_numeric_poles_and_response(tmp_path, capsys):
+    path = _ladder_file(tmp_path, 20)
+    assert main(["analyze", str(path), "--json", "-"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["symbolic"] is False and "2,000 terms" in data["reason"]
+    poles = np.array([complex(re, im) for re, im in data["poles"]])
+    # Uniform 20-section ladder, 10 kΩ and 4.7 nF (Morgan-Voyce, from memory).
+    assert_roots_match(poles, uniform_ladder_poles(20, 10e3, 4.7e-9), rtol=1e-7)
+    assert data["zeros"] == []
+    # |H| from b_20 by scipy.signal.freqs (reference library) at the printed frequencies.
+    response = data["response"]
+    omega = 2 * np.pi * np.array([row["f_hz"] for row in response])
+    denominator = [m * (10e3 * 4.7e-9) ** k for k, m in enumerate(morgan_voyce(20))][::-1]
+    _, expected = scipy.signal.freqs([1.0], denominator, worN=omega)
+    np.testing.assert_allclose([row["magnitude_db"] for row in response],
+                               20 * np.log10(np.abs(expected)), atol=1e-6)
+    assert main(["analyze", str(path)]) == 0
+    assert "numeric analysis instead" in capsys.readouterr().out
+
+
+def test_analyze_past_the_limit_without_values_names_the_parts(tmp_path, capsys):
+    path = _ladder_file(tmp_path, 12, values=False)
+    assert main(["analyze", str(path), "--set", "R1=1k"]) == 1
+    message = capsys.readouterr().err
+    assert message.startswith("error: H(s) of rc-ladder-12 is too large to read")
+    assert "give C1, R2, C2," in message and "--set NAME=VALUE" in message
+    assert "R1," not in message  # given with --set
+
+
+def test_analyze_symbolic_insists(tmp_path, capsys):
+    # Nine sections: D has F(19) = 4181 terms, past the 2000 of analyze.
+    path = _ladder_file(tmp_path, 9)
+    assert main(["analyze", str(path), "--json", "-"]) == 0
+    assert json.loads(capsys.readouterr().out)["symbolic"] is False
+    assert main(["analyze", str(path), "--symbolic", "--json", "-"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["order"] == 9 and data["denominator"].count("+") == 4180
+    poles = np.array([complex(re, im) for re, im in data["poles"]])
+    assert_roots_match(poles, uniform_ladder_poles(9, 10e3, 4.7e-9), rtol=1e-7)

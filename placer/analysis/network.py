@@ -2,9 +2,11 @@
 
 Symbolic: the MNA matrix is built with polynomial entries (resistors as
 conductances, s·C for capacitors, inductor branch currents) in a sympy
-polynomial ring, and ``det M`` and the output minor are taken by
-fraction-free (Bareiss) elimination in that ring, with no rational
-functions at any step. The result is shown in the part symbols (R, not G):
+polynomial ring (python-flint's ``fmpz_mpoly``, or ``fmpq_mpoly`` when
+numeric parts bring fractions), and ``det M`` and the output minor are
+taken by expansion into shared minors
+(:func:`minor_expansion_det`), with no rational functions and no division
+at any step. The result is shown in the part symbols (R, not G):
 each conductance power is cleared by multiplying N and D by the same
 product of resistances.
 
@@ -27,17 +29,20 @@ Examples
 
 from __future__ import annotations
 
+import itertools
 import math
 from dataclasses import dataclass, field
 from functools import cached_property, lru_cache
 
 import control
+import flint
 import numpy as np
 import sympy
 from sympy.polys.domains import QQ, ZZ
+from sympy.polys.domains.domain import Domain
 
 from ..errors import TopologyError
-from .mna import layout, stamps
+from .mna import layout, minor_expansion_det, stamps
 from .pencil import (
     CircuitRoots,
     circuit_gain,
@@ -59,7 +64,6 @@ __all__ = [
     "CircuitRoots",
     "circuit_response",
     "batched_roots",
-    "fraction_free_det",
     "polynomial_values",
 ]
 
@@ -124,6 +128,12 @@ class NetworkFunction:
     def expression(self):
         """H(s) as one sympy expression."""
         return sympy.cancel(self.numerator.as_expr() / self.denominator.as_expr())
+
+    @cached_property
+    def term_count(self) -> int:
+        """Terms of N and D together, expanded in the part symbols and s."""
+        return sum(len(c) if hasattr(c, "__len__") else int(c != 0)
+                   for poly in (self.numerator, self.denominator) for c in poly.rep.to_list())
 
     @cached_property
     def numerator_coefficients(self):
@@ -390,11 +400,19 @@ def batched_roots(coefficients, *, scale=1.0):
 # -- symbolic derivation -----------------------------------------------------
 
 @lru_cache(maxsize=512)
-def network_function(circuit):
+def network_function(circuit, *, max_terms: int | None = None) -> NetworkFunction:
     """Symbolic network function of `circuit`, output over input voltage.
 
     Parts that carry a symbol stay symbolic; parts with a value enter as
     exact rationals of their decimal value.
+
+    Parameters
+    ----------
+    circuit : Circuit
+    max_terms : int, optional
+        Stop with :class:`SymbolicSizeError` as soon as the derivation
+        holds more terms than this at one step (all partial minors of the
+        MNA matrix together, and so N and D themselves). Default: no limit.
 
     Returns
     -------
@@ -404,6 +422,8 @@ def network_function(circuit):
     ------
     TopologyError
         If the MNA matrix is singular (the circuit has no unique solution).
+    SymbolicSizeError
+        If the derivation passes `max_terms`.
 
     Examples
     --------
@@ -454,125 +474,93 @@ def network_function(circuit):
                 number = number / value if role == "conductance" else number * value
         integral = integral and number.is_integer
         terms_at.setdefault((stamp.row, stamp.col), []).append((generator, number, stamp.power))
-    domain = (ZZ if integral else QQ)[tuple(generators)]
-    gens = domain.gens
-    size = lay.size
-    rows = [[domain.zero] * size for _ in range(size)]
-    for (r, c), terms in terms_at.items():
-        entry = domain.zero
-        for generator, number, power in terms:
-            term = domain.convert(number)
-            if generator is not None:
-                term = term * gens[generator]
-            if power:
-                term = term * gens[0]
-            entry = entry + term
-        rows[r][c] = entry
-    denominator = fraction_free_det(rows, domain)
-    if denominator == domain.zero:
+    ring = _flint_ring(len(generators), integral)
+    entries = _matrix_entries(ring, terms_at)
+    one = ring.constant(1)
+    denominator = minor_expansion_det(entries, lay.size, one, max_terms=max_terms)
+    if denominator.is_zero():
         raise TopologyError(
             "the MNA matrix is singular: the circuit has no unique solution "
             "(check for floating nodes, or op-amps with no feedback path)"
         )
-    replaced = [row[:] for row in rows]
-    for r in range(size):
-        replaced[r][lay.output_index] = domain.one if r == lay.input_row else domain.zero
-    numerator = fraction_free_det(replaced, domain)
-    if numerator == domain.zero:
+    replaced = {(r, c): v for (r, c), v in entries.items() if c != lay.output_index}
+    replaced[(lay.input_row, lay.output_index)] = one
+    numerator = minor_expansion_det(replaced, lay.size, one, max_terms=max_terms)
+    if numerator.is_zero():
         where = f"circuit {circuit.name!r}: " if circuit.name else ""
         raise TopologyError(
             f"{where}the output {circuit.output!r} does not depend on the input {circuit.input!r}: "
             "H(s) = 0 for every part value (check the connections, and for a "
             "controlled source or op-amp gain of 0)"
         )
-    common, numerator, denominator = _cancel(domain, numerator, denominator)
+    common, numerator, denominator = _cancel(numerator, denominator)
     if _leading_sign(denominator) < 0:
         numerator, denominator = -numerator, -denominator
     names = list(generator_of)
+    ground = ZZ if integral else QQ
     numerator_poly, denominator_poly = _to_resistances(
-        domain, numerator, denominator, names, role_of_symbol, part_symbols
+        ground, numerator, denominator, names, role_of_symbol, part_symbols
     )
     return NetworkFunction(
         numerator=numerator_poly,
         denominator=denominator_poly,
         symbols=dict(part_symbols),
-        cancelled=domain.to_sympy(common),
+        cancelled=_flint_to_expr(common, generators, ground),
     )
 
 
-def fraction_free_det(rows, domain):
-    """Determinant of a square matrix over a polynomial ring, by Bareiss.
+#: The symbolic path's polynomials (python-flint).
+_FlintPoly = flint.fmpz_mpoly | flint.fmpq_mpoly
 
-    Fraction-free elimination: every division is exact in the ring, so no
-    rational function ever appears. The pivot at each step is the nonzero
-    entry with the fewest terms (complete pivoting on size; a row or column
-    swap only flips the sign), which keeps the intermediate polynomials
-    small — several times faster than a fixed pivot order on MNA matrices.
 
-    Parameters
-    ----------
-    rows : list of lists
-        Entries, elements of `domain` (a sympy PolynomialRing domain).
-    domain : sympy domain
+def _flint_ring(count: int, integral: bool) -> flint.fmpz_mpoly_ctx | flint.fmpq_mpoly_ctx:
+    """python-flint's ring ZZ[x0, …] (or QQ[…]) in lex order, as sympy's.
 
-    Returns
-    -------
-    domain element
-
-    References
-    ----------
-    E. H. Bareiss, "Sylvester's identity and multistep integer-preserving
-    Gaussian elimination", Mathematics of Computation 22(103), 1968,
-    doi:10.1090/S0025-5718-1968-0226829-0.
-
-    Examples
-    --------
-    >>> from sympy.polys.domains import ZZ
-    >>> K = ZZ["x"]
-    >>> x = K.gens[0]
-    >>> fraction_free_det([[x, K.one], [K.one, x]], K) == x**2 - 1
-    True
+    Variables are named by position (x0 is s, then the generators in
+    order), so no part symbol can collide with another name here.
     """
-    matrix = [list(row) for row in rows]
-    n = len(matrix)
-    if n == 0:
-        return domain.one
-    sign = 1
-    previous = domain.one
-    for k in range(n - 1):
-        best = None
-        for i in range(k, n):
-            row = matrix[i]
-            for j in range(k, n):
-                entry = row[j]
-                if entry and (best is None or len(entry) < best[0]):
-                    best = (len(entry), i, j)
-            if best is not None and best[0] == 1:
-                break
-        if best is None:
-            return domain.zero
-        _, i, j = best
-        if i != k:
-            matrix[k], matrix[i] = matrix[i], matrix[k]
-            sign = -sign
-        if j != k:
-            for row in matrix:
-                row[k], row[j] = row[j], row[k]
-            sign = -sign
-        pivot = matrix[k][k]
-        pivot_row = matrix[k]
-        for i in range(k + 1, n):
-            row = matrix[i]
-            factor = row[k]
-            for j in range(k + 1, n):
-                if factor:
-                    row[j] = domain.exquo(row[j] * pivot - factor * pivot_row[j], previous)
-                elif row[j]:
-                    row[j] = domain.exquo(row[j] * pivot, previous)
-            row[k] = domain.zero
-        previous = pivot
-    determinant = matrix[n - 1][n - 1]
-    return determinant if sign > 0 else -determinant
+    names = tuple(f"x{i}" for i in range(count))
+    if integral:
+        return flint.fmpz_mpoly_ctx.get(names, "lex")
+    return flint.fmpq_mpoly_ctx.get(names, "lex")
+
+
+def _matrix_entries(ring: flint.fmpz_mpoly_ctx | flint.fmpq_mpoly_ctx, terms_at: dict) -> dict:
+    """The MNA entries as ring elements from (generator, number, power) terms."""
+    nvars = ring.nvars()
+    entries = {}
+    for position, terms in terms_at.items():
+        monomials: dict[tuple, object] = {}
+        for generator, number, power in terms:
+            exponents = [0] * nvars
+            exponents[0] += power
+            if generator is not None:
+                exponents[generator] += 1
+            key = tuple(exponents)
+            monomials[key] = monomials.get(key, 0) + number
+        coefficients = {m: _flint_number(c) for m, c in monomials.items() if c != 0}
+        entry = ring.from_dict(coefficients)
+        if entry:
+            entries[position] = entry
+    return entries
+
+
+def _flint_number(number: sympy.Rational) -> flint.fmpz | flint.fmpq:
+    if number.is_integer:
+        return flint.fmpz(int(number))
+    return flint.fmpq(int(number.p), int(number.q))
+
+
+def _flint_to_expr(poly: _FlintPoly, generators: list, ground: Domain) -> sympy.Expr:
+    terms = {m: _ground_number(c, ground) for m, c in poly.to_dict().items()}
+    return sympy.Poly.from_dict(terms, *generators, domain=ground).as_expr()
+
+
+def _ground_number(coefficient: flint.fmpz | flint.fmpq, ground: Domain) -> object:
+    """A flint fmpz/fmpq coefficient as an element of sympy's ZZ or QQ."""
+    if isinstance(coefficient, flint.fmpq):
+        return ground.convert(sympy.Rational(int(coefficient.p), int(coefficient.q)))
+    return ground.convert(int(coefficient))
 
 
 def _role(kind):
@@ -590,49 +578,78 @@ def _rational(number):
     return sympy.Rational(repr(number))
 
 
-def _cancel(domain, numerator, denominator):
-    if numerator == domain.zero:
-        return domain.one, numerator, denominator
-    common, numerator_part, denominator_part = numerator.cofactors(denominator)
-    return common, numerator_part, denominator_part
+def _cancel(numerator: _FlintPoly, denominator: _FlintPoly) -> tuple:
+    """(common factor, N / common, D / common), normalised as sympy's ``cofactors``.
+
+    A one-term N or D shares a monomial whose coefficient is the gcd of
+    all coefficients (over QQ: gcd of numerators over lcm of
+    denominators); otherwise flint's gcd (positive leading coefficient over
+    ZZ, monic over QQ) is sympy's.
+    """
+    if numerator.is_zero():
+        return numerator ** 0, numerator, denominator
+    if len(numerator) == 1 or len(denominator) == 1:
+        common = _monomial_gcd(numerator, denominator)
+    else:
+        common = numerator.gcd(denominator)
+    return common, numerator / common, denominator / common
 
 
-def _leading_sign(poly):
-    coefficient = poly.LC
+def _monomial_gcd(first: _FlintPoly, second: _FlintPoly) -> _FlintPoly:
+    common = first.term_content().gcd(second.term_content())
+    if isinstance(common, flint.fmpq_mpoly):
+        # flint's is monic; sympy's coefficient is gcd(numerators)/lcm(denominators)
+        coefficients = list(first.coeffs()) + list(second.coeffs())
+        common = common * flint.fmpq(math.gcd(*(int(c.p) for c in coefficients)),
+                                     math.lcm(*(int(c.q) for c in coefficients)))
+    return common
+
+
+def _leading_sign(poly: _FlintPoly) -> int:
+    coefficient = poly.leading_coefficient()
     return -1 if coefficient < 0 else 1
 
 
-def _to_resistances(domain, numerator, denominator, names, role_of, parts):
+def _to_resistances(ground: Domain, numerator: _FlintPoly, denominator: _FlintPoly,
+                    names: list[str], role_of: dict, parts: dict) -> tuple[sympy.Poly, sympy.Poly]:
     """Replace each conductance G by 1/R and clear denominators in R.
 
     Ring generator i + 1 belongs to ``names[i]``. Every conductance's
     highest power over N and D is cleared by the same product of R, so the
-    ratio is unchanged. Returns two sympy Polys in S whose coefficients lie
-    in a polynomial ring over the part symbols.
+    ratio is unchanged: a term's exponent e of G becomes d − e of R, with d
+    the highest power of G in N and D. Returns two sympy Polys in S whose
+    coefficients lie in a polynomial ring over the part symbols (over
+    `ground`, ZZ or QQ).
     """
-    conductance = [role_of[n] == "conductance" for n in names]
-    degrees = [0] * len(names)
-    for poly in (numerator, denominator):
-        for monom in poly.monoms():
-            for i, flag in enumerate(conductance):
-                if flag:
-                    degrees[i] = max(degrees[i], monom[i + 1])
-    coefficient_ring = domain.domain[tuple(parts[n] for n in names)] if names else domain.domain
+    flip = np.array([role_of[n] == "conductance" for n in names], dtype=bool)
+    highest = np.maximum(numerator.degrees()[1:], denominator.degrees()[1:]) if names else None
+    coefficient_ring = ground[tuple(parts[n] for n in names)] if names else ground
 
-    def convert(poly):
-        by_power = {}
-        for monom, coefficient in poly.terms():
-            exponents = tuple(
-                degrees[i] - monom[i + 1] if conductance[i] else monom[i + 1]
-                for i in range(len(names))
-            )
-            by_power.setdefault(monom[0], {})[exponents] = coefficient
+    def convert(poly: _FlintPoly) -> sympy.Poly:
+        if poly.is_zero():
+            return sympy.Poly.from_dict({}, S, domain=coefficient_ring)
+        width = len(names) + 1
+        monoms = np.fromiter(itertools.chain.from_iterable(poly.monoms()), dtype=np.int64,
+                             count=len(poly) * width).reshape(len(poly), width)
+        coefficients = _ground_numbers(poly.coeffs(), ground)
+        # Lex order with s first: the terms of each power of s are consecutive.
+        starts = [0, *(np.flatnonzero(np.diff(monoms[:, 0])) + 1).tolist(), len(poly)]
+        if names:
+            keys = list(map(tuple, np.where(flip, highest - monoms[:, 1:], monoms[:, 1:]).tolist()))
         out = {}
-        for power, terms in by_power.items():
+        for a, b in zip(starts[:-1], starts[1:]):
+            power = (int(monoms[a, 0]),)
             if names:
-                out[(power,)] = coefficient_ring.from_dict(terms) if hasattr(coefficient_ring, "from_dict") else coefficient_ring.ring.from_dict(terms)
+                out[power] = coefficient_ring.ring.from_dict(dict(zip(keys[a:b], coefficients[a:b])))
             else:
-                out[(power,)] = terms[()]
+                out[power] = coefficients[a]
         return sympy.Poly.from_dict(out, S, domain=coefficient_ring)
 
     return convert(numerator), convert(denominator)
+
+
+def _ground_numbers(coefficients: list, ground: Domain) -> list:
+    """flint fmpz/fmpq coefficients as elements of sympy's ZZ or QQ."""
+    if all(isinstance(c, ground.dtype) for c in coefficients):
+        return coefficients           # sympy runs on python-flint's ground types
+    return [_ground_number(c, ground) for c in coefficients]
