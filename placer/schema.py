@@ -112,8 +112,11 @@ SPEC_TABLES: dict[str, dict[str, Key]] = {
         "response": Key("name", "lowpass, highpass, bandpass, bandstop, allpass or custom"),
         "approximation": Key("name", "butterworth, chebyshev1, chebyshev2, bessel, "
                                      "elliptic or linkwitz-riley"),
-        "order": Key("integer", "prototype order, 1-12"),
+        "order": Key("integer", "prototype order, 1-12 (a band response has twice as many "
+                                "poles)"),
         "cutoff": Key("number", "the -3 dB frequency, Hz", "Hz"),
+        "crossover": Key("number", "linkwitz-riley only: the -6 dB frequency, where each of "
+                                   "the two Butterworth halves is -3 dB, Hz", "Hz"),
         "center": Key("number", "band centre (geometric), Hz", "Hz"),
         "bandwidth": Key("number", "-3 dB band width, Hz", "Hz"),
         "passband_edge": Key("number", "where the loss reaches the ripple, Hz", "Hz"),

@@ -172,7 +172,29 @@ def _read_sections(reader, response):
     return sections
 
 
-def _read_frequencies(reader, response):
+def _crossover(reader, response, approximation, edges):
+    """``crossover``: a Linkwitz–Riley low- or high-pass's −6 dB frequency.
+
+    A Linkwitz–Riley response of order n is two Butterworths of order n/2
+    in cascade; at the crossover each is −3 dB, so the pair is −6.02 dB
+    and the low- and high-pass branches sum flat. That is the prototype's
+    natural scale (``normalisation="natural"``), as ``cutoff`` is the −3 dB
+    point of the whole response, (√2 + 1)^(1/n) times lower.
+    """
+    if approximation != "linkwitz-riley":
+        reader.fail("crossover", f"applies to a linkwitz-riley target only (the -6 dB point of "
+                                 f"the pair); a {approximation} target takes cutoff (-3 dB)")
+    if response not in ("lowpass", "highpass"):
+        reader.fail("crossover", f"applies to a lowpass or highpass target, not {response}")
+    given = [k for k in edges if k in reader]
+    if given:
+        reader.fail("crossover", f"and {given[0]} both set the frequency: give crossover "
+                                 f"(-6 dB) or {given[0]}, not both")
+    return dict(frequency_hz=reader.number("crossover", "Hz", "frequency"),
+                normalisation="natural"), None
+
+
+def _read_frequencies(reader, response, approximation=None):
     """Frequency keys → keyword arguments of design_target, plus a mask."""
     if response in ("bandpass", "bandstop"):
         present = {k for k in ("center", "bandwidth", "low_edge", "high_edge") if k in reader}
@@ -189,6 +211,8 @@ def _read_frequencies(reader, response):
                         "bandwidth, or low_edge and high_edge (Hz, -3 dB); got "
                         f"{sorted(present) or 'none'}")
     edges = ("cutoff",) if response == "allpass" else ("cutoff", "passband_edge", "stopband_edge")
+    if "crossover" in reader:
+        return _crossover(reader, response, approximation, edges)
     present = {k for k in edges if k in reader}
     if present == {"passband_edge", "stopband_edge"}:
         mask = (reader.number("passband_edge", "Hz", "frequency"), reader.number("stopband_edge", "Hz", "frequency"))
@@ -206,7 +230,7 @@ def _read_frequencies(reader, response):
 
 def _approximation_target(reader, response, gain_db):
     approximation = reader.choice("approximation", APPROXIMATIONS)
-    options, mask = _read_frequencies(reader, response)
+    options, mask = _read_frequencies(reader, response, approximation)
     needs_ripple = approximation in ("chebyshev1", "elliptic") or mask or \
         options.get("normalisation") == "passband_edge"
     needs_attenuation = approximation in ("chebyshev2", "elliptic") or mask or \
@@ -310,7 +334,8 @@ def target_from_table(table, *, source="spec"):
     * ``approximation``: butterworth, chebyshev1, chebyshev2, bessel,
       elliptic, linkwitz-riley; with ``order`` (prototype order, 1–12).
     * Low-/high-pass frequency, one of: ``cutoff`` (−3 dB, for every
-      family); ``passband_edge`` (where the loss reaches ``ripple``: the
+      family); ``crossover`` (Linkwitz–Riley only: the −6 dB point, where
+      each Butterworth half is −3 dB); ``passband_edge`` (where the loss reaches ``ripple``: the
       ripple edge of a Chebyshev I or elliptic); ``stopband_edge`` (where
       it reaches ``attenuation``); or both edges as a mask, with ``ripple``
       and ``attenuation``, which sets the lowest order that meets it when
