@@ -112,8 +112,7 @@ SPEC_TABLES: dict[str, dict[str, Key]] = {
         "response": Key("name", "lowpass, highpass, bandpass, bandstop, allpass or custom"),
         "approximation": Key("name", "butterworth, chebyshev1, chebyshev2, bessel, "
                                      "elliptic or linkwitz-riley"),
-        "order": Key("integer", "prototype order, 1-12 (a band response has twice as many "
-                                "poles)"),
+        "order": Key("integer", "prototype order, 1-12"),
         "cutoff": Key("number", "the -3 dB frequency, Hz", "Hz"),
         "crossover": Key("number", "linkwitz-riley only: the -6 dB frequency, where each of "
                                    "the two Butterworth halves is -3 dB, Hz", "Hz"),
