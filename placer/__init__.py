@@ -56,7 +56,6 @@ _EXPORTS = {
     "realises": "circuit.library", "notch_kind": "target.targets", "cascade_gain": "design",
     "place_candidate": "design", "candidate_seeds": "place.placement",
     "right_half_plane_poles": "place.placement", "natural_frequencies": "analysis.pencil",
-    "gather_evidence": "evidence.gather",
     "compare": "compare", "comparison_to_dict": "compare", "rank_candidates": "compare",
     "analyse_noise": "analysis.noise", "noise_spectrum": "analysis.noise", "NoiseAnalysis": "analysis.noise",
     "opamp_loop": "analysis.return_ratio", "OpampLoop": "analysis.return_ratio",
@@ -64,6 +63,17 @@ _EXPORTS = {
     "check_design": "evidence.prelayout", "Prelayout": "evidence.prelayout",
     "DrawingSpec": "circuit.drawing", "Plan": "circuit.drawing", "automatic_plan": "circuit.drawing_auto",
     "plan_for": "circuit.drawing_auto", "circuit_svg": "report.schematic",
+    # the workflow from Python and every result type it returns
+    "spec_from_dict": "spec.reader", "run_loop": "spec.loop_table", "loop_to_dict": "spec.loop_table",
+    "LoopSpec": "spec.loop_table", "LoopResult": "spec.loop_table",
+    "LoopDesign": "loops.compensator", "LoopMonteCarlo": "loops.tolerance",
+    "SectionDesign": "design", "PartChoice": "design", "design_to_dict": "report.data",
+    "Comparison": "compare", "SectionComparison": "compare", "CandidateResult": "compare",
+    "Evidence": "evidence.gather", "SectionEvidence": "evidence.gather",
+    "MonteCarloResult": "evidence.tolerance", "CascadeMonteCarloResult": "evidence.tolerance",
+    "Statistics": "evidence.tolerance",
+    "Verification": "evidence.verify", "Margins": "evidence.verify",
+    "Candidate": "place.placement",
 }
 
 __all__ = ["__version__", *_EXPORTS]
