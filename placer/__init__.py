@@ -15,6 +15,8 @@ The public names below load their module on first use, so that
 """
 
 import importlib
+import sys
+import types
 
 __version__ = "0.1.0"
 
@@ -79,6 +81,26 @@ _EXPORTS = {
 __all__ = ["__version__", *_EXPORTS]
 
 
+#: Exported functions named like the module that defines them (``placer.design``
+#: the function, from the module ``placer.design``).
+_SAME_NAME = frozenset(name for name, module in _EXPORTS.items() if name == module)
+
+
+class _Package(types.ModuleType):
+    """The package, whose functions ``design`` and ``compare`` stay functions.
+
+    Importing the module ``placer.design`` sets the package's attribute
+    ``design`` to that module; this keeps the function of that name instead.
+    The modules themselves are ``sys.modules["placer.design"]`` and are what
+    ``from placer.design import Design`` reads.
+    """
+
+    def __setattr__(self, name, value):
+        if name in _SAME_NAME and isinstance(value, types.ModuleType):
+            value = getattr(value, name)
+        super().__setattr__(name, value)
+
+
 def __getattr__(name):
     module = _EXPORTS.get(name)
     if module is None:
@@ -90,3 +112,6 @@ def __getattr__(name):
 
 def __dir__():
     return sorted(__all__)
+
+
+sys.modules[__name__].__class__ = _Package
