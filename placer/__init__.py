@@ -12,6 +12,16 @@ and numeric poles, zeros and responses from the matrix pencil.
 
 The public names below load their module on first use, so that
 ``import placer`` (and the ``placer`` command's ``--help``) stays quick.
+The workflow from Python (the README's "From Python" has it as doctests)::
+
+    spec = placer.load_spec("examples/adc-antialias.toml")   # or spec_from_dict({...})
+    result = placer.design(spec)                              # a Design
+    result.parts, result.sections[0].candidate.errors
+    placer.compare(spec), placer.run_loop(spec.loop, parts=spec.parts)
+    result.plot()                                             # a matplotlib Figure
+
+Results show themselves in a notebook (``_repr_html_``, from
+:mod:`placer.report.notebook`).
 """
 
 import importlib
