@@ -12,9 +12,21 @@ and numeric poles, zeros and responses from the matrix pencil.
 
 The public names below load their module on first use, so that
 ``import placer`` (and the ``placer`` command's ``--help``) stays quick.
+The workflow from Python (the README's "From Python" has it as doctests)::
+
+    spec = placer.load_spec("examples/adc-antialias.toml")   # or spec_from_dict({...})
+    result = placer.design(spec)                              # a Design
+    result.parts, result.sections[0].candidate.errors
+    placer.compare(spec), placer.run_loop(spec.loop, parts=spec.parts)
+    result.plot()                                             # a matplotlib Figure
+
+Results show themselves in a notebook (``_repr_html_``, from
+:mod:`placer.report.notebook`).
 """
 
 import importlib
+import sys
+import types
 
 __version__ = "0.1.0"
 
@@ -56,7 +68,6 @@ _EXPORTS = {
     "realises": "circuit.library", "notch_kind": "target.targets", "cascade_gain": "design",
     "place_candidate": "design", "candidate_seeds": "place.placement",
     "right_half_plane_poles": "place.placement", "natural_frequencies": "analysis.pencil",
-    "gather_evidence": "evidence.gather",
     "compare": "compare", "comparison_to_dict": "compare", "rank_candidates": "compare",
     "analyse_noise": "analysis.noise", "noise_spectrum": "analysis.noise", "NoiseAnalysis": "analysis.noise",
     "opamp_loop": "analysis.return_ratio", "OpampLoop": "analysis.return_ratio",
@@ -64,9 +75,40 @@ _EXPORTS = {
     "check_design": "evidence.prelayout", "Prelayout": "evidence.prelayout",
     "DrawingSpec": "circuit.drawing", "Plan": "circuit.drawing", "automatic_plan": "circuit.drawing_auto",
     "plan_for": "circuit.drawing_auto", "circuit_svg": "report.schematic",
+    # the workflow from Python and every result type it returns
+    "spec_from_dict": "spec.reader", "run_loop": "spec.loop_table", "loop_to_dict": "spec.loop_table",
+    "LoopSpec": "spec.loop_table", "LoopResult": "spec.loop_table",
+    "LoopDesign": "loops.compensator", "LoopMonteCarlo": "loops.tolerance",
+    "SectionDesign": "design", "PartChoice": "design", "design_to_dict": "report.data",
+    "Comparison": "compare", "SectionComparison": "compare", "CandidateResult": "compare",
+    "Evidence": "evidence.gather", "SectionEvidence": "evidence.gather",
+    "MonteCarloResult": "evidence.tolerance", "CascadeMonteCarloResult": "evidence.tolerance",
+    "Statistics": "evidence.tolerance",
+    "Verification": "evidence.verify", "Margins": "evidence.verify",
+    "Candidate": "place.placement",
 }
 
 __all__ = ["__version__", *_EXPORTS]
+
+
+#: Exported functions named like the module that defines them (``placer.design``
+#: the function, from the module ``placer.design``).
+_SAME_NAME = frozenset(name for name, module in _EXPORTS.items() if name == module)
+
+
+class _Package(types.ModuleType):
+    """The package, whose functions ``design`` and ``compare`` stay functions.
+
+    Importing the module ``placer.design`` sets the package's attribute
+    ``design`` to that module; this keeps the function of that name instead.
+    The modules themselves are ``sys.modules["placer.design"]`` and are what
+    ``from placer.design import Design`` reads.
+    """
+
+    def __setattr__(self, name, value):
+        if name in _SAME_NAME and isinstance(value, types.ModuleType):
+            value = getattr(value, name)
+        super().__setattr__(name, value)
 
 
 def __getattr__(name):
@@ -80,3 +122,6 @@ def __getattr__(name):
 
 def __dir__():
     return sorted(__all__)
+
+
+sys.modules[__name__].__class__ = _Package

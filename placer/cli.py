@@ -142,6 +142,7 @@ def main(argv=None):
         if not args.command:
             parser.print_help()
             return 2
+        _check_early(args)
         return _COMMANDS[args.command](args)
     except UnreachableTarget as error:
         print(f"cannot reach the target: {error}", file=sys.stderr)
@@ -161,6 +162,42 @@ def main(argv=None):
 
 
 # -- helpers -------------------------------------------------------------------
+
+#: Tables whose keys and types a spec is checked for before anything heavy loads.
+_EARLY_TABLES = ("cascade", "parts", "candidates", "tolerance", "amplifier", "noise", "signal")
+
+
+def _check_early(args):
+    """Fail on a bad spec file or option before the numerical stack loads.
+
+    The commands import sympy, scipy, python-control and matplotlib (about
+    two seconds); a missing, unreadable or malformed spec, an unknown
+    table or key, a missing output folder or a bad count is found first
+    with `placer.schema` and the standard library only. The commands run
+    the same checks (and all the others) again when they load the spec.
+    """
+    spec = getattr(args, "spec", None)
+    if spec is None:
+        return
+    from .schema import check_table, read_toml
+
+    data = read_toml(spec, what="spec file")
+    check_table(data, "", source=str(spec))
+    for name in _EARLY_TABLES:
+        if name in data:
+            check_table(data[name], name, source=str(spec))
+    for option in ("json", "bom", "report"):
+        path = getattr(args, option, None)
+        if path and path != "-":
+            check_output_path(path, inputs=(spec,), option=f"--{option}")
+    plots = getattr(args, "plots", None)
+    if plots and not Path(plots).is_dir():
+        raise SpecError(f"--plots: folder {plots!r} does not exist")
+    _check_schematic_folder(getattr(args, "schematic", None))
+    if args.command in ("design", "loop"):  # compare leaves its counts to compare()
+        _check_counts(("--samples", args.samples if args.command == "design" else None, 1),
+                      ("--seed", args.seed, 0), ("--workers", args.workers, 1))
+
 
 def _emit_json(data, destination, *, inputs=(), option="--json"):
     text = json.dumps(data, indent=2, allow_nan=False) + "\n"

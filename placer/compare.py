@@ -213,6 +213,20 @@ class Comparison:
     gbw: str
     sections: tuple
 
+    # report/ sits above this module in the layering: the notebook view is
+    # imported on use (see placer.report.notebook), so no plotting loads before.
+    def _repr_html_(self):
+        """The notebook view: tables and plots (inline SVG), self-contained."""
+        from .report.notebook import comparison_html
+
+        return comparison_html(self)
+
+    def plot(self, **options):
+        """The main figure of one section (``section=``, default 1): yield and error of each candidate, a matplotlib Figure (see :func:`placer.report.notebook.plot`)."""
+        from .report.notebook import comparison_figure
+
+        return comparison_figure(self, **options)
+
 
 def _finite(x):
     return x if x is not None and math.isfinite(x) else math.inf

@@ -129,6 +129,20 @@ class Design:
     def parts(self):
         return tuple(p for s in self.sections for p in s.parts)
 
+    # report/ sits above this module in the layering: the notebook view is
+    # imported on use (see placer.report.notebook), so no plotting loads before.
+    def _repr_html_(self):
+        """The notebook view: tables and plots (inline SVG), self-contained."""
+        from .report.notebook import design_html
+
+        return design_html(self)
+
+    def plot(self, **options):
+        """The main figure: the Bode plot of target and built cascade, a matplotlib Figure (see :func:`placer.report.notebook.plot`)."""
+        from .report.notebook import design_figure
+
+        return design_figure(self, **options)
+
 
 def candidate_topologies(section, spec=None):
     """Topologies to try for a section, and files that failed to load.

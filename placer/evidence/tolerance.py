@@ -179,6 +179,20 @@ class MonteCarloResult:
         """20·log10|nominal gain|, dB."""
         return float(_db(self.nominal_gain))
 
+    # report/ sits above this module in the layering: the notebook view is
+    # imported on use (see placer.report.notebook), so no plotting loads before.
+    def _repr_html_(self):
+        """The notebook view: tables and plots (inline SVG), self-contained."""
+        from ..report.notebook import monte_carlo_html
+
+        return monte_carlo_html(self)
+
+    def plot(self, **options):
+        """The main figure: the f0 histogram with the nominal and the window, a matplotlib Figure (see :func:`placer.report.notebook.plot`)."""
+        from ..report.notebook import monte_carlo_figure
+
+        return monte_carlo_figure(self, **options)
+
 
 @dataclass(frozen=True, eq=False)
 class CascadeMonteCarloResult:

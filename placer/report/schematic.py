@@ -60,6 +60,10 @@ class Schematic:
     layout: Layout
     title: str | None = None
 
+    def _repr_svg_(self):
+        """A notebook shows a schematic as its SVG (IEC resistors)."""
+        return render_svg(self)
+
 
 def check_resistor_style(style: str) -> str:
     """Return `style` if it is one of :data:`RESISTOR_STYLES`, else raise SpecError."""

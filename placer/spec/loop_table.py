@@ -54,6 +54,20 @@ class LoopResult:
     design: LoopDesign
     monte_carlo: LoopMonteCarlo | None
 
+    # report/ sits above this module in the layering: the notebook view is
+    # imported on use (see placer.report.notebook), so no plotting loads before.
+    def _repr_html_(self):
+        """The notebook view: tables and plots (inline SVG), self-contained."""
+        from ..report.notebook import loop_html
+
+        return loop_html(self)
+
+    def plot(self, **options):
+        """The main figure: the loop gain with its margins, a matplotlib Figure (see :func:`placer.report.notebook.plot`)."""
+        from ..report.notebook import loop_figure
+
+        return loop_figure(self, **options)
+
 
 def _series_and_ranges(loop: Mapping, parts: Any, where: str) -> dict:
     """The parts' series ([loop] or [parts], not both at odds) and [parts] ranges."""
