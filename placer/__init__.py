@@ -15,6 +15,7 @@ The public names below load their module on first use, so that
 """
 
 import importlib
+from typing import Any
 
 __version__ = "0.1.0"
 
@@ -69,7 +70,7 @@ _EXPORTS = {
 __all__ = ["__version__", *_EXPORTS]
 
 
-def __getattr__(name):
+def __getattr__(name: str) -> Any:
     module = _EXPORTS.get(name)
     if module is None:
         raise AttributeError(f"module 'placer' has no attribute {name!r}")
@@ -78,5 +79,5 @@ def __getattr__(name):
     return value
 
 
-def __dir__():
+def __dir__() -> list[str]:
     return sorted(__all__)
