@@ -221,6 +221,13 @@ def _approximation_target(reader: _TableReader, response: str, gain_db: float) -
         options.get("normalisation") == "passband_edge"
     needs_attenuation = approximation in ("chebyshev2", "elliptic") or mask or \
         options.get("normalisation") == "stopband_edge"
+    if mask:
+        for key in ("ripple", "attenuation"):
+            if key not in reader:
+                raise SpecError(
+                    f"{reader.source}: target.{key} is missing: passband_edge and stopband_edge "
+                    "set a mask, which needs ripple and attenuation (dB, for example "
+                    "ripple = \"1 dB\", attenuation = \"40 dB\")")
     ripple = reader.number("ripple", "dB", "ripple") if needs_ripple else None
     attenuation = reader.number("attenuation", "dB", "attenuation") if needs_attenuation else None
     if approximation == "bessel" and options.get("normalisation", "cutoff") == "cutoff":
