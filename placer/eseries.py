@@ -234,13 +234,15 @@ def _decompose(
     return array, decade, mantissa
 
 
-def _floor(decade: NDArray[np.int64], mantissa: NDArray[np.float64], name: str) -> NDArray[np.float64]:
+def _floor(decade: NDArray[np.int64], mantissa: NDArray[np.float64],
+           name: str) -> NDArray[np.float64]:
     integers, scale, table = _EXTENDED[name]
     index = np.searchsorted(table, mantissa * (1 + RELATIVE_TOLERANCE), "right") - 1
     return _scaled(integers[index], decade - scale)
 
 
-def _ceil(decade: NDArray[np.int64], mantissa: NDArray[np.float64], name: str) -> NDArray[np.float64]:
+def _ceil(decade: NDArray[np.int64], mantissa: NDArray[np.float64],
+          name: str) -> NDArray[np.float64]:
     integers, scale, table = _EXTENDED[name]
     index = np.searchsorted(table, mantissa * (1 - RELATIVE_TOLERANCE), "left")
     return _scaled(integers[index], decade - scale)

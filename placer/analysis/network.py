@@ -466,7 +466,7 @@ def network_function(circuit: Circuit, *, max_terms: int | None = None) -> Netwo
         generator_of[element.symbol] = generator
 
     # Stamps as (generator index or None, exact number, power of s) terms.
-    terms_at: dict[tuple[int, int], list[tuple[int | None, sympy.Rational, int]]] = {}
+    terms_at: dict[tuple[int, int], list[_Term]] = {}
     integral = True
     for stamp in stamps(circuit, lay):
         number = _rational(stamp.factor)
@@ -519,6 +519,8 @@ def network_function(circuit: Circuit, *, max_terms: int | None = None) -> Netwo
 
 #: The symbolic path's polynomials (python-flint).
 _FlintPoly = flint.fmpz_mpoly | flint.fmpq_mpoly
+#: A stamp's term in the ring: (generator index or None, exact number, power of s).
+_Term = tuple[int | None, sympy.Rational, int]
 #: One of the two, the same for every argument of a function.
 _P = TypeVar("_P", flint.fmpz_mpoly, flint.fmpq_mpoly)
 
@@ -536,7 +538,7 @@ def _flint_ring(count: int, integral: bool) -> flint.fmpz_mpoly_ctx | flint.fmpq
 
 
 def _matrix_entries(ring: flint.fmpz_mpoly_ctx | flint.fmpq_mpoly_ctx,
-                    terms_at: Mapping[tuple[int, int], list[tuple[int | None, sympy.Rational, int]]],
+                    terms_at: Mapping[tuple[int, int], list[_Term]],
                     ) -> dict[tuple[int, int], _FlintPoly]:
     """The MNA entries as ring elements from (generator, number, power) terms."""
     nvars = ring.nvars()

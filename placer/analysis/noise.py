@@ -262,7 +262,8 @@ def transfers_to_output(adjoint: NDArray[np.complex128], sources: NoiseSources,
     return out
 
 
-def noise_spectrum(circuit: Circuit, frequency_hz: ArrayLike, *, temperature: float = DEFAULT_TEMPERATURE,
+def noise_spectrum(circuit: Circuit, frequency_hz: ArrayLike, *,
+                   temperature: float = DEFAULT_TEMPERATURE,
                    noise_voltage: float | None = None,
                    noise_current: float | None = None) -> NoiseSpectrum:
     """Every source's output noise density over frequency, by one adjoint solve each.
@@ -413,7 +414,8 @@ def check_band(band_hz: Iterable[float]) -> tuple[float, float]:
     return low, high
 
 
-def analyse_noise(circuit: Circuit, band_hz: Iterable[float], *, temperature: float = DEFAULT_TEMPERATURE,
+def analyse_noise(circuit: Circuit, band_hz: Iterable[float], *,
+                  temperature: float = DEFAULT_TEMPERATURE,
                   noise_voltage: float | None = None, noise_current: float | None = None,
                   poles: Iterable[complex] | None = None,
                   points_per_decade: int = 100) -> NoiseAnalysis:

@@ -107,7 +107,8 @@ def circuit_roots(circuit: Circuit, values: Mapping[str, float] | None = None) -
                         gain_imaginary=float(abs(k.imag) / abs(k)) if k else 0.0)
 
 
-def circuit_poles(circuit: Circuit, values: Mapping[str, float] | None = None) -> NDArray[np.complex128]:
+def circuit_poles(circuit: Circuit,
+                  values: Mapping[str, float] | None = None) -> NDArray[np.complex128]:
     """Poles (rad/s) of a circuit with numeric parts, from the MNA pencil."""
     return circuit_roots(circuit, values).poles
 
@@ -133,7 +134,8 @@ def natural_frequencies(circuit: Circuit, values: Mapping[str, float] | None = N
     return _finite_eigenvalues(-system.G, system.C)
 
 
-def circuit_zeros(circuit: Circuit, values: Mapping[str, float] | None = None) -> NDArray[np.complex128]:
+def circuit_zeros(circuit: Circuit,
+                  values: Mapping[str, float] | None = None) -> NDArray[np.complex128]:
     """Finite zeros (rad/s) of the input-to-output function, numerically."""
     return circuit_roots(circuit, values).zeros
 
@@ -183,7 +185,8 @@ def _zeros_of(system: NumericSystem) -> NDArray[np.complex128]:
     return _finite_eigenvalues(-G, C)
 
 
-def _cancel_pairs(poles: Iterable[complex], zeros: Iterable[complex], rtol: float = 1e-7) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
+def _cancel_pairs(poles: Iterable[complex], zeros: Iterable[complex],
+                  rtol: float = 1e-7) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
     """Drop pole-zero pairs that coincide (uncontrollable or unobservable modes)."""
     poles = list(poles)
     kept_zeros = []

@@ -155,7 +155,8 @@ def _gain(numerator: NDArray[Any], denominator: NDArray[Any], ref: _Reference) -
     return np.abs(polynomial_values(numerator, s) / polynomial_values(denominator, s))
 
 
-def _dominant_pair(denominator: NDArray[Any], omega_ref: float) -> tuple[NDArray[Any], NDArray[Any]]:
+def _dominant_pair(denominator: NDArray[Any],
+                   omega_ref: float) -> tuple[NDArray[Any], NDArray[Any]]:
     """ω0 and Q of the complex pair with the highest Q, per column.
 
     With no complex pair, the two real poles nearest the origin are taken

@@ -179,7 +179,8 @@ def _bands(response: str, omega: float, frequency_hz: float | None, center_hz: f
     if response == "bandpass":     # s → (s² + ω0²)/(B s): Ω ↦ edges Ω·B apart
         low, high = _band_edges(cast(float, center_hz), cast(float, bandwidth_hz) * omega)
         return ((low, high),) if passing else ((0.0, low), (high, math.inf))
-    low, high = _band_edges(cast(float, center_hz), cast(float, bandwidth_hz) / omega)  # band-stop: B s/(s² + ω0²)
+    # band-stop: B s/(s² + ω0²)
+    low, high = _band_edges(cast(float, center_hz), cast(float, bandwidth_hz) / omega)
     return ((0.0, low), (high, math.inf)) if passing else ((low, high),)
 
 

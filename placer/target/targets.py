@@ -354,7 +354,8 @@ class Section:
             raise SpecError(
                 f"kind = {self.kind!r} does not fit a zero at {self.zero_omega:.6g} rad/s "
                 f"and poles at {self.omega0:.6g} rad/s: that is a "
-                f"{notch_kind(self.omega0, cast(float, self.zero_omega))!r} section (a low-pass notch "
+                f"{notch_kind(self.omega0, cast(float, self.zero_omega))!r} section "
+                "(a low-pass notch "
                 "has its zeros above the pole frequency, a high-pass notch below)")
         object.__setattr__(self, "poles", tuple(complex(p) for p in self.poles))
         object.__setattr__(self, "zeros", tuple(complex(z) for z in self.zeros))
