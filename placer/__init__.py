@@ -27,6 +27,7 @@ Results show themselves in a notebook (``_repr_html_``, from
 import importlib
 import sys
 import types
+from typing import Any
 
 __version__ = "0.1.0"
 
@@ -105,13 +106,13 @@ class _Package(types.ModuleType):
     ``from placer.design import Design`` reads.
     """
 
-    def __setattr__(self, name, value):
+    def __setattr__(self, name: str, value: Any) -> None:
         if name in _SAME_NAME and isinstance(value, types.ModuleType):
             value = getattr(value, name)
         super().__setattr__(name, value)
 
 
-def __getattr__(name):
+def __getattr__(name: str) -> Any:
     module = _EXPORTS.get(name)
     if module is None:
         raise AttributeError(f"module 'placer' has no attribute {name!r}")
@@ -120,7 +121,7 @@ def __getattr__(name):
     return value
 
 
-def __dir__():
+def __dir__() -> list[str]:
     return sorted(__all__)
 
 

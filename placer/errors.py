@@ -6,6 +6,7 @@ reason in words and the library topologies that could reach it.
 :func:`brief` shows a user's value in a message, cut to a readable length.
 """
 
+from collections.abc import Iterable
 from typing import Any
 
 __all__ = [
@@ -74,7 +75,7 @@ class UnreachableTarget(PlacerError):
         Library topology ids that can reach the target.
     """
 
-    def __init__(self, reason, alternatives=()):
+    def __init__(self, reason: object, alternatives: Iterable[str] = ()) -> None:
         self.reason = str(reason)
         self.alternatives = tuple(alternatives)
         message = self.reason

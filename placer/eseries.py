@@ -24,6 +24,7 @@ import numbers
 from dataclasses import dataclass
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from placer.errors import SpecError
 
@@ -125,7 +126,7 @@ class Neighbours:
     above: float
 
 
-def check_series(name, *, field="series"):
+def check_series(name: object, *, field: str = "series") -> str:
     """Return the canonical series name, or raise SpecError.
 
     Parameters
@@ -152,7 +153,7 @@ def check_series(name, *, field="series"):
     )
 
 
-def mantissas(name):
+def mantissas(name: str) -> tuple[float, ...]:
     """The series values of one decade, from 1 up to (not including) 10.
 
     Examples
@@ -166,7 +167,7 @@ def mantissas(name):
     return tuple(n / 10**scale for n in table)
 
 
-def usual_tolerance(name):
+def usual_tolerance(name: str) -> float:
     """The part tolerance a series is usually sold in, as a fraction.
 
     E6 20 %, E12 10 %, E24 5 %, E48 2 %, E96 1 %, E192 0.5 %, and E3 40 %
@@ -180,7 +181,7 @@ def usual_tolerance(name):
     return _USUAL_TOLERANCE[check_series(name)]
 
 
-def _scaled(integers, powers):
+def _scaled(integers: NDArray[np.int64], powers: ArrayLike) -> NDArray[np.float64]:
     """integers * 10**powers, correctly rounded when |powers| <= 22."""
     powers = np.asarray(powers)
     # One of the two factors is 1.0, so this is a single rounding.
@@ -189,7 +190,7 @@ def _scaled(integers, powers):
     return integers * up / down
 
 
-def _extended(name):
+def _extended(name: str) -> tuple[NDArray[np.int64], int, NDArray[np.float64]]:
     """One decade with a value on each side, as (integers, scale, floats)."""
     table, scale = _TABLES[check_series(name)]
     # Scale one step finer, so that the last value of the decade below fits.
@@ -203,7 +204,7 @@ def _extended(name):
 _EXTENDED = {name: _extended(name) for name in SERIES_NAMES}
 
 
-def _positive_array(values, field):
+def _positive_array(values: ArrayLike, field: str) -> NDArray[np.float64]:
     try:
         array = np.asarray(values, dtype=float)
     except (TypeError, ValueError):
@@ -218,7 +219,9 @@ def _positive_array(values, field):
     return array
 
 
-def _decompose(values, name, field):
+def _decompose(
+    values: ArrayLike, name: str, field: str
+) -> tuple[NDArray[np.float64], NDArray[np.int64], NDArray[np.float64]]:
     """Split values into (array, decade, approximate mantissa in [1, 10))."""
     array = _positive_array(values, field)
     decade = np.floor(np.log10(array)).astype(np.int64)
@@ -231,19 +234,21 @@ def _decompose(values, name, field):
     return array, decade, mantissa
 
 
-def _floor(decade, mantissa, name):
+def _floor(decade: NDArray[np.int64], mantissa: NDArray[np.float64],
+           name: str) -> NDArray[np.float64]:
     integers, scale, table = _EXTENDED[name]
     index = np.searchsorted(table, mantissa * (1 + RELATIVE_TOLERANCE), "right") - 1
     return _scaled(integers[index], decade - scale)
 
 
-def _ceil(decade, mantissa, name):
+def _ceil(decade: NDArray[np.int64], mantissa: NDArray[np.float64],
+          name: str) -> NDArray[np.float64]:
     integers, scale, table = _EXTENDED[name]
     index = np.searchsorted(table, mantissa * (1 - RELATIVE_TOLERANCE), "left")
     return _scaled(integers[index], decade - scale)
 
 
-def floor_values(values, name, *, field="values"):
+def floor_values(values: ArrayLike, name: str, *, field: str = "values") -> NDArray[np.float64]:
     """Largest series value at or below each value (vectorised).
 
     Parameters
@@ -271,7 +276,7 @@ def floor_values(values, name, *, field="values"):
     return _floor(decade, mantissa, name)
 
 
-def ceil_values(values, name, *, field="values"):
+def ceil_values(values: ArrayLike, name: str, *, field: str = "values") -> NDArray[np.float64]:
     """Smallest series value at or above each value (vectorised).
 
     Parameters and returns as for :func:`floor_values`.
@@ -286,7 +291,7 @@ def ceil_values(values, name, *, field="values"):
     return _ceil(decade, mantissa, name)
 
 
-def nearest_values(values, name, *, field="values"):
+def nearest_values(values: ArrayLike, name: str, *, field: str = "values") -> NDArray[np.float64]:
     """Nearest series value (in ratio) to each value (vectorised).
 
     Parameters and returns as for :func:`floor_values`; ties go to the lower
@@ -305,7 +310,7 @@ def nearest_values(values, name, *, field="values"):
     return np.where(array / below > above / array, above, below)
 
 
-def _positive_scalar(value, field):
+def _positive_scalar(value: object, field: str) -> float:
     if isinstance(value, bool) or not isinstance(value, numbers.Real):
         raise SpecError(f"{field} must be a positive number, not {value!r}")
     value = float(value)
@@ -314,7 +319,7 @@ def _positive_scalar(value, field):
     return value
 
 
-def nearest(value, name, *, field="value"):
+def nearest(value: float, name: str, *, field: str = "value") -> float:
     """The series value nearest (in ratio) to `value`.
 
     Examples
@@ -326,7 +331,7 @@ def nearest(value, name, *, field="value"):
     return float(nearest_values(np.array([value]), name, field=field)[0])
 
 
-def neighbours(value, name, *, field="value"):
+def neighbours(value: float, name: str, *, field: str = "value") -> Neighbours:
     """The series values just below and just above `value`.
 
     Examples
@@ -344,7 +349,7 @@ def neighbours(value, name, *, field="value"):
     )
 
 
-def series_values(name, low, high):
+def series_values(name: str, low: float, high: float) -> NDArray[np.float64]:
     """All series values from `low` to `high` inclusive, across decades.
 
     Parameters

@@ -29,7 +29,7 @@ import errno
 import math
 import numbers
 import tomllib
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -372,7 +372,7 @@ def _is_number(value: Any) -> bool:
     return isinstance(value, (numbers.Real, str)) and not isinstance(value, bool)
 
 
-def _list_ok(value: Any, item_ok) -> int | None:
+def _list_ok(value: Any, item_ok: Callable[[Any], bool]) -> int | None:
     """Index of the first bad item of a list (None when all are good)."""
     for i, item in enumerate(value):
         if not item_ok(item):

@@ -28,6 +28,7 @@ import math
 import numbers
 import re
 from dataclasses import dataclass
+from typing import NoReturn, SupportsFloat
 
 from placer.errors import SpecError
 
@@ -105,7 +106,7 @@ class Quantity:
     unit: str
 
 
-def _fail(field, text, detail=""):
+def _fail(field: str, text: str, detail: str = "") -> NoReturn:
     shown = text if len(text) <= 60 else text[:57] + "..."
     why = f" ({detail})" if detail else ""
     raise SpecError(
@@ -114,7 +115,7 @@ def _fail(field, text, detail=""):
     )
 
 
-def _read_suffix(suffix):
+def _read_suffix(suffix: str) -> tuple[int, str] | None:
     """Split the text after the number into (power of ten, unit), or None."""
     if suffix == "":
         return 0, ""
@@ -129,7 +130,7 @@ def _read_suffix(suffix):
     return None
 
 
-def _from_number(number, field):
+def _from_number(number: numbers.Real, field: str) -> Quantity:
     if isinstance(number, bool) or not math.isfinite(number):
         raise SpecError(
             f"{field}: {number!r} is not a finite number; "
@@ -138,7 +139,7 @@ def _from_number(number, field):
     return Quantity(float(number), "")
 
 
-def parse_quantity(text, *, field="value"):
+def parse_quantity(text: object, *, field: str = "value") -> Quantity:
     """Read engineering notation into a value and a unit.
 
     Parameters
@@ -237,7 +238,7 @@ def parse_quantity(text, *, field="value"):
     return Quantity(value, unit)
 
 
-def _normalise_unit(unit, field):
+def _normalise_unit(unit: object, field: str) -> str:
     if not isinstance(unit, str):
         raise SpecError(f"{field}: unit must be one of {UNITS}, not {unit!r}")
     if unit in UNITS:
@@ -247,7 +248,7 @@ def _normalise_unit(unit, field):
     raise SpecError(f"{field}: unit must be one of {UNITS}, not {unit!r}")
 
 
-def parse_value(text, *, unit=None, field="value"):
+def parse_value(text: object, *, unit: str | None = None, field: str = "value") -> float:
     """Read engineering notation into a float, checking the unit.
 
     Parameters
@@ -295,13 +296,13 @@ def parse_value(text, *, unit=None, field="value"):
     return quantity.value
 
 
-def _significant(x, digits):
+def _significant(x: float, digits: int) -> tuple[str, int]:
     """Round |x| to `digits` significant digits: (digit string, exponent)."""
     mantissa, exponent = f"{abs(x):.{digits - 1}e}".split("e")
     return mantissa.replace(".", ""), int(exponent)
 
 
-def _place_point(digit_string, integer_digits):
+def _place_point(digit_string: str, integer_digits: int) -> str:
     """Write digits with `integer_digits` before the point, no trailing zeros."""
     if integer_digits <= 0:
         digit_string = "0" * (1 - integer_digits) + digit_string
@@ -312,7 +313,7 @@ def _place_point(digit_string, integer_digits):
     return whole + ("." + fraction if fraction else "")
 
 
-def format_value(x, unit="", *, digits=3):
+def format_value(x: float, unit: str = "", *, digits: int = 3) -> str:
     """Write a number in engineering notation with an SI prefix.
 
     Parameters
@@ -375,7 +376,7 @@ def format_value(x, unit="", *, digits=3):
     return f"{sign}{number}e{exponent}{space}{symbol}"
 
 
-def format_percent(fraction, *, digits=3):
+def format_percent(fraction: float, *, digits: int = 3) -> str:
     """Write a fraction as a percentage.
 
     Examples
@@ -386,7 +387,7 @@ def format_percent(fraction, *, digits=3):
     return format_value(fraction, "%", digits=digits)
 
 
-def format_db(x, *, digits=3):
+def format_db(x: float, *, digits: int = 3) -> str:
     """Write a level in decibels.
 
     Examples
@@ -397,7 +398,7 @@ def format_db(x, *, digits=3):
     return format_value(x, "dB", digits=digits)
 
 
-def finite_or_none(x):
+def finite_or_none(x: SupportsFloat | None) -> float | None:
     """A number as a float for data output, or None for None, inf and nan.
 
     JSON has no infinity or NaN; "no value" is written as null.

@@ -212,3 +212,28 @@ def test_rejection_window_in_db(tmp_path):
 def test_bad_rejection_window(tmp_path, bad):
     message = load_error(tmp_path, spec_text() + f'\n[tolerance]\nrejection = {bad}\n')
     assert "tolerance.rejection" in message
+
+
+MASK_TARGET = """
+[target]
+approximation = "butterworth"
+passband_edge = "1 kHz"
+stopband_edge = "3 kHz"
+{levels}
+"""
+
+
+@pytest.mark.parametrize("levels, missing", [('attenuation = "40 dB"', "ripple"),
+                                             ('ripple = "1 dB"', "attenuation")])
+def test_a_mask_without_both_levels_is_named(tmp_path, levels, missing):
+    # Once a TypeError from `None - margin`; now the one-line error.
+    message = load_error(tmp_path, MASK_TARGET.format(levels=levels))
+    assert f"target.{missing} is missing" in message
+
+
+def test_a_mask_with_both_levels_sets_the_order(tmp_path):
+    spec = load_spec(write_spec(tmp_path, MASK_TARGET.format(
+        levels='ripple = "1 dB"\nattenuation = "40 dB"')))
+    # Butterworth order n >= log10((10^(A/10) - 1)/(10^(R/10) - 1)) / (2 log10(fs/fp))
+    # = log10(9999/0.2589)/(2 log10 3) = 4.81, so 5 (common practice)
+    assert spec.target.order == 5

@@ -62,6 +62,14 @@ if TYPE_CHECKING:
         circuit_gain,
         circuit_response,
     )
+    from .protocols import (
+        ComplexArray,
+        FloatArray,
+        PartFunction,
+        PartValues,
+        RootTargets,
+        RootedFunction,
+    )
     from .response import (
         Response,
     )
@@ -117,6 +125,12 @@ _EXPORTS = {
     "is_model_resistor": "noise",
     "opamp_input_coefficient": "noise",
     "natural_frequencies": "pencil",
+    "ComplexArray": "protocols",
+    "FloatArray": "protocols",
+    "PartFunction": "protocols",
+    "PartValues": "protocols",
+    "RootTargets": "protocols",
+    "RootedFunction": "protocols",
     "Response": "response",
     "PHASE_MARGIN_FLOOR_DEG": "return_ratio",
     "OpampLoop": "return_ratio",

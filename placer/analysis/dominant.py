@@ -23,11 +23,18 @@ from __future__ import annotations
 
 import itertools
 import math
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from typing import Any, cast
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from .network import batched_roots
+from .protocols import ComplexArray, FloatArray, PartFunction, PartValues, RootTargets
+
+#: An array of any dtype (the numeric helpers mix real and complex rows).
+_Array = NDArray[Any]
 
 __all__ = [
     "polished_roots",
@@ -42,7 +49,8 @@ _SMALL_BATCH = 4
 
 # -- roots of many polynomials at once ---------------------------------------
 
-def polished_roots(coefficients, omega_ref=1.0, *, near=None):
+def polished_roots(coefficients: ArrayLike, omega_ref: float = 1.0, *,
+                   near: Sequence[complex] | None = None) -> ComplexArray:
     """Roots of many polynomials at once, polished (vectorised over the batch).
 
     Degrees up to two are solved in closed form. Higher degrees use the
@@ -101,7 +109,7 @@ def polished_roots(coefficients, omega_ref=1.0, *, near=None):
     return roots.reshape(*batch, roots.shape[1])
 
 
-def _normalise(c, omega_ref):
+def _normalise(c: _Array, omega_ref: float) -> tuple[_Array, NDArray[np.bool_], int]:
     """Monic polynomials in s/omega_ref from coefficient rows (n + 1, B).
 
     Leading rows that are zero in every sample are dropped; trailing ones
@@ -124,7 +132,7 @@ def _normalise(c, omega_ref):
     return monic, good, origin
 
 
-def _monic_roots(monic, hint=None):
+def _monic_roots(monic: _Array, hint: _Array | None = None) -> _Array:
     """Roots (B, n) of monic polynomials (n + 1, B); `hint`: a root pair, scaled."""
     n = monic.shape[0] - 1
     count = monic.shape[1]
@@ -143,7 +151,7 @@ def _monic_roots(monic, hint=None):
     return x
 
 
-def _start_factor(monic, pair):
+def _start_factor(monic: _Array, pair: _Array) -> tuple[_Array, _Array]:
     """Where to start the quadratic-factor search, per sample.
 
     When the other roots are much larger than the pair (parasitic poles
@@ -159,12 +167,12 @@ def _start_factor(monic, pair):
     return np.where(usable, u, u0), np.where(usable, v, v0)
 
 
-def _pair_factor(pair):
+def _pair_factor(pair: Sequence[complex] | _Array) -> tuple[float, float]:
     """(u, v) of x² + u·x + v with the roots `pair`."""
     return -float((pair[0] + pair[1]).real), float((pair[0] * pair[1]).real)
 
 
-def _low_degree_roots(monic):
+def _low_degree_roots(monic: _Array) -> _Array:
     """Roots of monic polynomials of degree 0, 1 or 2, shape (n + 1, B) -> (B, n)."""
     n = monic.shape[0] - 1
     if n == 0:
@@ -184,14 +192,14 @@ def _low_degree_roots(monic):
     return np.stack([first, second], axis=1)
 
 
-def _small_roots(monic):
+def _small_roots(monic: _Array) -> _Array:
     """Roots of the (short) quotient polynomials, closed form when possible."""
     if monic.shape[0] <= 3:
         return _low_degree_roots(monic)
     return _eigen_roots(monic)
 
 
-def _eigen_roots(monic):
+def _eigen_roots(monic: _Array) -> _Array:
     """Companion-matrix eigenvalues of monic polynomials (n + 1, B) -> (B, n), polished.
 
     An empty batch (B = 0) gives an empty (0, n) array: the companion
@@ -203,7 +211,8 @@ def _eigen_roots(monic):
     return _polish(monic.T, batched_roots(monic))
 
 
-def _bairstow(monic, u, v, *, iterations=30, tolerance=1e-13):
+def _bairstow(monic: _Array, u: float | _Array, v: float | _Array, *, iterations: int = 30,
+              tolerance: float = 1e-13) -> tuple[_Array, _Array, NDArray[np.bool_]]:
     """Quadratic factors x² + u·x + v of monic polynomials (n + 1, B), n ≥ 3.
 
     Newton's method on the remainder of the division, from (u, v) (one
@@ -254,7 +263,7 @@ def _bairstow(monic, u, v, *, iterations=30, tolerance=1e-13):
     return factor, b[: n - 1], converged & np.isfinite(u) & np.isfinite(v)
 
 
-def _polish(monic, x, steps=2):
+def _polish(monic: _Array, x: _Array, steps: int = 2) -> _Array:
     """Newton steps on every root of every monic polynomial (B, n+1)."""
     n = monic.shape[1] - 1
     for _ in range(steps):
@@ -273,7 +282,7 @@ def _polish(monic, x, steps=2):
     return x
 
 
-def _poly_rows(roots):
+def _poly_rows(roots: _Array) -> _Array:
     """Coefficients of Π(s − r) over the last axis, highest first: (k + 1, B)."""
     count, k = roots.shape
     out = np.zeros((k + 1, count), dtype=complex)
@@ -283,7 +292,7 @@ def _poly_rows(roots):
     return out
 
 
-def nearest_root_set(roots, targets):
+def nearest_root_set(roots: _Array, targets: Sequence[complex] | _Array) -> NDArray[np.bool_]:
     """Which roots of each sample form the set nearest some targets.
 
     Every k-subset of the n roots whose polynomial is real (closed under
@@ -344,7 +353,8 @@ def nearest_root_set(roots, targets):
 
 # -- the dominant part of a network function ---------------------------------
 
-def _dominant_split(coefficients, targets, omega_ref, *, with_rest=False):
+def _dominant_split(coefficients: _Array, targets: Sequence[complex] | _Array, omega_ref: float, *,
+                    with_rest: bool = False) -> _RootSplit:
     """Split the roots of each polynomial into the set nearest `targets` and the rest.
 
     Parameters
@@ -414,7 +424,7 @@ def _dominant_split(coefficients, targets, omega_ref, *, with_rest=False):
         if np.any(fast):
             dominant[fast] = _by_size(pair[fast]) * omega_ref
             product[fast] = quotient[-1, fast] * omega_ref ** (n - 2)
-            if with_rest:
+            if rest is not None:  # with_rest
                 rest[fast] = _by_size(_small_roots(quotient[:, fast])) * omega_ref
     slow = ~fast
     valid = fast.copy()
@@ -434,13 +444,14 @@ def _dominant_split(coefficients, targets, omega_ref, *, with_rest=False):
         others = _take(x, ~mask, rest_count) * omega_ref
         dominant[slow] = _take(x, mask, k) * omega_ref
         product[slow] = np.prod(-others, axis=1)
-        if with_rest:
+        if rest is not None:  # with_rest
             rest[slow] = others
         valid[slow] = np.sum(mask, axis=1) == k
     return _RootSplit(dominant, product, rest, valid & good)
 
 
-def _split_each(monic, good, origin, scaled, omega_ref, with_rest):
+def _split_each(monic: _Array, good: NDArray[np.bool_], origin: int, scaled: _Array,
+                omega_ref: float, with_rest: bool) -> _RootSplit:
     """:func:`_dominant_split` for a few samples, one at a time (less overhead)."""
     n = monic.shape[0] - 1
     count = monic.shape[1]
@@ -470,13 +481,13 @@ def _split_each(monic, good, origin, scaled, omega_ref, with_rest):
         others = sorted((x[i] * omega_ref for i in range(total) if i not in chosen), key=abs)
         dominant[j] = picked
         product[j] = math.prod(-r for r in others)
-        if with_rest:
+        if rest is not None:  # with_rest
             rest[j] = others
         valid[j] = True
     return _RootSplit(dominant, product, rest, valid)
 
 
-def _is_real_set(roots):
+def _is_real_set(roots: Sequence[complex]) -> bool:
     """True when Π(x − r) over `roots` has real coefficients (within round-off)."""
     coefficients = [1 + 0j]
     for r in roots:
@@ -485,7 +496,7 @@ def _is_real_set(roots):
     return all(abs(c.imag) <= _REAL_TOLERANCE * size for c in coefficients)
 
 
-def _root_floor(monic):
+def _root_floor(monic: _Array) -> _Array:
     """A lower bound on the root magnitudes of monic polynomials (m + 1, B).
 
     Fujiwara's upper bound applied to the reversed polynomial.
@@ -502,7 +513,7 @@ def _root_floor(monic):
     return np.where(np.isfinite(floor) & (last != 0), floor, 0.0)
 
 
-def _by_size(roots):
+def _by_size(roots: _Array) -> _Array:
     return np.take_along_axis(roots, np.argsort(np.abs(roots), axis=1, kind="stable"), axis=1)
 
 
@@ -555,34 +566,35 @@ class DominantFunction:
     1
     """
 
-    full: object
-    target_poles: tuple
-    target_zeros: tuple = ()
+    full: PartFunction
+    target_poles: tuple[complex, ...]
+    target_zeros: tuple[complex, ...] = ()
     omega_ref: float = 1.0
 
     @classmethod
-    def for_goal(cls, full, goal):
+    def for_goal(cls, full: PartFunction, goal: RootTargets) -> DominantFunction:
         """The dominant part matching a :class:`placer.place.solve.Goal`'s roots."""
         return cls(full=full, target_poles=tuple(goal.poles), target_zeros=tuple(goal.zeros),
                    omega_ref=float(goal.omega_ref))
 
     @property
-    def symbols(self):
+    def symbols(self) -> Mapping[str, Any]:
         return self.full.symbols
 
     @property
-    def gain_kind(self):
+    def gain_kind(self) -> str:
         return self.full.gain_kind
 
     @property
-    def order(self):
+    def order(self) -> int:
         return len(self.target_poles)
 
-    def _trivial(self, numerator, denominator):
+    def _trivial(self, numerator: FloatArray, denominator: FloatArray) -> bool:
         return (denominator.shape[0] - 1 <= len(self.target_poles)
                 and numerator.shape[0] - 1 <= len(self.target_zeros))
 
-    def _splits(self, numerator, denominator, with_rest=False):
+    def _splits(self, numerator: FloatArray, denominator: FloatArray,
+                with_rest: bool = False) -> tuple[_RootSplit, _RootSplit | None]:
         flat_d = denominator.reshape(denominator.shape[0], -1)
         poles = _dominant_split(flat_d, self.target_poles, self.omega_ref, with_rest=with_rest)
         zeros = None
@@ -591,7 +603,7 @@ class DominantFunction:
             zeros = _dominant_split(flat_n, self.target_zeros, self.omega_ref, with_rest=with_rest)
         return poles, zeros
 
-    def coefficients(self, values):
+    def coefficients(self, values: PartValues) -> tuple[FloatArray, FloatArray]:
         """Coefficients of the dominant N and D, highest power first.
 
         Same layout as :meth:`placer.analysis.network.NetworkFunction.coefficients`:
@@ -621,14 +633,14 @@ class DominantFunction:
         return (reduced_n.reshape(reduced_n.shape[0], *batch),
                 reduced_d.reshape(reduced_d.shape[0], *batch))
 
-    def poles(self, values):
+    def poles(self, values: PartValues) -> ComplexArray:
         """Dominant poles (rad/s) for one set of part values."""
         numerator, denominator = self.full.coefficients(values)
         if self._trivial(numerator, denominator):
             return self.full.poles(values)
         return self._splits(numerator, denominator)[0].dominant[0]
 
-    def zeros(self, values):
+    def zeros(self, values: PartValues) -> ComplexArray:
         """Dominant finite zeros (rad/s) for one set of part values."""
         numerator, denominator = self.full.coefficients(values)
         zeros = None if self._trivial(numerator, denominator) else self._splits(numerator, denominator)[1]
@@ -636,22 +648,22 @@ class DominantFunction:
             return self.full.zeros(values)
         return zeros.dominant[0]
 
-    def parasitic_poles(self, values):
+    def parasitic_poles(self, values: PartValues) -> ComplexArray:
         """The poles the op-amp model adds (rad/s), for one set of part values."""
         numerator, denominator = self.full.coefficients(values)
         if self._trivial(numerator, denominator):
             return np.zeros(0, dtype=complex)
-        return self._splits(numerator, denominator, with_rest=True)[0].rest[0]
+        return cast(_Array, self._splits(numerator, denominator, with_rest=True)[0].rest)[0]
 
-    def parasitic_zeros(self, values):
+    def parasitic_zeros(self, values: PartValues) -> ComplexArray:
         """The zeros the op-amp model adds (rad/s), for one set of part values."""
         numerator, denominator = self.full.coefficients(values)
         zeros = None if self._trivial(numerator, denominator) else self._splits(
             numerator, denominator, with_rest=True)[1]
-        return np.zeros(0, dtype=complex) if zeros is None else zeros.rest[0]
+        return np.zeros(0, dtype=complex) if zeros is None else cast(_Array, zeros.rest)[0]
 
 
-def _take(roots, mask, count):
+def _take(roots: _Array, mask: NDArray[np.bool_], count: int) -> _Array:
     """The masked roots of each row, `count` per row, sorted by magnitude."""
     rows = roots.shape[0]
     if count <= 0:

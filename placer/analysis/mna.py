@@ -28,12 +28,16 @@ doi:10.1109/TCS.1975.1084079.
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any, cast
 
 import numpy as np
 
 from ..errors import SymbolicSizeError, TopologyError
+
+if TYPE_CHECKING:
+    from ..circuit.elements import Circuit, Element
 
 __all__ = ["Stamp", "Layout", "layout", "stamps", "NumericSystem", "numeric_system",
            "minor_expansion_det"]
@@ -52,30 +56,30 @@ class Stamp:
     col: int
     power: int
     factor: float
-    parameter: tuple | None = None
+    parameter: tuple[str, str] | None = None
 
 
 @dataclass(frozen=True)
 class Layout:
     """Which unknown each index of the MNA vector is."""
 
-    unknowns: tuple       # labels: "v(node)" or "i(element)"
-    node_index: dict      # node -> index (reference absent)
-    branch_index: dict    # element name (or "input") -> index
+    unknowns: tuple[str, ...]  # labels: "v(node)" or "i(element)"
+    node_index: dict[str, int]  # node -> index (reference absent)
+    branch_index: dict[str, int]  # element name (or "input") -> index
     input_row: int        # row of the input source's branch equation
     output_index: int     # index of the output node's voltage
 
     @property
-    def size(self):
+    def size(self) -> int:
         return len(self.unknowns)
 
 
 _BRANCH_KINDS = ("vsource", "inductor", "vcvs", "ccvs", "opamp")
 
 
-def layout(circuit):
+def layout(circuit: Circuit) -> Layout:
     """Number the unknowns of `circuit` (nodes first, then branch currents)."""
-    node_index = {}
+    node_index: dict[str, int] = {}
     for node in circuit.nodes:
         if node != circuit.reference:
             node_index[node] = len(node_index)
@@ -99,7 +103,7 @@ def layout(circuit):
     )
 
 
-def stamps(circuit, lay=None):
+def stamps(circuit: Circuit, lay: Layout | None = None) -> list[Stamp]:
     """Every stamp of `circuit`, as a list of :class:`Stamp`.
 
     Op-amp model constants (ωt, A0) enter as plain numbers; part values
@@ -108,21 +112,22 @@ def stamps(circuit, lay=None):
     """
     lay = lay or layout(circuit)
     node = lay.node_index
-    out = []
+    out: list[Stamp] = []
 
-    def add(row, col, power, factor, parameter=None):
+    def add(row: int | None, col: int | None, power: int, factor: float,
+            parameter: tuple[str, str] | None = None) -> None:
         if row is None or col is None:
             return  # the reference row/column is removed
         out.append(Stamp(row, col, power, float(factor), parameter))
 
-    def admittance(a, b, power, parameter):
+    def admittance(a: str, b: str, power: int, parameter: tuple[str, str]) -> None:
         ia, ib = node.get(a), node.get(b)
         add(ia, ia, power, 1, parameter)
         add(ib, ib, power, 1, parameter)
         add(ia, ib, power, -1, parameter)
         add(ib, ia, power, -1, parameter)
 
-    def branch(k, a, b):
+    def branch(k: int, a: str, b: str) -> None:
         """KCL entries of a branch current k leaving node a, entering node b."""
         ia, ib = node.get(a), node.get(b)
         add(ia, k, 0, 1)
@@ -157,13 +162,13 @@ def stamps(circuit, lay=None):
                 add(row, node.get(n[2]), 0, sign, (name, "gain"))
                 add(row, node.get(n[3]), 0, -sign, (name, "gain"))
         elif element.kind == "cccs":
-            control = lay.branch_index[element.control]
+            control = lay.branch_index[cast(str, element.control)]  # validated: a vsource
             add(node.get(n[0]), control, 0, 1, (name, "gain"))
             add(node.get(n[1]), control, 0, -1, (name, "gain"))
         elif element.kind == "ccvs":
             k = lay.branch_index[name]
             branch(k, n[0], n[1])
-            add(k, lay.branch_index[element.control], 0, -1, (name, "gain"))
+            add(k, lay.branch_index[cast(str, element.control)], 0, -1, (name, "gain"))
         elif element.kind == "opamp":
             k = lay.branch_index[name]
             plus, minus, output = node.get(n[0]), node.get(n[1]), node.get(n[2])
@@ -173,6 +178,7 @@ def stamps(circuit, lay=None):
                 add(k, plus, 0, 1)
                 add(k, minus, 0, -1)
             elif gbw is None:
+                gain = cast(float, gain)  # not None here: the case above took both None
                 add(k, output, 0, 1)
                 add(k, plus, 0, -gain)
                 add(k, minus, 0, gain)
@@ -188,7 +194,7 @@ def stamps(circuit, lay=None):
     return out
 
 
-def parameter_value(element, role):
+def parameter_value(element: Element, role: str) -> float | None:
     """The number a stamp parameter stands for (None when symbolic)."""
     number = element.parameter
     if number is None:
@@ -209,7 +215,7 @@ class NumericSystem:
     layout: Layout
 
 
-def numeric_system(circuit, values=None):
+def numeric_system(circuit: Circuit, values: Mapping[str, float] | None = None) -> NumericSystem:
     """Numeric MNA matrices of `circuit` with every part a number.
 
     Parameters
@@ -240,7 +246,7 @@ def numeric_system(circuit, values=None):
                         f"element {name!r}: part {element.symbol!r} has no value; "
                         f"set it (for example --set {element.symbol}=10k)"
                     )
-                number = float(values[element.symbol])
+                number = float(values[cast(str, element.symbol)])  # checked just above
                 if role == "conductance":
                     number = 1.0 / number
             factor *= number
@@ -341,7 +347,7 @@ def minor_expansion_det(entries: dict, size: int, one: Any, *,
     return -determinant if _odd_permutation(order) else determinant
 
 
-def _column_order(columns: dict, size: int) -> list[int]:
+def _column_order(columns: dict[int, list[Any]], size: int) -> list[int]:
     """Columns in the order that keeps the fewest rows open at each step."""
     rows_of = {c: sum(1 << r for r, _ in entries) for c, entries in columns.items()}
     remaining = [0] * size           # nonzeros of each row in the columns not yet taken
@@ -349,9 +355,10 @@ def _column_order(columns: dict, size: int) -> list[int]:
         for r in range(size):
             if mask >> r & 1:
                 remaining[r] += 1
-    touched, order, left = 0, [], set(columns)
+    order: list[int] = []
+    touched, left = 0, set(columns)
     while left:
-        best = None
+        best: tuple[int, int, int] | None = None
         for c in sorted(left):
             mask = rows_of[c]
             reach = touched | mask
@@ -360,6 +367,7 @@ def _column_order(columns: dict, size: int) -> list[int]:
             score = (open_rows, bin(mask).count("1"), c)
             if best is None or score < best:
                 best = score
+        assert best is not None  # `left` is not empty
         c = best[2]
         order.append(c)
         left.remove(c)

@@ -31,13 +31,16 @@ from __future__ import annotations
 
 import itertools
 import math
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from functools import cached_property, lru_cache
+from typing import TYPE_CHECKING, Any, SupportsFloat, TypeVar, cast
 
 import control
 import flint
 import numpy as np
 import sympy
+from numpy.typing import ArrayLike, NDArray
 from sympy.polys.domains import QQ, ZZ
 from sympy.polys.domains.domain import Domain
 
@@ -51,6 +54,10 @@ from .pencil import (
     circuit_roots,
     circuit_zeros,
 )
+from .protocols import ComplexArray, FloatArray, PartValues
+
+if TYPE_CHECKING:
+    from ..circuit.elements import Circuit
 
 __all__ = [
     "S",
@@ -97,12 +104,12 @@ class NetworkFunction:
 
     numerator: sympy.Poly
     denominator: sympy.Poly
-    symbols: dict
+    symbols: dict[str, sympy.Symbol]
     cancelled: sympy.Expr = sympy.Integer(1)
-    _cache: dict = field(default_factory=dict, repr=False, compare=False)
+    _cache: dict[str, Any] = field(default_factory=dict, repr=False, compare=False)
 
     # -- pickling (worker processes) -----------------------------------------
-    def __getstate__(self):
+    def __getstate__(self) -> dict[str, Any]:
         # The compiled evaluators and cached figures are rebuilt on demand;
         # only the polynomials travel, with their domain's generator order
         # (sympy's own pickling re-sorts it, which changes the order the
@@ -111,7 +118,7 @@ class NetworkFunction:
                 "denominator": _poly_state(self.denominator),
                 "symbols": self.symbols, "cancelled": self.cancelled}
 
-    def __setstate__(self, state):
+    def __setstate__(self, state: Mapping[str, Any]) -> None:
         state = dict(state)
         state["numerator"] = _poly_from_state(state["numerator"])
         state["denominator"] = _poly_from_state(state["denominator"])
@@ -121,11 +128,11 @@ class NetworkFunction:
 
     # -- symbolic figures --------------------------------------------------
     @property
-    def order(self):
+    def order(self) -> int:
         """Degree of the denominator in s."""
-        return self.denominator.degree()
+        return int(self.denominator.degree())
 
-    def expression(self):
+    def expression(self) -> sympy.Expr:
         """H(s) as one sympy expression."""
         return sympy.cancel(self.numerator.as_expr() / self.denominator.as_expr())
 
@@ -136,16 +143,16 @@ class NetworkFunction:
                    for poly in (self.numerator, self.denominator) for c in poly.rep.to_list())
 
     @cached_property
-    def numerator_coefficients(self):
+    def numerator_coefficients(self) -> tuple[sympy.Expr, ...]:
         """Coefficients of N, highest power of s first (sympy expressions)."""
         return tuple(self.numerator.all_coeffs())
 
     @cached_property
-    def denominator_coefficients(self):
+    def denominator_coefficients(self) -> tuple[sympy.Expr, ...]:
         return tuple(self.denominator.all_coeffs())
 
     @cached_property
-    def gain_kind(self):
+    def gain_kind(self) -> str:
         """Where the pass-band gain is read: "dc", "hf" or "center"."""
         degrees = [m[0] for m in self.numerator.monoms()]
         n = self.order
@@ -162,7 +169,7 @@ class NetworkFunction:
         return "hf"  # a zero at the origin, or an integrator (pole at the origin)
 
     @cached_property
-    def omega0(self):
+    def omega0(self) -> sympy.Expr | None:
         """Natural frequency (rad/s) for first- and second-order D; else None."""
         a = self.denominator_coefficients
         if self.order == 1:
@@ -172,7 +179,7 @@ class NetworkFunction:
         return None
 
     @cached_property
-    def q(self):
+    def q(self) -> sympy.Expr | None:
         """Quality factor for a second-order D; else None."""
         if self.order != 2:
             return None
@@ -180,7 +187,7 @@ class NetworkFunction:
         return sympy.sqrt(sympy.factor(a0 * a2)) / sympy.factor(a1)
 
     @cached_property
-    def gain(self):
+    def gain(self) -> sympy.Expr:
         """Pass-band gain (signed): at DC, at high frequency or at ω0."""
         b = dict(zip(range(self.numerator.degree(), -1, -1), self.numerator_coefficients))
         a = dict(zip(range(self.order, -1, -1), self.denominator_coefficients))
@@ -196,7 +203,7 @@ class NetworkFunction:
 
     # -- numeric evaluation ------------------------------------------------
     @cached_property
-    def _evaluators(self):
+    def _evaluators(self) -> tuple[list[str], Callable[..., Any], Callable[..., Any]]:
         names = list(self.symbols)
         # Placeholders named by position, not dummies: a Dummy's place in a
         # printed product follows a process-wide counter, so two processes
@@ -204,13 +211,13 @@ class NetworkFunction:
         places = [sympy.Symbol(f"_part{i}") for i in range(len(names))]
         mapping = {self.symbols[n]: place for n, place in zip(names, places)}
 
-        def compile_(coefficients):
+        def compile_(coefficients: Sequence[sympy.Expr]) -> Callable[..., Any]:
             return sympy.lambdify(places, [c.xreplace(mapping) for c in coefficients],
                                   "numpy", dummify=False)
 
         return names, compile_(self.numerator_coefficients), compile_(self.denominator_coefficients)
 
-    def coefficients(self, values):
+    def coefficients(self, values: PartValues) -> tuple[FloatArray, FloatArray]:
         """Numeric coefficients of N and D, highest power first.
 
         Parameters
@@ -239,7 +246,7 @@ class NetworkFunction:
         denominator = np.stack([np.broadcast_to(np.asarray(c, float), shape) for c in denominator])
         return numerator, denominator
 
-    def second_order_figures(self, values):
+    def second_order_figures(self, values: PartValues) -> SecondOrderFigures:
         """ω0 (rad/s), Q and pass-band gain, vectorised over samples."""
         if self.order != 2:
             raise TopologyError(
@@ -253,35 +260,35 @@ class NetworkFunction:
             gain = _gain_from(numerator, denominator, self.gain_kind)
         return SecondOrderFigures(omega0=omega0, q=q, gain=gain)
 
-    def poles(self, values):
+    def poles(self, values: PartValues) -> ComplexArray:
         """Poles in rad/s for one set of part values."""
         _, denominator = self.coefficients(values)
         return _roots(denominator)
 
-    def zeros(self, values):
+    def zeros(self, values: PartValues) -> ComplexArray:
         """Finite zeros in rad/s for one set of part values."""
         numerator, _ = self.coefficients(values)
         return _roots(numerator)
 
-    def response_at(self, values, omega):
+    def response_at(self, values: PartValues, omega: ArrayLike) -> ComplexArray:
         """H(jω) for one set of part values; `omega` in rad/s."""
         numerator, denominator = self.coefficients(values)
         s = 1j * np.asarray(omega, dtype=float)
         return np.polyval(numerator, s) / np.polyval(denominator, s)
 
-    def transfer_function(self, values):
+    def transfer_function(self, values: PartValues) -> control.TransferFunction:
         """A python-control TransferFunction for one set of part values."""
         numerator, denominator = self.coefficients(values)
         numerator = np.trim_zeros(np.asarray(numerator, float), "f")
         denominator = np.trim_zeros(np.asarray(denominator, float), "f")
         return control.tf(numerator if numerator.size else [0.0], denominator)
 
-    def latex(self):
+    def latex(self) -> str:
         """H(s) in LaTeX, in the part symbols."""
         return sympy.latex(self.numerator.as_expr() / self.denominator.as_expr())
 
 
-def _gain_from(numerator, denominator, kind):
+def _gain_from(numerator: FloatArray, denominator: FloatArray, kind: str) -> FloatArray:
     if kind == "dc":
         return numerator[-1] / denominator[-1]
     if kind == "center":
@@ -292,14 +299,14 @@ def _gain_from(numerator, denominator, kind):
     return numerator[0] / denominator[0]
 
 
-def _roots(coefficients):
+def _roots(coefficients: ArrayLike) -> ComplexArray:
     coefficients = np.trim_zeros(np.asarray(coefficients, dtype=float), "f")
     if coefficients.size <= 1:
         return np.array([], dtype=complex)
     return np.roots(coefficients).astype(complex)
 
 
-def _poly_state(poly):
+def _poly_state(poly: sympy.Poly) -> tuple[Any, ...]:
     """A picklable description of a Poly that keeps its domain's generator order."""
     domain = poly.domain
     if domain.is_PolynomialRing:
@@ -307,13 +314,13 @@ def _poly_state(poly):
     return poly.as_expr(), poly.gens, str(domain), None
 
 
-def _poly_from_state(state):
+def _poly_from_state(state: tuple[Any, ...]) -> sympy.Poly:
     expr, gens, ground, symbols = state
     ground = {"ZZ": ZZ, "QQ": QQ}[ground]
     return sympy.Poly(expr, *gens, domain=ground[symbols] if symbols else ground)
 
 
-def polynomial_values(coefficients, s):
+def polynomial_values(coefficients: ArrayLike, s: complex | ArrayLike) -> ComplexArray:
     """Values of many polynomials at s, by Horner's rule.
 
     Parameters
@@ -342,7 +349,7 @@ def polynomial_values(coefficients, s):
     return value
 
 
-def batched_roots(coefficients, *, scale=1.0):
+def batched_roots(coefficients: ArrayLike, *, scale: float = 1.0) -> ComplexArray:
     """Roots of many polynomials at once, from companion matrices.
 
     Parameters
@@ -400,7 +407,7 @@ def batched_roots(coefficients, *, scale=1.0):
 # -- symbolic derivation -----------------------------------------------------
 
 @lru_cache(maxsize=512)
-def network_function(circuit, *, max_terms: int | None = None) -> NetworkFunction:
+def network_function(circuit: Circuit, *, max_terms: int | None = None) -> NetworkFunction:
     """Symbolic network function of `circuit`, output over input voltage.
 
     Parts that carry a symbol stay symbolic; parts with a value enter as
@@ -434,12 +441,12 @@ def network_function(circuit, *, max_terms: int | None = None) -> NetworkFunctio
     """
     lay = layout(circuit)
     by_name = {e.name: e for e in circuit.elements}
-    part_symbols = {}      # part symbol name -> sympy Symbol (R form)
+    part_symbols: dict[str, sympy.Symbol] = {}  # part symbol name -> sympy Symbol (R form)
     generators = [S]       # ring generators (conductances as _G_name)
-    generator_of = {}      # (symbol, role) -> generator
-    role_of_symbol = {}
+    generator_of: dict[str, sympy.Symbol] = {}  # part symbol -> generator
+    role_of_symbol: dict[str, str] = {}
     for element in circuit.elements:
-        if not element.is_symbolic:
+        if element.symbol is None or not element.is_symbolic:
             continue
         role = _role(element.kind)
         known = role_of_symbol.setdefault(element.symbol, role)
@@ -459,7 +466,7 @@ def network_function(circuit, *, max_terms: int | None = None) -> NetworkFunctio
         generator_of[element.symbol] = generator
 
     # Stamps as (generator index or None, exact number, power of s) terms.
-    terms_at = {}
+    terms_at: dict[tuple[int, int], list[_Term]] = {}
     integral = True
     for stamp in stamps(circuit, lay):
         number = _rational(stamp.factor)
@@ -467,10 +474,11 @@ def network_function(circuit, *, max_terms: int | None = None) -> NetworkFunctio
         if stamp.parameter is not None:
             name, role = stamp.parameter
             element = by_name[name]
-            if element.is_symbolic:
+            if element.symbol is not None and element.is_symbolic:
                 generator = generators.index(generator_of[element.symbol])
             else:
-                value = _rational(element.parameter)
+                # a part without a symbol has a number
+                value = _rational(cast(float, element.parameter))
                 number = number / value if role == "conductance" else number * value
         integral = integral and number.is_integer
         terms_at.setdefault((stamp.row, stamp.col), []).append((generator, number, stamp.power))
@@ -511,6 +519,10 @@ def network_function(circuit, *, max_terms: int | None = None) -> NetworkFunctio
 
 #: The symbolic path's polynomials (python-flint).
 _FlintPoly = flint.fmpz_mpoly | flint.fmpq_mpoly
+#: A stamp's term in the ring: (generator index or None, exact number, power of s).
+_Term = tuple[int | None, sympy.Rational, int]
+#: One of the two, the same for every argument of a function.
+_P = TypeVar("_P", flint.fmpz_mpoly, flint.fmpq_mpoly)
 
 
 def _flint_ring(count: int, integral: bool) -> flint.fmpz_mpoly_ctx | flint.fmpq_mpoly_ctx:
@@ -525,12 +537,14 @@ def _flint_ring(count: int, integral: bool) -> flint.fmpz_mpoly_ctx | flint.fmpq
     return flint.fmpq_mpoly_ctx.get(names, "lex")
 
 
-def _matrix_entries(ring: flint.fmpz_mpoly_ctx | flint.fmpq_mpoly_ctx, terms_at: dict) -> dict:
+def _matrix_entries(ring: flint.fmpz_mpoly_ctx | flint.fmpq_mpoly_ctx,
+                    terms_at: Mapping[tuple[int, int], list[_Term]],
+                    ) -> dict[tuple[int, int], _FlintPoly]:
     """The MNA entries as ring elements from (generator, number, power) terms."""
     nvars = ring.nvars()
-    entries = {}
+    entries: dict[tuple[int, int], _FlintPoly] = {}
     for position, terms in terms_at.items():
-        monomials: dict[tuple, object] = {}
+        monomials: dict[tuple[int, ...], Any] = {}
         for generator, number, power in terms:
             exponents = [0] * nvars
             exponents[0] += power
@@ -538,7 +552,9 @@ def _matrix_entries(ring: flint.fmpz_mpoly_ctx | flint.fmpq_mpoly_ctx, terms_at:
                 exponents[generator] += 1
             key = tuple(exponents)
             monomials[key] = monomials.get(key, 0) + number
-        coefficients = {m: _flint_number(c) for m, c in monomials.items() if c != 0}
+        # fmpz numbers over ZZ, fmpq over QQ: the ring and the numbers agree
+        coefficients: dict[tuple[int, ...], Any] = {
+            m: _flint_number(c) for m, c in monomials.items() if c != 0}
         entry = ring.from_dict(coefficients)
         if entry:
             entries[position] = entry
@@ -551,7 +567,7 @@ def _flint_number(number: sympy.Rational) -> flint.fmpz | flint.fmpq:
     return flint.fmpq(int(number.p), int(number.q))
 
 
-def _flint_to_expr(poly: _FlintPoly, generators: list, ground: Domain) -> sympy.Expr:
+def _flint_to_expr(poly: _FlintPoly, generators: list[sympy.Symbol], ground: Domain) -> sympy.Expr:
     terms = {m: _ground_number(c, ground) for m, c in poly.to_dict().items()}
     return sympy.Poly.from_dict(terms, *generators, domain=ground).as_expr()
 
@@ -563,7 +579,7 @@ def _ground_number(coefficient: flint.fmpz | flint.fmpq, ground: Domain) -> obje
     return ground.convert(int(coefficient))
 
 
-def _role(kind):
+def _role(kind: str) -> str:
     return {
         "resistor": "conductance",
         "capacitor": "capacitance",
@@ -571,14 +587,14 @@ def _role(kind):
     }.get(kind, "gain")
 
 
-def _rational(number):
+def _rational(number: SupportsFloat) -> sympy.Rational:
     number = float(number)
     if number.is_integer():
         return sympy.Integer(int(number))
     return sympy.Rational(repr(number))
 
 
-def _cancel(numerator: _FlintPoly, denominator: _FlintPoly) -> tuple:
+def _cancel(numerator: _P, denominator: _P) -> tuple[_P, _P, _P]:
     """(common factor, N / common, D / common), normalised as sympy's ``cofactors``.
 
     A one-term N or D shares a monomial whose coefficient is the gcd of
@@ -595,7 +611,7 @@ def _cancel(numerator: _FlintPoly, denominator: _FlintPoly) -> tuple:
     return common, numerator / common, denominator / common
 
 
-def _monomial_gcd(first: _FlintPoly, second: _FlintPoly) -> _FlintPoly:
+def _monomial_gcd(first: _P, second: _P) -> _P:
     common = first.term_content().gcd(second.term_content())
     if isinstance(common, flint.fmpq_mpoly):
         # flint's is monic; sympy's coefficient is gcd(numerators)/lcm(denominators)
@@ -611,7 +627,8 @@ def _leading_sign(poly: _FlintPoly) -> int:
 
 
 def _to_resistances(ground: Domain, numerator: _FlintPoly, denominator: _FlintPoly,
-                    names: list[str], role_of: dict, parts: dict) -> tuple[sympy.Poly, sympy.Poly]:
+                    names: list[str], role_of: Mapping[str, str],
+                    parts: Mapping[str, sympy.Symbol]) -> tuple[sympy.Poly, sympy.Poly]:
     """Replace each conductance G by 1/R and clear denominators in R.
 
     Ring generator i + 1 belongs to ``names[i]``. Every conductance's
@@ -635,8 +652,9 @@ def _to_resistances(ground: Domain, numerator: _FlintPoly, denominator: _FlintPo
         # Lex order with s first: the terms of each power of s are consecutive.
         starts = [0, *(np.flatnonzero(np.diff(monoms[:, 0])) + 1).tolist(), len(poly)]
         if names:
-            keys = list(map(tuple, np.where(flip, highest - monoms[:, 1:], monoms[:, 1:]).tolist()))
-        out = {}
+            top = cast(NDArray[np.int64], highest)
+            keys = list(map(tuple, np.where(flip, top - monoms[:, 1:], monoms[:, 1:]).tolist()))
+        out: dict[tuple[int], Any] = {}
         for a, b in zip(starts[:-1], starts[1:]):
             power = (int(monoms[a, 0]),)
             if names:
@@ -648,7 +666,7 @@ def _to_resistances(ground: Domain, numerator: _FlintPoly, denominator: _FlintPo
     return convert(numerator), convert(denominator)
 
 
-def _ground_numbers(coefficients: list, ground: Domain) -> list:
+def _ground_numbers(coefficients: list[Any], ground: Domain) -> list[Any]:
     """flint fmpz/fmpq coefficients as elements of sympy's ZZ or QQ."""
     if all(isinstance(c, ground.dtype) for c in coefficients):
         return coefficients           # sympy runs on python-flint's ground types

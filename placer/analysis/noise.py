@@ -41,10 +41,11 @@ doi:10.1109/TCT.1969.1082965.
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import ArrayLike, NDArray
 
 from ..circuit.elements import Circuit, Element
 from ..errors import SpecError, TopologyError
@@ -96,8 +97,8 @@ class NoiseSources:
         The source (index into `names`) each column belongs to.
     """
 
-    names: tuple
-    kinds: tuple
+    names: tuple[str, ...]
+    kinds: tuple[str, ...]
     columns: NDArray[np.float64]
     psd: NDArray[np.float64]
     group: NDArray[np.int64]
@@ -162,9 +163,13 @@ def noise_sources(circuit: Circuit, *, temperature: float = DEFAULT_TEMPERATURE,
     _check_density(noise_current, "noise_current")
     lay = lay or layout(circuit)
     node = lay.node_index
-    names, kinds, columns, psd, group = [], [], [], [], []
+    names: list[str] = []
+    kinds: list[str] = []
+    columns: list[NDArray[np.float64]] = []
+    psd: list[float] = []
+    group: list[int] = []
 
-    def column(entries: dict) -> NDArray[np.float64]:
+    def column(entries: dict[int | None, float]) -> NDArray[np.float64]:
         vector = np.zeros(lay.size)
         for index, value in entries.items():
             if index is not None:
@@ -221,8 +226,8 @@ class NoiseSpectrum:
     """
 
     frequency_hz: NDArray[np.float64]
-    names: tuple
-    kinds: tuple
+    names: tuple[str, ...]
+    kinds: tuple[str, ...]
     source_psd: NDArray[np.float64]
     gain: NDArray[np.float64]
 
@@ -257,7 +262,8 @@ def transfers_to_output(adjoint: NDArray[np.complex128], sources: NoiseSources,
     return out
 
 
-def noise_spectrum(circuit: Circuit, frequency_hz, *, temperature: float = DEFAULT_TEMPERATURE,
+def noise_spectrum(circuit: Circuit, frequency_hz: ArrayLike, *,
+                   temperature: float = DEFAULT_TEMPERATURE,
                    noise_voltage: float | None = None,
                    noise_current: float | None = None) -> NoiseSpectrum:
     """Every source's output noise density over frequency, by one adjoint solve each.
@@ -285,7 +291,8 @@ def noise_spectrum(circuit: Circuit, frequency_hz, *, temperature: float = DEFAU
                          gain=np.abs(y @ system.b))
 
 
-def noise_grid(band_hz, poles=(), *, points_per_decade: int = 100) -> NDArray[np.float64]:
+def noise_grid(band_hz: Sequence[float], poles: Iterable[complex] = (), *,
+               points_per_decade: int = 100) -> NDArray[np.float64]:
     """Frequencies (Hz) over a band: log-spaced, denser around sharp poles.
 
     Parameters
@@ -315,7 +322,7 @@ def noise_grid(band_hz, poles=(), *, points_per_decade: int = 100) -> NDArray[np
     return np.unique(np.concatenate(parts))
 
 
-def integrate_density(frequency_hz, psd) -> float:
+def integrate_density(frequency_hz: ArrayLike, psd: ArrayLike) -> float:
     """∫ psd df over the grid, the density a power law between grid points.
 
     Between two grid points the density is taken as S_i·(f/f_i)^b (a
@@ -380,11 +387,11 @@ class NoiseAnalysis:
     """
 
     spectrum: NoiseSpectrum
-    band_hz: tuple
+    band_hz: tuple[float, float]
     temperature_k: float
     rms_v: float
     peak_gain: float
-    contributions: tuple
+    contributions: tuple[NoiseContribution, ...]
 
     @property
     def input_referred_rms_v(self) -> float:
@@ -398,7 +405,7 @@ class NoiseAnalysis:
             return self.spectrum.density / self.spectrum.gain
 
 
-def check_band(band_hz) -> tuple:
+def check_band(band_hz: Iterable[float]) -> tuple[float, float]:
     """(low, high) in Hz, both positive and finite, high above low."""
     low, high = (float(x) for x in band_hz)
     if not (math.isfinite(low) and math.isfinite(high) and low > 0 and high > low):
@@ -407,9 +414,11 @@ def check_band(band_hz) -> tuple:
     return low, high
 
 
-def analyse_noise(circuit: Circuit, band_hz, *, temperature: float = DEFAULT_TEMPERATURE,
+def analyse_noise(circuit: Circuit, band_hz: Iterable[float], *,
+                  temperature: float = DEFAULT_TEMPERATURE,
                   noise_voltage: float | None = None, noise_current: float | None = None,
-                  poles=None, points_per_decade: int = 100) -> NoiseAnalysis:
+                  poles: Iterable[complex] | None = None,
+                  points_per_decade: int = 100) -> NoiseAnalysis:
     """Output noise density, integrated rms and dominant sources over a band.
 
     Parameters

@@ -20,15 +20,16 @@ from __future__ import annotations
 
 import math
 import warnings
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
 import scipy.linalg
+from numpy.typing import ArrayLike, NDArray
 
 from ..errors import NumericalWarning, TopologyError
-from .mna import numeric_system
+from .mna import NumericSystem, numeric_system
 
 if TYPE_CHECKING:
     from ..circuit.elements import Circuit
@@ -43,7 +44,7 @@ __all__ = [
     "circuit_response",
 ]
 
-def _finite_eigenvalues(A, B):
+def _finite_eigenvalues(A: NDArray[np.float64], B: NDArray[np.float64]) -> NDArray[np.complex128]:
     """Finite λ with A x = λ B x, after frequency and row/column scaling."""
     nonzero_a = np.abs(A[A != 0])
     nonzero_b = np.abs(B[B != 0])
@@ -78,7 +79,7 @@ class CircuitRoots:
     gain_imaginary: float = 0.0
 
 
-def circuit_roots(circuit, values=None):
+def circuit_roots(circuit: Circuit, values: Mapping[str, float] | None = None) -> CircuitRoots:
     """Poles, zeros and gain constant from the MNA pencil, in one pass.
 
     Parameters
@@ -106,7 +107,8 @@ def circuit_roots(circuit, values=None):
                         gain_imaginary=float(abs(k.imag) / abs(k)) if k else 0.0)
 
 
-def circuit_poles(circuit, values=None):
+def circuit_poles(circuit: Circuit,
+                  values: Mapping[str, float] | None = None) -> NDArray[np.complex128]:
     """Poles (rad/s) of a circuit with numeric parts, from the MNA pencil."""
     return circuit_roots(circuit, values).poles
 
@@ -132,12 +134,13 @@ def natural_frequencies(circuit: Circuit, values: Mapping[str, float] | None = N
     return _finite_eigenvalues(-system.G, system.C)
 
 
-def circuit_zeros(circuit, values=None):
+def circuit_zeros(circuit: Circuit,
+                  values: Mapping[str, float] | None = None) -> NDArray[np.complex128]:
     """Finite zeros (rad/s) of the input-to-output function, numerically."""
     return circuit_roots(circuit, values).zeros
 
 
-def circuit_gain(circuit, values=None):
+def circuit_gain(circuit: Circuit, values: Mapping[str, float] | None = None) -> float:
     """The constant k of H(s) = k·Π(s − z)/Π(s − p), numerically."""
     roots = circuit_roots(circuit, values)
     if roots.gain_imaginary > 1e-6:
@@ -146,7 +149,7 @@ def circuit_gain(circuit, values=None):
     return roots.gain
 
 
-def _require_regular(system):
+def _require_regular(system: NumericSystem) -> None:
     """Raise TopologyError when det(G + sC) vanishes for every s.
 
     A singular pencil (an op-amp with no feedback path, a floating
@@ -174,7 +177,7 @@ def _require_regular(system):
     )
 
 
-def _zeros_of(system):
+def _zeros_of(system: NumericSystem) -> NDArray[np.complex128]:
     G = system.G.copy()
     C = system.C.copy()
     G[:, system.output] = system.b
@@ -182,7 +185,8 @@ def _zeros_of(system):
     return _finite_eigenvalues(-G, C)
 
 
-def _cancel_pairs(poles, zeros, rtol=1e-7):
+def _cancel_pairs(poles: Iterable[complex], zeros: Iterable[complex],
+                  rtol: float = 1e-7) -> tuple[NDArray[np.complex128], NDArray[np.complex128]]:
     """Drop pole-zero pairs that coincide (uncontrollable or unobservable modes)."""
     poles = list(poles)
     kept_zeros = []
@@ -197,7 +201,8 @@ def _cancel_pairs(poles, zeros, rtol=1e-7):
     return np.array(poles, dtype=complex), np.array(kept_zeros, dtype=complex)
 
 
-def circuit_response(circuit, omega, values=None):
+def circuit_response(circuit: Circuit, omega: ArrayLike,
+                     values: Mapping[str, float] | None = None) -> NDArray[np.complex128]:
     """H(jω) of a circuit by solving (G + jωC) x = b; `omega` in rad/s."""
     system = numeric_system(circuit, values)
     omega = np.atleast_1d(np.asarray(omega, dtype=float))

@@ -18,23 +18,27 @@ Examples
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import control
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from ..errors import SpecError
+from .protocols import ComplexArray, FloatArray
 
 __all__ = ["Response"]
 
 _TWO_PI = 2 * math.pi
 
 
-def _real_poly(roots):
+def _real_poly(roots: Sequence[complex]) -> FloatArray:
     return np.real(np.poly(roots)) if len(roots) else np.array([1.0])
 
 
-def _pair_roots(roots, what):
+def _pair_roots(roots: ArrayLike, what: str) -> list[list[complex]]:
     """Split roots into conjugate pairs and real roots (rad/s)."""
     roots = np.asarray(roots, dtype=complex).ravel()
     scale = np.maximum(np.abs(roots), 1e-300)
@@ -42,7 +46,7 @@ def _pair_roots(roots, what):
     real = list(roots[~complex_mask].real)
     upper = list(roots[complex_mask & (roots.imag > 0)])
     lower = list(roots[complex_mask & (roots.imag < 0)])
-    pairs = []
+    pairs: list[list[complex]] = []
     for root in upper:
         if not lower:
             raise SpecError(f"{what} {root} has no complex conjugate; roots must come in pairs")
@@ -72,9 +76,9 @@ class Response:
     (2, 1.0)
     """
 
-    sections: tuple
+    sections: tuple[control.TransferFunction, ...]
 
-    def __post_init__(self):
+    def __post_init__(self) -> None:
         sections = tuple(self.sections)
         if not sections:
             raise SpecError("a response needs at least one section")
@@ -95,12 +99,12 @@ class Response:
         object.__setattr__(self, "sections", sections)
 
     @classmethod
-    def from_sections(cls, sections):
+    def from_sections(cls, sections: Iterable[control.TransferFunction]) -> Response:
         """A response from a list of python-control TransferFunctions."""
         return cls(tuple(sections))
 
     @classmethod
-    def from_zpk(cls, zeros, poles, k):
+    def from_zpk(cls, zeros: ArrayLike, poles: ArrayLike, k: float) -> Response:
         """A response ``k·Π(s − z)/Π(s − p)`` split into second-order sections.
 
         Complex roots must come in conjugate pairs (rad/s). Each pole pair
@@ -112,7 +116,7 @@ class Response:
             raise SpecError("more zeros than poles: the response is improper")
         if not pole_groups:
             return cls((control.tf([float(k)], [1.0]),))
-        assigned = [[] for _ in pole_groups]
+        assigned: list[list[complex]] = [[] for _ in pole_groups]
         room = [len(g) for g in pole_groups]
         # Zero pairs first (they always fit a pole pair), each to the nearest pole group.
         for group in sorted(zero_groups, key=len, reverse=True):
@@ -127,20 +131,20 @@ class Response:
         return cls(tuple(sections))
 
     # -- views -------------------------------------------------------------
-    def poles(self):
+    def poles(self) -> ComplexArray:
         """All poles, rad/s."""
         return np.concatenate([np.asarray(s.poles(), complex) for s in self.sections])
 
-    def zeros(self):
+    def zeros(self) -> ComplexArray:
         """All finite zeros, rad/s."""
         return np.concatenate([np.asarray(s.zeros(), complex) for s in self.sections])
 
     @property
-    def order(self):
+    def order(self) -> int:
         """Total degree of the denominators."""
         return int(sum(_coefficients(s)[1].size - 1 for s in self.sections))
 
-    def evaluate(self, omega):
+    def evaluate(self, omega: ArrayLike) -> ComplexArray:
         """H(jω) for `omega` in rad/s (product of the sections)."""
         omega = np.asarray(omega, dtype=float)
         out = np.ones(omega.shape, dtype=complex)
@@ -149,12 +153,12 @@ class Response:
             out = out * np.polyval(numerator, 1j * omega) / np.polyval(denominator, 1j * omega)
         return out
 
-    def state_space(self):
+    def state_space(self) -> control.StateSpace:
         """The series connection of the sections as a control.StateSpace."""
         return control.series(*[control.ss(s) for s in self.sections])
 
     @property
-    def dc_gain(self):
+    def dc_gain(self) -> float:
         """H(0): ``inf`` with a net pole at the origin, 0.0 with a net zero there.
 
         Roots at the origin are counted from exactly-zero trailing
@@ -173,7 +177,7 @@ class Response:
         return math.inf if net < 0 else float(gain)
 
     @property
-    def hf_gain(self):
+    def hf_gain(self) -> float:
         """lim H(s) as s → ∞ (0.0 for a strictly proper response)."""
         gain = 1.0
         for section in self.sections:
@@ -184,7 +188,7 @@ class Response:
         return float(gain)
 
     @property
-    def reference_hz(self):
+    def reference_hz(self) -> float:
         """Geometric mean of the nonzero pole magnitudes, Hz (1 Hz if none)."""
         magnitudes = np.abs(self.poles())
         magnitudes = magnitudes[magnitudes > 0]
@@ -196,13 +200,13 @@ class Response:
         return float(np.exp(np.mean(np.log(magnitudes))) / _TWO_PI)
 
 
-def _coefficients(section):
+def _coefficients(section: control.TransferFunction) -> tuple[FloatArray, FloatArray]:
     numerator = np.trim_zeros(np.atleast_1d(np.asarray(section.num[0][0], float)), "f")
     denominator = np.trim_zeros(np.atleast_1d(np.asarray(section.den[0][0], float)), "f")
     return (numerator if numerator.size else np.array([0.0])), denominator
 
 
-def _origin_roots(poly):
+def _origin_roots(poly: NDArray[Any]) -> int:
     """Multiplicity of the root s = 0: the number of trailing zero coefficients."""
     nonzero = np.nonzero(poly)[0]
     return int(poly.size - 1 - nonzero[-1]) if nonzero.size else 0

@@ -34,10 +34,11 @@ Nostrand, 1945, chapter 4 (return ratio and return difference).
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, replace
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import ArrayLike, NDArray
 from scipy.optimize import brentq
 
 from ..circuit.elements import Circuit, Element
@@ -186,7 +187,7 @@ def _returned(broken: _Broken, omega: NDArray[np.float64]) -> NDArray[np.complex
     return -_gain(broken.element, omega) * (v_plus - v_minus)
 
 
-def return_ratio(circuit: Circuit, name: str, frequency_hz) -> NDArray[np.complex128]:
+def return_ratio(circuit: Circuit, name: str, frequency_hz: ArrayLike) -> NDArray[np.complex128]:
     """Bode's return ratio T(j2πf) of op-amp `name` (dimensionless).
 
     Parameters
@@ -221,7 +222,7 @@ def _grid(circuit: Circuit, element: Element) -> NDArray[np.float64]:
     return np.geomspace(low, high, count)
 
 
-def _refine(function, low: float, high: float) -> float:
+def _refine(function: Callable[[float], float], low: float, high: float) -> float:
     """The root of `function` of log f between two grid points, Hz."""
     a, b = function(low), function(high)
     if a * b >= 0:   # a root on a grid point: the two evaluations round either way
@@ -230,7 +231,8 @@ def _refine(function, low: float, high: float) -> float:
     return math.exp(root)
 
 
-def opamp_loop(circuit: Circuit, name: str, *, frequency_hz=None) -> OpampLoop:
+def opamp_loop(circuit: Circuit, name: str, *,
+               frequency_hz: ArrayLike | None = None) -> OpampLoop:
     """Crossover, phase and gain margins of op-amp `name`'s own loop.
 
     Parameters
@@ -287,6 +289,6 @@ def opamp_loop(circuit: Circuit, name: str, *, frequency_hz=None) -> OpampLoop:
                      magnitude_db=magnitude_db, phase_deg=phase)
 
 
-def opamp_loops(circuit: Circuit) -> tuple:
+def opamp_loops(circuit: Circuit) -> tuple[OpampLoop, ...]:
     """:func:`opamp_loop` for every op-amp of `circuit`, in element order."""
     return tuple(opamp_loop(circuit, e.name) for e in circuit.elements if e.kind == "opamp")

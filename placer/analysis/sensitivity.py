@@ -35,13 +35,17 @@ from __future__ import annotations
 
 import math
 import numbers
+from collections.abc import Mapping
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import sympy
+from numpy.typing import NDArray
 
 from ..errors import SpecError, TopologyError
 from .network import NetworkFunction, batched_roots, polynomial_values
+from .protocols import PartFunction
 
 __all__ = ["Sensitivities", "sensitivities"]
 
@@ -66,25 +70,25 @@ class Sensitivities:
         "dominant pole pair".
     """
 
-    omega0: dict
-    q: dict | None
-    gain: dict
+    omega0: dict[str, float]
+    q: dict[str, float] | None
+    gain: dict[str, float]
     method: str
     figure: str
 
 
 # -- validation -------------------------------------------------------------
 
-def _check_order(nf):
+def _check_order(nf: PartFunction) -> None:
     if nf.order < 1:
         raise TopologyError("the network has no poles (order 0): no ω0, Q or sensitivities")
 
 
-def _is_number(x):
+def _is_number(x: object) -> bool:
     return isinstance(x, numbers.Real) and not isinstance(x, bool)
 
 
-def _nominal_values(nf, values):
+def _nominal_values(nf: PartFunction, values: Mapping[str, Any]) -> dict[str, float]:
     out = {}
     for name in nf.symbols:
         if name not in values:
@@ -110,7 +114,7 @@ class _Reference:
     gain_label: str
 
 
-def _reference(nf, nominal):
+def _reference(nf: PartFunction, nominal: Mapping[str, float]) -> _Reference:
     numerator, denominator = nf.coefficients(nominal)
     order = denominator.shape[0] - 1
     omega_ref = float(abs(denominator[-1] / denominator[0]) ** (1.0 / order))
@@ -124,7 +128,8 @@ def _reference(nf, nominal):
     return _Reference(order, kind, omega_ref, label)
 
 
-def _figures(numerator, denominator, ref):
+def _figures(numerator: NDArray[Any], denominator: NDArray[Any],
+             ref: _Reference) -> tuple[NDArray[Any], NDArray[Any] | None, NDArray[Any]]:
     """(ω0 rad/s, Q or None, gain) arrays from coefficient arrays (..., N)."""
     with np.errstate(divide="ignore", invalid="ignore"):
         if ref.order == 1:
@@ -139,7 +144,7 @@ def _figures(numerator, denominator, ref):
     return omega0, q, gain
 
 
-def _gain(numerator, denominator, ref):
+def _gain(numerator: NDArray[Any], denominator: NDArray[Any], ref: _Reference) -> NDArray[Any]:
     if ref.gain_kind == "dc":
         return numerator[-1] / denominator[-1]
     if ref.gain_kind == "center":
@@ -150,7 +155,8 @@ def _gain(numerator, denominator, ref):
     return np.abs(polynomial_values(numerator, s) / polynomial_values(denominator, s))
 
 
-def _dominant_pair(denominator, omega_ref):
+def _dominant_pair(denominator: NDArray[Any],
+                   omega_ref: float) -> tuple[NDArray[Any], NDArray[Any]]:
     """ω0 and Q of the complex pair with the highest Q, per column.
 
     With no complex pair, the two real poles nearest the origin are taken
@@ -176,7 +182,7 @@ def _dominant_pair(denominator, omega_ref):
 
 # -- sensitivities ----------------------------------------------------------
 
-def sensitivities(nf, values):
+def sensitivities(nf: PartFunction, values: Mapping[str, Any]) -> Sensitivities:
     """Normalised sensitivities of ω0, Q and gain to every part.
 
     Parameters
@@ -215,12 +221,13 @@ def sensitivities(nf, values):
     return _numeric_sensitivities(nf, nominal, _reference(nf, nominal))
 
 
-def _symbolic_sensitivities(nf, nominal):
+def _symbolic_sensitivities(nf: NetworkFunction, nominal: Mapping[str, float]) -> Sensitivities:
     substitution = {nf.symbols[name]: value for name, value in nominal.items()}
     figures = {"omega0": nf.omega0, "gain": nf.gain}
     if nf.order == 2:
         figures["q"] = nf.q
-    out = {"q": None}
+    # omega0 and gain always, q for the second order
+    out: dict[str, Any] = {"q": None}
     for key, expression in figures.items():
         expression = sympy.sympify(expression)
         if expression == 0:
@@ -228,7 +235,7 @@ def _symbolic_sensitivities(nf, nominal):
             continue
         # x ∂ln y/∂x on the expanded logarithm: monomial figures give exact numbers.
         log_figure = sympy.expand_log(sympy.log(expression), force=True)
-        per_part = {}
+        per_part: dict[str, float] = {}
         for name, symbol in nf.symbols.items():
             derivative = sympy.diff(log_figure, symbol) * symbol
             if derivative == 0:
@@ -240,7 +247,8 @@ def _symbolic_sensitivities(nf, nominal):
     return Sensitivities(out["omega0"], out["q"], out["gain"], "symbolic", figure)
 
 
-def _numeric_sensitivities(nf, nominal, ref):
+def _numeric_sensitivities(nf: PartFunction, nominal: Mapping[str, float],
+                           ref: _Reference) -> Sensitivities:
     names = list(nf.symbols)
     # Columns: x·e^{+h} and x·e^{-h} for each part in turn.
     factors = np.ones((len(names), 2 * len(names)))
@@ -249,7 +257,7 @@ def _numeric_sensitivities(nf, nominal, ref):
         factors[i, 2 * i + 1] = math.exp(-_LOG_STEP)
     columns = {name: nominal[name] * factors[i] for i, name in enumerate(names)}
     omega0, q, gain = _figures(*nf.coefficients(columns), ref)
-    out = {}
+    out: dict[str, Any] = {}
     out["q"] = None
     for key, figure in (("omega0", omega0), ("q", q), ("gain", gain)):
         if figure is None:      # first order: no Q
@@ -259,5 +267,5 @@ def _numeric_sensitivities(nf, nominal, ref):
         slopes = (logs[0::2] - logs[1::2]) / (2 * _LOG_STEP)
         out[key] = {name: float(slopes[i]) if nominal[name] != 0 else 0.0
                     for i, name in enumerate(names)}
-    figure = {1: "first order", 2: "second order"}.get(ref.order, "dominant pole pair")
-    return Sensitivities(out["omega0"], out["q"], out["gain"], "numeric", figure)
+    described = {1: "first order", 2: "second order"}.get(ref.order, "dominant pole pair")
+    return Sensitivities(out["omega0"], out["q"], out["gain"], "numeric", described)

@@ -337,10 +337,11 @@ def _chains(builder: _Builder, names: Sequence[str], where: str) -> list:
             if degree.get(node, 0) != 2:
                 raise SpecError(f"{where}: {name!r} ends at node {node!r}, which is neither on the "
                                 "path nor joined to exactly one more part of the same list")
-            name = next((n for n in left if node in part_nodes(builder.parts[n], n)), None)
-            if name is None:
+            found = next((n for n in left if node in part_nodes(builder.parts[n], n)), None)
+            if found is None:
                 raise SpecError(f"{where}: {chain[-1]!r} ends at node {node!r}, which is not on "
                                 "the path")
+            name = found
         chains.append((tuple(chain), tuple(sequence)))
     return chains
 
@@ -454,8 +455,8 @@ class _Builder:
     def add_leg(self, parts: tuple, nodes: tuple, anchor: str) -> None:
         self.legs.append(Leg(tuple(parts), tuple(nodes), anchor))
 
-    def inner_nodes(self) -> dict:
-        inner = {}
+    def inner_nodes(self) -> dict[str, tuple[int, int]]:
+        inner: dict[str, tuple[int, int]] = {}
         for index, branch in enumerate(self.branches):
             for position, node in enumerate(branch.nodes[1:-1], start=1):
                 inner.setdefault(node, (index, position))

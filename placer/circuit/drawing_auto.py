@@ -211,6 +211,7 @@ def _auto_chains(builder: _Builder, left: list, drawn: set) -> list:
 def _walk_out(builder: _Builder, left: list, hub: str, first: str, drawn: set) -> tuple:
     """The row of parts from `hub` through `first` to a drawn node (or a dead end)."""
     parts = builder.parts
+    name: str | None
     chain, nodes, node, name = [], [hub], hub, first
     while name is not None:
         chain.append(name)

@@ -18,8 +18,8 @@ from __future__ import annotations
 
 import math
 import re
-from collections.abc import Callable, Iterable
-from typing import Any
+from collections.abc import Callable, Iterable, Mapping
+from typing import TYPE_CHECKING, Any
 from dataclasses import dataclass, field, replace
 
 import networkx as nx
@@ -27,6 +27,9 @@ import networkx as nx
 from ..errors import SpecError, TopologyError, brief
 from ..schema import CIRCUIT_KEYS, ELEMENT_KEYS, LIMITS, check_type, unknown_key
 from ..units import format_value, parse_value
+
+if TYPE_CHECKING:
+    from .drawing import DrawingSpec
 
 __all__ = [
     "KINDS",
@@ -92,7 +95,7 @@ GAIN_LIMITS = (1e-12, 1e12)
 SOURCE_LIMIT = 1e6
 
 
-def check_symbol(name, *, where="symbol"):
+def check_symbol(name: object, *, where: str = "symbol") -> str:
     """Return `name` if it is a safe symbol name, else raise SpecError.
 
     >>> check_symbol("s", where="element 'C1'")
@@ -197,14 +200,14 @@ class Element:
 
     name: str
     kind: str
-    nodes: tuple
+    nodes: tuple[str, ...]
     value: float | None = None
     symbol: str | None = None
     gain: float | None = None
     gbw: float | None = None
     control: str | None = None
 
-    def __post_init__(self):
+    def __post_init__(self) -> None:
         if not isinstance(self.name, str) or not self.name:
             raise TopologyError(f"element name {brief(self.name)} must be a non-empty string")
         where = f"element {brief(self.name)}"
@@ -273,26 +276,26 @@ class Element:
             raise TopologyError(f"{where}: only op-amps take 'gbw'")
 
     @property
-    def parameter(self):
+    def parameter(self) -> float | None:
         """The number of the principal parameter (value or gain), or None."""
         if self.kind in CONTROLLED_KINDS:
             return self.gain
         return self.value
 
     @property
-    def is_symbolic(self):
+    def is_symbolic(self) -> bool:
         """True when the principal parameter is a symbol without a number."""
         return self.symbol is not None and self.parameter is None
 
-    def with_parameter(self, number):
+    def with_parameter(self, number: float) -> Element:
         """Return a copy whose principal parameter is `number`."""
         if self.kind in CONTROLLED_KINDS:
             return replace(self, gain=float(number))
         return replace(self, value=float(number))
 
-    def to_dict(self):
+    def to_dict(self) -> dict[str, Any]:
         """The element as a JSON-ready dict in the schema of docs/architecture.md."""
-        out = {"name": self.name, "kind": self.kind, "nodes": list(self.nodes)}
+        out: dict[str, Any] = {"name": self.name, "kind": self.kind, "nodes": list(self.nodes)}
         if self.kind in CONTROLLED_KINDS:
             if self.gain is not None:
                 out["gain"] = float(self.gain)
@@ -320,22 +323,22 @@ class Circuit:
         When the circuit breaks a rule of the schema (see :meth:`validate`).
     """
 
-    elements: tuple
+    elements: tuple[Element, ...]
     reference: str = "gnd"
     input: str = "vin"
     output: str = "vout"
     name: str = ""
-    _graph: object = field(default=None, repr=False, compare=False)
+    _graph: nx.MultiGraph | None = field(default=None, repr=False, compare=False)
     #: How the circuit is drawn (a placer.circuit.drawing.DrawingSpec from its topology file), or None.
-    drawing: object = field(default=None, repr=False, compare=False)
+    drawing: DrawingSpec | None = field(default=None, repr=False, compare=False)
 
-    def __post_init__(self):
+    def __post_init__(self) -> None:
         object.__setattr__(self, "elements", tuple(self.elements))
         self.validate()
 
     # -- views -------------------------------------------------------------
     @property
-    def graph(self):
+    def graph(self) -> nx.MultiGraph:
         """The circuit as a networkx MultiGraph: nodes, one edge per terminal pair.
 
         Every element adds edges between the nodes it joins electrically;
@@ -353,9 +356,9 @@ class Circuit:
         return self._graph
 
     @property
-    def nodes(self):
+    def nodes(self) -> list[str]:
         """Node names in order of first appearance (reference first)."""
-        seen = {self.reference: None}
+        seen: dict[str, None] = {self.reference: None}
         for element in self.elements:
             for node in element.nodes:
                 seen.setdefault(node, None)
@@ -363,7 +366,7 @@ class Circuit:
         seen.setdefault(self.output, None)
         return list(seen)
 
-    def element(self, name):
+    def element(self, name: str) -> Element:
         """The element called `name` (KeyError naming it if absent)."""
         for element in self.elements:
             if element.name == name:
@@ -371,19 +374,19 @@ class Circuit:
         raise KeyError(f"circuit has no element {name!r}")
 
     @property
-    def symbols(self):
+    def symbols(self) -> tuple[str, ...]:
         """Names of the symbolic parameters, in element order."""
-        out = []
+        out: list[str] = []
         for element in self.elements:
-            if element.is_symbolic and element.symbol not in out:
+            if element.symbol is not None and element.is_symbolic and element.symbol not in out:
                 out.append(element.symbol)
         return tuple(out)
 
     @property
-    def opamp_count(self):
+    def opamp_count(self) -> int:
         return sum(1 for e in self.elements if e.kind == "opamp")
 
-    def with_values(self, values):
+    def with_values(self, values: Mapping[str, float]) -> Circuit:
         """Return a copy with numbers for the symbols in `values`.
 
         Parameters
@@ -398,7 +401,7 @@ class Circuit:
             elements.append(element)
         return replace(self, elements=tuple(elements), _graph=None)
 
-    def to_dict(self):
+    def to_dict(self) -> dict[str, Any]:
         """The circuit as a JSON-ready dict in the schema of docs/architecture.md."""
         return {
             "reference": self.reference,
@@ -408,7 +411,7 @@ class Circuit:
         }
 
     # -- validation --------------------------------------------------------
-    def validate(self):
+    def validate(self) -> None:
         """Check the schema's rules; raise TopologyError naming the culprit."""
         where = f"circuit {brief(self.name)}: " if self.name else ""
         for label in ("reference", "input", "output"):
@@ -436,7 +439,7 @@ class Circuit:
                     f"{where}{label} node {brief(node)} cannot be the reference node; "
                     "name a node other than the reference"
                 )
-        touched = {}
+        touched: dict[str, int] = {}
         for element in self.elements:
             for node in element.nodes:
                 touched[node] = touched.get(node, 0) + 1
@@ -469,7 +472,7 @@ class Circuit:
         _check_source_loops(self, where)
 
 
-def _branches(element, reference):
+def _branches(element: Element, reference: str) -> list[tuple[str, str]]:
     """Pairs of nodes the element joins for connectivity purposes."""
     n = element.nodes
     if element.kind == "opamp":
@@ -479,7 +482,7 @@ def _branches(element, reference):
     return [(n[0], n[1])]
 
 
-def _check_source_loops(circuit, where):
+def _check_source_loops(circuit: Circuit, where: str) -> None:
     """Reject a loop made only of voltage-defining branches.
 
     Voltage sources, vcvs and ccvs outputs, op-amp outputs (to the
@@ -666,7 +669,7 @@ def read_settings(circuit: Circuit, items: Iterable[str], *, option: str = "--se
     """
     kinds: dict[str, str] = {}
     for element in circuit.elements:
-        if element.is_symbolic:
+        if element.symbol is not None and element.is_symbolic:
             kinds.setdefault(element.symbol, element.kind)
     values = {}
     for item in items:

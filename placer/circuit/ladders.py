@@ -36,6 +36,7 @@ Impedance-Matching Networks, and Coupling Structures*, McGraw-Hill, 1964
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 
 from .elements import Circuit, Element
 from ..errors import SpecError
@@ -61,7 +62,7 @@ _RESPONSES = ("lowpass",)
 _FIRST = ("shunt", "series")
 
 
-def ladder_topology(order, *, response="lowpass", first="shunt"):
+def ladder_topology(order: int, *, response: str = "lowpass", first: str = "shunt") -> Topology:
     """A doubly terminated LC ladder low-pass of the given order.
 
     Parameters
@@ -101,7 +102,7 @@ def ladder_topology(order, *, response="lowpass", first="shunt"):
     series_count = order - len(shunt_positions)
     last_node = series_count + 1
 
-    def node(index):
+    def node(index: int) -> str:
         return "vout" if index == last_node else f"n{index}"
 
     elements = [Element("RS", "resistor", ("vin", node(1)), symbol="RS")]
@@ -120,7 +121,8 @@ def ladder_topology(order, *, response="lowpass", first="shunt"):
     if first == "series":
         topology_id += "-series-first"
     circuit = Circuit(tuple(elements), name=topology_id)
-    reactive = tuple(e.symbol for e in elements if e.kind in ("capacitor", "inductor"))
+    reactive = tuple(e.symbol for e in elements
+                     if e.symbol is not None and e.kind in ("capacitor", "inductor"))
     form = "shunt capacitor" if first == "shunt" else "series inductor"
     return Topology(
         id=topology_id,
@@ -146,12 +148,12 @@ def ladder_topology(order, *, response="lowpass", first="shunt"):
     )
 
 
-def generated_topologies():
+def generated_topologies() -> tuple[Topology, ...]:
     """The ladders the library lists: shunt-first, orders 2–7."""
     return tuple(ladder_topology(order) for order in GENERATED_ORDERS)
 
 
-def butterworth_ladder_values(order):
+def butterworth_ladder_values(order: int) -> tuple[float, ...]:
     """Normalised Butterworth prototype values g_1 … g_n.
 
     For RS = RL = 1 ohm and a cutoff (-3 dB) of 1 rad/s,
@@ -181,7 +183,8 @@ def butterworth_ladder_values(order):
     return tuple(2.0 * math.sin((2 * k - 1) * math.pi / (2 * order)) for k in range(1, order + 1))
 
 
-def ladder_part_values(topology, g_values, *, cutoff=1.0, resistance=1.0):
+def ladder_part_values(topology: Topology, g_values: Sequence[float], *, cutoff: float = 1.0,
+                       resistance: float = 1.0) -> dict[str, float]:
     """Denormalise prototype values onto a ladder topology's parts.
 
     Parameters
@@ -222,7 +225,7 @@ def ladder_part_values(topology, g_values, *, cutoff=1.0, resistance=1.0):
     return values
 
 
-def _is_shunt(position, first):
+def _is_shunt(position: int, first: str) -> bool:
     """True when ladder position k (1-based) is a shunt capacitor."""
     odd = position % 2 == 1
     return odd if first == "shunt" else not odd

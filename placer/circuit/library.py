@@ -17,7 +17,9 @@ from __future__ import annotations
 import difflib
 from dataclasses import dataclass, replace
 from functools import lru_cache
+from collections.abc import Mapping
 from pathlib import Path
+from typing import Any
 
 from .elements import Circuit, circuit_from_dict
 from ..errors import SpecError, brief, brief_path
@@ -42,8 +44,8 @@ LIBRARY_DIR = Path(__file__).resolve().parent / "topologies"
 
 
 @lru_cache(maxsize=1)
-def _bundled():
-    found = {}
+def _bundled() -> dict[str, Topology]:
+    found: dict[str, Topology] = {}
     for path in sorted(LIBRARY_DIR.glob("*.toml")):
         topology = load_topology(path)
         if topology.id in found:
@@ -53,13 +55,13 @@ def _bundled():
 
 
 @lru_cache(maxsize=1)
-def _generated():
+def _generated() -> tuple[Topology, ...]:
     # the generated ladders never change in a process; building them costs
     # ~10 ms, which every design and every explorer request paid per section
     return generated_topologies()
 
 
-def library_topologies():
+def library_topologies() -> dict[str, Topology]:
     """Every library topology, id → Topology, bundled files then generated."""
     found = dict(_bundled())
     for topology in _generated():
@@ -67,7 +69,7 @@ def library_topologies():
     return found
 
 
-def get_topology(topology_id):
+def get_topology(topology_id: str) -> Topology:
     """The library topology with this id; SpecError suggests the nearest."""
     topologies = library_topologies()
     if topology_id in topologies:
@@ -132,7 +134,7 @@ def load_analysable(name: str) -> Analysable:
     return Analysable(None, replace(circuit, name=source))
 
 
-def load_folder(folder):
+def load_folder(folder: str | Path) -> dict[str, dict[str, Any]]:
     """Load every ``*.toml`` in a folder of the user's.
 
     Returns
@@ -142,7 +144,8 @@ def load_folder(folder):
         file does not stop the others.
     """
     folder = check_path(folder, what="topology folder", folder=True)
-    topologies, errors = {}, {}
+    topologies: dict[str, Topology] = {}
+    errors: dict[str, str] = {}
     for path in sorted(folder.glob("*.toml")):
         try:
             topology = load_topology(path)
@@ -153,7 +156,7 @@ def load_folder(folder):
     return {"topologies": topologies, "errors": errors}
 
 
-def realises(topology, kind: str) -> bool:
+def realises(topology: Topology, kind: str) -> bool:
     """True when a topology can realise a section (or response) of this kind.
 
     A topology realises its own ``response``; a notch topology also the
@@ -171,7 +174,9 @@ def realises(topology, kind: str) -> bool:
     return kind == topology.response or kind in topology.notch_kinds
 
 
-def find_topologies(*, response=None, order=None, family=None, topologies=None):
+def find_topologies(*, response: str | None = None, order: int | None = None,
+                    family: str | None = None,
+                    topologies: Mapping[str, Topology] | None = None) -> list[Topology]:
     """Library topologies filtered by response or section kind, order and family.
 
     `response` may be a topology response (``"notch"`` finds every notch

@@ -34,14 +34,15 @@ from __future__ import annotations
 import math
 import re
 import tomllib
-from typing import Any
+from collections.abc import Mapping
+from typing import Any, cast
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from .elements import KIND_UNITS, Circuit, check_part_value, check_symbol, circuit_from_dict
 from ..errors import SpecError, TopologyError, brief, brief_path
 from ..schema import CIRCUIT_KEYS, TOPOLOGY_KEYS, check_type, read_toml, unknown_key
-from .drawing import drawing_from_table
+from .drawing import DrawingSpec, drawing_from_table
 from ..units import parse_value
 
 __all__ = [
@@ -88,13 +89,13 @@ class Constraint:
     factor: float
     source: str
 
-    def __str__(self):
+    def __str__(self) -> str:
         if self.factor == 1.0:
             return f"{self.part} = {self.source}"
         return f"{self.part} = {self.factor:g}*{self.source}"
 
 
-def parse_constraint(text, *, where="constraints"):
+def parse_constraint(text: object, *, where: str = "constraints") -> Constraint:
     """Parse ``"C1 = C2"`` or ``"R2 = 4*R1"`` (no eval).
 
     >>> parse_constraint("R2 = 4*R1")
@@ -152,24 +153,24 @@ class Topology:
     response: str
     order: int
     circuit: Circuit
-    free: tuple
-    ranges: dict = field(default_factory=dict)
-    values: dict = field(default_factory=dict)
-    constraints: tuple = ()
+    free: tuple[str, ...]
+    ranges: dict[str, tuple[float, float]] = field(default_factory=dict)
+    values: dict[str, float] = field(default_factory=dict)
+    constraints: tuple[Constraint, ...] = ()
     family: str = ""
     inverting: bool = False
     description: str = ""
     formula: str = ""
     path: str = ""
-    drawing: object = None   # placer.circuit.drawing.DrawingSpec from the file's [drawing] table
-    notch_kinds: tuple = ()
+    drawing: DrawingSpec | None = None   # from the file's [drawing] table
+    notch_kinds: tuple[str, ...] = ()
 
     @property
-    def symbols(self):
+    def symbols(self) -> tuple[str, ...]:
         """Every symbol of the circuit, in element order."""
         return self.circuit.symbols
 
-    def kind_of(self, symbol):
+    def kind_of(self, symbol: str) -> str:
         """Element kind that carries `symbol`."""
         for element in self.circuit.elements:
             if element.symbol == symbol:
@@ -177,15 +178,15 @@ class Topology:
         raise KeyError(f"topology {self.id!r} has no part {symbol!r}")
 
     @property
-    def part_count(self):
+    def part_count(self) -> int:
         """Resistors, capacitors and inductors in the circuit."""
         return sum(1 for e in self.circuit.elements if e.kind in _PASSIVE)
 
     @property
-    def opamp_count(self):
+    def opamp_count(self) -> int:
         return self.circuit.opamp_count
 
-    def with_ranges(self, by_kind):
+    def with_ranges(self, by_kind: Mapping[str, tuple[float, float]]) -> Topology:
         """Copy with the range of every free part of a kind replaced.
 
         Parameters
@@ -197,11 +198,11 @@ class Topology:
         for symbol in self.free:
             kind = self.kind_of(symbol)
             if kind in by_kind:
-                ranges[symbol] = tuple(by_kind[kind])
+                ranges[symbol] = cast(tuple[float, float], tuple(by_kind[kind]))
         return replace(self, ranges=ranges)
 
 
-def topology_from_text(text, *, source="topology"):
+def topology_from_text(text: str, *, source: str = "topology") -> Topology:
     """Parse topology TOML text; `source` names it in error messages."""
     try:
         data = tomllib.loads(text)
@@ -267,7 +268,7 @@ def topology_from_dict(data: Any, *, source: str = "topology") -> Topology:
     circuit = replace(circuit, name=topology_id)
     symbols = circuit.symbols
     kinds = {e.symbol: e.kind for e in circuit.elements if e.symbol}
-    values = {}
+    values: dict[str, float] = {}
     for symbol, raw in data.get("values", {}).items():
         if symbol not in symbols:
             raise TopologyError(f"{source}: values: {brief(symbol)} is not a part of the topology")
@@ -323,7 +324,7 @@ def topology_from_dict(data: Any, *, source: str = "topology") -> Topology:
     )
 
 
-def _notch_kinds(data: dict, response: str, source: str) -> tuple:
+def _notch_kinds(data: dict[str, Any], response: str, source: str) -> tuple[str, ...]:
     """The ``notch_kinds`` key: which notch sections a notch topology realises."""
     if "notch_kinds" not in data:
         return ("notch",) if response == "notch" else ()
@@ -337,12 +338,13 @@ def _notch_kinds(data: dict, response: str, source: str) -> tuple:
     return tuple(dict.fromkeys(raw))
 
 
-def _ranges(raw_ranges: dict, free: list, symbols: tuple, kinds: dict, source: str) -> dict:
+def _ranges(raw_ranges: dict[str, Any], free: list[str], symbols: tuple[str, ...],
+            kinds: dict[str, str], source: str) -> dict[str, tuple[float, float]]:
     """Symbol → (low, high) for every free part: given, or by kind."""
     for symbol in raw_ranges:
         if symbol not in symbols:
             raise TopologyError(f"{source}: ranges: {brief(symbol)} is not a part of the topology")
-    ranges = {}
+    ranges: dict[str, tuple[float, float]] = {}
     for symbol in free:
         if symbol in raw_ranges:
             where = f"{source}: ranges.{symbol}"

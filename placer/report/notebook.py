@@ -254,9 +254,9 @@ def loop_html(result, *, plots=True) -> str:
         ["target", _hz(placement.crossover_hz), f"{placement.phase_margin_deg:.2f}°", "-", "-"],
         _margin_row("continuous values", design.continuous_margins),
         _margin_row("preferred values", design.snapped_margins)])]
-    kinds = {e.symbol: e.kind for e in design.topology.circuit.elements}
+    kinds = {e.symbol: e.kind for e in design.topology.circuit.elements if e.symbol is not None}
     out.append(_table(["designator", "kind", "value", "series"], [
-        [symbol, kinds.get(symbol, ""), format_value(value, _UNIT.get(kinds.get(symbol), "")),
+        [symbol, kinds.get(symbol, ""), format_value(value, _UNIT.get(kinds.get(symbol, ""), "")),
          design.series[symbol]] for symbol, value in design.snapped.items()
         if symbol in design.series], numeric_from=2))
     mc = result.monte_carlo

@@ -12,7 +12,7 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from ..circuit.elements import check_part_value
 from ..eseries import check_series
@@ -22,6 +22,11 @@ from ..loops.tolerance import LoopMonteCarlo, loop_monte_carlo
 from ..loops.plants import Plant, plant_from_table
 from ..schema import check_limit, check_table
 from ..units import parse_value
+
+if TYPE_CHECKING:
+    from ..circuit.topology import Topology
+    from ..evidence.verify import Margins
+    from .reader import PartsSpec
 
 __all__ = ["LoopSpec", "LoopResult", "loop_from_table", "run_loop", "loop_to_dict"]
 
@@ -42,8 +47,8 @@ class LoopSpec:
     r1: float = 10e3
     resistor_series: str = "E96"
     capacitor_series: str = "E12"
-    resistor_range: tuple = _DEFAULT_RANGES["resistor"]
-    capacitor_range: tuple = _DEFAULT_RANGES["capacitor"]
+    resistor_range: tuple[float, float] = _DEFAULT_RANGES["resistor"]
+    capacitor_range: tuple[float, float] = _DEFAULT_RANGES["capacitor"]
 
 
 @dataclass(frozen=True)
@@ -56,23 +61,24 @@ class LoopResult:
 
     # report/ sits above this module in the layering: the notebook view is
     # imported on use (see placer.report.notebook), so no plotting loads before.
-    def _repr_html_(self):
+    def _repr_html_(self) -> str:
         """The notebook view: tables and plots (inline SVG), self-contained."""
         from ..report.notebook import loop_html
 
         return loop_html(self)
 
-    def plot(self, **options):
+    def plot(self, **options: Any) -> Any:
         """The main figure: the loop gain with its margins, a matplotlib Figure (see :func:`placer.report.notebook.plot`)."""
         from ..report.notebook import loop_figure
 
         return loop_figure(self, **options)
 
 
-def _series_and_ranges(loop: Mapping, parts: Any, where: str) -> dict:
+def _series_and_ranges(loop: Mapping[str, Any], parts: PartsSpec | None,
+                       where: str) -> dict[str, Any]:
     """The parts' series ([loop] or [parts], not both at odds) and [parts] ranges."""
     given = parts.given if parts is not None else frozenset()
-    out = {}
+    out: dict[str, Any] = {}
     for kind in ("resistor", "capacitor"):
         key = f"{kind}_series"
         from_parts = parts.series[kind] if parts is not None and key in given else None
@@ -89,7 +95,8 @@ def _series_and_ranges(loop: Mapping, parts: Any, where: str) -> dict:
     return out
 
 
-def loop_from_table(table: Mapping, *, source: str = "spec", parts: Any = None) -> LoopSpec:
+def loop_from_table(table: Mapping[str, Any], *, source: str = "spec",
+                    parts: PartsSpec | None = None) -> LoopSpec:
     """Read the ``[loop]`` table of a parsed spec file.
 
     Parameters
@@ -164,8 +171,10 @@ def loop_from_table(table: Mapping, *, source: str = "spec", parts: Any = None) 
                     compensator, floor, r1, **chosen)
 
 
-def run_loop(spec_table, *, source="spec", samples=1000, seed=0, tolerances=None,
-             distribution="uniform", topologies=None, workers=1, parts=None):
+def run_loop(spec_table: Mapping[str, Any], *, source: str = "spec", samples: int = 1000,
+             seed: int = 0, tolerances: Mapping[str, float] | float | None = None,
+             distribution: str = "uniform", topologies: Mapping[str, Topology] | None = None,
+             workers: int | None = 1, parts: PartsSpec | None = None) -> LoopResult:
     """Read a ``[loop]`` spec, design the compensator, run the Monte Carlo.
 
     Parameters
@@ -201,13 +210,13 @@ def run_loop(spec_table, *, source="spec", samples=1000, seed=0, tolerances=None
     return LoopResult(spec, design, monte_carlo)
 
 
-def _margins_dict(m):
+def _margins_dict(m: Margins) -> dict[str, Any]:
     return {"crossover_hz": m.crossover_hz, "phase_margin_deg": m.phase_margin_deg,
             "gain_margin_db": m.gain_margin_db, "phase_crossover_hz": m.phase_crossover_hz,
             "stable": m.stable}
 
 
-def loop_to_dict(result):
+def loop_to_dict(result: LoopResult) -> dict[str, Any]:
     """A LoopResult as JSON-ready data (SI units, Hz, degrees, dB, rad/s roots)."""
     design = result.design
     placement = design.placement

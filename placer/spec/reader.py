@@ -51,7 +51,7 @@ import difflib
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from ..circuit.elements import KIND_UNITS, VALUE_LIMITS, check_part_value
 from ..errors import SpecError, brief
@@ -63,6 +63,10 @@ from ..schema import LIMITS, SPEC_TABLES, check_limit, check_path, check_table, 
 from .target_table import target_from_table
 from ..circuit.topology import parse_constraint
 from ..units import parse_quantity, parse_value
+
+if TYPE_CHECKING:
+    from ..circuit.topology import Constraint
+    from ..target.targets import Target
 
 __all__ = [
     "Spec",
@@ -95,22 +99,22 @@ class PartsSpec:
     defaults).
     """
 
-    series: dict = field(default_factory=lambda: dict(_DEFAULT_SERIES))
-    ranges: dict = field(default_factory=lambda: dict(_DEFAULT_RANGES))
-    fixed: dict = field(default_factory=dict)
-    constraints: tuple = ()
-    given: frozenset = frozenset()
+    series: dict[str, str] = field(default_factory=lambda: dict(_DEFAULT_SERIES))
+    ranges: dict[str, tuple[float, float]] = field(default_factory=lambda: dict(_DEFAULT_RANGES))
+    fixed: dict[str, float] = field(default_factory=dict)
+    constraints: tuple[Constraint, ...] = ()
+    given: frozenset[str] = frozenset()
 
 
 @dataclass(frozen=True)
 class ToleranceSpec:
     """Part tolerances (fractions) and Monte Carlo settings."""
 
-    tolerances: dict
+    tolerances: dict[str, float]
     distribution: str = "uniform"
     samples: int = 2000
     seed: int = 0
-    windows: dict = field(default_factory=lambda: {"f0": 0.02, "q": 0.05})
+    windows: dict[str, float] = field(default_factory=lambda: {"f0": 0.02, "q": 0.05})
 
 
 @dataclass(frozen=True)
@@ -119,16 +123,16 @@ class Spec:
 
     path: str
     title: str
-    target: object | None
+    target: Target | None
     ordering: str
     gain_distribution: str
     parts: PartsSpec
-    candidates: tuple | None
+    candidates: tuple[str, ...] | None
     folder: str | None
     tolerance: ToleranceSpec
     amplifier: AmplifierSpec
-    loop: dict | None
-    raw: dict
+    loop: dict[str, Any] | None
+    raw: dict[str, Any]
     noise: NoiseSpec = field(default_factory=lambda: NoiseSpec())
     signal: SignalSpec = field(default_factory=lambda: SignalSpec())
 
@@ -189,7 +193,7 @@ def _choice(value: Any, valid: tuple, where: str) -> str:
     return value
 
 
-def _range(raw: Any, kind: str, where: str) -> tuple:
+def _range(raw: Any, kind: str, where: str) -> tuple[float, float]:
     if not isinstance(raw, list) or len(raw) != 2:
         raise SpecError(f"{where} must be two values [low, high], not {brief(raw)}")
     low, high = (_value(v, KIND_UNITS[kind], where) for v in raw)
@@ -222,7 +226,7 @@ def _parts(table: dict, source: str) -> PartsSpec:
         key = f"{kind}_range"
         if key in table:
             ranges[kind] = _range(table[key], kind, f"{source}: parts.{key}")
-    fixed = {}
+    fixed: dict[str, float] = {}
     lowest = min(low for low, _ in VALUE_LIMITS.values())
     highest = max(high for _, high in VALUE_LIMITS.values())
     for name, raw in table.get("fixed", {}).items():

@@ -7,10 +7,12 @@ in every error; :func:`target_to_dict` gives a target and its sections
 the JSON shape the ``target`` command and the reports write.
 """
 
+from __future__ import annotations
+
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import replace
-from typing import Any
+from typing import Any, NoReturn, cast
 
 import numpy as np
 
@@ -25,13 +27,15 @@ from placer.target.approximations import (
 )
 from placer.errors import SpecError, brief
 from placer.schema import LIMITS, SPEC_TABLES, check_limit, check_type
-from placer.target.mask import approximation_mask, grid_figures, headroom_design, mask_grid
+from placer.target.mask import Mask, approximation_mask, grid_figures, headroom_design, mask_grid
 from placer.target.sections import split_sections
 from placer.target.targets import (
     NOTCH_KINDS,
     RESPONSES,
     ROOT_UNITS,
     SECTION_KINDS,
+    Section,
+    Target,
     design_target,
     make_section,
     target_from_roots,
@@ -68,14 +72,14 @@ class _TableReader:
         self.table, self.source, self.where = table, source, where
         self.used: set[str] = set()
 
-    def __contains__(self, key):
+    def __contains__(self, key: object) -> bool:
         return key in self.table
 
-    def fail(self, key, detail):
+    def fail(self, key: str, detail: str) -> NoReturn:
         raise SpecError(f"{self.source}: {self.where}.{key} = "
                         f"{brief(self.table.get(key))} {detail}")
 
-    def raw(self, key, default=None):
+    def raw(self, key: str, default: Any = None) -> Any:
         self.used.add(key)
         return self.table.get(key, default)
 
@@ -90,13 +94,14 @@ class _TableReader:
             self.fail(key, "must be positive")
         return check_limit(value, limit, where, shown=self.table[key])
 
-    def flag(self, key):
+    def flag(self, key: str) -> bool:
         value = self.raw(key, False)
         if not isinstance(value, bool):
             self.fail(key, "must be true or false")
         return value
 
-    def choice(self, key, valid, default=None, *, fold=False):
+    def choice(self, key: str, valid: Sequence[str], default: str | None = None, *,
+               fold: bool = False) -> str:
         value = self.raw(key, default)
         lookup = {v.lower(): v for v in valid} if fold else {v: v for v in valid}
         found = lookup.get(value.lower() if fold and isinstance(value, str) else value)
@@ -105,7 +110,7 @@ class _TableReader:
             self.fail(key, f"is not one of {', '.join(valid)}" + hint)
         return found
 
-    def check_all_used(self, context):
+    def check_all_used(self, context: str) -> None:
         for key in self.table:
             if key not in self.used:
                 self.fail(key, f"has no meaning for {context}; remove it")
@@ -116,7 +121,7 @@ _SECTION_DEFAULT_KIND = {"lowpass": "lowpass", "highpass": "highpass",
                          "allpass": "allpass", "custom": "lowpass"}
 
 
-def _read_roots(reader: _TableReader, key: str, units: str) -> list:
+def _read_roots(reader: _TableReader, key: str, units: str) -> list[complex]:
     raw = reader.raw(key, [])
     if not isinstance(raw, Sequence) or isinstance(raw, str):
         reader.fail(key, "must be a list of numbers or [re, im] pairs")
@@ -140,7 +145,7 @@ def _read_roots(reader: _TableReader, key: str, units: str) -> list:
     return roots
 
 
-def _read_sections(reader, response):
+def _read_sections(reader: _TableReader, response: str) -> list[Section]:
     raw = reader.raw("sections")
     if not isinstance(raw, Sequence) or isinstance(raw, str) or not raw:
         reader.fail("sections", "must be a non-empty list of tables with f0, q, zero_f0")
@@ -150,7 +155,8 @@ def _read_sections(reader, response):
                              SPEC_TABLES["target.sections"])
         if "f0" not in entry:
             raise SpecError(f"{reader.source}: {entry.where} needs f0 (Hz)")
-        f0, q = entry.number("f0", "Hz", "frequency"), entry.number("q", None, "q")
+        f0 = cast(float, entry.number("f0", "Hz", "frequency"))  # present: checked above
+        q = entry.number("q", None, "q")
         zero_f0 = entry.number("zero_f0", "Hz", "frequency")
         default = "notch" if zero_f0 is not None else _SECTION_DEFAULT_KIND[response]
         kind = entry.choice("kind", SECTION_KINDS, default)
@@ -172,7 +178,8 @@ def _read_sections(reader, response):
     return sections
 
 
-def _crossover(reader, response, approximation, edges):
+def _crossover(reader: _TableReader, response: str, approximation: str | None,
+               edges: tuple[str, ...]) -> tuple[dict[str, Any], tuple[float, float] | None]:
     """``crossover``: a Linkwitz–Riley low- or high-pass's −6 dB frequency.
 
     A Linkwitz–Riley response of order n is two Butterworths of order n/2
@@ -194,7 +201,8 @@ def _crossover(reader, response, approximation, edges):
                 normalisation="natural"), None
 
 
-def _read_frequencies(reader, response, approximation=None):
+def _read_frequencies(reader: _TableReader, response: str, approximation: str | None = None,
+                      ) -> tuple[dict[str, Any], tuple[float, float] | None]:
     """Frequency keys → keyword arguments of design_target, plus a mask."""
     if response in ("bandpass", "bandstop"):
         present = {k for k in ("center", "bandwidth", "low_edge", "high_edge") if k in reader}
@@ -202,7 +210,9 @@ def _read_frequencies(reader, response, approximation=None):
             return dict(center_hz=reader.number("center", "Hz", "frequency"),
                         bandwidth_hz=reader.number("bandwidth", "Hz", "frequency")), None
         if present == {"low_edge", "high_edge"}:
-            low, high = reader.number("low_edge", "Hz", "frequency"), reader.number("high_edge", "Hz", "frequency")
+            # both present (`present` says so), so neither is None
+            low = cast(float, reader.number("low_edge", "Hz", "frequency"))
+            high = cast(float, reader.number("high_edge", "Hz", "frequency"))
             if not low < high:
                 reader.fail("high_edge", f"must lie above low_edge = {low:g} Hz")
             center, width = band_from_edges(low, high)
@@ -215,7 +225,8 @@ def _read_frequencies(reader, response, approximation=None):
         return _crossover(reader, response, approximation, edges)
     present = {k for k in edges if k in reader}
     if present == {"passband_edge", "stopband_edge"}:
-        mask = (reader.number("passband_edge", "Hz", "frequency"), reader.number("stopband_edge", "Hz", "frequency"))
+        mask = cast(tuple[float, float], (reader.number("passband_edge", "Hz", "frequency"),
+                                          reader.number("stopband_edge", "Hz", "frequency")))
         return dict(frequency_hz=mask[0], normalisation="passband_edge"), mask
     if len(present) != 1:
         raise SpecError(f"{reader.source}: a {response} target needs one of "
@@ -228,13 +239,20 @@ def _read_frequencies(reader, response, approximation=None):
                 normalisation="cutoff" if key == "cutoff" else key), None
 
 
-def _approximation_target(reader, response, gain_db):
+def _approximation_target(reader: _TableReader, response: str, gain_db: float) -> Target:
     approximation = reader.choice("approximation", APPROXIMATIONS)
     options, mask = _read_frequencies(reader, response, approximation)
     needs_ripple = approximation in ("chebyshev1", "elliptic") or mask or \
         options.get("normalisation") == "passband_edge"
     needs_attenuation = approximation in ("chebyshev2", "elliptic") or mask or \
         options.get("normalisation") == "stopband_edge"
+    if mask:
+        for key in ("ripple", "attenuation"):
+            if key not in reader:
+                raise SpecError(
+                    f"{reader.source}: target.{key} is missing: passband_edge and stopband_edge "
+                    "set a mask, which needs ripple and attenuation (dB, for example "
+                    "ripple = \"1 dB\", attenuation = \"40 dB\")")
     ripple = reader.number("ripple", "dB", "ripple") if needs_ripple else None
     attenuation = reader.number("attenuation", "dB", "attenuation") if needs_attenuation else None
     if approximation == "bessel" and options.get("normalisation", "cutoff") == "cutoff":
@@ -242,7 +260,8 @@ def _approximation_target(reader, response, gain_db):
         options["bessel_norm"] = norm
         if norm != "mag":
             options["normalisation"] = "natural"
-    margin = reader.number("margin", "dB", "margin_db", positive=False) if "margin" in reader else 0.0
+    margin = cast(float, reader.number("margin", "dB", "margin_db", positive=False)
+                  if "margin" in reader else 0.0)
     if margin and ripple is not None and margin >= ripple:
         reader.fail("margin", f"leaves no ripple to design with: it must be below ripple = "
                               f"{ripple:g} dB")
@@ -251,8 +270,9 @@ def _approximation_target(reader, response, gain_db):
         if order is not None:
             check_order(order, approximation)
         if mask:
-            estimate = estimate_order(approximation, mask[0], ripple - margin, mask[1],
-                                      attenuation + margin, response=response)
+            estimate = estimate_order(approximation, mask[0], cast(float, ripple) - margin,
+                                      mask[1], cast(float, attenuation) + margin,
+                                      response=response)
             needed = estimate.order
             if needed is None or needed > MAX_ORDER:
                 raise SpecError(f"no {approximation} response of order 1–{MAX_ORDER} meets "
@@ -286,8 +306,8 @@ def _approximation_target(reader, response, gain_db):
     return target
 
 
-def _headroom_target(approximation: str, order: int, mask: object, margin: float,
-                     response: str, gain_db: float) -> object:
+def _headroom_target(approximation: str, order: int, mask: Mask | None, margin: float,
+                     response: str, gain_db: float) -> Target:
     """The approximation designed `margin` dB inside its mask, or why it cannot be."""
     if mask is None:
         raise SpecError(f"margin = {margin:g} dB needs a mask to keep headroom against: give "
@@ -311,8 +331,11 @@ def _headroom_target(approximation: str, order: int, mask: object, margin: float
         if response in ("lowpass", "highpass") and mask.passbands_hz and mask.stopbands_hz:
             (pass_band,), (stop_band,) = mask.passbands_hz, mask.stopbands_hz
             edges = [b[1] if b[0] == 0 else b[0] for b in (pass_band, stop_band)]
-            needed = estimate_order(approximation, edges[0], mask.ripple_db - margin, edges[1],
-                                    mask.attenuation_db + margin, response=response).order
+            # a low-/high-pass mask with both bands has both levels
+            needed = estimate_order(approximation, edges[0],
+                                    cast(float, mask.ripple_db) - margin, edges[1],
+                                    cast(float, mask.attenuation_db) + margin,
+                                    response=response).order
             if needed is not None:
                 hint = f"{approximation} needs order {needed} for it"
         raise SpecError(
@@ -323,7 +346,7 @@ def _headroom_target(approximation: str, order: int, mask: object, margin: float
     return target
 
 
-def target_from_table(table, *, source="spec"):
+def target_from_table(table: Any, *, source: str = "spec") -> Target:
     """Read a spec file's ``[target]`` table into a :class:`Target`.
 
     Keys (numbers go through :func:`placer.units.parse_value`; bare
@@ -418,7 +441,7 @@ def target_from_table(table, *, source="spec"):
     return _approximation_target(reader, response, gain_db)
 
 
-def target_to_dict(target, sections=None):
+def target_to_dict(target: Target, sections: Sequence[Section] | None = None) -> dict[str, Any]:
     """The JSON shape of a target and its sections.
 
     Roots are ``[re, im]`` pairs in rad/s; ``reference_frequency_hz`` is

@@ -22,12 +22,16 @@ References
    drivers", *J. Audio Eng. Soc.* 24(1), 1976.
 """
 
+from __future__ import annotations
+
 import difflib
 import math
 from dataclasses import dataclass
-from typing import NamedTuple
+from collections.abc import Callable, Collection, Sequence
+from typing import Any, NamedTuple, cast
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 from scipy import optimize, signal, special
 
 from placer.errors import SpecError
@@ -75,6 +79,10 @@ _LEVEL_TOLERANCE_DB = 1e-9
 _ESTIMATED = ("butterworth", "chebyshev1", "chebyshev2", "elliptic", "bessel")
 
 
+#: A band edge, Hz: one frequency, or the (low, high) pair of a band-pass mask.
+Edge = float | tuple[float, float]
+
+
 class ZPK(NamedTuple):
     """Zeros, poles (rad/s) and gain ``k`` of H(s) = k·Π(s−z)/Π(s−p)."""
 
@@ -90,7 +98,7 @@ class Band(NamedTuple):
     bandwidth: float
 
 
-def suggest(name, valid):
+def suggest(name: object, valid: Collection[str]) -> str:
     """Return ``"; did you mean 'x'?"`` naming the valid name(s) nearest *name*.
 
     Examples
@@ -98,7 +106,7 @@ def suggest(name, valid):
     >>> suggest("chebychev", APPROXIMATIONS)
     "; did you mean 'chebyshev1' or 'chebyshev2'?"
     """
-    def score(candidate):
+    def score(candidate: str) -> float:
         return difflib.SequenceMatcher(None, str(name), candidate).ratio()
 
     close = difflib.get_close_matches(str(name), list(valid), n=3)
@@ -106,7 +114,7 @@ def suggest(name, valid):
     return f"; did you mean {' or '.join(map(repr, close))}?" if close else ""
 
 
-def check_choice(value, valid, field):
+def check_choice(value: Any, valid: Collection[str], field: str) -> str:
     """Return *value* if it is one of *valid*, else raise naming both.
 
     Parameters
@@ -137,7 +145,7 @@ def check_choice(value, valid, field):
     return value
 
 
-def check_order(order, approximation):
+def check_order(order: object, approximation: str) -> int:
     """Return *order* as an int if the family can have it, else raise.
 
     A prototype order is a whole number from :data:`MIN_ORDER` to
@@ -173,7 +181,7 @@ def check_order(order, approximation):
     return int(order)
 
 
-def _check_level(value, name, needed_by):
+def _check_level(value: float | None, name: str, needed_by: str) -> float:
     if value is None:
         raise SpecError(f"{name} is required for {needed_by}")
     if not (math.isfinite(value) and value > 0):
@@ -181,8 +189,8 @@ def _check_level(value, name, needed_by):
     return float(value)
 
 
-def _natural_prototype(approximation, order, ripple_db, attenuation_db,
-                       bessel_norm):
+def _natural_prototype(approximation: str, order: int, ripple_db: float | None,
+                       attenuation_db: float | None, bessel_norm: str) -> ZPK:
     """The prototype as scipy.signal normalises it, with a pass-band peak of 1."""
     common = dict(analog=True, output="zpk")
     if approximation == "butterworth":
@@ -201,13 +209,14 @@ def _natural_prototype(approximation, order, ripple_db, attenuation_db,
     return ZPK(np.asarray(z, complex), np.asarray(p, complex), float(k))
 
 
-def _loss_db(zpk, omega):
+def _loss_db(zpk: ZPK, omega: ArrayLike) -> NDArray[np.float64]:
     _, h = signal.freqs_zpk(zpk.zeros, zpk.poles, zpk.k, worN=np.atleast_1d(omega))
     return -20.0 * np.log10(np.abs(h))
 
 
-def frequency_at_loss(approximation, prototype, loss_db, *, ripple_db=None,
-                      attenuation_db=None):
+def frequency_at_loss(approximation: str, prototype: ZPK, loss_db: float, *,
+                      ripple_db: float | None = None,
+                      attenuation_db: float | None = None) -> float:
     """Find where a natural prototype's loss first settles at *loss_db*.
 
     The search is a bracketed root finder (Brent) on the interval where the
@@ -247,18 +256,19 @@ def frequency_at_loss(approximation, prototype, loss_db, *, ripple_db=None,
     """
     level = 10.0 ** (-loss_db / 20.0)
 
-    def excess(omega):
+    def excess(omega: float) -> float:
         return float(np.abs(signal.freqs_zpk(prototype.zeros, prototype.poles,
                                              prototype.k, worN=[omega])[1][0])) - level
 
     if approximation in ("chebyshev1", "elliptic"):
-        if loss_db < ripple_db - _LEVEL_TOLERANCE_DB:
+        ripple = cast(float, ripple_db)  # these families are designed with one
+        if loss_db < ripple - _LEVEL_TOLERANCE_DB:
             raise SpecError(
                 f"a loss of {loss_db:.4g} dB is reached inside the "
-                f"{ripple_db:g} dB ripple band of a {approximation} response, "
+                f"{ripple:g} dB ripple band of a {approximation} response, "
                 "so the frequency is ambiguous; with a ripple deeper than "
                 "3 dB give passband_edge instead of cutoff")
-        if loss_db <= ripple_db + _LEVEL_TOLERANCE_DB:
+        if loss_db <= ripple + _LEVEL_TOLERANCE_DB:
             return 1.0
         low = 1.0
         if approximation == "elliptic" and prototype.zeros.size:
@@ -268,12 +278,13 @@ def frequency_at_loss(approximation, prototype, loss_db, *, ripple_db=None,
             while excess(high) > 0:
                 high *= 2.0
     elif approximation == "chebyshev2":
-        if loss_db > attenuation_db + _LEVEL_TOLERANCE_DB:
+        attenuation = cast(float, attenuation_db)  # as the design has one
+        if loss_db > attenuation + _LEVEL_TOLERANCE_DB:
             raise SpecError(
-                f"a chebyshev2 response with attenuation = {attenuation_db:g} dB "
+                f"a chebyshev2 response with attenuation = {attenuation:g} dB "
                 f"never falls {loss_db:.4g} dB; its stop band sits at "
-                f"-{attenuation_db:g} dB (attenuation must exceed the loss asked)")
-        if loss_db >= attenuation_db - _LEVEL_TOLERANCE_DB:
+                f"-{attenuation:g} dB (attenuation must exceed the loss asked)")
+        if loss_db >= attenuation - _LEVEL_TOLERANCE_DB:
             return 1.0
         low, high = 0.0, 1.0
     else:
@@ -294,9 +305,9 @@ def frequency_at_loss(approximation, prototype, loss_db, *, ripple_db=None,
                                  maxiter=500))
 
 
-def lowpass_prototype(approximation, order, *, ripple_db=None,
-                      attenuation_db=None, bessel_norm="mag",
-                      normalisation="cutoff"):
+def lowpass_prototype(approximation: str, order: int, *, ripple_db: float | None = None,
+                      attenuation_db: float | None = None, bessel_norm: str = "mag",
+                      normalisation: str = "cutoff") -> ZPK:
     """Analog low-pass prototype of a classical approximation, as zpk.
 
     Parameters
@@ -360,7 +371,8 @@ def lowpass_prototype(approximation, order, *, ripple_db=None,
     if approximation in ("chebyshev2", "elliptic"):
         attenuation_db = _check_level(attenuation_db, "attenuation",
                                       f"a {approximation} response")
-    if approximation == "elliptic" and attenuation_db <= ripple_db:
+    # both checked just above for an elliptic response
+    if approximation == "elliptic" and cast(float, attenuation_db) <= cast(float, ripple_db):
         raise SpecError(f"attenuation = {attenuation_db:g} dB must exceed "
                         f"ripple = {ripple_db:g} dB for an elliptic response")
     if bessel_norm != "mag" and (approximation != "bessel" or normalisation != "natural"):
@@ -382,7 +394,7 @@ def lowpass_prototype(approximation, order, *, ripple_db=None,
     return scale_lowpass(natural, 1.0 / edge)
 
 
-def band_from_edges(low_edge, high_edge):
+def band_from_edges(low_edge: float, high_edge: float) -> Band:
     """Geometric centre and width of a band from its two edges.
 
     Examples
@@ -396,11 +408,11 @@ def band_from_edges(low_edge, high_edge):
     return Band(math.sqrt(low_edge * high_edge), high_edge - low_edge)
 
 
-def _as_zpk(z, p, k):
+def _as_zpk(z: ArrayLike, p: ArrayLike, k: complex) -> ZPK:
     return ZPK(np.asarray(z, complex), np.asarray(p, complex), float(np.real(k)))
 
 
-def scale_lowpass(prototype, cutoff):
+def scale_lowpass(prototype: ZPK, cutoff: float) -> ZPK:
     """Move a 1 rad/s low-pass prototype to *cutoff* rad/s (k follows).
 
     Examples
@@ -411,7 +423,7 @@ def scale_lowpass(prototype, cutoff):
     return _as_zpk(*signal.lp2lp_zpk(*prototype, wo=cutoff))
 
 
-def lowpass_to_highpass(prototype, cutoff):
+def lowpass_to_highpass(prototype: ZPK, cutoff: float) -> ZPK:
     """High-pass with its prototype's 1 rad/s point at *cutoff* rad/s.
 
     Examples
@@ -422,7 +434,7 @@ def lowpass_to_highpass(prototype, cutoff):
     return _as_zpk(*signal.lp2hp_zpk(*prototype, wo=cutoff))
 
 
-def lowpass_to_bandpass(prototype, center, bandwidth):
+def lowpass_to_bandpass(prototype: ZPK, center: float, bandwidth: float) -> ZPK:
     """Band-pass: the prototype's ±1 rad/s map to edges *bandwidth* apart.
 
     The edges ω₁ < ω₂ satisfy ω₁·ω₂ = center² and ω₂ − ω₁ = bandwidth (rad/s).
@@ -437,7 +449,7 @@ def lowpass_to_bandpass(prototype, center, bandwidth):
     return _as_zpk(*signal.lp2bp_zpk(*prototype, wo=center, bw=bandwidth))
 
 
-def lowpass_to_bandstop(prototype, center, bandwidth):
+def lowpass_to_bandstop(prototype: ZPK, center: float, bandwidth: float) -> ZPK:
     """Band-stop (notch) with edges *bandwidth* apart around *center* (rad/s).
 
     Examples
@@ -481,11 +493,11 @@ class OrderEstimate:
     stopband_attenuation_db: float | None = None
 
 
-def _pow10m1(x):
+def _pow10m1(x: float) -> float:
     return math.expm1(x * math.log(10.0))
 
 
-def _selectivity(passband, stopband, response):
+def _selectivity(passband: Any, stopband: Any, response: str) -> float:
     """Stop-to-pass ratio of the equivalent normalised low-pass mask."""
     if response == "lowpass":
         return stopband / passband
@@ -496,7 +508,8 @@ def _selectivity(passband, stopband, response):
                for ws in stopband)
 
 
-def _check_mask(passband, ripple_db, stopband, attenuation_db, response):
+def _check_mask(passband: Any, ripple_db: float | None, stopband: Any,
+                attenuation_db: float | None, response: str) -> tuple[Any, Any]:
     ripple_db = _check_level(ripple_db, "ripple", "an order estimate")
     attenuation_db = _check_level(attenuation_db, "attenuation", "an order estimate")
     if attenuation_db <= ripple_db:
@@ -531,7 +544,8 @@ def _check_mask(passband, ripple_db, stopband, attenuation_db, response):
     return float(passband), float(stopband)
 
 
-def _closed_form_order(approximation, nat, ripple_db, attenuation_db):
+def _closed_form_order(approximation: str, nat: float, ripple_db: float,
+                       attenuation_db: float) -> int:
     # Daniels [2]: Butterworth and Chebyshev order from the discrimination
     # ratio; elliptic from the ratio of complete elliptic integrals.
     discrimination = _pow10m1(0.1 * attenuation_db) / _pow10m1(0.1 * ripple_db)
@@ -546,7 +560,8 @@ def _closed_form_order(approximation, nat, ripple_db, attenuation_db):
     return int(math.ceil(exact))
 
 
-def _design_losses(approximation, order, ripple_db, attenuation_db, nat):
+def _design_losses(approximation: str, order: int, ripple_db: float, attenuation_db: float,
+                   nat: float) -> tuple[float | None, float]:
     """Passband-edge and stop-band-minimum of a design meeting the ripple."""
     proto = lowpass_prototype(approximation, order, ripple_db=ripple_db,
                               attenuation_db=attenuation_db,
@@ -570,8 +585,9 @@ def _design_losses(approximation, order, ripple_db, attenuation_db, nat):
     return edge_ratio, stop_loss
 
 
-def estimate_orders(passband_edge_hz, ripple_db, stopband_edge_hz,
-                    attenuation_db, *, response="lowpass"):
+def estimate_orders(passband_edge_hz: Edge, ripple_db: float, stopband_edge_hz: Edge,
+                    attenuation_db: float, *,
+                    response: str = "lowpass") -> tuple[OrderEstimate, ...]:
     """Lowest order of each classical family that meets a mask.
 
     The mask: at most *ripple_db* loss up to the pass-band edge, at least
@@ -617,8 +633,9 @@ def estimate_orders(passband_edge_hz, ripple_db, stopband_edge_hz,
                  for approximation in _ESTIMATED)
 
 
-def estimate_order(approximation, passband_edge_hz, ripple_db,
-                   stopband_edge_hz, attenuation_db, *, response="lowpass"):
+def estimate_order(approximation: str, passband_edge_hz: Edge, ripple_db: float,
+                   stopband_edge_hz: Edge, attenuation_db: float, *,
+                   response: str = "lowpass") -> OrderEstimate:
     """Lowest order of one family that meets a mask.
 
     As :func:`estimate_orders`, for one family; Linkwitz–Riley is accepted
@@ -646,7 +663,8 @@ def estimate_order(approximation, passband_edge_hz, ripple_db,
                      attenuation_db, response)
 
 
-def _searched_order(approximation, nat, ripple_db, attenuation_db):
+def _searched_order(approximation: str, nat: float, ripple_db: float,
+                    attenuation_db: float) -> int | None:
     """Lowest order of a monotonic family meeting the mask, or None."""
     step = 2 if approximation == "linkwitz-riley" else 1
     for order in range(step, MAX_ORDER + 1, step):
@@ -658,8 +676,8 @@ def _searched_order(approximation, nat, ripple_db, attenuation_db):
     return None
 
 
-def _describe(approximation, order, passband, nat, ripple_db, attenuation_db,
-              response):
+def _describe(approximation: str, order: int | None, passband: Any, nat: float,
+              ripple_db: float, attenuation_db: float, response: str) -> OrderEstimate:
     if order is None or order > MAX_ORDER:
         return OrderEstimate(approximation, order)
     edge_ratio, stop_loss = _design_losses(approximation, order, ripple_db,

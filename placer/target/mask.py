@@ -30,9 +30,12 @@ References
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable
 from dataclasses import dataclass, field
+from typing import Any, cast
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from placer.target.approximations import HALF_POWER_LOSS_DB, frequency_at_loss, lowpass_prototype
 from placer.errors import SpecError
@@ -56,6 +59,10 @@ MASK_TOLERANCE_DB = 1e-6
 _POINTS = 1200          # grid points per band, half linear and half logarithmic
 _FOCUS_POINTS = 61      # points around each focus frequency, ±3 %
 _FAR = 1e5              # the "infinite" end of a band: this far past its finite edge
+
+
+#: A band (low, high) in Hz; high is inf for the high-frequency end.
+Band = tuple[float, float]
 
 
 @dataclass(frozen=True)
@@ -83,17 +90,17 @@ class Mask:
     """
 
     response: str
-    passbands_hz: tuple = field(default=())
-    stopbands_hz: tuple = field(default=())
+    passbands_hz: tuple[Band, ...] = field(default=())
+    stopbands_hz: tuple[Band, ...] = field(default=())
     ripple_db: float | None = None
     attenuation_db: float | None = None
     level_db: float = 0.0
     margin_db: float = 0.0
     source: str = "given"
 
-    def to_dict(self) -> dict:
+    def to_dict(self) -> dict[str, Any]:
         """JSON shape: bands as [low, high] in Hz, null for the high-frequency limit."""
-        def band(b: tuple) -> list:
+        def band(b: Band) -> list[float | None]:
             return [float(b[0]), None if math.isinf(b[1]) else float(b[1])]
         return {"response": self.response, "source": self.source,
                 "passbands_hz": [band(b) for b in self.passbands_hz],
@@ -122,7 +129,7 @@ def _hz_words(x: float) -> str:
     return f"{x:g} Hz"
 
 
-def _band_words(band: tuple) -> str:
+def _band_words(band: Band) -> str:
     low, high = band
     if low == 0.0:
         return f"up to {_hz_words(high)}"
@@ -145,11 +152,12 @@ def _prototype_edge(approximation: str, order: int, loss_db: float, *,
     if normalisation != "natural":
         named = {"cutoff": HALF_POWER_LOSS_DB, "passband_edge": ripple_db,
                  "stopband_edge": attenuation_db}[normalisation]
-        scale = frequency_at_loss(approximation, natural, named, **levels)
+        # lowpass_prototype has checked that the level it is normalised to is given
+        scale = frequency_at_loss(approximation, natural, cast(float, named), **levels)
     return frequency_at_loss(approximation, natural, loss_db, **levels) / scale
 
 
-def _band_edges(center_hz: float, width_hz: float) -> tuple:
+def _band_edges(center_hz: float, width_hz: float) -> Band:
     """Edges f1 < f2 with f1·f2 = center² and f2 − f1 = width [1]."""
     half = width_hz / 2.0
     root = math.hypot(half, center_hz)
@@ -157,26 +165,32 @@ def _band_edges(center_hz: float, width_hz: float) -> tuple:
 
 
 def _bands(response: str, omega: float, frequency_hz: float | None, center_hz: float | None,
-           bandwidth_hz: float | None, *, passing: bool) -> tuple:
-    """Map a prototype frequency (rad/s on its scale) to the bands it bounds, Hz."""
+           bandwidth_hz: float | None, *, passing: bool) -> tuple[Band, ...]:
+    """Map a prototype frequency (rad/s on its scale) to the bands it bounds, Hz.
+
+    A low- or high-pass has its `frequency_hz`, a band its centre and width.
+    """
     if response == "lowpass":
-        edge = frequency_hz * omega
+        edge = cast(float, frequency_hz) * omega
         return ((0.0, edge),) if passing else ((edge, math.inf),)
     if response == "highpass":
-        edge = frequency_hz / omega
+        edge = cast(float, frequency_hz) / omega
         return ((edge, math.inf),) if passing else ((0.0, edge),)
     if response == "bandpass":     # s → (s² + ω0²)/(B s): Ω ↦ edges Ω·B apart
-        low, high = _band_edges(center_hz, bandwidth_hz * omega)
+        low, high = _band_edges(cast(float, center_hz), cast(float, bandwidth_hz) * omega)
         return ((low, high),) if passing else ((0.0, low), (high, math.inf))
-    low, high = _band_edges(center_hz, bandwidth_hz / omega)    # band-stop: B s/(s² + ω0²)
+    # band-stop: B s/(s² + ω0²)
+    low, high = _band_edges(cast(float, center_hz), cast(float, bandwidth_hz) / omega)
     return ((0.0, low), (high, math.inf)) if passing else ((low, high),)
 
 
-def approximation_mask(approximation: str, order: int, *, response: str, ripple_db=None,
-                       attenuation_db=None, normalisation: str = "cutoff",
-                       bessel_norm: str = "mag", frequency_hz=None, center_hz=None,
-                       bandwidth_hz=None, level_db: float = 0.0, margin_db: float = 0.0,
-                       given=None) -> Mask | None:
+def approximation_mask(approximation: str, order: int, *, response: str,
+                       ripple_db: float | None = None, attenuation_db: float | None = None,
+                       normalisation: str = "cutoff", bessel_norm: str = "mag",
+                       frequency_hz: float | None = None, center_hz: float | None = None,
+                       bandwidth_hz: float | None = None, level_db: float = 0.0,
+                       margin_db: float = 0.0,
+                       given: tuple[float, float] | None = None) -> Mask | None:
     """The mask a target's table sets, given or implied by its approximation.
 
     Parameters
@@ -212,7 +226,8 @@ def approximation_mask(approximation: str, order: int, *, response: str, ripple_
     if response not in ("lowpass", "highpass", "bandpass", "bandstop") or \
             (ripple_db is None and attenuation_db is None):
         return None
-    passbands = stopbands = ()
+    passbands: tuple[Band, ...] = ()
+    stopbands: tuple[Band, ...] = ()
     if given is not None:
         passband_hz, stopband_hz = given
         if response == "lowpass":
@@ -221,7 +236,7 @@ def approximation_mask(approximation: str, order: int, *, response: str, ripple_
             passbands, stopbands = ((passband_hz, math.inf),), ((0.0, stopband_hz),)
         source = "given (passband_edge, stopband_edge)"
     else:
-        options = dict(ripple_db=ripple_db, attenuation_db=attenuation_db,
+        options: dict[str, Any] = dict(ripple_db=ripple_db, attenuation_db=attenuation_db,
                        bessel_norm=bessel_norm, normalisation=normalisation)
         place = (frequency_hz, center_hz, bandwidth_hz)
         if ripple_db is not None:
@@ -238,7 +253,7 @@ def approximation_mask(approximation: str, order: int, *, response: str, ripple_
                 float(level_db), float(margin_db), source)
 
 
-def headroom_design(mask: Mask, margin_db: float) -> dict:
+def headroom_design(mask: Mask, margin_db: float) -> dict[str, Any]:
     """Design options that keep `margin_db` of headroom against a mask.
 
     The ripple shrinks and the attenuation grows by the margin, and the
@@ -281,7 +296,7 @@ def headroom_design(mask: Mask, margin_db: float) -> dict:
     return out
 
 
-def _inner_edges(bands: tuple) -> tuple:
+def _inner_edges(bands: tuple[Band, ...]) -> Band:
     """The finite edges of a band set: one band's own, or the two bands' facing ones."""
     if len(bands) == 1:
         return bands[0]
@@ -289,7 +304,7 @@ def _inner_edges(bands: tuple) -> tuple:
     return low, high
 
 
-def _outside(bands: tuple) -> tuple:
+def _outside(bands: tuple[Band, ...]) -> tuple[Band, ...]:
     """The gaps between bands on [0, ∞): where a mask with no pass band finds the peak."""
     gaps, start = [], 0.0
     for low, high in sorted(bands):
@@ -320,7 +335,7 @@ class MaskGrid:
     outside: np.ndarray
 
 
-def mask_bands(mask: Mask) -> tuple:
+def mask_bands(mask: Mask) -> tuple[tuple[str, Band], ...]:
     """``(kind, (low, high))`` for every band a mask is read on, Hz.
 
     `kind` is "pass", "stop" or "outside" (the gaps between stop bands,
@@ -337,7 +352,7 @@ def mask_bands(mask: Mask) -> tuple:
                  + [("outside", b) for b in outside])
 
 
-def band_points(band: tuple, focus_hz=()) -> np.ndarray:
+def band_points(band: Band, focus_hz: Iterable[float] = ()) -> np.ndarray:
     """Sorted points (Hz) a mask reads one band on, with clusters at `focus_hz` inside it."""
     focus = np.asarray(list(focus_hz), float)
     low, high = band
@@ -352,7 +367,7 @@ def band_points(band: tuple, focus_hz=()) -> np.ndarray:
     return np.unique(every[(every >= low) & (every <= finite_high)])
 
 
-def mask_grid(mask: Mask, *, focus_hz=()) -> MaskGrid:
+def mask_grid(mask: Mask, *, focus_hz: Iterable[float] = ()) -> MaskGrid:
     """The points a mask is read on, with dense clusters at `focus_hz`.
 
     Parameters
@@ -373,14 +388,15 @@ def mask_grid(mask: Mask, *, focus_hz=()) -> MaskGrid:
     >>> float(g.frequency_hz[g.passband].max()), float(g.frequency_hz[g.stopband].min())
     (1000.0, 2000.0)
     """
-    pieces, kinds = [], []
+    pieces: list[np.ndarray] = []
+    kinds: list[np.ndarray] = []
     for kind, band in mask_bands(mask):
         points = band_points(band, focus_hz)
         pieces.append(points)
         kinds.append(np.full(points.size, kind))
     frequency = np.concatenate(pieces) if pieces else np.array([], float)
-    kind = np.concatenate(kinds) if kinds else np.array([], str)
-    return MaskGrid(frequency, kind == "pass", kind == "stop", kind == "outside")
+    labels = np.concatenate(kinds) if kinds else np.array([], str)
+    return MaskGrid(frequency, labels == "pass", labels == "stop", labels == "outside")
 
 
 @dataclass(frozen=True)
@@ -406,7 +422,7 @@ class MaskSamples:
     meets: np.ndarray
 
 
-def grid_figures(mask: Mask, grid: MaskGrid, magnitude_db) -> MaskSamples:
+def grid_figures(mask: Mask, grid: MaskGrid, magnitude_db: ArrayLike) -> MaskSamples:
     """Read responses against a mask from their magnitudes on its grid.
 
     Parameters

@@ -14,15 +14,20 @@ References
    section ordering, dynamic-range scaling to equal internal peaks).
 """
 
+from __future__ import annotations
+
 import math
 import warnings
+from collections.abc import Callable, Iterable, Sequence
+from typing import Any, cast
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 from scipy import optimize
 
 from placer.target.approximations import check_choice
 from placer.errors import NumericalWarning, SpecError
-from placer.target.targets import ROOT_RTOL, SECTION_KINDS, Section, notch_kind
+from placer.target.targets import ROOT_RTOL, SECTION_KINDS, Section, Target, notch_kind
 
 __all__ = [
     "ORDERINGS",
@@ -37,23 +42,26 @@ GAIN_RULES = ("headroom", "first", "equal")
 class _Group:
     """Poles of one section-to-be and the zeros given to it."""
 
-    def __init__(self, poles, index):
-        self.poles, self.index, self.zeros, self.zero_kind = list(poles), index, [], None
+    def __init__(self, poles: Iterable[complex], index: int) -> None:
+        self.poles: list[complex] = list(poles)
+        self.index = index
+        self.zeros: list[complex] = []
+        self.zero_kind: str | None = None
 
     @property
-    def free(self):
+    def free(self) -> bool:
         return self.zero_kind is None
 
-    def merge(self, other):
+    def merge(self, other: _Group) -> None:
         self.poles += other.poles
         self.index = min(self.index, other.index)
 
 
-def _close(a, b):
+def _close(a: complex, b: complex) -> bool:
     return abs(a - b) <= ROOT_RTOL * max(abs(a), abs(b), 1e-300)
 
 
-def _pole_groups(target):
+def _pole_groups(target: Target) -> list[_Group]:
     groups = []
     for index, p in enumerate(target.poles):
         if p.real >= 0:
@@ -68,7 +76,7 @@ def _pole_groups(target):
     return groups
 
 
-def _take(zeros, root):
+def _take(zeros: list[complex], root: complex) -> complex | None:
     """Remove and return the zero equal to *root*, or None."""
     for i, z in enumerate(zeros):
         if _close(z, root):
@@ -76,15 +84,16 @@ def _take(zeros, root):
     return None
 
 
-def _assign_mirrors(groups, zeros):
+def _assign_mirrors(groups: list[_Group], zeros: list[complex]) -> None:
     for group in groups:
         mirrors = [-p.conjugate() for p in group.poles]
         if all(any(_close(z, m) for z in zeros) for m in mirrors):
-            group.zeros = [_take(zeros, m) for m in mirrors]
+            # every mirror is among the zeros (checked just above)
+            group.zeros = [cast(complex, _take(zeros, m)) for m in mirrors]
             group.zero_kind = "allpass"
 
 
-def _merge_real(groups, free_real, target_omega):
+def _merge_real(groups: list[_Group], free_real: list[_Group], target_omega: float) -> _Group:
     """Merge the two free real poles whose ω0 is nearest *target_omega*."""
     best = min(((a, b) for i, a in enumerate(free_real) for b in free_real[i + 1:]),
                key=lambda ab: abs(math.log(math.sqrt(ab[0].poles[0].real
@@ -95,7 +104,7 @@ def _merge_real(groups, free_real, target_omega):
     return best[0]
 
 
-def _assign_notches(groups, zeros):
+def _assign_notches(groups: list[_Group], zeros: list[complex]) -> None:
     notch = [z for z in zeros if z.imag > 0 and abs(z.real) <= ROOT_RTOL * abs(z)]
     while notch:
         free = [g for g in groups if g.free and len(g.poles) == 2]
@@ -111,11 +120,13 @@ def _assign_notches(groups, zeros):
             zero = notch[0]
             group = _merge_real(groups, free_real, zero.imag)
         notch.remove(zero)
-        group.zeros = [_take(zeros, zero), _take(zeros, zero.conjugate())]
+        # a target's zeros come in exact conjugate pairs
+        group.zeros = [cast(complex, _take(zeros, zero)),
+                       cast(complex, _take(zeros, zero.conjugate()))]
         group.zero_kind = "notch"
 
 
-def _assign_origin(groups, zeros):
+def _assign_origin(groups: list[_Group], zeros: list[complex]) -> int:
     origin = [z for z in zeros if z == 0]
     for z in origin:
         zeros.remove(z)
@@ -128,7 +139,7 @@ def _assign_origin(groups, zeros):
     return len(origin)
 
 
-def _unit_section(group):
+def _unit_section(group: _Group) -> Section:
     poles = tuple(group.poles)
     if len(poles) == 1:
         omega0, q = -poles[0].real, None
@@ -152,7 +163,7 @@ def _unit_section(group):
                    tuple(group.zeros))
 
 
-def _log_grid(sections):
+def _log_grid(sections: Sequence[Section]) -> NDArray[np.float64]:
     magnitudes = [abs(r) for s in sections for r in s.poles + s.zeros if r != 0]
     grid = np.logspace(math.log10(min(magnitudes)) - 3.0,
                        math.log10(max(magnitudes)) + 3.0, 2401)
@@ -161,14 +172,15 @@ def _log_grid(sections):
     return np.unique(np.concatenate([grid, extra]))
 
 
-def _prefix_peaks(sections):
+def _prefix_peaks(sections: Sequence[Section]) -> list[float]:
     """Peak |H| over frequency of each prefix product of *sections*."""
     grid = _log_grid(sections)
 
-    def prefix(i, omega):
+    def prefix(i: int, omega: ArrayLike) -> NDArray[Any]:
         return np.prod([s.frequency_response(omega) for s in sections[:i + 1]], axis=0)
 
-    peaks, running, high = [], np.ones(len(grid), complex), 1.0
+    peaks: list[float] = []
+    running, high = np.ones(len(grid), complex), 1.0
     for i, section in enumerate(sections):
         running = running * section.frequency_response(grid)
         magnitude = np.abs(running)
@@ -187,13 +199,14 @@ def _prefix_peaks(sections):
     return peaks
 
 
-_ORDER_KEYS = {
+_ORDER_KEYS: dict[str, Callable[[Section], tuple[float, float]]] = {
     "ascending-q": lambda s: (s.q or 0.0, s.omega0),
     "descending-q": lambda s: (-(s.q or 0.0), -s.omega0),
 }
 
 
-def split_sections(target, *, ordering="ascending-q", gain="headroom"):
+def split_sections(target: Target, *, ordering: str = "ascending-q",
+                   gain: str = "headroom") -> tuple[Section, ...]:
     """Factor a target into first- and second-order sections.
 
     Each complex pole pair becomes a second-order section and each real

@@ -11,11 +11,15 @@ approximation (:func:`design_target`), from explicit roots
 reads or types them.
 """
 
+from __future__ import annotations
+
 import math
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
-from typing import NamedTuple
+from typing import TYPE_CHECKING, NamedTuple, cast
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 from scipy import signal
 
 from placer.target.approximations import (
@@ -32,6 +36,9 @@ from placer.target.approximations import (
 )
 from placer.errors import SpecError
 from placer.circuit.topology import NOTCH_KINDS  # symmetric, low-pass and high-pass notch sections
+
+if TYPE_CHECKING:
+    from placer.target.mask import Mask
 
 __all__ = [
     "RESPONSES",
@@ -62,11 +69,11 @@ ROOT_RTOL = 1e-9
 _TWO_PI = 2.0 * math.pi
 
 
-def _db(linear):
+def _db(linear: float) -> float:
     return 20.0 * math.log10(linear)
 
 
-def _unit_value(zeros, poles, omega):
+def _unit_value(zeros: Sequence[complex], poles: Sequence[complex], omega: float) -> complex:
     """Π(jω − z)/Π(jω − p), with ω = inf as the high-frequency limit."""
     if math.isinf(omega):
         excess = len(zeros) - len(poles)
@@ -77,7 +84,7 @@ def _unit_value(zeros, poles, omega):
     return complex(num / den) if den != 0 else complex(math.inf)
 
 
-def _pair_conjugates(roots):
+def _pair_conjugates(roots: Iterable[complex]) -> tuple[tuple[complex, ...], list[complex]]:
     """Clean near-real roots to real and conjugate pairs to exact pairs.
 
     Returns the cleaned roots (order kept) and the complex roots left alone.
@@ -86,7 +93,8 @@ def _pair_conjugates(roots):
     for i, r in enumerate(roots):
         if abs(r.imag) <= ROOT_RTOL * abs(r):
             roots[i] = complex(r.real, 0.0)
-    lone, used = [], [False] * len(roots)
+    lone: list[complex] = []
+    used = [False] * len(roots)
     for i, r in enumerate(roots):
         if used[i] or r.imag == 0.0:
             used[i] = True
@@ -104,7 +112,7 @@ def _pair_conjugates(roots):
     return tuple(roots), lone
 
 
-def _lone_message(kind, root, units):
+def _lone_message(kind: str, root: complex, units: str) -> str:
     return (f"{kind} {root!r} {units} has no conjugate; give both or set "
             "complete_conjugates = true")
 
@@ -136,7 +144,7 @@ def notch_kind(omega0: float, zero_omega: float) -> str:
     return "lowpass-notch" if zero_omega > omega0 else "highpass-notch"
 
 
-def reference_omega_for(response, poles, zeros):
+def reference_omega_for(response: str, poles: Sequence[complex], zeros: Sequence[complex]) -> float:
     """Where a response's gain is quoted, rad/s.
 
     DC for lowpass, bandstop and allpass; infinity (the high-frequency
@@ -205,9 +213,9 @@ class Target:
     response: str
     approximation: str | None = None
     reference_omega: float = 0.0
-    mask: object = field(default=None, compare=False)
+    mask: Mask | None = field(default=None, compare=False)
 
-    def __post_init__(self):
+    def __post_init__(self) -> None:
         poles, lone_poles = _pair_conjugates(self.poles)
         zeros, lone_zeros = _pair_conjugates(self.zeros)
         for kind, lone in (("pole", lone_poles), ("zero", lone_zeros)):
@@ -236,16 +244,16 @@ class Target:
                 "cannot be quoted there")
 
     @property
-    def order(self):
+    def order(self) -> int:
         """Number of poles."""
         return len(self.poles)
 
     @property
-    def gain_db(self):
+    def gain_db(self) -> float:
         """``gain`` in dB."""
         return _db(self.gain)
 
-    def zpk(self):
+    def zpk(self) -> ZPK:
         """Zeros, poles (rad/s) and k with |H(j·reference_omega)| = gain.
 
         k is real; its sign makes H real and positive at the reference
@@ -263,7 +271,7 @@ class Target:
         return ZPK(np.array(self.zeros, complex), np.array(self.poles, complex),
                    float(k))
 
-    def frequency_response(self, omega):
+    def frequency_response(self, omega: ArrayLike) -> NDArray[np.complex128]:
         """Complex H(jω) at angular frequencies *omega* (rad/s)."""
         z, p, k = self.zpk()
         return signal.freqs_zpk(z, p, k, worN=np.atleast_1d(np.asarray(omega, float)))[1]
@@ -323,7 +331,7 @@ class Section:
     poles: tuple[complex, ...]
     zeros: tuple[complex, ...]
 
-    def __post_init__(self):
+    def __post_init__(self) -> None:
         check_choice(self.kind, SECTION_KINDS, "kind")
         if self.order not in (1, 2):
             raise SpecError(f"order = {self.order!r}: a section is of order 1 or 2")
@@ -340,11 +348,14 @@ class Section:
         if (self.kind in NOTCH_KINDS) != (self.zero_omega is not None):
             raise SpecError(f"zero_omega = {self.zero_omega!r} is for notch "
                             f"sections only, and required there (kind = {self.kind!r})")
-        if self.kind in NOTCH_KINDS and self.kind != notch_kind(self.omega0, self.zero_omega):
+        # a notch section has a zero_omega (checked just above)
+        if self.kind in NOTCH_KINDS and self.kind != notch_kind(self.omega0,
+                                                                cast(float, self.zero_omega)):
             raise SpecError(
                 f"kind = {self.kind!r} does not fit a zero at {self.zero_omega:.6g} rad/s "
                 f"and poles at {self.omega0:.6g} rad/s: that is a "
-                f"{notch_kind(self.omega0, self.zero_omega)!r} section (a low-pass notch "
+                f"{notch_kind(self.omega0, cast(float, self.zero_omega))!r} section "
+                "(a low-pass notch "
                 "has its zeros above the pole frequency, a high-pass notch below)")
         object.__setattr__(self, "poles", tuple(complex(p) for p in self.poles))
         object.__setattr__(self, "zeros", tuple(complex(z) for z in self.zeros))
@@ -354,12 +365,12 @@ class Section:
                             f"{len(self.poles)} and {len(self.zeros)}")
 
     @property
-    def reference_omega(self):
+    def reference_omega(self) -> float:
         """Where ``gain`` is quoted, rad/s (0, omega0 or inf)."""
         return {"bandpass": self.omega0, "highpass": math.inf}.get(self.kind, 0.0)
 
     @property
-    def k(self):
+    def k(self) -> float:
         """Leading numerator coefficient: H(s) = k·Π(s−z)/Π(s−p)."""
         value = _unit_value(self.zeros, self.poles, self.reference_omega)
         if abs(value.imag) <= 1e-9 * abs(value):
@@ -367,21 +378,21 @@ class Section:
         return self.gain / abs(value)
 
     @property
-    def f0_hz(self):
+    def f0_hz(self) -> float:
         """Pole frequency, Hz."""
         return self.omega0 / _TWO_PI
 
     @property
-    def zero_f0_hz(self):
+    def zero_f0_hz(self) -> float | None:
         """Notch zero frequency, Hz, or None."""
         return None if self.zero_omega is None else self.zero_omega / _TWO_PI
 
     @property
-    def gain_db(self):
+    def gain_db(self) -> float:
         """``gain`` in dB."""
         return _db(self.gain)
 
-    def transfer_coefficients(self):
+    def transfer_coefficients(self) -> TransferCoefficients:
         """H(s) = num(s)/den(s), den monic, num padded to den's length.
 
         Returns
@@ -395,14 +406,14 @@ class Section:
         num = np.concatenate([np.zeros(len(den) - len(num)), num])
         return TransferCoefficients(num, den)
 
-    def frequency_response(self, omega):
+    def frequency_response(self, omega: ArrayLike) -> NDArray[np.complex128]:
         """Complex H(jω) at angular frequencies *omega* (rad/s)."""
         num, den = self.transfer_coefficients()
         s = 1j * np.atleast_1d(np.asarray(omega, float))
         return np.polyval(num, s) / np.polyval(den, s)
 
 
-def _poles_from(omega0, q):
+def _poles_from(omega0: float, q: float | None) -> tuple[complex, ...]:
     if q is None:
         return (complex(-omega0),)
     sigma = omega0 / (2.0 * q)
@@ -414,7 +425,8 @@ def _poles_from(omega0, q):
     return (complex(-sigma + spread), complex(-sigma - spread))
 
 
-def make_section(kind, omega0, q=None, *, gain=1.0, zero_omega=None):
+def make_section(kind: str, omega0: float, q: float | None = None, *, gain: float = 1.0,
+                 zero_omega: float | None = None) -> Section:
     """Build a section from its pole frequency, Q and (notch) zero.
 
     Parameters
@@ -456,6 +468,7 @@ def make_section(kind, omega0, q=None, *, gain=1.0, zero_omega=None):
         raise SpecError(f"omega0 = {omega0!r} rad/s must be positive")
     poles = _poles_from(float(omega0), q)
     order = len(poles)
+    zeros: tuple[complex, ...]
     if kind == "lowpass":
         zeros = ()
     elif kind == "highpass":
@@ -479,10 +492,11 @@ def make_section(kind, omega0, q=None, *, gain=1.0, zero_omega=None):
 # Building targets
 
 
-def design_target(approximation, order, *, response="lowpass", frequency_hz=None,
-                  normalisation="cutoff", center_hz=None, bandwidth_hz=None,
-                  ripple_db=None, attenuation_db=None, bessel_norm="mag",
-                  gain_db=0.0):
+def design_target(approximation: str, order: int, *, response: str = "lowpass",
+                  frequency_hz: float | None = None, normalisation: str = "cutoff",
+                  center_hz: float | None = None, bandwidth_hz: float | None = None,
+                  ripple_db: float | None = None, attenuation_db: float | None = None,
+                  bessel_norm: str = "mag", gain_db: float = 0.0) -> Target:
     """Target from a classical approximation.
 
     Parameters
@@ -537,7 +551,8 @@ def design_target(approximation, order, *, response="lowpass", frequency_hz=None
             if value is None or not (math.isfinite(value) and value > 0):
                 raise SpecError(f"{name} = {value!r} Hz must be a positive "
                                 f"frequency for a {response} target")
-        center, width = _TWO_PI * center_hz, _TWO_PI * bandwidth_hz
+        # both checked just above
+        center, width = _TWO_PI * cast(float, center_hz), _TWO_PI * cast(float, bandwidth_hz)
         transform = lowpass_to_bandpass if response == "bandpass" else lowpass_to_bandstop
         zeros, poles, _ = transform(proto, center, width)
         reference = center if response == "bandpass" else 0.0
@@ -561,9 +576,10 @@ def design_target(approximation, order, *, response="lowpass", frequency_hz=None
                   reference)
 
 
-def target_from_roots(poles, zeros=(), *, gain_db=0.0, response="custom",
-                      units="rad/s", complete_conjugates=False,
-                      allow_unstable=False):
+def target_from_roots(poles: Iterable[complex], zeros: Iterable[complex] = (), *,
+                      gain_db: float = 0.0, response: str = "custom",
+                      units: str = "rad/s", complete_conjugates: bool = False,
+                      allow_unstable: bool = False) -> Target:
     """Target from explicit poles and zeros.
 
     Parameters
@@ -625,7 +641,8 @@ def target_from_roots(poles, zeros=(), *, gain_db=0.0, response="custom",
                   response, None, reference)
 
 
-def target_from_sections(sections, *, gain_db=0.0, response="custom"):
+def target_from_sections(sections: Sequence[Section], *, gain_db: float = 0.0,
+                         response: str = "custom") -> Target:
     """Target whose roots are those of *sections*, with *gain_db* overall.
 
     Examples
