@@ -21,13 +21,14 @@ circuit on its own.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING, NamedTuple, Protocol, cast
 
 import numpy as np
 
 from .place.amplifier import AmplifiedCandidate, place_section_with_amplifier
+from .circuit.drawing import DrawingSpec
 from .circuit.elements import Circuit, Element
 from .errors import SpecError, UnreachableTarget
 from .circuit.library import find_topologies, load_folder, realises, resolve_topology
@@ -46,7 +47,6 @@ from .target.sections import split_sections
 
 if TYPE_CHECKING:
     from .analysis.pencil import CircuitRoots
-    from .circuit.drawing import DrawingSpec
     from .circuit.topology import Topology
     from .place.level import LevelRule
     from .place.opamp import AmplifierSpec
@@ -448,7 +448,7 @@ class PoleSplit(NamedTuple):
     parasitic: tuple[complex, ...]
 
 
-def split_poles(poles: Sequence[complex], dominant: Sequence[complex]) -> PoleSplit:
+def split_poles(poles: Iterable[complex], dominant: Iterable[complex]) -> PoleSplit:
     """The cascade's poles nearest the sections' dominant ones, and the rest.
 
     The same for zeros (finite zeros, the sections' dominant zeros).
@@ -540,18 +540,19 @@ def _build_section(candidate: Candidate, index: int,
             new = replace(new, symbol=None)
         elements.append(new)
         if element.kind in PART_KINDS:
-            value = new.value
+            value = cast(float, new.value)   # every part has its value by now
             symbol = element.symbol or element.name
             parts.append(PartChoice(
                 name=new.name, symbol=symbol, kind=element.kind, value=float(value),
                 series=snapped.series.get(symbol, ""),
                 continuous=float(snapped.continuous.get(symbol, value)),
             ))
-    drawing = cast("DrawingSpec | None", topology.drawing)
+    drawing = topology.drawing
     circuit = Circuit(tuple(elements), reference=topology.circuit.reference,
                       input=topology.circuit.input, output=topology.circuit.output,
                       name=f"section {index}: {topology.id}",
-                      drawing=drawing.renamed(renamed) if drawing is not None else None)
+                      drawing=(drawing.renamed(renamed) if isinstance(drawing, DrawingSpec)
+                               else None))
     return circuit, parts
 
 

@@ -255,8 +255,8 @@ def gather_evidence(design: Design, *, samples: int | None = None, seed: int | N
             progress(i + 1, total, f"section {s.index}")
     envelope = _envelope(design, spec, verification, seeds[-1])
     verdict = None
-    mask = cast("Mask | None", design.target.mask)
-    if mask is not None:
+    mask = design.target.mask
+    if isinstance(mask, Mask):                # None: the target sets no mask
         # one more child of the same seed: the envelope's and sections' draws stay as they were
         mask_seed = np.random.SeedSequence(seed).spawn(len(design.sections) + 2)[-1]
         verdict = mask_verdict(design, mask, target=target, snapped=snapped,

@@ -359,10 +359,11 @@ def _flags(result: Prelayout) -> tuple[str, ...]:
             if loop.low_margin:
                 out.append(f"{loop.opamp}: phase margin {loop.phase_margin_deg:.1f}° is below "
                            f"{PHASE_MARGIN_FLOOR_DEG:g}°")
+        swing = settings.output_swing_v
         for w in s.swing:
-            if w.exceeds:
+            if w.exceeds and swing is not None:   # exceeds only against a given swing
                 out.append(f"{w.opamp} output ({w.node}) reaches {format_value(w.peak_v, 'V')} "
-                           f"peak, past the swing {format_value(settings.output_swing_v, 'V')}")
+                           f"peak, past the swing {format_value(swing, 'V')}")
         limit = settings.slew_rate_v_per_s
         for n in s.slew:
             if n.short and limit is not None:   # short only against a given slew rate

@@ -39,7 +39,7 @@ from ..report.schematic import circuit_svg
 from ..target.sections import split_sections
 from ..spec.reader import Spec, spec_from_dict
 from ..spec.target_table import SECTION_KEYS, target_from_table
-from ..target.targets import Section, make_section
+from ..target.targets import Section, Target, make_section
 from ..units import parse_value
 from .curves import section_curves
 from .spec_file import edited_spec_text
@@ -50,7 +50,6 @@ if TYPE_CHECKING:
     from ..place.opamp import AmplifierSpec
     from ..place.placement import Candidate
     from ..spec.reader import PartsSpec
-    from ..target.targets import Target
 
 __all__ = ["SectionEdit", "EditedTarget", "FieldError", "Download", "DOWNLOADS",
            "ExploreSession"]
@@ -242,17 +241,17 @@ class ExploreSession:
     """
 
     def __init__(self, spec: Spec) -> None:
-        if spec.target is None:
+        target = spec.target
+        if not isinstance(target, Target):     # None: the spec has no [target] table
             raise SpecError(f"{spec.path}: exploring a filter needs a [target] table")
         self.spec = spec
         self.source = spec.path
         self.name = Path(spec.path).name
         self.saved_stem = re.sub(r"[^A-Za-z0-9._-]+", "-", Path(spec.path).stem) + "-explored"
-        sections = split_sections(spec.target, ordering=spec.ordering, gain=spec.gain_distribution)
+        sections = split_sections(target, ordering=spec.ordering, gain=spec.gain_distribution)
         self.initial = tuple(SectionEdit(s.kind, float(s.f0_hz), None if s.q is None else float(s.q),
-                                         None if s.zero_omega is None else float(s.zero_f0_hz))
+                                         None if s.zero_f0_hz is None else float(s.zero_f0_hz))
                              for s in sections)
-        target = cast("Target", spec.target)
         self.response = target.response
         self.gain_db = float(target.gain_db)
         self._placements = _LRU(_CACHE_SIZE)
@@ -313,7 +312,7 @@ class ExploreSession:
         self._check_structure(target, edits)
         return EditedTarget(edits=edits, table=table, target=target)
 
-    def _check_structure(self, target: object, edits: tuple) -> None:
+    def _check_structure(self, target: Target, edits: tuple) -> None:
         """The cascade must keep the spec's sections (kinds and orders).
 
         A second-order section with Q at or below 0.5 has two real poles,
