@@ -21,13 +21,14 @@ circuit on its own.
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, replace
-from typing import TYPE_CHECKING, NamedTuple
+from typing import TYPE_CHECKING, NamedTuple, Protocol, cast
 
 import numpy as np
 
 from .place.amplifier import AmplifiedCandidate, place_section_with_amplifier
+from .circuit.drawing import DrawingSpec
 from .circuit.elements import Circuit, Element
 from .errors import SpecError, UnreachableTarget
 from .circuit.library import find_topologies, load_folder, realises, resolve_topology
@@ -45,11 +46,14 @@ from .place.placement import (
 from .target.sections import split_sections
 
 if TYPE_CHECKING:
-    from .place.opamp import AmplifierSpec
-    from .spec.reader import PartsSpec, Spec
-    from .place.level import LevelRule
-    from .target.targets import Section
+    from .analysis.pencil import CircuitRoots
     from .circuit.topology import Topology
+    from .place.level import LevelRule
+    from .place.opamp import AmplifierSpec
+    from .place.snap import SnapResult
+    from .place.solve import Goal, Problem, RootErrors
+    from .spec.reader import PartsSpec, Spec
+    from .target.targets import Section, Target
 
 __all__ = [
     "rank_placements",
@@ -66,9 +70,22 @@ __all__ = [
     "design",
     "cascade_circuit",
     "cascade_gain",
+    "Progress",
+    "PlaceCandidate",
 ]
 
 ERROR_TIE_PCT = 0.05
+
+Progress = Callable[[int, int, str], object]
+"""``progress(done, total, label)``, called after each step."""
+
+
+class PlaceCandidate(Protocol):
+    """The placement of one candidate: :func:`place_candidate`'s signature."""
+
+    def __call__(self, section: Section, topology: Topology, *, index: int,
+                 parts: PartsSpec | None = None, amplifier: AmplifierSpec | None = None,
+                 seed: int = 0, level: LevelRule | None = None) -> Candidate: ...
 
 
 @dataclass(frozen=True)
@@ -88,16 +105,16 @@ class SectionDesign:
     """The winning candidate of one section, with its built parts."""
 
     index: int
-    section: object
-    goal: object
+    section: Section
+    goal: Goal
     candidate: Candidate
-    candidates: tuple
-    parts: tuple            # PartChoice
+    candidates: tuple[Candidate, ...]
+    parts: tuple[PartChoice, ...]
     circuit: Circuit        # the section alone, values in, designators as names
 
     @property
-    def topology(self):
-        return self.candidate.topology
+    def topology(self) -> Topology:
+        return cast("Topology", self.candidate.topology)
 
 
 @dataclass(frozen=True)
@@ -115,18 +132,18 @@ class Design:
     adds (empty with ideal op-amps), rad/s.
     """
 
-    spec: object
-    target: object
-    sections: tuple
+    spec: Spec
+    target: Target
+    sections: tuple[SectionDesign, ...]
     circuit: Circuit
-    poles: tuple
-    zeros: tuple
+    poles: tuple[complex, ...]
+    zeros: tuple[complex, ...]
     gain: float
-    parasitic_poles: tuple = ()
-    parasitic_zeros: tuple = ()
+    parasitic_poles: tuple[complex, ...] = ()
+    parasitic_zeros: tuple[complex, ...] = ()
 
     @property
-    def parts(self):
+    def parts(self) -> tuple[PartChoice, ...]:
         return tuple(p for s in self.sections for p in s.parts)
 
     # report/ sits above this module in the layering: the notebook view is
@@ -144,15 +161,16 @@ class Design:
         return design_figure(self, **options)
 
 
-def candidate_topologies(section, spec=None):
+def candidate_topologies(section: Section, spec: Spec | None = None
+                         ) -> tuple[list[Topology], dict[str, str]]:
     """Topologies to try for a section, and files that failed to load.
 
     Returns
     -------
     (list of Topology, dict path → error message)
     """
-    errors = {}
-    pool = {}
+    errors: dict[str, str] = {}
+    pool: dict[str, Topology] = {}
     names = spec.candidates if spec is not None else None
     if names:
         for name in names:
@@ -172,7 +190,8 @@ def candidate_topologies(section, spec=None):
     return fitting, errors
 
 
-def place_section(section, topology, *, parts=None, seed=0, level=None):
+def place_section(section: Section, topology: Topology, *, parts: PartsSpec | None = None,
+                  seed: int = 0, level: LevelRule | None = None) -> Candidate:
     """Solve and snap one topology for one section, as a Candidate.
 
     The placement is :func:`placer.place.placement.place_ideal`'s (ideal op-amps;
@@ -246,11 +265,12 @@ def place_candidate(section: Section, topology: Topology, *, index: int,
         candidate = place_section_with_amplifier(section, topology, amplifier, parts=parts,
                                                  seed=solver_seed, level=level)
     candidate = replace(candidate, notes=parts_notes(topology, parts))
-    built = candidate.circuit if isinstance(candidate, AmplifiedCandidate) else topology.circuit
+    built = (cast(Circuit, candidate.circuit) if isinstance(candidate, AmplifiedCandidate)
+             else topology.circuit)
     return require_stable(candidate, built)
 
 
-def rank_placements(candidates):
+def rank_placements(candidates: Sequence[Candidate]) -> list[Candidate]:
     """Reachable candidates best first: error, then parts, then spread.
 
     Errors within :data:`ERROR_TIE_PCT` percentage points of the best count
@@ -261,23 +281,25 @@ def rank_placements(candidates):
         return []
     best = min(c.error_pct for c in candidates)
 
-    def key(candidate):
+    def key(candidate: Candidate) -> tuple[int, float, float, float, str]:
+        topology = cast("Topology", candidate.topology)
         spread = sum(math.log(v) for v in candidate.spread.values())
-        size = candidate.topology.part_count + candidate.topology.opamp_count
+        size = topology.part_count + topology.opamp_count
         if candidate.error_pct <= best + ERROR_TIE_PCT:
-            return (0, size, spread, candidate.error_pct, candidate.topology.id)
-        return (1, candidate.error_pct, size, spread, candidate.topology.id)
+            return (0, size, spread, candidate.error_pct, topology.id)
+        return (1, candidate.error_pct, size, spread, topology.id)
 
     return sorted(candidates, key=key)
 
 
-def _alternatives_for(section):
+def _alternatives_for(section: Section) -> list[str]:
     """Library topologies whose kind and order fit a section, for messages."""
     return [t.id for t in find_topologies(response=section.kind, order=section.order)
             if t.opamp_count or section.order == 1 or (section.q or 0) <= 0.5]
 
 
-def design(spec, *, seed=None, progress=None, place=place_candidate):
+def design(spec: Spec, *, seed: int | None = None, progress: Progress | None = None,
+           place: PlaceCandidate = place_candidate) -> Design:
     """Design every section of a spec's target and build the cascade.
 
     Parameters
@@ -323,9 +345,9 @@ def design(spec, *, seed=None, progress=None, place=place_candidate):
     check_part_names(spec, [t for p in plans for t in p[1]])
     total = sum(len(p[1]) for p in plans)
     done = 0
-    built = []
+    built: list[tuple[int, Section, list[Candidate]]] = []
     for index, (section, topologies, load_errors) in enumerate(plans, start=1):
-        candidates = []
+        candidates: list[Candidate] = []
         for topology in topologies:
             candidates.append(place(section, topology, index=index, parts=spec.parts,
                                     amplifier=amplifier, seed=seed, level=levels[index - 1]))
@@ -336,12 +358,12 @@ def design(spec, *, seed=None, progress=None, place=place_candidate):
             candidates.append(Candidate(topology=_FailedFile(path), reachable=False, reason=message))
         reachable = [c for c in candidates if c.reachable]
         if not reachable:
-            reasons = "; ".join(f"{c.topology.id}: {c.reason}" for c in candidates) or "no candidate topology"
+            reasons = "; ".join(f"{_tried_id(c)}: {c.reason}" for c in candidates) or "no candidate topology"
             raise UnreachableTarget(
                 f"section {index} ({section.kind}, f0 {section.f0_hz:.4g} Hz"
                 + (f", Q {section.q:.4g}" if section.q else "") + f") cannot be reached — {reasons}",
                 alternatives=[a for a in _alternatives_for(section)
-                              if a not in {c.topology.id for c in candidates}],
+                              if a not in {_tried_id(c) for c in candidates}],
             )
         ranked = rank_placements(reachable) + [c for c in candidates if not c.reachable]
         built.append((index, section, ranked))
@@ -350,7 +372,7 @@ def design(spec, *, seed=None, progress=None, place=place_candidate):
 
 def real_amplifier(spec: Spec) -> AmplifierSpec | None:
     """The spec's op-amp model when it is not ideal, else None."""
-    amplifier = getattr(spec, "amplifier", None)
+    amplifier = spec.amplifier
     return None if amplifier is None or amplifier.is_ideal else amplifier
 
 
@@ -384,43 +406,51 @@ class _FailedFile:
     path: str
 
     @property
-    def id(self):
+    def id(self) -> str:
         return self.path
 
     part_count = 0
     opamp_count = 0
 
 
-def _assemble(spec, built):
-    counters = {}
+def _tried_id(candidate: Candidate) -> str:
+    """The id of a candidate's topology, or the path of a file that failed to load."""
+    return cast("Topology | _FailedFile", candidate.topology).id
+
+
+def _assemble(spec: Spec, built: Sequence[tuple[int, Section, Sequence[Candidate]]]) -> Design:
+    counters: dict[str, int] = {}
     section_designs = []
     unmodelled = []
     for index, section, ranked in built:
         best = ranked[0]
         circuit, parts = _build_section(best, index, counters)
         unmodelled.append(circuit)
-        if getattr(best, "amplifier", None) is not None:
+        if isinstance(best, AmplifiedCandidate) and best.amplifier is not None:
             # placed with a real op-amp model: the built circuit carries it
-            circuit = apply_amplifier(circuit, best.amplifier)
+            circuit = apply_amplifier(circuit, cast("AmplifierSpec", best.amplifier))
         section_designs.append(SectionDesign(
-            index=index, section=section, goal=best.problem.goal, candidate=best,
+            index=index, section=section, goal=cast("Problem", best.problem).goal, candidate=best,
             candidates=tuple(ranked), parts=tuple(parts), circuit=circuit,
         ))
     # buffers go where a section's own output is not driven, so join the
     # sections as designed, then model every op-amp (sections' and buffers')
     cascade = unmodelled_cascade = cascade_circuit(unmodelled, counters)
-    if real_amplifier(spec) is not None:
-        cascade = apply_amplifier(cascade, real_amplifier(spec))
+    amplifier = real_amplifier(spec)
+    if amplifier is not None:
+        cascade = apply_amplifier(cascade, amplifier)
     roots = circuit_roots(cascade)
-    poles = split_poles(roots.poles, [p for s in section_designs for p in s.candidate.errors.poles])
-    zeros = split_poles(roots.zeros, [z for s in section_designs for z in s.candidate.errors.zeros])
-    reference = spec.target.reference_omega
+    errors = [cast("RootErrors", s.candidate.errors) for s in section_designs]
+    poles = split_poles(roots.poles, [p for e in errors for p in e.poles])
+    zeros = split_poles(roots.zeros, [z for e in errors for z in e.zeros])
+    target = cast("Target", spec.target)
+    reference = target.reference_omega
     gain = cascade_gain(roots, reference)
     if gain == 0.0 and math.isinf(reference) and cascade is not unmodelled_cascade:
         # a real op-amp rolls every high-pass off at high frequency: quote the
         # plateau it would otherwise hold, that of the same parts with ideal op-amps
         gain = cascade_gain(circuit_roots(unmodelled_cascade), reference)
-    return Design(spec=spec, target=spec.target, sections=tuple(section_designs),
+    return Design(spec=spec, target=target, sections=tuple(section_designs),
                   circuit=cascade, poles=poles.dominant, zeros=zeros.dominant, gain=gain,
                   parasitic_poles=poles.parasitic, parasitic_zeros=zeros.parasitic)
 
@@ -428,11 +458,11 @@ def _assemble(spec, built):
 class PoleSplit(NamedTuple):
     """A cascade's poles: those that realise the target, and the op-amps' own."""
 
-    dominant: tuple
-    parasitic: tuple
+    dominant: tuple[complex, ...]
+    parasitic: tuple[complex, ...]
 
 
-def split_poles(poles: Sequence[complex], dominant: Sequence[complex]) -> PoleSplit:
+def split_poles(poles: Iterable[complex], dominant: Iterable[complex]) -> PoleSplit:
     """The cascade's poles nearest the sections' dominant ones, and the rest.
 
     The same for zeros (finite zeros, the sections' dominant zeros).
@@ -462,7 +492,7 @@ def split_poles(poles: Sequence[complex], dominant: Sequence[complex]) -> PoleSp
     return PoleSplit(tuple(matched), tuple(rest))
 
 
-def cascade_gain(roots, reference_omega: float) -> float:
+def cascade_gain(roots: CircuitRoots, reference_omega: float) -> float:
     """The signed gain of a built circuit where its target quotes its own.
 
     Parameters
@@ -502,11 +532,13 @@ _PREFIX = {"resistor": "R", "capacitor": "C", "inductor": "L", "opamp": "U",
            "vsource": "V", "isource": "I", "vcvs": "E", "vccs": "G", "cccs": "F", "ccvs": "H"}
 
 
-def _build_section(candidate, index, counters):
+def _build_section(candidate: Candidate, index: int,
+                   counters: dict[str, int]) -> tuple[Circuit, list[PartChoice]]:
     """The section's circuit with values and board designators."""
-    topology = candidate.topology
-    values = candidate.snapped.values
-    renamed = {}
+    topology = cast("Topology", candidate.topology)
+    snapped = cast("SnapResult", candidate.snapped)
+    values = snapped.values
+    renamed: dict[str, str] = {}
     for element in topology.circuit.elements:
         prefix = _PREFIX[element.kind]
         counters[prefix] = counters.get(prefix, 0) + 1
@@ -522,22 +554,23 @@ def _build_section(candidate, index, counters):
             new = replace(new, symbol=None)
         elements.append(new)
         if element.kind in PART_KINDS:
-            value = new.value
+            value = cast(float, new.value)   # every part has its value by now
             symbol = element.symbol or element.name
             parts.append(PartChoice(
                 name=new.name, symbol=symbol, kind=element.kind, value=float(value),
-                series=candidate.snapped.series.get(symbol, ""),
-                continuous=float(candidate.snapped.continuous.get(symbol, value)),
+                series=snapped.series.get(symbol, ""),
+                continuous=float(snapped.continuous.get(symbol, value)),
             ))
-    drawing = getattr(topology, "drawing", None)
+    drawing = topology.drawing
     circuit = Circuit(tuple(elements), reference=topology.circuit.reference,
                       input=topology.circuit.input, output=topology.circuit.output,
                       name=f"section {index}: {topology.id}",
-                      drawing=drawing.renamed(renamed) if drawing is not None else None)
+                      drawing=(drawing.renamed(renamed) if isinstance(drawing, DrawingSpec)
+                               else None))
     return circuit, parts
 
 
-def _driven(circuit):
+def _driven(circuit: Circuit) -> bool:
     """True when the output node is driven by an amplifier or a source."""
     for element in circuit.elements:
         if element.kind == "opamp" and element.nodes[2] == circuit.output:
@@ -547,7 +580,7 @@ def _driven(circuit):
     return False
 
 
-def cascade_circuit(circuits, counters=None):
+def cascade_circuit(circuits: Sequence[Circuit], counters: dict[str, int] | None = None) -> Circuit:
     """Join section circuits in order into one circuit (buffers where needed).
 
     Node names get the section's number as a suffix; the first section's
@@ -561,7 +594,8 @@ def cascade_circuit(circuits, counters=None):
         last = k == count
         out_name = "vout" if last else f"s{k}_out"
 
-        def rename(node, circuit=circuit, k=k, out_name=out_name, previous=previous):
+        def rename(node: str, circuit: Circuit = circuit, k: int = k, out_name: str = out_name,
+                   previous: str = previous) -> str:
             if node == circuit.reference:
                 return "gnd"
             if node == circuit.input:

@@ -11,14 +11,15 @@ the whole cascade for the plots).
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any, cast
 
 import numpy as np
 import scipy.optimize
 
 from ..target.mask import MASK_TOLERANCE_DB, Mask, band_points, grid_figures, mask_bands, mask_grid
+from ..analysis.dominant import DominantFunction
 from ..analysis.network import NetworkFunction, polynomial_values
 from ..analysis.response import Response
 from .tolerance import cascade_magnitude_blocks, monte_carlo
@@ -26,8 +27,17 @@ from ..units import finite_or_none
 from .verify import verify
 
 if TYPE_CHECKING:
-    from ..analysis.dominant import DominantFunction
+    from ..analysis.sensitivity import Sensitivities
+    from ..circuit.topology import Topology
+    from ..design import Design
     from ..place.placement import Candidate
+    from ..place.snap import SnapResult
+    from ..place.solve import Problem
+    from .tolerance import MonteCarloResult
+    from ..spec.reader import Spec
+    from .verify import Deviation, Figures, Verification
+
+    Progress = Callable[[int, int, str], object]
 
 __all__ = ["SectionEvidence", "Evidence", "MaskFigures", "MaskVerdict", "gather_evidence",
            "part_tolerances", "check_mask", "mask_verdict"]
@@ -35,7 +45,8 @@ __all__ = ["SectionEvidence", "Evidence", "MaskFigures", "MaskVerdict", "gather_
 ENVELOPE_SAMPLES = 200
 
 
-def part_tolerances(topology, symbols, by_kind):
+def part_tolerances(topology: Topology, symbols: Iterable[str],
+                    by_kind: Mapping[str, float]) -> dict[str, float]:
     """Part symbol → tolerance fraction, from per-kind tolerances."""
     out = {}
     for symbol in symbols:
@@ -50,10 +61,10 @@ class SectionEvidence:
     """Sensitivities and Monte Carlo of one section."""
 
     index: int
-    sensitivities: object
-    monte_carlo: object
-    tolerances: dict
-    designators: dict   # part symbol -> reference designator
+    sensitivities: Sensitivities
+    monte_carlo: MonteCarloResult
+    tolerances: dict[str, float]
+    designators: dict[str, str]   # part symbol -> reference designator
 
 
 @dataclass(frozen=True, eq=False)
@@ -73,38 +84,39 @@ class Evidence:
         and the fraction of Monte Carlo builds that meet it.
     """
 
-    verification: object
-    sections: tuple
-    envelope: dict = field(repr=False)
+    verification: Verification
+    sections: tuple[SectionEvidence, ...]
+    envelope: dict[str, np.ndarray] = field(repr=False)
     samples: int = 0
     seed: int = 0
     distribution: str = "uniform"
-    mask: object = None
+    mask: MaskVerdict | None = None
 
-    def to_dict(self):
+    def to_dict(self) -> dict[str, Any]:
         v = self.verification
 
-        def step(f):
+        def step(f: Figures) -> dict[str, Any]:
             s = f.step
             return {"overshoot_pct": finite_or_none(s.overshoot_pct), "rise_time_s": finite_or_none(s.rise_time_s),
                     "settling_time_s": finite_or_none(s.settling_time_s), "final_value": finite_or_none(s.final_value),
                     "peak": finite_or_none(s.peak), "peak_time_s": finite_or_none(s.peak_time_s), "notes": list(s.notes)}
 
-        def freq(f):
+        def freq(f: Figures) -> dict[str, Any]:
             q = f.frequency
             return {"kind": q.kind, "gain_db": finite_or_none(q.gain_db), "f3db_hz": finite_or_none(q.f3db_hz),
                     "band_low_hz": finite_or_none(q.band_low_hz), "band_high_hz": finite_or_none(q.band_high_hz),
                     "bandwidth_hz": finite_or_none(q.bandwidth_hz),
                     "peak_db": finite_or_none(q.peak_db), "peak_hz": finite_or_none(q.peak_hz), "notes": list(q.notes)}
 
-        def dev(d):
+        def dev(d: Deviation | None) -> dict[str, Any] | None:
             if d is None:
                 return None
             return {"magnitude_db": finite_or_none(d.magnitude_db), "magnitude_at_hz": finite_or_none(d.magnitude_at_hz),
                     "phase_deg": finite_or_none(d.phase_deg), "phase_at_hz": finite_or_none(d.phase_at_hz),
                     "inverted": bool(d.inverted), "band_hz": [float(b) for b in d.band_hz]}
 
-        out = {
+        sections: list[dict[str, Any]] = []
+        out: dict[str, Any] = {
             "responses": {
                 name: {"step": step(fig), "frequency": freq(fig)}
                 for name, fig in (("target", v.target), ("snapped", v.design), ("continuous", v.continuous))
@@ -117,12 +129,12 @@ class Evidence:
             "monte_carlo": {"samples": self.samples, "seed": self.seed,
                             "distribution": self.distribution},
             "mask": None if self.mask is None else self.mask.to_dict(),
-            "sections": [],
+            "sections": sections,
         }
         for s in self.sections:
             sens = s.sensitivities
             mc = s.monte_carlo
-            rows = {}
+            rows: dict[str, dict[str, Any]] = {}
             for symbol in sens.omega0:
                 rows[s.designators.get(symbol, symbol)] = {
                     "symbol": symbol,
@@ -133,7 +145,7 @@ class Evidence:
                 }
             stats = {k: {"mean": finite_or_none(st.mean), "std": finite_or_none(st.std), "min": finite_or_none(st.minimum), "max": finite_or_none(st.maximum),
                          "p01": finite_or_none(st.p01), "p99": finite_or_none(st.p99)} for k, st in mc.statistics.items()}
-            out["sections"].append({
+            sections.append({
                 "index": s.index,
                 "sensitivity_method": sens.method,
                 "sensitivities": rows,
@@ -151,9 +163,10 @@ class Evidence:
         return out
 
 
-def _full(candidate):
+def _full(candidate: Candidate) -> NetworkFunction:
     """The section's whole network function (with a real op-amp: its parasitic poles too)."""
-    return getattr(candidate.problem.nf, "full", candidate.problem.nf)
+    nf = _own_order(candidate)
+    return cast(NetworkFunction, nf.full) if isinstance(nf, DominantFunction) else nf
 
 
 def _own_order(candidate: Candidate) -> NetworkFunction | DominantFunction:
@@ -166,14 +179,24 @@ def _own_order(candidate: Candidate) -> NetworkFunction | DominantFunction:
     pole, not off a pair the op-amps' parasitic poles form. With ideal
     op-amps, the network function itself.
     """
-    return candidate.problem.nf
+    return cast("NetworkFunction | DominantFunction", cast("Problem", candidate.problem).nf)
 
 
-def _response(sections_tf):
+def _response(sections_tf: Sequence[Any]) -> Response:
     return Response.from_sections(sections_tf)
 
 
-def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=None, workers=1):
+def _snapped(candidate: Candidate) -> SnapResult:
+    return cast("SnapResult", candidate.snapped)
+
+
+def _topology(candidate: Candidate) -> Topology:
+    return cast("Topology", candidate.topology)
+
+
+def gather_evidence(design: Design, *, samples: int | None = None, seed: int | None = None,
+                    progress: Progress | None = None, band_hz: tuple[float, float] | None = None,
+                    workers: int | None = 1) -> Evidence:
     """Verify a design and run its tolerance analysis.
 
     Parameters
@@ -201,9 +224,9 @@ def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=N
     seed = spec.tolerance.seed if seed is None else seed
     zeros, poles, k = design.target.zpk()
     target = Response.from_zpk(zeros, poles, k)
-    snapped = _response([_full(s.candidate).transfer_function(s.candidate.snapped.values)
+    snapped = _response([_full(s.candidate).transfer_function(_snapped(s.candidate).values)
                          for s in design.sections])
-    continuous = _response([_full(s.candidate).transfer_function(s.candidate.snapped.continuous)
+    continuous = _response([_full(s.candidate).transfer_function(_snapped(s.candidate).continuous)
                             for s in design.sections])
     verification = verify(snapped, target, band_hz=band_hz, continuous=continuous)
     seeds = np.random.SeedSequence(seed).spawn(len(design.sections) + 1)
@@ -212,9 +235,9 @@ def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=N
     for i, s in enumerate(design.sections):
         candidate = s.candidate
         nf = _own_order(candidate)
-        values = candidate.snapped.values
-        varied = [p for p in nf.symbols if _is_part(candidate.topology, p)]
-        tolerances = part_tolerances(candidate.topology, varied, spec.tolerance.tolerances)
+        values = _snapped(candidate).values
+        varied = [p for p in nf.symbols if _is_part(_topology(candidate), p)]
+        tolerances = part_tolerances(_topology(candidate), varied, spec.tolerance.tolerances)
         windows = dict(spec.tolerance.windows)
         if nf.order == 1:
             windows.pop("q", None)
@@ -232,24 +255,26 @@ def gather_evidence(design, *, samples=None, seed=None, progress=None, band_hz=N
             progress(i + 1, total, f"section {s.index}")
     envelope = _envelope(design, spec, verification, seeds[-1])
     verdict = None
-    if getattr(design.target, "mask", None) is not None:
+    mask = design.target.mask
+    if isinstance(mask, Mask):                # None: the target sets no mask
         # one more child of the same seed: the envelope's and sections' draws stay as they were
         mask_seed = np.random.SeedSequence(seed).spawn(len(design.sections) + 2)[-1]
-        verdict = mask_verdict(design, design.target.mask, target=target, snapped=snapped,
+        verdict = mask_verdict(design, mask, target=target, snapped=snapped,
                                continuous=continuous, samples=samples, seed=mask_seed)
     return Evidence(verification=verification, sections=tuple(sections), envelope=envelope,
                     samples=samples, seed=seed, distribution=spec.tolerance.distribution,
                     mask=verdict)
 
 
-def _is_part(topology, symbol):
+def _is_part(topology: Topology, symbol: str) -> bool:
     try:
         return topology.kind_of(symbol) in ("resistor", "capacitor", "inductor")
     except KeyError:
         return False
 
 
-def _envelope(design, spec, verification, seed):
+def _envelope(design: Design, spec: Spec, verification: Verification,
+              seed: np.random.SeedSequence) -> dict[str, np.ndarray]:
     """Min and max cascade magnitude (dB) over Monte Carlo builds."""
     frequency = np.asarray(verification.design.frequency.frequency_hz, float)
     omega = 2 * np.pi * frequency
@@ -259,9 +284,9 @@ def _envelope(design, spec, verification, seed):
     for section in design.sections:
         candidate = section.candidate
         nf = _full(candidate)
-        values = dict(candidate.snapped.values)
-        tolerances = part_tolerances(candidate.topology,
-                                     [p for p in nf.symbols if _is_part(candidate.topology, p)],
+        values = dict(_snapped(candidate).values)
+        topology = _topology(candidate)
+        tolerances = part_tolerances(topology, [p for p in nf.symbols if _is_part(topology, p)],
                                      spec.tolerance.tolerances)
         sampled = {}
         for name, value in values.items():
@@ -341,7 +366,7 @@ class MaskVerdict:
         The margin 99 % of builds keep (1st percentile), dB.
     """
 
-    mask: object
+    mask: Mask
     target: MaskFigures
     snapped: MaskFigures
     continuous: MaskFigures | None
@@ -417,8 +442,8 @@ def check_mask(evaluate: Callable, mask: Mask) -> MaskFigures:
     def evaluate_db(f: float) -> float:
         with np.errstate(divide="ignore"):
             return 20 * np.log10(np.abs(evaluate(2 * math.pi * np.atleast_1d(f))))[0]
-    found = {"pass": [], "stop": [], "outside": []}
-    extremes = []
+    found: dict[str, list[tuple[int, float, float]]] = {"pass": [], "stop": [], "outside": []}
+    extremes: list[float] = []
     for kind, band in mask_bands(mask):
         frequency = band_points(band)
         with np.errstate(divide="ignore"):
@@ -445,7 +470,7 @@ def check_mask(evaluate: Callable, mask: Mask) -> MaskFigures:
                        meets, tuple(sorted(set(extremes))))
 
 
-def mask_verdict(design: object, mask: Mask, *, target: Response, snapped: Response,
+def mask_verdict(design: Design, mask: Mask, *, target: Response, snapped: Response,
                  continuous: Response | None = None, samples: int, seed: object = 0) -> MaskVerdict:
     """The mask against the designs and over Monte Carlo builds of the cascade.
 
@@ -471,17 +496,20 @@ def mask_verdict(design: object, mask: Mask, *, target: Response, snapped: Respo
     parts = []
     for s in design.sections:
         nf = _full(s.candidate)
-        varied = [p for p in nf.symbols if _is_part(s.candidate.topology, p)]
-        parts.append((nf, s.candidate.snapped.values,
-                      part_tolerances(s.candidate.topology, varied, spec.tolerance.tolerances)))
+        topology = _topology(s.candidate)
+        varied = [p for p in nf.symbols if _is_part(topology, p)]
+        parts.append((nf, _snapped(s.candidate).values,
+                      part_tolerances(topology, varied, spec.tolerance.tolerances)))
     figures = [grid_figures(mask, grid, block) for block in cascade_magnitude_blocks(
-        parts, omega, samples=samples, distribution=spec.tolerance.distribution, seed=seed)]
+        parts, cast("Sequence[float]", omega), samples=samples,
+        distribution=spec.tolerance.distribution, seed=seed)]
 
-    def joined(name: str) -> np.ndarray | None:
-        values = [getattr(f, name) for f in figures]
-        return None if values[0] is None else np.concatenate(values)
-    meets = joined("meets")
-    pass_margin, stop_margin = joined("passband_margin_db"), joined("stopband_margin_db")
+    def joined(values: list[np.ndarray | None]) -> np.ndarray | None:
+        present = [v for v in values if v is not None]
+        return None if values[0] is None else np.concatenate(present)
+    meets = np.concatenate([f.meets for f in figures])
+    pass_margin = joined([f.passband_margin_db for f in figures])
+    stop_margin = joined([f.stopband_margin_db for f in figures])
 
     def share(margin: np.ndarray | None) -> float | None:
         return None if margin is None else float(np.mean(margin >= -MASK_TOLERANCE_DB))

@@ -28,7 +28,9 @@ above the highest, 50 points a decade).
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING, Any, cast
 
 import numpy as np
 
@@ -36,11 +38,18 @@ from ..circuit.elements import Circuit
 from ..eseries import series_values
 from ..place.level import DEFAULT_MIN_LOAD, LevelChoice, LevelStep, describe_level, level_rules
 from ..analysis.mna import numeric_system
-from ..analysis.noise import DEFAULT_TEMPERATURE, NoiseAnalysis, analyse_noise
+from ..analysis.noise import NoiseAnalysis, analyse_noise
 from ..place.opamp import AMPLIFIER_PRESETS, AmplifierSpec, apply_amplifier, describe_amplifier
 from ..analysis.pencil import circuit_poles
 from ..analysis.return_ratio import PHASE_MARGIN_FLOOR_DEG, OpampLoop, opamp_loops, output_pin, with_load_capacitance
 from ..units import finite_or_none, format_value
+
+if TYPE_CHECKING:
+    from ..design import Design
+    from ..place.level import LevelRule
+    from ..place.snap import SnapResult
+    from ..spec.reader import Spec
+    from ..target.targets import Section, Target
 
 __all__ = [
     "DEFAULT_LOOP_PRESET",
@@ -68,7 +77,7 @@ DEFAULT_AMPLITUDE = 1.0
 _GRID_PER_DECADE = 50
 
 
-def default_band(poles) -> tuple:
+def default_band(poles: Iterable[complex]) -> tuple[float, float]:
     """A decade below the lowest pole to a decade above the highest, Hz."""
     magnitudes = [abs(p) / (2 * math.pi) for p in poles if abs(p) > 0]
     return (min(magnitudes) / 10, max(magnitudes) * 10)
@@ -78,9 +87,9 @@ def default_band(poles) -> tuple:
 class PrelayoutSettings:
     """What the checks were run with, and which figures are defaults."""
 
-    band_hz: tuple
+    band_hz: tuple[float, float]
     band_default: bool
-    analysis_hz: tuple
+    analysis_hz: tuple[float, float]
     temperature_k: float
     temperature_default: bool
     amplitude_v: float
@@ -96,27 +105,27 @@ class PrelayoutSettings:
     loop_model_default: bool
 
 
-def loop_model(amplifier: AmplifierSpec | None) -> tuple:
+def loop_model(amplifier: AmplifierSpec | None) -> tuple[AmplifierSpec, bool]:
     """(model, is_default): the spec's op-amp when it has a GBW, else the default preset."""
     if amplifier is not None and amplifier.gbw is not None:
         return amplifier, False
     return AmplifierSpec(**AMPLIFIER_PRESETS[DEFAULT_LOOP_PRESET], preset=DEFAULT_LOOP_PRESET), True
 
 
-def settings_for(spec) -> PrelayoutSettings:
+def settings_for(spec: Spec) -> PrelayoutSettings:
     """The checks' settings from a spec's [noise], [signal] and [amplifier] tables."""
-    noise, signal = getattr(spec, "noise", None), getattr(spec, "signal", None)
-    amplifier = getattr(spec, "amplifier", None) or AmplifierSpec()
-    analysis = default_band(spec.target.poles)
-    band = getattr(noise, "band_hz", None)
+    noise, signal = spec.noise, spec.signal
+    amplifier = spec.amplifier or AmplifierSpec()
+    analysis = default_band(cast("Target", spec.target).poles)
+    band = cast("tuple[float, float] | None", noise.band_hz)
     model, is_default = loop_model(amplifier)
     return PrelayoutSettings(
         band_hz=band or analysis, band_default=band is None, analysis_hz=analysis,
-        temperature_k=getattr(noise, "temperature_k", DEFAULT_TEMPERATURE),
-        temperature_default=not getattr(noise, "temperature_given", False),
-        amplitude_v=getattr(signal, "amplitude_v", DEFAULT_AMPLITUDE),
-        amplitude_default=not getattr(signal, "amplitude_given", False),
-        target_v=getattr(noise, "target_v", None), noise_voltage=amplifier.noise_voltage,
+        temperature_k=noise.temperature_k,
+        temperature_default=not noise.temperature_given,
+        amplitude_v=signal.amplitude_v,
+        amplitude_default=not signal.amplitude_given,
+        target_v=noise.target_v, noise_voltage=amplifier.noise_voltage,
         noise_current=amplifier.noise_current,
         min_load_ohm=amplifier.min_load or DEFAULT_MIN_LOAD,
         output_swing_v=amplifier.output_swing, slew_rate_v_per_s=amplifier.slew_rate,
@@ -124,10 +133,10 @@ def settings_for(spec) -> PrelayoutSettings:
         loop_model_default=is_default)
 
 
-def level_rules_for(spec, sections) -> tuple:
+def level_rules_for(spec: Spec, sections: Sequence[Section]) -> tuple[LevelRule, ...]:
     """The impedance-level rule of every section of a spec's cascade."""
     settings = settings_for(spec)
-    series = getattr(getattr(spec, "parts", None), "series", {}) or {}
+    series = spec.parts.series or {}
     steps = len(series_values(series.get("capacitor", "E12"), 1.0, 9.999))
     return level_rules(sections, band_hz=settings.band_hz, analysis_hz=settings.analysis_hz,
                        temperature_k=settings.temperature_k, noise_voltage=settings.noise_voltage,
@@ -176,10 +185,10 @@ class SectionChecks:
     index: int
     noise: NoiseAnalysis
     level: LevelChoice | None
-    swing: tuple
-    slew: tuple
-    loads: tuple
-    loops: tuple
+    swing: tuple[NodeSwing, ...]
+    slew: tuple[SlewNeed, ...]
+    loads: tuple[OpampLoad, ...]
+    loops: tuple[OpampLoop, ...]
 
 
 @dataclass(frozen=True)
@@ -202,12 +211,12 @@ class Prelayout:
     """
 
     settings: PrelayoutSettings
-    sections: tuple
+    sections: tuple[SectionChecks, ...]
     cascade_noise: NoiseAnalysis
     first_clip: NodeSwing | None
-    pass_band_hz: tuple
+    pass_band_hz: tuple[float, float]
     stable: bool
-    flags: tuple
+    flags: tuple[str, ...]
 
     @property
     def worst_phase_margin_deg(self) -> float | None:
@@ -220,7 +229,7 @@ class Prelayout:
         needs = [n.need_v_per_s for s in self.sections for n in s.slew]
         return max(needs) if needs else None
 
-    def to_dict(self) -> dict:
+    def to_dict(self) -> dict[str, Any]:
         return _prelayout_dict(self)
 
 
@@ -241,9 +250,11 @@ def _section_of(node: str, count: int) -> int:
     return 0
 
 
-def _signal_checks(circuit: Circuit, settings: PrelayoutSettings, count: int) -> tuple:
+def _signal_checks(circuit: Circuit, settings: PrelayoutSettings, count: int
+                   ) -> tuple[tuple[NodeSwing, ...], tuple[SlewNeed, ...], tuple[OpampLoad, ...],
+                              tuple[float, float]]:
     """(swings, slews, loads, pass band) on the as-built cascade."""
-    frequency = np.geomspace(*settings.analysis_hz, int(_GRID_PER_DECADE * math.log10(
+    frequency = np.geomspace(settings.analysis_hz[0], settings.analysis_hz[1], int(_GRID_PER_DECADE * math.log10(
         settings.analysis_hz[1] / settings.analysis_hz[0])) + 1)
     system = numeric_system(circuit)
     omega = 2 * math.pi * frequency
@@ -268,7 +279,8 @@ def _signal_checks(circuit: Circuit, settings: PrelayoutSettings, count: int) ->
                                 peak_v=float(amplitude * per_volt[k]), at_hz=float(frequency[k]),
                                 clips_at_input_v=None if clips is None else float(clips),
                                 exceeds=bool(clips is not None and clips < amplitude)))
-    slews, loads = [], []
+    slews: list[SlewNeed] = []
+    loads: list[OpampLoad] = []
     for pin, name in pins.items():
         section = _section_of(pin, count)
         rate = 2 * math.pi * frequency * amplitude * x[:, node_index[pin]]
@@ -283,17 +295,17 @@ def _signal_checks(circuit: Circuit, settings: PrelayoutSettings, count: int) ->
     return tuple(swings), tuple(slews), tuple(loads), pass_band
 
 
-def _first_clip(swings: tuple) -> NodeSwing | None:
+def _first_clip(swings: Sequence[NodeSwing]) -> NodeSwing | None:
     driven = [s for s in swings if s.opamp]
     if not driven:
         return None
-    if any(s.clips_at_input_v is not None for s in driven):
-        return min((s for s in driven if s.clips_at_input_v is not None),
-                   key=lambda s: s.clips_at_input_v)
+    clipping = [(s.clips_at_input_v, s) for s in driven if s.clips_at_input_v is not None]
+    if clipping:
+        return min(clipping, key=lambda pair: pair[0])[1]
     return max(driven, key=lambda s: s.peak_v)
 
 
-def check_design(design) -> Prelayout:
+def check_design(design: Design) -> Prelayout:
     """Run every pre-layout check on a design.
 
     Parameters
@@ -309,7 +321,7 @@ def check_design(design) -> Prelayout:
     spec = design.spec
     settings = settings_for(spec)
     count = len(design.sections)
-    noise_args = dict(temperature=settings.temperature_k, noise_voltage=settings.noise_voltage,
+    noise_args: dict[str, Any] = dict(temperature=settings.temperature_k, noise_voltage=settings.noise_voltage,
                       noise_current=settings.noise_current)
     cascade_noise = analyse_noise(design.circuit, settings.band_hz, poles=design.poles, **noise_args)
     swings, slews, loads, pass_band = _signal_checks(design.circuit, settings, count)
@@ -321,7 +333,8 @@ def check_design(design) -> Prelayout:
     sections = []
     for s, rule in zip(design.sections, rules):
         problem = s.candidate.problem
-        level = describe_level(problem, s.candidate.snapped.values, rule, mode=rule.mode)
+        level = describe_level(problem, cast("SnapResult", s.candidate.snapped).values, rule,
+                               mode=rule.mode)
         sections.append(SectionChecks(
             index=s.index, noise=analyse_noise(s.circuit, settings.band_hz, **noise_args),
             level=level, swing=tuple(w for w in swings if w.section == s.index),
@@ -335,8 +348,9 @@ def check_design(design) -> Prelayout:
     return replace(result, flags=_flags(result))
 
 
-def _flags(result: Prelayout) -> tuple:
-    settings, out = result.settings, []
+def _flags(result: Prelayout) -> tuple[str, ...]:
+    settings = result.settings
+    out: list[str] = []
     if settings.target_v is not None and result.cascade_noise.rms_v > settings.target_v:
         out.append(f"output noise {format_value(result.cascade_noise.rms_v, 'V')} rms is above "
                    f"the target {format_value(settings.target_v, 'V')}")
@@ -345,14 +359,16 @@ def _flags(result: Prelayout) -> tuple:
             if loop.low_margin:
                 out.append(f"{loop.opamp}: phase margin {loop.phase_margin_deg:.1f}° is below "
                            f"{PHASE_MARGIN_FLOOR_DEG:g}°")
+        swing = settings.output_swing_v
         for w in s.swing:
-            if w.exceeds:
+            if w.exceeds and swing is not None:   # exceeds only against a given swing
                 out.append(f"{w.opamp} output ({w.node}) reaches {format_value(w.peak_v, 'V')} "
-                           f"peak, past the swing {format_value(settings.output_swing_v, 'V')}")
+                           f"peak, past the swing {format_value(swing, 'V')}")
+        limit = settings.slew_rate_v_per_s
         for n in s.slew:
-            if n.short:
+            if n.short and limit is not None:   # short only against a given slew rate
                 out.append(f"{n.opamp} needs {_slew(n.need_v_per_s)}, above the slew rate "
-                           f"{_slew(settings.slew_rate_v_per_s)}")
+                           f"{_slew(limit)}")
         for load in s.loads:
             if load.below:
                 out.append(f"{load.opamp} drives {format_value(load.load_ohm, 'ohm')}, below "
@@ -366,14 +382,15 @@ def _slew(rate: float) -> str:
     return f"{rate / 1e6:.3g} V/µs"
 
 
-def compensator_loops(circuit: Circuit, amplifier: AmplifierSpec | None) -> tuple:
+def compensator_loops(circuit: Circuit, amplifier: AmplifierSpec | None
+                      ) -> tuple[tuple[OpampLoop, ...], AmplifierSpec, bool]:
     """(loops, model, is_default) of a compensator's op-amps, for ``placer loop``."""
     model, is_default = loop_model(amplifier)
     capacitance = amplifier.load_capacitance if amplifier is not None else None
     return opamp_loops(checked_circuit(circuit, model, capacitance)), model, is_default
 
 
-def loop_to_dict(loop: OpampLoop) -> dict:
+def loop_to_dict(loop: OpampLoop) -> dict[str, Any]:
     """One op-amp loop's figures as JSON-ready data (Hz, degrees, dB)."""
     return {"opamp": loop.opamp, "crossover_hz": finite_or_none(loop.crossover_hz),
             "phase_margin_deg": finite_or_none(loop.phase_margin_deg),
@@ -383,8 +400,8 @@ def loop_to_dict(loop: OpampLoop) -> dict:
             "low_margin": loop.low_margin, "margin_floor_deg": PHASE_MARGIN_FLOOR_DEG}
 
 
-def _noise_dict(noise: NoiseAnalysis, *, arrays: bool = True) -> dict:
-    out = {"band_hz": list(noise.band_hz), "rms_v": noise.rms_v,
+def _noise_dict(noise: NoiseAnalysis, *, arrays: bool = True) -> dict[str, Any]:
+    out: dict[str, Any] = {"band_hz": list(noise.band_hz), "rms_v": noise.rms_v,
            "input_referred_rms_v": finite_or_none(noise.input_referred_rms_v),
            "peak_gain": noise.peak_gain,
            "dominant": [{"source": c.source, "kind": c.kind, "rms_v": c.rms_v, "share": c.share}
@@ -398,11 +415,11 @@ def _noise_dict(noise: NoiseAnalysis, *, arrays: bool = True) -> dict:
     return out
 
 
-def _level_dict(level: LevelChoice | None) -> dict | None:
+def _level_dict(level: LevelChoice | None) -> dict[str, Any] | None:
     if level is None:
         return None
 
-    def step(s: LevelStep | None) -> dict | None:
+    def step(s: LevelStep | None) -> dict[str, Any] | None:
         return None if s is None else {"factor": s.factor, "noise_v": s.noise_v,
                                        "least_load_ohm": finite_or_none(s.load_ohm),
                                        "fails": s.fails}
@@ -410,7 +427,7 @@ def _level_dict(level: LevelChoice | None) -> dict | None:
             "nearest_failing": step(level.nearest_failing), "note": level.note}
 
 
-def _prelayout_dict(result: Prelayout) -> dict:
+def _prelayout_dict(result: Prelayout) -> dict[str, Any]:
     st = result.settings
     model = st.loop_model
     sections = []

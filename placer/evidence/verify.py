@@ -31,6 +31,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from typing import Any
 
 import control
 import numpy as np
@@ -102,7 +103,7 @@ class StepFigures:
     output: np.ndarray = field(repr=False)
 
 
-def _time_grid(poles):
+def _time_grid(poles: np.ndarray) -> np.ndarray:
     decay = np.abs(poles.real)
     end = 12.0 / decay.min()
     step = 0.01 / np.abs(poles).max()
@@ -110,7 +111,7 @@ def _time_grid(poles):
     return np.linspace(0.0, end, points)
 
 
-def _step_output(system, t):
+def _step_output(system: Any, t: np.ndarray) -> np.ndarray:
     """Exact unit-step output of a stable state-space system on a uniform grid.
 
     y(t) = C e^{At} v − C v + D with v = A⁻¹B. The products e^{A t_k} v are
@@ -137,7 +138,7 @@ def _step_output(system, t):
     return np.concatenate(rows)[: t.size] - C[0] @ v + D[0, 0]
 
 
-def _crossing(t, y, level):
+def _crossing(t: np.ndarray, y: np.ndarray, level: float) -> float | None:
     """First time where y reaches `level`, interpolated linearly."""
     above = np.nonzero(y >= level)[0]
     if not above.size:
@@ -148,7 +149,7 @@ def _crossing(t, y, level):
     return float(t[i - 1] + (level - y[i - 1]) * (t[i] - t[i - 1]) / (y[i] - y[i - 1]))
 
 
-def _settling(t, deviation, band):
+def _settling(t: np.ndarray, deviation: np.ndarray, band: float) -> float | None:
     outside = np.nonzero(deviation > band)[0]
     if not outside.size:
         return 0.0
@@ -158,7 +159,7 @@ def _settling(t, deviation, band):
     return float(t[i] + (deviation[i] - band) * (t[i + 1] - t[i]) / (deviation[i] - deviation[i + 1]))
 
 
-def _refined_peak(t, y):
+def _refined_peak(t: np.ndarray, y: np.ndarray) -> tuple[float, float]:
     i = int(np.argmax(y))
     if 0 < i < y.size - 1:
         y0, y1, y2 = y[i - 1], y[i], y[i + 1]
@@ -169,7 +170,7 @@ def _refined_peak(t, y):
     return float(y[i]), float(t[i])
 
 
-def step_figures(response):
+def step_figures(response: Response) -> StepFigures:
     """Overshoot, 10–90 % rise, 2 % settling and final value of a step.
 
     The time grid is explicit and dense: from 0 to 12/min|Re p| (twelve
@@ -196,7 +197,7 @@ def step_figures(response):
     2.1972
     """
     poles = response.poles()
-    notes = []
+    notes: list[str] = []
     if poles.size and np.any(poles.real >= -1e-12 * np.maximum(np.abs(poles), 1e-300)):
         return StepFigures(None, None, None, None, None, None, False,
                            ("not stable: a pole lies on or right of the jω axis; "
@@ -232,7 +233,7 @@ def step_figures(response):
     normalised = y / final
     top, top_time = _refined_peak(t, normalised)
     overshoot = max(0.0, (top - 1.0) * 100.0)
-    rise = None
+    rise: float | None = None
     if y0 / final >= 0.1:
         # a notch (or a shelf) passes the step's edge straight through: the
         # output starts past 10 % of its final value, so nothing rises 10-90 %
@@ -304,7 +305,7 @@ class FrequencyFigures:
         return self.band_high_hz - self.band_low_hz
 
 
-def _frequency_grid(response, per_decade=200):
+def _frequency_grid(response: Response, per_decade: int = 200) -> np.ndarray:
     roots = np.concatenate([response.poles(), response.zeros()])
     magnitudes = np.abs(roots)
     magnitudes = magnitudes[magnitudes > 0]
@@ -314,17 +315,18 @@ def _frequency_grid(response, per_decade=200):
     return np.geomspace(low, high, points)
 
 
-def _db_of(response, omega):
+def _db_of(response: Response, omega: np.ndarray) -> np.ndarray:
     with np.errstate(divide="ignore"):
         return 20 * np.log10(np.abs(response.evaluate(omega)))
 
 
-def _crossings(response, omega, magnitude_db, level):
+def _crossings(response: Response, omega: np.ndarray, magnitude_db: np.ndarray,
+               level: float) -> list[tuple[float, str]]:
     """Refined (ω, direction) where the magnitude passes `level` (brentq in ln ω)."""
     above = magnitude_db >= level
     out = []
     for i in np.nonzero(above[1:] != above[:-1])[0]:
-        def f(u):
+        def f(u: float) -> float:
             return float(_db_of(response, np.exp(u))) - level
         a, b = math.log(omega[i]), math.log(omega[i + 1])
         fa, fb = f(a), f(b)
@@ -343,7 +345,7 @@ PEAK_TIE_DB = 1e-6
 
 
 def _peak(response: Response, omega: np.ndarray, magnitude_db: np.ndarray, dc: float,
-          hf: float) -> tuple:
+          hf: float) -> tuple[float, float | None]:
     """(peak dB, peak Hz): DC is 0.0 Hz, the high-frequency limit None.
 
     Every interior crest of the grid is refined by a bounded search in
@@ -351,7 +353,7 @@ def _peak(response: Response, omega: np.ndarray, magnitude_db: np.ndarray, dc: f
     :data:`PEAK_TIE_DB` of the highest, DC or the high-frequency limit
     wins if it is one of them, else the lowest frequency.
     """
-    candidates = []           # (frequency for ordering, dB, Hz as reported)
+    candidates: list[tuple[float, float, float | None]] = []  # (ordering, dB, Hz as reported)
     if math.isfinite(dc) and dc != 0:
         candidates.append((0.0, 20 * math.log10(abs(dc)), 0.0))
     crests = np.nonzero((magnitude_db[1:-1] >= magnitude_db[:-2])
@@ -377,11 +379,11 @@ def _peak(response: Response, omega: np.ndarray, magnitude_db: np.ndarray, dc: f
     ties = [c for c in candidates if c[1] >= top - PEAK_TIE_DB]
     # an end among the ties wins: a flat pass band's rounding ripples are no peak
     ends = [c for c in ties if c[0] in (0.0, math.inf)]
-    _, level, where = min(ends or ties)
-    return float(level), where
+    _, top_level, top_where = min(ends or ties)
+    return float(top_level), top_where
 
 
-def frequency_figures(response):
+def frequency_figures(response: Response) -> FrequencyFigures:
     """Reference gain, half-power edges and peak of the magnitude response.
 
     The grid spans 1/100 of the smallest to 100× the largest root
@@ -410,12 +412,15 @@ def frequency_figures(response):
         magnitude_db = 20 * np.log10(np.abs(h))
     phase_deg = np.degrees(np.unwrap(np.angle(h)))
     dc, hf = response.dc_gain, response.hf_gain
-    notes = []
+    notes: list[str] = []
     peak_db, peak_hz = _peak(response, omega, magnitude_db, dc, hf)
     if peak_hz is None:
         notes.append("the peak is at the high-frequency limit")
 
-    f3db = low = high = None
+    f3db: float | None = None
+    low: float | None = None
+    high: float | None = None
+    gain_db: float | None
     if math.isinf(dc):
         kind, gain_db = "integrating", None
         notes.append("a pole at the origin: no finite DC gain, no half-power edge")
@@ -425,14 +430,16 @@ def frequency_figures(response):
         # at high frequency, far down in its stop band, and stays a low-pass.
         passes = [g != 0 and 20 * math.log10(abs(g)) >= peak_db - HALF_POWER_DB for g in (dc, hf)]
         kind = {(True, False): "lowpass", (False, True): "highpass",
-                (False, False): "bandpass", (True, True): "flat"}[tuple(passes)]
+                (False, False): "bandpass", (True, True): "flat"}[(passes[0], passes[1])]
         gain_db = peak_db if kind == "bandpass" else 20 * math.log10(abs(hf if kind == "highpass"
                                                                          else dc))
         # Half power below the pass-band peak, for every kind: where `cutoff`
         # puts it (an even-order Chebyshev's DC gain sits a ripple lower).
         found = _crossings(response, omega, magnitude_db, peak_db - HALF_POWER_DB)
-        ups = [w / _TWO_PI for w, direction in found if direction == "up"] or [None]
-        downs = [w / _TWO_PI for w, direction in found if direction == "down"] or [None]
+        none: list[float | None] = [None]
+        ups: list[float | None] = [w / _TWO_PI for w, direction in found if direction == "up"] or none
+        downs: list[float | None] = [w / _TWO_PI for w, direction in found
+                                     if direction == "down"] or none
         if kind == "lowpass":
             f3db = downs[-1]
         elif kind == "highpass":
@@ -483,12 +490,12 @@ class Deviation:
     floor_db: float
 
 
-def _default_band(target):
+def _default_band(target: Response) -> tuple[float, float]:
     reference = target.reference_hz
     return (0.1 * reference, 10.0 * reference)
 
 
-def _check_band(band_hz):
+def _check_band(band_hz: Any) -> tuple[float, float]:
     try:
         low, high = (float(x) for x in band_hz)
     except (TypeError, ValueError):
@@ -498,7 +505,8 @@ def _check_band(band_hz):
     return low, high
 
 
-def deviation(design, target, band_hz=None, *, floor_db=60.0, points=4001):
+def deviation(design: Response, target: Response, band_hz: tuple[float, float] | None = None, *,
+              floor_db: float = 60.0, points: int = 4001) -> Deviation:
     """Worst magnitude (dB) and phase (°) deviation over a band.
 
     Parameters
@@ -554,7 +562,7 @@ class Figures:
     frequency: FrequencyFigures
 
 
-def _figures(response):
+def _figures(response: Response) -> Figures:
     return Figures(step_figures(response), frequency_figures(response))
 
 
@@ -584,7 +592,7 @@ class Verification:
     band_hz: tuple
 
 
-def _as_response(value, what):
+def _as_response(value: object, what: str) -> Response:
     if not isinstance(value, Response):
         raise SpecError(
             f"{what} must be a placer.analysis.response.Response (Response.from_sections or "
@@ -593,7 +601,8 @@ def _as_response(value, what):
     return value
 
 
-def verify(design, target, *, band_hz=None, continuous=None):
+def verify(design: Response, target: Response, *, band_hz: tuple[float, float] | None = None,
+           continuous: Response | None = None) -> Verification:
     """Compare a snapped design (and its continuous values) with a target.
 
     Parameters
@@ -621,7 +630,9 @@ def verify(design, target, *, band_hz=None, continuous=None):
     design = _as_response(design, "design")
     target = _as_response(target, "target")
     band = _check_band(_default_band(target) if band_hz is None else band_hz)
-    result_continuous = continuous_deviation = snapping = None
+    result_continuous: Figures | None = None
+    continuous_deviation: Deviation | None = None
+    snapping: Deviation | None = None
     if continuous is not None:
         continuous = _as_response(continuous, "continuous")
         result_continuous = _figures(continuous)
@@ -664,7 +675,7 @@ class Margins:
     notes: tuple
 
 
-def margins(loop):
+def margins(loop: Any) -> Margins:
     """Margins of a loop gain, every crossover considered.
 
     Parameters
@@ -696,7 +707,11 @@ def margins(loop):
         raise SpecError("loop must be SISO (one input, one output)")
     gm, pm, _, wpc, wgc, _ = (np.atleast_1d(np.asarray(x, float)) for x in
                               control.stability_margins(loop, returnall=True))
-    notes = []
+    notes: list[str] = []
+    phase_margin: float | None
+    crossover: float | None
+    gain_margin: float | None
+    phase_crossover: float | None
     keep = np.isfinite(pm) & np.isfinite(wgc)
     pm, wgc = pm[keep], wgc[keep]
     if pm.size:

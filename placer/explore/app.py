@@ -220,7 +220,7 @@ def create_app(session: ExploreSession, *, token: str,
             payload = await _read_json(request)
             client, seq = _sequence(payload)
             edited = session.read_edits(payload)
-            if client is not None:
+            if client is not None and seq is not None:   # _sequence gives both or neither
                 session.note_request(client, seq)
             reply = await run_in_threadpool(session.place, edited, client=client, seq=seq)
         except SpecError as error:

@@ -26,9 +26,9 @@ import tomllib
 from collections import OrderedDict
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Any, Callable
+from typing import TYPE_CHECKING, Any, Callable, cast
 
-from ..design import Design, design, place_candidate
+from ..design import Design, PlaceCandidate, SectionDesign, design, place_candidate
 from ..errors import SpecError, UnreachableTarget
 from ..evidence.gather import gather_evidence
 from ..report.bom import bom_csv, bom_rows
@@ -39,10 +39,17 @@ from ..report.schematic import circuit_svg
 from ..target.sections import split_sections
 from ..spec.reader import Spec, spec_from_dict
 from ..spec.target_table import SECTION_KEYS, target_from_table
-from ..target.targets import Section, make_section
+from ..target.targets import Section, Target, make_section
 from ..units import parse_value
 from .curves import section_curves
 from .spec_file import edited_spec_text
+
+if TYPE_CHECKING:
+    from ..circuit.topology import Topology
+    from ..place.level import LevelRule
+    from ..place.opamp import AmplifierSpec
+    from ..place.placement import Candidate
+    from ..spec.reader import PartsSpec
 
 __all__ = ["SectionEdit", "EditedTarget", "FieldError", "Download", "DOWNLOADS",
            "ExploreSession"]
@@ -118,9 +125,9 @@ class SectionEdit:
 class EditedTarget:
     """An edited target, validated: its sections, its table and the Target."""
 
-    edits: tuple
+    edits: tuple[SectionEdit, ...]
     table: dict = field(hash=False)
-    target: object = field(hash=False)
+    target: Target = field(hash=False)
 
 
 @dataclass(frozen=True)
@@ -136,7 +143,9 @@ class _LRU:
     """A small least-recently-used memo, safe to share between threads."""
 
     def __init__(self, size: int) -> None:
-        self.size, self.items, self.lock = size, OrderedDict(), threading.Lock()
+        self.size = size
+        self.items: OrderedDict[Any, Any] = OrderedDict()
+        self.lock = threading.Lock()
 
     def get(self, key: Any, make: Callable[[], Any]) -> tuple[Any, bool]:
         """The value for `key` (made on a miss) and whether it was made."""
@@ -232,18 +241,19 @@ class ExploreSession:
     """
 
     def __init__(self, spec: Spec) -> None:
-        if spec.target is None:
+        target = spec.target
+        if not isinstance(target, Target):     # None: the spec has no [target] table
             raise SpecError(f"{spec.path}: exploring a filter needs a [target] table")
         self.spec = spec
         self.source = spec.path
         self.name = Path(spec.path).name
         self.saved_stem = re.sub(r"[^A-Za-z0-9._-]+", "-", Path(spec.path).stem) + "-explored"
-        sections = split_sections(spec.target, ordering=spec.ordering, gain=spec.gain_distribution)
+        sections = split_sections(target, ordering=spec.ordering, gain=spec.gain_distribution)
         self.initial = tuple(SectionEdit(s.kind, float(s.f0_hz), None if s.q is None else float(s.q),
-                                         None if s.zero_omega is None else float(s.zero_f0_hz))
+                                         None if s.zero_f0_hz is None else float(s.zero_f0_hz))
                              for s in sections)
-        self.response = spec.target.response
-        self.gain_db = float(spec.target.gain_db)
+        self.response = target.response
+        self.gain_db = float(target.gain_db)
         self._placements = _LRU(_CACHE_SIZE)
         self._drawings = _LRU(256)
         self._work = threading.Lock()
@@ -302,7 +312,7 @@ class ExploreSession:
         self._check_structure(target, edits)
         return EditedTarget(edits=edits, table=table, target=target)
 
-    def _check_structure(self, target: object, edits: tuple) -> None:
+    def _check_structure(self, target: Target, edits: tuple) -> None:
         """The cascade must keep the spec's sections (kinds and orders).
 
         A second-order section with Q at or below 0.5 has two real poles,
@@ -377,18 +387,19 @@ class ExploreSession:
         with self._latest_lock:
             return seq < self._latest.get(client, seq)
 
-    def _placer(self, tracker: _Tracker) -> Callable:
+    def _placer(self, tracker: _Tracker) -> PlaceCandidate:
         """design()'s `place`, memoised on (section, topology, seed)."""
-        def place(section: Section, topology: Any, *, index: int, parts: Any = None,
-                  amplifier: Any = None, seed: int = 0, level: Any = None) -> Any:
+        def place(section: Section, topology: Topology, *, index: int,
+                  parts: PartsSpec | None = None, amplifier: AmplifierSpec | None = None,
+                  seed: int = 0, level: LevelRule | None = None) -> Candidate:
             tracker.last = section
-            key = (section, topology.id, getattr(topology, "path", ""), index, seed, level)
+            key = (section, topology.id, topology.path, index, seed, level)
             candidate, made = self._placements.get(
                 key, lambda: place_candidate(section, topology, index=index, parts=parts,
                                              amplifier=amplifier, seed=seed, level=level))
             if made:
                 tracker.placed.add(section)
-            return candidate
+            return cast("Candidate", candidate)
         return place
 
     def _design(self, spec: Spec, tracker: _Tracker) -> Design:
@@ -445,10 +456,11 @@ class ExploreSession:
         sections = []
         for built, entry, slot in zip(result.sections, data["sections"], slots):
             entry = dict(entry)
-            drawing, _ = self._drawings.get(
-                (built.section, built.circuit),
-                lambda built=built: (circuit_svg(built.circuit, title=built.circuit.name),
-                                     section_curves(built.section, built.circuit).to_dict()))
+
+            def draw(built: SectionDesign = built) -> tuple[str, dict]:
+                return (circuit_svg(built.circuit, title=built.circuit.name),
+                        section_curves(built.section, built.circuit).to_dict())
+            drawing, _ = self._drawings.get((built.section, built.circuit), draw)
             entry.update(slot=slot, schematic_svg=drawing[0], curves=drawing[1],
                          replaced=built.section in tracker.placed)
             sections.append(entry)

@@ -12,6 +12,9 @@ design came from) is always among the paths an output may not be.
 from __future__ import annotations
 
 import math
+import os
+from collections.abc import Iterable, Sequence
+from typing import TYPE_CHECKING, Any
 
 import control
 import numpy as np
@@ -27,19 +30,31 @@ from .plots import bode_figure, histogram_figure, loop_bode_figure, pole_zero_fi
 from .prelayout import compensator_html, html_parts
 from .schematic import compensator_schematic, design_schematic_html, schematic_figure
 
+if TYPE_CHECKING:
+    from ..analysis.return_ratio import OpampLoop
+    from ..design import Design
+    from ..evidence.gather import Evidence, MaskVerdict
+    from ..evidence.prelayout import Prelayout
+    from ..spec.loop_table import LoopResult
+    from ..target.mask import Mask
+    from .page import ReportFiles
+    from .plots import MaskRegion
+
+    PathArg = str | os.PathLike[str]
+
 __all__ = ["write_design_report", "write_loop_report"]
 
 _UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 
 
-def _on_grid(grid, frequency, values):
+def _on_grid(grid: np.ndarray, frequency: Any, values: Any) -> np.ndarray:
     """`values` given on `frequency` (Hz), interpolated onto `grid` in log f; NaN outside."""
     frequency = np.asarray(frequency, float)
     return np.interp(np.log(grid), np.log(frequency), np.asarray(values, float),
                      left=np.nan, right=np.nan)
 
 
-def _root_rows(label, roots):
+def _root_rows(label: str, roots: Iterable[Sequence[float]]) -> list[list[str]]:
     rows = []
     for re_, im in sorted(roots, key=lambda r: (math.hypot(*r), r[1])):
         rows.append([label, f"{re_:.6g}", f"{im:+.6g}", fmt_hz(math.hypot(re_, im) / (2 * math.pi)),
@@ -53,8 +68,10 @@ _ROOT_HEADERS = ["root", "real part (rad/s)", "imaginary part (rad/s)", "|root| 
 
 # -- the design report -----------------------------------------------------------
 
-def write_design_report(design, data, evidence, *, html_path=None, plots_dir=None, inputs=(),
-                        prelayout=None, resistor_style="iec", spec_text=None):
+def write_design_report(design: Design, data: dict[str, Any], evidence: Evidence | None, *,
+                        html_path: PathArg | None = None, plots_dir: PathArg | None = None,
+                        inputs: Iterable[PathArg] = (), prelayout: Prelayout | None = None,
+                        resistor_style: str = "iec", spec_text: str | None = None) -> ReportFiles:
     """Write the HTML report of a filter design, and its plots.
 
     Parameters
@@ -92,14 +109,14 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
         When an output folder does not exist or an output is an input;
         raised before anything is computed or written.
     """
-    spec_path = getattr(design.spec, "path", None)
-    extra = [spec_path] + [getattr(s.topology, "path", "") for s in design.sections]
-    inputs = prepare_outputs(html_path, plots_dir, tuple(inputs) + tuple(extra))
-    plots = Plots(plots_dir, inputs)
+    spec_path = design.spec.path
+    extra = [spec_path] + [s.topology.path for s in design.sections]
+    checked = prepare_outputs(html_path, plots_dir, tuple(inputs) + tuple(extra))
+    plots = Plots(plots_dir, checked)
     title = data.get("title") or "placer design"
     parts_count = sum(len(s["parts"]) for s in data["sections"])
     opamps = [e for e in data["circuit"]["elements"] if e["kind"] == "opamp"]
-    parts = [f"<h1>Design report: {escape(title)}</h1>",
+    parts: list[str] = [f"<h1>Design report: {escape(title)}</h1>",
              paragraph(f"{len(data['sections'])} filter section(s) in cascade, {parts_count} passive "
                 f"parts and {len(opamps)} op-amp(s). Made by placer {__version__}. Frequencies "
                 "are in hertz; roots of the transfer function in rad/s."),
@@ -126,10 +143,10 @@ def write_design_report(design, data, evidence, *, html_path=None, plots_dir=Non
     parts += _parts_list(data, design)
     parts += _candidates(data)
     parts.append(caution_block())
-    return finish_report(f"Design report: {title}", parts, html_path, plots, inputs)
+    return finish_report(f"Design report: {title}", parts, html_path, plots, checked)
 
 
-def _section_tables(data):
+def _section_tables(data: dict[str, Any]) -> list[str]:
     out = ["<h2>Target and achieved, section by section</h2>",
            paragraph("“Continuous” is the exact solution before snapping; “preferred values” is the "
               "built design. Errors are of the preferred-value design against the target.",
@@ -163,7 +180,7 @@ def _section_tables(data):
     return out
 
 
-def _evidence_parts(evidence, plots):
+def _evidence_parts(evidence: Evidence, plots: Plots) -> list[str]:
     v = evidence.verification
     grid = np.asarray(evidence.envelope["frequency_hz"], float)
     named = (("target", v.target), ("preferred values", v.design),
@@ -186,7 +203,8 @@ def _evidence_parts(evidence, plots):
            if verdict else ""))]
     if verdict is not None:
         out += _mask_parts(verdict)
-    rows, steps = [], []
+    rows: list[list[str]] = []
+    steps: list[list[str]] = []
     for name, f in named:
         if f is None:
             continue
@@ -217,9 +235,9 @@ def _evidence_parts(evidence, plots):
     return out
 
 
-def mask_regions(mask: object) -> list:
+def mask_regions(mask: Mask) -> list[MaskRegion]:
     """The forbidden boxes of a mask, for :func:`placer.report.plots.bode_figure`."""
-    regions = []
+    regions: list[MaskRegion] = []
     if mask.ripple_db is not None:
         regions += [(low, high, None, mask.level_db - mask.ripple_db)
                     for low, high in mask.passbands_hz]
@@ -229,7 +247,7 @@ def mask_regions(mask: object) -> list:
     return regions
 
 
-def _mask_parts(verdict: object) -> list:
+def _mask_parts(verdict: MaskVerdict) -> list[str]:
     lines = mask_lines(verdict)
     rows = []
     for name, figures in (("target", verdict.target), ("preferred values", verdict.snapped),
@@ -248,7 +266,7 @@ def _mask_parts(verdict: object) -> list:
                       None if verdict.snapped.meets else "note")]
 
 
-def _monte_carlo_parts(evidence, plots):
+def _monte_carlo_parts(evidence: Evidence, plots: Plots) -> list[str]:
     out = ["<h2>Tolerance spread (Monte Carlo)</h2>",
            paragraph(f"Each section is rebuilt {evidence.samples} times with every part drawn "
               f"({evidence.distribution} distribution, seed {evidence.seed}) within its "
@@ -312,7 +330,7 @@ def _monte_carlo_parts(evidence, plots):
     return out
 
 
-def _sensitivity_parts(evidence):
+def _sensitivity_parts(evidence: Evidence) -> list[str]:
     out = ["<h2>Sensitivity: how much each part moves each section</h2>",
            paragraph("Classical sensitivities S = (∂y/y)/(∂x/x): the percentage change of ω0, Q or the "
               "gain for a 1 % change of the part (dimensionless, % per %).",
@@ -329,8 +347,8 @@ def _sensitivity_parts(evidence):
     return out
 
 
-def _parts_list(data, design):
-    tolerances = dict(getattr(getattr(design.spec, "tolerance", None), "tolerances", {}) or {})
+def _parts_list(data: dict[str, Any], design: Design) -> list[str]:
+    tolerances = dict(design.spec.tolerance.tolerances or {})
     rows = []
     for s in data["sections"]:
         for p in s["parts"]:
@@ -350,7 +368,7 @@ def _parts_list(data, design):
                     "tolerance"], rows, numeric_from=3)]
 
 
-def _candidates(data):
+def _candidates(data: dict[str, Any]) -> list[str]:
     out = ["<h2>Topologies tried</h2>"]
     for s in data["sections"]:
         rows = [[c["topology"], "chosen" if c["topology"] == s["topology"] else "",
@@ -366,7 +384,9 @@ def _candidates(data):
 
 # -- the loop report -------------------------------------------------------------
 
-def loop_frequency_response(transfer_function, crossover_hz, *, also_hz=(), per_decade=200):
+def loop_frequency_response(transfer_function: Any, crossover_hz: float, *,
+                            also_hz: Iterable[float | None] = (), per_decade: int = 200
+                            ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Loop gain on a log grid around the crossover: Hz, dB, degrees (unwrapped).
 
     The grid spans three decades either side of `crossover_hz`, widened
@@ -387,22 +407,24 @@ def loop_frequency_response(transfer_function, crossover_hz, *, also_hz=(), per_
     return np.ravel(response.omega) / (2 * math.pi), magnitude_db, phase_deg
 
 
-def _degrees(x):
+def _degrees(x: float) -> str:
     return f"{x:.2f}°"
 
 
-def _gain_margin(x):
+def _gain_margin(x: float | None) -> str:
     return "unbounded (no phase crossover)" if x is None else number_or_dash(x, lambda v: f"{v:.2f} dB")
 
 
-def _margin_row(label, m):
+def _margin_row(label: str, m: dict[str, Any]) -> list[str]:
     return [label, fmt_hz(m.get("crossover_hz")), number_or_dash(m.get("phase_margin_deg"), _degrees),
             _gain_margin(m.get("gain_margin_db")), fmt_hz(m.get("phase_crossover_hz")),
             "-" if m.get("stable") is None else ("yes" if m["stable"] else "NO")]
 
 
-def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=(), spec_path=None,
-                      opamp_loops=(), resistor_style="iec"):
+def write_loop_report(result: LoopResult, data: dict[str, Any], *, html_path: PathArg | None = None,
+                      plots_dir: PathArg | None = None, inputs: Sequence[PathArg] = (),
+                      spec_path: PathArg | None = None, opamp_loops: tuple[OpampLoop, ...] = (),
+                      resistor_style: str = "iec") -> ReportFiles:
     """Write the HTML report of a compensated loop, and its plots.
 
     Parameters
@@ -430,12 +452,11 @@ def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=()
     """
     spec_path = spec_path or data.get("spec") or (inputs[0] if inputs else None)
     topology = result.design.topology
-    inputs = prepare_outputs(html_path, plots_dir,
-                      tuple(inputs) + (spec_path, getattr(topology, "path", "")))
-    plots = Plots(plots_dir, inputs)
+    checked = prepare_outputs(html_path, plots_dir, tuple(inputs) + (spec_path, topology.path))
+    plots = Plots(plots_dir, checked)
     plant, k, mc = data["plant"], data["k_factor"], data.get("monte_carlo")
     title = f"Loop compensation report: {data['compensator']['family']} compensator"
-    parts = [f"<h1>{escape(title)}</h1>",
+    parts: list[str] = [f"<h1>{escape(title)}</h1>",
              paragraph(f"Made by placer {__version__}. Frequencies in hertz, angles in degrees, "
                 "roots in rad/s."),
              "<h2>What was asked for</h2>", spec_block(spec_path),
@@ -492,10 +513,11 @@ def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=()
         parts.append("<h2>Notes</h2>")
         parts.append("<ul>" + "".join(f"<li>{escape(n)}</li>" for n in data["notes"]) + "</ul>")
     parts.append(caution_block(POWER_CAUTION))
-    return finish_report(title, parts, html_path, plots, inputs)
+    return finish_report(title, parts, html_path, plots, checked)
 
 
-def _loop_monte_carlo_parts(result, data, mc, plots):
+def _loop_monte_carlo_parts(result: LoopResult, data: dict[str, Any], mc: dict[str, Any],
+                            plots: Plots) -> list[str]:
     floor = mc["margin_floor_deg"]
     rows = [["phase margin, worst (degrees)", number_or_dash(mc["phase_margin_worst_deg"], _degrees)],
             ["phase margin, median (degrees)", number_or_dash(mc["phase_margin_median_deg"], _degrees)],
@@ -509,7 +531,7 @@ def _loop_monte_carlo_parts(result, data, mc, plots):
            paragraph(f"{mc['samples']} builds, {mc['distribution']} distribution, seed {mc['seed']}; "
               f"tolerances: {tolerances}."),
            table(["figure", "value"], rows)]
-    samples = getattr(result.monte_carlo, "phase_margin_deg", None)
+    samples = None if result.monte_carlo is None else result.monte_carlo.phase_margin_deg
     if samples is not None:
         out.append(plots.block("phase-margin-histogram", histogram_figure(
             samples, data.get("phase_margin_deg"), label="phase margin", unit="deg",

@@ -17,7 +17,7 @@ import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
-from ..circuit.drawing import ABOVE, BELOW, Branch, Leg, Plan
+from ..circuit.drawing import ABOVE, BELOW, Branch, Leg, Plan, Step
 
 __all__ = ["FONT_PT", "Box", "PlacedPart", "PlacedOpamp", "LabelBox", "Terminal", "Layout",
            "text_width", "label_size", "layout_plan", "OPAMP_WIDTH", "OPAMP_PIN"]
@@ -152,9 +152,11 @@ class Layout:
         def b(box: Box) -> Box:
             return Box(box.x0 + dx, box.y0 + dy, box.x1 + dx, box.y1 + dy)
 
+        def moved(label: LabelBox) -> LabelBox:
+            return LabelBox(label.owner, label.lines, b(label.box), label.halign)
+
         def lb(label: LabelBox | None) -> LabelBox | None:
-            return None if label is None else LabelBox(label.owner, label.lines, b(label.box),
-                                                       label.halign)
+            return None if label is None else moved(label)
 
         return Layout(
             parts=tuple(PlacedPart(q.key, q.element, q.kind, p(q.start), p(q.end), b(q.body),
@@ -163,7 +165,7 @@ class Layout:
                                      b(o.body), lb(o.label)) for o in self.opamps),
             wires=tuple((p(s), p(e)) for s, e in self.wires),
             dots=tuple(p(d) for d in self.dots), grounds=tuple(p(g) for g in self.grounds),
-            terminals=tuple(Terminal(t.node, p(t.at), lb(t.label)) for t in self.terminals),
+            terminals=tuple(Terminal(t.node, p(t.at), moved(t.label)) for t in self.terminals),
             labels=tuple(lb(x) for x in self.labels), input_at=p(self.input_at),
             output_at=p(self.output_at))
 
@@ -281,7 +283,7 @@ class _Placer:
         for point in plan.points:
             self.y.setdefault(point.key, 0.0)
 
-    def place_opamp(self, step, y: float) -> None:
+    def place_opamp(self, step: Step, y: float) -> None:
         side = self.plan.points[self.index[step.pin_point]].side or BELOW
         x_pin = self.x[step.pin_point]
         path_on_top = side == BELOW
@@ -460,21 +462,21 @@ class _Placer:
         """Branches and legs, innermost first, each outside what it encloses."""
         plan = self.plan
         span = {i: self.x[b.end] - self.x[b.start] for i, b in enumerate(plan.branches)}
-        items = [(span[i], 0, i) for i in span]
-        anchors = {}
+        items: list[tuple[float, int, int | tuple[str, int, int, int]]] = [
+            (span[i], 0, i) for i in span]
+        anchors: dict[tuple[str, int, int, int], list[Leg]] = {}
         for leg in plan.legs:
-            key = (leg.anchor, leg.branch, leg.index, leg.side)
-            anchors.setdefault(key, []).append(leg)
-        for key, legs in anchors.items():
-            anchor, branch, _, side = key
+            anchors.setdefault((leg.anchor, leg.branch, leg.index, leg.side), []).append(leg)
+        for group, legs in anchors.items():
+            anchor, branch, _, side = group
             if branch >= 0:
                 rank = span[branch] + 0.001
             else:
                 rank = max((span[i] for i, b in enumerate(plan.branches) if b.side == side and
                             anchor in (b.start, b.end)), default=0.0) + 0.001
-            items.append((rank, 1, key))
-        for _, what, key in sorted(items, key=lambda item: (item[0], item[1], str(item[2]))):
-            if what == 0:
+            items.append((rank, 1, group))
+        for _, _, key in sorted(items, key=lambda item: (item[0], item[1], str(item[2]))):
+            if isinstance(key, int):    # a branch (0 in the middle of its item), else legs
                 self.place_branch(key, plan.branches[key])
             else:
                 anchor, branch, index, side = key
@@ -574,7 +576,7 @@ def _on_interior(point: tuple, segment: tuple) -> bool:
 
 def _split(wires: list, ends: list) -> tuple:
     """Drop empty and repeated wires (every junction is built end to end)."""
-    unique = {}
+    unique: dict[tuple[tuple, ...], tuple[tuple, tuple]] = {}
     for p, q in wires:
         if _key(p) != _key(q):
             unique.setdefault(tuple(sorted((_key(p), _key(q)))), (p, q))

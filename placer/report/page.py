@@ -10,14 +10,20 @@ from __future__ import annotations
 
 import html
 import math
+import os
 import re
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TYPE_CHECKING, Any
 
 from .. import __version__
 from ..errors import SpecError
 from .files import check_output_path, write_text
 from .plots import figure_svg, save_figure
+
+if TYPE_CHECKING:
+    from matplotlib.figure import Figure
 
 __all__ = ["CAUTION", "POWER_CAUTION", "STYLE", "ReportFiles", "Plots", "inline_svg", "escape",
            "table", "paragraph", "page", "spec_block", "caution_block", "number_or_dash",
@@ -60,11 +66,11 @@ class ReportFiles:
     """
 
     html: Path | None
-    plots: tuple
+    plots: tuple[Path, ...]
     html_text: str = ""
 
 
-def inline_svg(svg, prefix):
+def inline_svg(svg: str, prefix: str) -> str:
     """An SVG document made fit to sit inside HTML next to other SVGs.
 
     The XML prolog, the DOCTYPE and the namespace declarations go (the
@@ -88,11 +94,12 @@ def inline_svg(svg, prefix):
 
 # -- small HTML pieces ---------------------------------------------------------
 
-def escape(text):
+def escape(text: object) -> str:
     return html.escape(str(text), quote=True)
 
 
-def table(headers, rows, *, numeric_from=1):
+def table(headers: Iterable[object], rows: Iterable[Sequence[object]], *,
+          numeric_from: int = 1) -> str:
     """An HTML table; cells from column `numeric_from` on are right-aligned."""
     head = "".join(f"<th>{escape(h)}</th>" for h in headers)
     body = []
@@ -104,11 +111,11 @@ def table(headers, rows, *, numeric_from=1):
     return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>"
 
 
-def paragraph(text, cls=None):
+def paragraph(text: object, cls: str | None = None) -> str:
     return f'<p class="{cls}">{escape(text)}</p>' if cls else f"<p>{escape(text)}</p>"
 
 
-def page(title, parts):
+def page(title: str, parts: Iterable[str]) -> str:
     return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
             f"<title>{escape(title)}</title>\n"
             f"<meta name=\"generator\" content=\"placer {__version__}\">\n"
@@ -116,7 +123,7 @@ def page(title, parts):
             + "\n</body>\n</html>\n")
 
 
-def spec_block(path, text=None):
+def spec_block(path: str | os.PathLike[str] | None, text: str | None = None) -> str:
     """The spec as the report shows it; `text` given, the file is not read."""
     if not path:
         return paragraph("(no spec file: the design was built in code)", "note")
@@ -128,7 +135,7 @@ def spec_block(path, text=None):
     return f"<p>From <code>{escape(path)}</code>:</p>\n<pre>{escape(text)}</pre>"
 
 
-def caution_block(extra=None):
+def caution_block(extra: str | None = None) -> str:
     parts = ['<h2>Before you build it</h2>', '<div class="caution">', paragraph(CAUTION)]
     if extra:
         parts.append(paragraph(extra))
@@ -136,17 +143,20 @@ def caution_block(extra=None):
     return "\n".join(parts)
 
 
-def number_or_dash(x, fmt):
+def number_or_dash(x: Any, fmt: Callable[[Any], str]) -> str:
     return "-" if x is None or (isinstance(x, float) and not math.isfinite(x)) else fmt(x)
 
 
 class Plots:
     """Turns figures into inline SVG blocks and, with a folder, into files."""
 
-    def __init__(self, folder, inputs):
-        self.folder, self.inputs, self.written, self.count = folder, inputs, [], 0
+    def __init__(self, folder: str | os.PathLike[str] | None, inputs: Sequence[str]) -> None:
+        self.folder = folder
+        self.inputs = inputs
+        self.written: list[Path] = []
+        self.count = 0
 
-    def block(self, stem, fig, caption):
+    def block(self, stem: str, fig: Figure, caption: str) -> str:
         self.count += 1
         if self.folder is not None:
             self.written += save_figure(fig, self.folder, stem, inputs=self.inputs)
@@ -155,17 +165,20 @@ class Plots:
         return f"<figure>\n{svg}\n<figcaption>{escape(caption)}</figcaption>\n</figure>"
 
 
-def prepare_outputs(html_path, plots_dir, inputs):
+def prepare_outputs(html_path: str | os.PathLike[str] | None,
+                    plots_dir: str | os.PathLike[str] | None,
+                    inputs: Iterable[object]) -> tuple[str, ...]:
     """Check every output before any work; returns the inputs as a tuple."""
-    inputs = tuple(str(i) for i in inputs if i)
+    checked = tuple(str(i) for i in inputs if i)
     if html_path is not None:
-        check_output_path(html_path, inputs=inputs, option="--report")
+        check_output_path(html_path, inputs=checked, option="--report")
     if plots_dir is not None and not Path(plots_dir).is_dir():
         raise SpecError(f"--plots: folder {str(plots_dir)!r} does not exist")
-    return inputs
+    return checked
 
 
-def finish_report(title, parts, html_path, plots, inputs):
+def finish_report(title: str, parts: Iterable[str], html_path: str | os.PathLike[str] | None,
+                  plots: Plots, inputs: Sequence[str]) -> ReportFiles:
     written = None
     text = page(title, parts)
     if html_path is not None:

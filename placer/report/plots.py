@@ -21,8 +21,10 @@ from __future__ import annotations
 
 import io
 import math
-from collections.abc import Sequence
+import os
+from collections.abc import Iterable, Iterator, Mapping, Sequence
 from pathlib import Path
+from typing import TYPE_CHECKING, Any
 
 import matplotlib
 import numpy as np
@@ -32,6 +34,13 @@ from matplotlib.ticker import MultipleLocator
 from ..errors import SpecError
 from ..units import format_value
 from .files import check_output_path, write_bytes, write_text
+
+if TYPE_CHECKING:
+    from matplotlib.axes import Axes
+    from numpy.typing import ArrayLike
+
+#: A mask's forbidden box: (low Hz, high Hz, low dB or None, high dB or None).
+MaskRegion = tuple[float, float, "float | None", "float | None"]
 
 __all__ = [
     "pole_zero_figure",
@@ -48,14 +57,14 @@ __all__ = [
 ]
 
 _PREFIXES = {-15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T"}
-_TARGET = {"color": "0.55"}
-_ACHIEVED = {"color": "C0"}
-_COLOURS = (dict(color="C0", linewidth=1.4), dict(color="C3", linewidth=1.4, linestyle="--"),
+_TARGET: dict[str, Any] = {"color": "0.55"}
+_ACHIEVED: dict[str, Any] = {"color": "C0"}
+_COLOURS: tuple[dict[str, Any], ...] = (dict(color="C0", linewidth=1.4), dict(color="C3", linewidth=1.4, linestyle="--"),
             dict(color="C2", linewidth=1.2, linestyle="-."), dict(color="C4", linewidth=1.2))
 _DPI = 120
 
 
-def engineering_scale(largest):
+def engineering_scale(largest: float) -> tuple[float, str]:
     """Factor and SI prefix that bring `largest` into [1, 1000).
 
     Parameters
@@ -81,22 +90,24 @@ def engineering_scale(largest):
     return 10.0 ** power, _PREFIXES[power]
 
 
-def _new_figure(width=7.0, height=4.5):
+def _new_figure(width: float = 7.0, height: float = 4.5) -> Figure:
     return Figure(figsize=(width, height), dpi=_DPI, layout="constrained")
 
 
-def _curve_style(label, colours):
+def _curve_style(label: str, colours: Iterator[dict[str, Any]]) -> dict[str, Any]:
     """A wide grey line under the others for a target, else the next style."""
     if "target" in label.lower():
         return dict(color="0.6", linewidth=3.5, zorder=1.5)
     return next(colours, dict(color="C6", linewidth=1.2))
 
 
-def _roots(values):
+def _roots(values: ArrayLike | None) -> np.ndarray:
     return np.asarray(values if values is not None else [], dtype=complex).ravel()
 
 
-def pole_zero_figure(target_poles, target_zeros, achieved_poles, achieved_zeros, *, title=None):
+def pole_zero_figure(target_poles: ArrayLike | None, target_zeros: ArrayLike | None,
+                     achieved_poles: ArrayLike | None, achieved_zeros: ArrayLike | None, *,
+                     title: str | None = None) -> Figure:
     """The s-plane: poles as crosses (x), zeros as circles (o).
 
     Parameters
@@ -122,7 +133,7 @@ def pole_zero_figure(target_poles, target_zeros, achieved_poles, achieved_zeros,
     ax = fig.subplots()
     ax.axhline(0.0, color="0.3", linewidth=0.8, zorder=1)
     ax.axvline(0.0, color="0.3", linewidth=0.8, zorder=1)
-    styles = {
+    styles: dict[str, dict[str, Any]] = {
         "target poles": dict(marker="x", markersize=13, markeredgewidth=1.4, **_TARGET),
         "target zeros": dict(marker="o", markersize=13, markeredgewidth=1.4,
                              markerfacecolor="none", **_TARGET),
@@ -164,9 +175,9 @@ def pole_zero_figure(target_poles, target_zeros, achieved_poles, achieved_zeros,
     return fig
 
 
-def _clusters(roots, tolerance):
+def _clusters(roots: Iterable[complex], tolerance: float) -> list[tuple[complex, int]]:
     """Repeated roots: (representative root, multiplicity) for each place."""
-    out = []
+    out: list[tuple[complex, int]] = []
     for root in roots:
         for k, (place, count) in enumerate(out):
             if abs(root - place) <= tolerance:
@@ -177,7 +188,7 @@ def _clusters(roots, tolerance):
     return out
 
 
-def _magnitude_limits(arrays):
+def _magnitude_limits(arrays: Iterable[ArrayLike]) -> tuple[float, float] | None:
     values = np.concatenate([np.asarray(a, float)[np.isfinite(a)] for a in arrays])
     if not values.size:
         return None
@@ -243,8 +254,9 @@ def common_phase_branch(curves: dict, reference: str | None = None) -> dict:
     return out
 
 
-def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=None,
-                mask_regions=()):
+def bode_figure(frequency_hz: ArrayLike, curves: Mapping[str, tuple[ArrayLike, ArrayLike]], *,
+                envelope: tuple[ArrayLike, ArrayLike] | None = None, reference: str | None = None,
+                title: str | None = None, mask_regions: Sequence[MaskRegion] = ()) -> Figure:
     """Magnitude (dB) and phase (degrees) against log frequency (Hz).
 
     Parameters
@@ -286,21 +298,21 @@ def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=No
     axes = fig.subplots(rows, 1, sharex=True, height_ratios=(3, 2, 2)[:rows] if rows == 3
                         else (3, 2))
     magnitude_ax, phase_ax = axes[0], axes[-1]
-    shown = []
+    shown: list[np.ndarray] = []
     colours = iter(_COLOURS)
     if envelope is not None:
         low, high = (np.asarray(a, float) for a in envelope)
         magnitude_ax.fill_between(frequency, low, high, color="C1", alpha=0.35, linewidth=0,
                                   label="Monte Carlo envelope")
         shown += [low, high]
-    curves = common_phase_branch(curves, reference)
-    for label, (magnitude, phase) in curves.items():
+    branched = common_phase_branch(dict(curves), reference)
+    for label, (magnitude, phase) in branched.items():
         style = _curve_style(label, colours)
         magnitude_ax.semilogx(frequency, magnitude, label=label, **style)
         phase_ax.semilogx(frequency, phase, label=label, **style)
         shown.append(np.asarray(magnitude, float))
     if reference is not None:
-        _difference_panel(axes[1], frequency, curves, reference, envelope)
+        _difference_panel(axes[1], frequency, branched, reference, envelope)
     limits = _magnitude_limits(shown + [np.array([level for box in mask_regions
                                                   for level in box[2:] if level is not None])])\
         if shown else None
@@ -310,7 +322,7 @@ def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=No
     magnitude_ax.set_ylabel("magnitude (dB)")
     phase_ax.set_ylabel("phase (degrees)")
     phase_ax.set_xlabel("frequency (Hz)")
-    phases = [np.asarray(p, float) for _, p in curves.values()]
+    phases = [np.asarray(p, float) for _, p in branched.values()]
     finite = np.concatenate([p[np.isfinite(p)] for p in phases]) if phases else np.array([])
     if finite.size:
         spread = finite.max() - finite.min()
@@ -325,7 +337,7 @@ def bode_figure(frequency_hz, curves, *, envelope=None, reference=None, title=No
     return fig
 
 
-def _draw_mask(ax: object, frequency: np.ndarray, regions: Sequence) -> None:
+def _draw_mask(ax: Axes, frequency: np.ndarray, regions: Sequence[MaskRegion]) -> None:
     """Hatched boxes where a mask forbids the magnitude to go."""
     if not len(regions) or not frequency.size:
         return
@@ -342,7 +354,8 @@ def _draw_mask(ax: object, frequency: np.ndarray, regions: Sequence) -> None:
     ax.set_ylim(bottom, top)
 
 
-def _difference_panel(ax, frequency, curves, reference, envelope):
+def _difference_panel(ax: Axes, frequency: np.ndarray, curves: Mapping[str, tuple[Any, Any]],
+                      reference: str, envelope: tuple[ArrayLike, ArrayLike] | None) -> None:
     """Curves and envelope minus the reference magnitude (dB)."""
     base = np.asarray(curves[reference][0], float)
     finite = np.isfinite(base)
@@ -369,7 +382,8 @@ def _difference_panel(ax, frequency, curves, reference, envelope):
     ax.set_ylabel(f"difference from\n{reference} (dB)")
 
 
-def step_figure(curves, *, title=None):
+def step_figure(curves: Mapping[str, tuple[ArrayLike, ArrayLike]], *,
+                title: str | None = None) -> Figure:
     """Unit-step responses against time (with an SI prefix on seconds).
 
     Parameters
@@ -402,7 +416,9 @@ def step_figure(curves, *, title=None):
     return fig
 
 
-def histogram_figure(samples, nominal, *, label, unit="", window=None, title=None):
+def histogram_figure(samples: ArrayLike, nominal: float | None, *, label: str, unit: str = "",
+                     window: tuple[float | None, float | None] | None = None,
+                     title: str | None = None) -> Figure:
     """Histogram of Monte Carlo samples, nominal line and window shaded.
 
     Parameters
@@ -464,7 +480,8 @@ def histogram_figure(samples, nominal, *, label, unit="", window=None, title=Non
     return fig
 
 
-def ranking_figure(names, yields_pct, errors_pct, *, title=None):
+def ranking_figure(names: Sequence[str], yields_pct: Sequence[float],
+                   errors_pct: Sequence[float], *, title: str | None = None) -> Figure:
     """Candidates side by side: Monte Carlo yield (%) and error after snapping (%).
 
     Parameters
@@ -500,19 +517,21 @@ def ranking_figure(names, yields_pct, errors_pct, *, title=None):
     return fig
 
 
-def _format(x, unit):
+def _format(x: float, unit: str) -> str:
     """A value for a legend: engineering notation, plain for a bare number."""
     return f"{x:.4g}" if unit == "" else format_value(x, unit, digits=4)
 
 
-def _window_span(ax, window, factor):
+def _window_span(ax: Axes, window: tuple[float | None, float | None],
+                 factor: float) -> tuple[float, float]:
     """The window's ends in axis units; an open end runs to the axis edge."""
     left, right = ax.get_xlim()
     low, high = window
     return (left if low is None else low / factor), (right if high is None else high / factor)
 
 
-def _window_label(window, unit, values):
+def _window_label(window: tuple[float | None, float | None], unit: str,
+                  values: np.ndarray) -> str:
     low, high = (None if w is None else _format(w, unit) for w in window)
     text = (f"window {low} – {high}" if low is not None and high is not None
             else f"window ≥ {low}" if low is not None else f"window ≤ {high}")
@@ -526,12 +545,14 @@ def _window_label(window, unit, values):
     return text
 
 
-def _at(frequency, values, where):
+def _at(frequency: np.ndarray, values: np.ndarray, where: float) -> float:
     return float(np.interp(math.log(where), np.log(frequency), values))
 
 
-def loop_bode_figure(frequency_hz, magnitude_db, phase_deg, *, crossover_hz, phase_margin_deg,
-                     gain_margin_db, phase_crossover_hz, title=None):
+def loop_bode_figure(frequency_hz: ArrayLike, magnitude_db: ArrayLike, phase_deg: ArrayLike, *,
+                     crossover_hz: float | None, phase_margin_deg: float | None,
+                     gain_margin_db: float | None, phase_crossover_hz: float | None,
+                     title: str | None = None) -> Figure:
     """Loop gain with its margins marked.
 
     Parameters
@@ -623,7 +644,7 @@ def loop_bode_figure(frequency_hz, magnitude_db, phase_deg, *, crossover_hz, pha
     return fig
 
 
-def figure_svg(fig):
+def figure_svg(fig: Figure) -> str:
     """The figure as an SVG document (text as paths, no date: reproducible).
 
     Returns
@@ -637,7 +658,7 @@ def figure_svg(fig):
     return buffer.getvalue()
 
 
-def figure_png(fig, *, dpi=_DPI):
+def figure_png(fig: Figure, *, dpi: float = _DPI) -> bytes:
     """The figure as PNG bytes (Agg canvas).
 
     Returns
@@ -649,7 +670,8 @@ def figure_png(fig, *, dpi=_DPI):
     return buffer.getvalue()
 
 
-def save_figure(fig, folder, stem, *, inputs=()):
+def save_figure(fig: Figure, folder: str | os.PathLike[str], stem: str, *,
+                inputs: Sequence[str] = ()) -> tuple[Path, Path]:
     """Write ``<stem>.png`` and ``<stem>.svg`` into `folder`, atomically.
 
     Parameters
@@ -672,8 +694,8 @@ def save_figure(fig, folder, stem, *, inputs=()):
     SpecError
         When the folder does not exist or an output path is an input.
     """
-    folder = Path(folder)
-    png, svg = folder / f"{stem}.png", folder / f"{stem}.svg"
+    where = Path(folder)
+    png, svg = where / f"{stem}.png", where / f"{stem}.svg"
     for path in (png, svg):
         check_output_path(path, inputs=inputs, option="--plots")
     write_bytes(png, figure_png(fig), inputs=inputs, option="--plots")

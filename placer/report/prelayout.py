@@ -8,6 +8,8 @@ take the arrays of :class:`placer.evidence.prelayout.Prelayout` itself.
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 from matplotlib.figure import Figure
@@ -15,6 +17,14 @@ from matplotlib.figure import Figure
 from ..units import format_value
 from .page import escape, paragraph, table
 from .plots import loop_bode_figure
+
+if TYPE_CHECKING:
+    from numpy.typing import ArrayLike
+
+    from ..analysis.return_ratio import OpampLoop
+    from ..design import Design
+    from ..evidence.prelayout import Prelayout
+    from .page import Plots
 
 __all__ = ["section_lines", "cascade_lines", "noise_figure", "swing_figure", "html_parts",
            "compensator_lines", "compensator_html"]
@@ -55,7 +65,7 @@ def _low_frequency_density(noise: dict) -> float:
     return float(noise["density_v_per_rthz"][0])
 
 
-def section_lines(prelayout: dict, index: int) -> list:
+def section_lines(prelayout: dict, index: int) -> list[str]:
     """Console lines for one section: noise, level, swing, slew, load, op-amp loops."""
     section = next((s for s in prelayout["sections"] if s["index"] == index), None)
     if section is None:
@@ -97,7 +107,7 @@ def section_lines(prelayout: dict, index: int) -> list:
     return lines
 
 
-def cascade_lines(prelayout: dict) -> list:
+def cascade_lines(prelayout: dict) -> list[str]:
     """Console lines for the whole cascade and the settings the checks used."""
     st, cascade = prelayout["settings"], prelayout["cascade"]
     noise, model = cascade["noise"], st["loop_model"]
@@ -133,7 +143,7 @@ def _figure(width: float = 7.0, height: float = 4.2) -> Figure:
     return Figure(figsize=(width, height), dpi=_DPI, layout="constrained")
 
 
-def noise_figure(prelayout, *, title: str | None = None) -> Figure:
+def noise_figure(prelayout: Prelayout, *, title: str | None = None) -> Figure:
     """Output noise density (V/√Hz) against frequency (Hz): each section alone and the cascade."""
     fig = _figure()
     ax = fig.add_subplot()
@@ -152,7 +162,8 @@ def noise_figure(prelayout, *, title: str | None = None) -> Figure:
     return fig
 
 
-def swing_figure(frequency_hz, curves: dict, *, swing_v: float | None, title: str | None = None) -> Figure:
+def swing_figure(frequency_hz: ArrayLike, curves: Mapping[str, ArrayLike], *, swing_v: float | None,
+                 title: str | None = None) -> Figure:
     """Peak voltage (V) of each op-amp output against frequency (Hz), with the swing limit."""
     fig = _figure()
     ax = fig.add_subplot()
@@ -168,7 +179,7 @@ def swing_figure(frequency_hz, curves: dict, *, swing_v: float | None, title: st
     return fig
 
 
-def _swing_curves(design, prelayout) -> tuple:
+def _swing_curves(design: Design, prelayout: Prelayout) -> tuple[np.ndarray, dict[str, np.ndarray]]:
     from ..analysis.mna import numeric_system
     from ..analysis.return_ratio import output_pin
 
@@ -179,7 +190,7 @@ def _swing_curves(design, prelayout) -> tuple:
     x = np.abs(np.linalg.solve(system.G[None] + 1j * omega[:, None, None] * system.C[None],
                                np.broadcast_to(system.b.astype(complex),
                                                (omega.size, system.b.size))[..., None])[..., 0])
-    curves = {}
+    curves: dict[str, np.ndarray] = {}
     for e in design.circuit.elements:
         if e.kind == "opamp":
             pin = output_pin(design.circuit, e.name)
@@ -187,7 +198,8 @@ def _swing_curves(design, prelayout) -> tuple:
     return frequency, curves
 
 
-def html_parts(design, prelayout, data: dict, plots) -> list:
+def html_parts(design: Design, prelayout: Prelayout, data: dict[str, Any],
+               plots: Plots) -> list[str]:
     """The report's "Before layout" sections: noise, level, swing and slew, op-amp loops."""
     st, cascade = data["settings"], data["cascade"]
     out = ["<h2>Before layout: noise</h2>",
@@ -220,7 +232,7 @@ def html_parts(design, prelayout, data: dict, plots) -> list:
     return out
 
 
-def _level_html(data: dict) -> list:
+def _level_html(data: dict) -> list[str]:
     rows = []
     for s in data["sections"]:
         level = s.get("level")
@@ -242,7 +254,8 @@ def _level_html(data: dict) -> list:
                    "nearest failing level", "why it fails"], rows, numeric_from=6)]
 
 
-def _swing_html(design, prelayout, data: dict, plots) -> list:
+def _swing_html(design: Design, prelayout: Prelayout, data: dict[str, Any],
+                plots: Plots) -> list[str]:
     st = data["settings"]
     frequency, curves = _swing_curves(design, prelayout)
     out = ["<h2>Before layout: signal swing and slew</h2>",
@@ -261,7 +274,7 @@ def _swing_html(design, prelayout, data: dict, plots) -> list:
         for w in s["swing"]:
             if not w["opamp"]:
                 continue
-            n, x = slews.get(w["opamp"]), loads.get(w["opamp"])
+            n, x = slews[w["opamp"]], loads.get(w["opamp"])   # every op-amp output has a slew need
             rows.append([w["opamp"], w["node"], s["index"], _v(w["peak_v"]), _hz(w["at_hz"]),
                          _v(w["clips_at_input_v"]) + (" (past the swing)" if w["exceeds"] else ""),
                          _slew(n["need_v_per_s"]) + (" (above the slew rate)" if n["short"] else ""),
@@ -273,14 +286,15 @@ def _swing_html(design, prelayout, data: dict, plots) -> list:
     return out
 
 
-def _loops_html(prelayout, data: dict, plots) -> list:
+def _loops_html(prelayout: Prelayout, data: dict[str, Any], plots: Plots) -> list[str]:
     st, model = data["settings"], data["settings"]["loop_model"]
     out = ["<h2>Before layout: each op-amp's own loop</h2>",
            paragraph(f"Return ratio of every op-amp (Bode), with {model['description']} "
                      f"({model['source']})"
                      + (f" driving {format_value(st['load_capacitance_f'], 'F')}" if st["load_capacitance_f"] else "")
                      + "; phase margins below 45° are flagged (common practice).")]
-    rows, loops = [], []
+    rows: list[list[object]] = []
+    loops: list[OpampLoop] = []
     for s, checks in zip(data["sections"], prelayout.sections):
         for loop, obj in zip(s["opamp_loops"], checks.loops):
             loops.append(obj)
@@ -297,7 +311,7 @@ def _loops_html(prelayout, data: dict, plots) -> list:
     return out
 
 
-def _loop_figure(loop) -> Figure:
+def _loop_figure(loop: OpampLoop) -> Figure:
     return loop_bode_figure(loop.frequency_hz, loop.magnitude_db, loop.phase_deg,
                             crossover_hz=loop.crossover_hz, phase_margin_deg=loop.phase_margin_deg,
                             gain_margin_db=loop.gain_margin_db,
@@ -305,7 +319,7 @@ def _loop_figure(loop) -> Figure:
                             title=f"{loop.opamp}: its own loop")
 
 
-def compensator_lines(data: dict) -> list:
+def compensator_lines(data: dict) -> list[str]:
     """Console lines for the compensator op-amp's own loop (``placer loop``)."""
     block = data.get("opamp_loops")
     if not block:
@@ -318,7 +332,8 @@ def compensator_lines(data: dict) -> list:
     return lines
 
 
-def compensator_html(data: dict, loops: tuple, plots) -> list:
+def compensator_html(data: dict[str, Any], loops: tuple[OpampLoop, ...],
+                     plots: Plots) -> list[str]:
     """The loop report's section on the compensator op-amp's own loop."""
     block = data.get("opamp_loops")
     if not block:

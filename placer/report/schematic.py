@@ -25,9 +25,12 @@ from __future__ import annotations
 
 import html
 import math
+import os
 import re
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TYPE_CHECKING, Any, Literal
 
 import schemdraw
 import schemdraw.elements as elm
@@ -39,6 +42,13 @@ from ..errors import SpecError
 from ..units import format_value
 from .files import check_output_path, write_bytes, write_text
 from .layout import FONT_PT, Box, Layout, layout_plan
+
+if TYPE_CHECKING:
+    from ..circuit.topology import Topology
+    from ..design import Design
+    from ..loops.compensator import LoopDesign
+
+Point2 = tuple[float, float]
 
 __all__ = ["RESISTOR_STYLES", "Schematic", "circuit_svg", "circuit_schematic",
            "topology_schematic", "cascade_schematic", "render_svg", "render_png",
@@ -85,7 +95,7 @@ def _value_text(element: Element) -> str:
     return format_value(element.value, _UNITS.get(element.kind, ""))
 
 
-def opamp_model_text(element: Element) -> tuple:
+def opamp_model_text(element: Element) -> tuple[str, ...]:
     """The op-amp's model in words: ``("ideal",)`` or its GBW and DC gain."""
     lines = []
     if element.gbw is not None:
@@ -95,11 +105,12 @@ def opamp_model_text(element: Element) -> tuple:
     return tuple(lines) or ("ideal",)
 
 
-def _labeller(elements: tuple, show_values: bool, fixed: dict | None = None):
+def _labeller(elements: Sequence[Element], show_values: bool,
+              fixed: Mapping[str, float] | None = None) -> Callable[[str], tuple[str, ...]]:
     parts = {e.name: e for e in elements}
     fixed = fixed or {}
 
-    def lines(key: str) -> tuple:
+    def lines(key: str) -> tuple[str, ...]:
         name = key.split(":")[0]
         element = parts[name]
         if key.endswith(":ctrl"):
@@ -114,7 +125,7 @@ def _labeller(elements: tuple, show_values: bool, fixed: dict | None = None):
         words = [name]
         if element.symbol and element.symbol != name:
             words.append(f"({element.symbol})")
-        if element.symbol in fixed:
+        if element.symbol is not None and element.symbol in fixed:
             words.append(format_value(fixed[element.symbol], _UNITS.get(element.kind, "")))
         elif element.value is not None and element.kind in _UNITS:
             words.append(format_value(element.value, _UNITS[element.kind]))
@@ -123,7 +134,7 @@ def _labeller(elements: tuple, show_values: bool, fixed: dict | None = None):
     return lines
 
 
-def _kinds(elements: tuple) -> dict:
+def _kinds(elements: Sequence[Element]) -> dict[str, str]:
     kinds = {}
     for element in elements:
         kinds[element.name] = element.kind
@@ -135,7 +146,7 @@ def _kinds(elements: tuple) -> dict:
 # -- building schematics ------------------------------------------------------------------
 
 def circuit_schematic(circuit: Circuit, *, title: str | None = None, show_values: bool = True,
-                      fixed: dict | None = None) -> Schematic:
+                      fixed: Mapping[str, float] | None = None) -> Schematic:
     """The geometry of one circuit's drawing (see :func:`circuit_svg`).
 
     Parameters
@@ -150,14 +161,15 @@ def circuit_schematic(circuit: Circuit, *, title: str | None = None, show_values
     return Schematic(layout, title)
 
 
-def topology_schematic(topology: object, *, title: str | None = None) -> Schematic:
+def topology_schematic(topology: Topology, *, title: str | None = None) -> Schematic:
     """A topology drawn with its part symbols instead of values."""
     heading = title if title is not None else f"{topology.id}: {topology.title}"
     return circuit_schematic(topology.circuit, title=heading, show_values=False,
-                             fixed=dict(getattr(topology, "values", {}) or {}))
+                             fixed=dict(topology.values or {}))
 
 
-def cascade_schematic(sections: list, buffers: dict, *, title: str | None = None,
+def cascade_schematic(sections: Sequence[Circuit], buffers: Mapping[int, tuple[Element, ...]], *,
+                      title: str | None = None,
                       show_values: bool = True) -> Schematic:
     """Sections side by side in order, each with its own parts, buffers between.
 
@@ -181,7 +193,7 @@ def cascade_schematic(sections: list, buffers: dict, *, title: str | None = None
     return Schematic(joined, title)
 
 
-def _buffer_layout(elements: tuple, show_values: bool) -> Layout:
+def _buffer_layout(elements: tuple[Element, ...], show_values: bool) -> Layout:
     """A buffer between sections: the follower (and its modelled output resistance)."""
     opamp = elements[0]
     pin = f"{opamp.name}.in"
@@ -196,7 +208,7 @@ def _buffer_layout(elements: tuple, show_values: bool) -> Layout:
     return layout_plan(plan, _kinds(elements), _labeller(elements, show_values))
 
 
-def design_schematics(design: object, *, show_values: bool = True) -> dict:
+def design_schematics(design: Design, *, show_values: bool = True) -> dict[str, Schematic]:
     """Every section of a design, and the whole cascade: file stem → Schematic.
 
     Stems are ``section1``, ``section2`` … and ``cascade``; the cascade is
@@ -213,7 +225,7 @@ def design_schematics(design: object, *, show_values: bool = True) -> dict:
     return out
 
 
-def cascade_buffers(design: object) -> dict:
+def cascade_buffers(design: Design) -> dict[int, tuple[Element, ...]]:
     """Section number → the buffer (op-amp, and its output resistance) after it."""
     inside = {e.name for s in design.sections for e in s.circuit.elements}
     buffers = {}
@@ -226,7 +238,7 @@ def cascade_buffers(design: object) -> dict:
     return buffers
 
 
-def compensator_schematic(loop_design: object, *, show_values: bool = True) -> Schematic:
+def compensator_schematic(loop_design: LoopDesign, *, show_values: bool = True) -> Schematic:
     """A loop compensator with its preferred values (``LoopDesign``)."""
     topology = loop_design.topology
     return circuit_schematic(loop_design.circuit(snapped=True), show_values=show_values,
@@ -235,7 +247,7 @@ def compensator_schematic(loop_design: object, *, show_values: bool = True) -> S
 
 def _join(left: Layout, right: Layout) -> Layout:
     """`right` to the right of `left`, left's output wired to right's input."""
-    def key(point: tuple) -> tuple:
+    def key(point: Point2) -> Point2:
         return (round(point[0], 6), round(point[1], 6))
 
     out = next(t for t in left.terminals if key(t.at) == key(left.output_at))
@@ -265,15 +277,16 @@ def _symbol(kind: str, style: str) -> elm.Element:
             "sense": elm.Gap}[kind]()
 
 
-def _drawing(schematic: Schematic, *, resistor_style: str, canvas: str) -> tuple:
+def _drawing(schematic: Schematic, *, resistor_style: str, canvas: Literal["svg", "matplotlib"]
+             ) -> tuple[schemdraw.Drawing, list[tuple[str, ...]]]:
     """A schemdraw Drawing of the schematic, and what each of its elements is."""
     check_resistor_style(resistor_style)
     layout = schematic.layout
     drawing = schemdraw.Drawing(canvas=canvas, show=False)
     drawing.config(fontsize=FONT_PT, font="sans-serif", lw=_LINE_WIDTH, margin=0.3)
-    tags = []
+    tags: list[tuple[str, ...]] = []
 
-    def add(item: elm.Element, tag: tuple) -> None:
+    def add(item: elm.Element, tag: tuple[str, ...]) -> None:
         drawing.add(item)
         tags.append(tag)
 
@@ -371,21 +384,27 @@ class DrawnGeometry:
     hang from, ``terminals`` node name → point, ``labels`` owner → text.
     """
 
-    parts: dict
-    opamps: dict
-    wires: tuple
-    dots: tuple
-    grounds: tuple
-    terminals: dict
-    labels: dict
+    parts: dict[str, tuple[Point2, Point2]]
+    opamps: dict[str, tuple[Point2, Point2, Point2]]
+    wires: tuple[tuple[Point2, Point2], ...]
+    dots: tuple[Point2, ...]
+    grounds: tuple[Point2, ...]
+    terminals: dict[str, Point2]
+    labels: dict[str, str | Sequence[str]]
 
 
 def drawn_geometry(schematic: Schematic, *, resistor_style: str = "iec") -> DrawnGeometry:
     """Draw the schematic with schemdraw and read every element's position back."""
     drawing, tags = _drawing(schematic, resistor_style=resistor_style, canvas="svg")
-    parts, opamps, wires, dots, grounds, terminals, labels = {}, {}, [], [], [], {}, {}
+    parts: dict[str, tuple[Point2, Point2]] = {}
+    opamps: dict[str, tuple[Point2, Point2, Point2]] = {}
+    wires: list[tuple[Point2, Point2]] = []
+    dots: list[Point2] = []
+    grounds: list[Point2] = []
+    terminals: dict[str, Point2] = {}
+    labels: dict[str, str | Sequence[str]] = {}
 
-    def xy(point: object) -> tuple:
+    def xy(point: Any) -> Point2:
         return (float(point[0]), float(point[1]))
 
     for item, tag in zip(drawing.elements, tags):
@@ -410,7 +429,7 @@ def drawn_geometry(schematic: Schematic, *, resistor_style: str = "iec") -> Draw
 
 # -- files and pages ---------------------------------------------------------------------
 
-def check_schematic_folder(folder: object, *, option: str = "--schematic") -> Path:
+def check_schematic_folder(folder: str | os.PathLike[str], *, option: str = "--schematic") -> Path:
     """The folder, or a SpecError when it does not exist."""
     path = Path(folder)
     if not path.is_dir():
@@ -418,8 +437,9 @@ def check_schematic_folder(folder: object, *, option: str = "--schematic") -> Pa
     return path
 
 
-def write_schematic_files(schematics: dict, folder: object, *, resistor_style: str = "iec",
-                          inputs: tuple = (), option: str = "--schematic") -> tuple:
+def write_schematic_files(schematics: Mapping[str, Schematic], folder: str | os.PathLike[str], *,
+                          resistor_style: str = "iec", inputs: Sequence[str] = (),
+                          option: str = "--schematic") -> tuple[Path, ...]:
     """Write each schematic as ``STEM.svg`` and ``STEM.png`` into `folder`.
 
     Parameters
@@ -432,10 +452,10 @@ def write_schematic_files(schematics: dict, folder: object, *, resistor_style: s
     tuple of Path
         The files written.
     """
-    folder = check_schematic_folder(folder, option=option)
+    where = check_schematic_folder(folder, option=option)
     written = []
     for stem, schematic in schematics.items():
-        svg_path, png_path = folder / f"{stem}.svg", folder / f"{stem}.png"
+        svg_path, png_path = where / f"{stem}.svg", where / f"{stem}.png"
         for path in (svg_path, png_path):
             check_output_path(path, inputs=inputs, option=option)
         written.append(write_text(svg_path, render_svg(schematic, resistor_style=resistor_style),
@@ -456,7 +476,7 @@ def schematic_figure(schematic: Schematic, caption: str, prefix: str, *,
             "</figcaption>\n</figure>")
 
 
-def design_schematic_html(design: object, *, resistor_style: str = "iec") -> list:
+def design_schematic_html(design: Design, *, resistor_style: str = "iec") -> list[str]:
     """The report's schematics of a design: each section, then the cascade."""
     drawings = design_schematics(design)
     out = ["<h2>Schematics</h2>",
@@ -482,12 +502,12 @@ _STYLE_WORDS = {"iec": "IEC 60617 (rectangular resistors)",
                 "ieee": "IEEE 315 (zig-zag resistors)"}
 
 
-def label_boxes(schematic: Schematic) -> tuple:
+def label_boxes(schematic: Schematic) -> tuple[Box, ...]:
     """Every label's box in the schematic (drawing units)."""
     return tuple(label.box for label in schematic.layout.labels)
 
 
-def symbol_boxes(schematic: Schematic) -> tuple:
+def symbol_boxes(schematic: Schematic) -> tuple[Box, ...]:
     """The body of every part, op-amp, ground and terminal (drawing units)."""
     layout = schematic.layout
     boxes = [p.body for p in layout.parts] + [o.body for o in layout.opamps]
