@@ -23,7 +23,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, replace
-from typing import TYPE_CHECKING, NamedTuple, Protocol, cast
+from typing import TYPE_CHECKING, Any, NamedTuple, Protocol, cast
 
 import numpy as np
 
@@ -148,13 +148,13 @@ class Design:
 
     # report/ sits above this module in the layering: the notebook view is
     # imported on use (see placer.report.notebook), so no plotting loads before.
-    def _repr_html_(self):
+    def _repr_html_(self) -> str:
         """The notebook view: tables and plots (inline SVG), self-contained."""
         from .report.notebook import design_html
 
         return design_html(self)
 
-    def plot(self, **options):
+    def plot(self, **options: Any) -> Any:
         """The main figure: the Bode plot of target and built cascade, a matplotlib Figure (see :func:`placer.report.notebook.plot`)."""
         from .report.notebook import design_figure
 

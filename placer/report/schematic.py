@@ -70,7 +70,7 @@ class Schematic:
     layout: Layout
     title: str | None = None
 
-    def _repr_svg_(self):
+    def _repr_svg_(self) -> str:
         """A notebook shows a schematic as its SVG (IEC resistors)."""
         return render_svg(self)
 
