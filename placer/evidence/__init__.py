@@ -44,9 +44,6 @@ if TYPE_CHECKING:
         MAX_REJECTION_DB,
         MAX_SAMPLES,
         CHUNK,
-        PARALLEL_MIN_SAMPLES,
-        check_workers,
-        worker_ranges,
         Statistics,
         MonteCarloResult,
         CascadeMonteCarloResult,
@@ -69,6 +66,13 @@ if TYPE_CHECKING:
         deviation,
         verify,
         margins,
+    )
+    from .workers import (
+        PARALLEL_MIN_SAMPLES,
+        check_workers,
+        worker_ranges,
+        worker_pool,
+        end_pool,
     )
 
 #: Public name -> the module of this folder that defines it.
@@ -102,9 +106,6 @@ _EXPORTS = {
     "MAX_REJECTION_DB": "tolerance",
     "MAX_SAMPLES": "tolerance",
     "CHUNK": "tolerance",
-    "PARALLEL_MIN_SAMPLES": "tolerance",
-    "check_workers": "tolerance",
-    "worker_ranges": "tolerance",
     "Statistics": "tolerance",
     "MonteCarloResult": "tolerance",
     "CascadeMonteCarloResult": "tolerance",
@@ -125,6 +126,11 @@ _EXPORTS = {
     "deviation": "verify",
     "verify": "verify",
     "margins": "verify",
+    "PARALLEL_MIN_SAMPLES": "workers",
+    "check_workers": "workers",
+    "worker_ranges": "workers",
+    "worker_pool": "workers",
+    "end_pool": "workers",
 }
 
 __all__ = sorted(_EXPORTS)

@@ -31,7 +31,6 @@ from __future__ import annotations
 
 import math
 import numbers
-import os
 import warnings
 from collections.abc import Iterator, Mapping, Sequence
 from concurrent.futures import ProcessPoolExecutor
@@ -41,6 +40,7 @@ import numpy as np
 
 from ..errors import NumericalWarning, SpecError
 from ..analysis.network import polynomial_values
+from .workers import PARALLEL_MIN_SAMPLES, check_workers, worker_ranges
 from ..analysis.sensitivity import (
     Sensitivities,
     _check_order,
@@ -57,9 +57,6 @@ __all__ = [
     "MAX_REJECTION_DB",
     "MAX_SAMPLES",
     "CHUNK",
-    "PARALLEL_MIN_SAMPLES",
-    "check_workers",
-    "worker_ranges",
     "Statistics",
     "MonteCarloResult",
     "CascadeMonteCarloResult",
@@ -79,9 +76,6 @@ MAX_REJECTION_DB = 200.0
 MAX_SAMPLES = 1_000_000
 #: Samples per chunk when a progress callback is given.
 CHUNK = 2_000
-#: Fewest samples for which worker processes are started (below it, starting
-#: them costs more than they save).
-PARALLEL_MIN_SAMPLES = 50_000
 #: Builds per block of :func:`cascade_magnitude_blocks` (bounds its memory).
 MASK_BLOCK = 256
 
@@ -387,32 +381,6 @@ def _evaluate_block(nf, nominal, multipliers, index, ref, reject_hz):
         return np.concatenate([np.broadcast_to(p[k], (len(p[0]),)) for p in parts])
 
     return join(0), join(1), join(2), join(3)
-
-
-def worker_ranges(total, workers, chunk):
-    """(start, stop) ranges of `total` samples for `workers` processes.
-
-    About four ranges per worker, each a whole number of `chunk`s and so
-    starting at a multiple of `chunk`: evaluated `chunk` at a time from its
-    start, every sample meets the same arithmetic as in one process.
-
-    Examples
-    --------
-    >>> worker_ranges(20, 1, 2)
-    [(0, 6), (6, 12), (12, 18), (18, 20)]
-    """
-    chunks = -(-total // chunk)
-    size = chunk * max(1, -(-chunks // (4 * workers)))
-    return [(start, min(start + size, total)) for start in range(0, total, size)]
-
-
-def check_workers(workers):
-    """A worker count: None means every core; else a whole number >= 1."""
-    if workers is None:
-        return os.cpu_count() or 1
-    if not (isinstance(workers, numbers.Integral) and not isinstance(workers, bool) and workers >= 1):
-        raise SpecError(f"workers must be a whole number >= 1, not {workers!r}")
-    return int(workers)
 
 
 def _blocks(total, workers, progress):

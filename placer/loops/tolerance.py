@@ -36,7 +36,8 @@ from ..eseries import usual_tolerance
 from ..errors import SpecError
 from ..analysis.network import NetworkFunction, batched_roots, polynomial_values
 from .plants import Plant
-from ..evidence.tolerance import DISTRIBUTIONS, PARALLEL_MIN_SAMPLES, check_workers, worker_ranges
+from ..evidence.tolerance import DISTRIBUTIONS
+from ..evidence.workers import PARALLEL_MIN_SAMPLES, check_workers, worker_ranges
 
 __all__ = [
     "GridLoop", "GridMargins", "LoopMonteCarlo", "frequency_grid", "grid_margins",
@@ -190,7 +191,7 @@ def grid_margins(loop, arrays, *, workers=1):
         where the grid holds no crossing; stable when every closed-loop
         pole lies in the left half-plane. Evaluated in chunks of 512 sets,
         in `workers` processes (None: every core) from
-        :data:`placer.evidence.tolerance.PARALLEL_MIN_SAMPLES` sets up; the chunks
+        :data:`placer.evidence.workers.PARALLEL_MIN_SAMPLES` sets up; the chunks
         are the same either way, and so are the results.
     """
     count = len(next(iter(arrays.values())))
@@ -272,7 +273,7 @@ def loop_monte_carlo(design, tolerances=None, *, samples=1000, seed=0, distribut
         the target minus 10°.
     workers : int or None, optional
         Worker processes (None: every core), used from
-        :data:`placer.evidence.tolerance.PARALLEL_MIN_SAMPLES` samples up; the
+        :data:`placer.evidence.workers.PARALLEL_MIN_SAMPLES` samples up; the
         result does not depend on it.
 
     Returns
