@@ -69,10 +69,12 @@ if TYPE_CHECKING:
     )
     from .workers import (
         PARALLEL_MIN_SAMPLES,
+        POLL_SECONDS,
         check_workers,
         worker_ranges,
         worker_pool,
-        end_pool,
+        results_in_order,
+        results_as_completed,
     )
 
 #: Public name -> the module of this folder that defines it.
@@ -127,10 +129,12 @@ _EXPORTS = {
     "verify": "verify",
     "margins": "verify",
     "PARALLEL_MIN_SAMPLES": "workers",
+    "POLL_SECONDS": "workers",
     "check_workers": "workers",
     "worker_ranges": "workers",
     "worker_pool": "workers",
-    "end_pool": "workers",
+    "results_in_order": "workers",
+    "results_as_completed": "workers",
 }
 
 __all__ = sorted(_EXPORTS)

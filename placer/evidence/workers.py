@@ -1,33 +1,43 @@
 """Worker processes for the Monte Carlo and the comparison, ended at once on Ctrl-C.
 
-:func:`worker_pool` is a :class:`concurrent.futures.ProcessPoolExecutor`
-whose workers ignore SIGINT (a Ctrl-C at a terminal reaches every process
-of the group: the parent alone stops, and no worker prints a traceback)
-and which, when the block inside it raises (``KeyboardInterrupt`` above
-all), cancels the futures not started and terminates the workers instead
-of waiting for their tasks. :func:`worker_ranges` cuts the samples into
-ranges that start at multiples of a chunk, so a result does not depend on
-the number of workers; :func:`check_workers` reads a worker count.
+:func:`worker_pool` is a :class:`multiprocessing.pool.Pool` whose workers
+ignore SIGINT (a Ctrl-C at a terminal reaches every process of the group:
+the parent alone stops, and no worker prints a traceback) and which, when
+the block inside it raises (``KeyboardInterrupt`` above all), is
+terminated: the tasks not started are dropped and the workers killed
+instead of being waited for. :func:`results_in_order` and
+:func:`results_as_completed` wait for tasks in short steps, so the main
+thread sees a Ctrl-C within :data:`POLL_SECONDS`. :func:`worker_ranges`
+cuts the samples into ranges that start at multiples of a chunk, so a
+result does not depend on the number of workers; :func:`check_workers`
+reads a worker count.
+
+(``concurrent.futures.ProcessPoolExecutor`` is not used: it cannot end
+running tasks, and its queue-feeder thread can block the interpreter's
+exit while a large task is being sent.)
 """
 
 from __future__ import annotations
 
+import multiprocessing
 import numbers
 import os
 import signal
-from collections.abc import Iterator
-from concurrent.futures import ProcessPoolExecutor
+from collections.abc import Iterable, Iterator
 from contextlib import contextmanager
+from multiprocessing.pool import AsyncResult, Pool
 
 from ..errors import SpecError
 
-__all__ = ["PARALLEL_MIN_SAMPLES", "check_workers", "worker_ranges", "worker_pool",
-           "end_pool"]
+__all__ = ["PARALLEL_MIN_SAMPLES", "POLL_SECONDS", "check_workers", "worker_ranges",
+           "worker_pool", "results_in_order", "results_as_completed"]
 
 #: Monte Carlo sample count from which worker processes are used.
 PARALLEL_MIN_SAMPLES = 50_000
-#: Seconds to wait for a terminated worker to go.
-_JOIN_SECONDS = 2.0
+#: Seconds between looks at the futures: a Ctrl-C is seen at least this often.
+#: (A wait without a timeout may never see it: the signal can reach another
+#: thread, and the main thread's wait is not interrupted.)
+POLL_SECONDS = 0.1
 
 
 def worker_ranges(total: int, workers: int, chunk: int) -> list[tuple[int, int]]:
@@ -61,42 +71,45 @@ def _ignore_sigint() -> None:
     signal.signal(signal.SIGINT, signal.SIG_IGN)
 
 
-def end_pool(pool: ProcessPoolExecutor) -> None:
-    """Cancel the futures not started and terminate the workers now.
-
-    Uses the executor's own process table (``_processes``, the standard
-    library's; :meth:`terminate_workers` from Python 3.14), then joins each
-    worker briefly so none is left behind.
-    """
-    pool.shutdown(wait=False, cancel_futures=True)
-    terminate = getattr(pool, "terminate_workers", None)
-    processes = list((getattr(pool, "_processes", None) or {}).values())
-    if terminate is not None:
-        terminate()
-    else:
-        for process in processes:
-            if process.is_alive():
-                process.terminate()
-    for process in processes:
-        process.join(_JOIN_SECONDS)
-        if process.is_alive():
-            process.kill()
-            process.join(_JOIN_SECONDS)
-
-
 @contextmanager
-def worker_pool(workers: int) -> Iterator[ProcessPoolExecutor]:
-    """A process pool that is ended at once if the block raises.
+def worker_pool(workers: int) -> Iterator[Pool]:
+    """A process pool that is terminated at once if the block raises.
 
-    On a normal exit the pool is shut down after its tasks, as ``with
-    ProcessPoolExecutor(...)`` does; on any exception (a Ctrl-C, an error in
-    a task) the futures are cancelled and the workers terminated
-    (:func:`end_pool`) before the exception goes on.
+    On a normal exit the pool is closed and joined after its tasks; on any
+    exception (a Ctrl-C, an error in a task) it is terminated (tasks not
+    started dropped, workers killed, joined) before the exception goes on,
+    so no worker outlives the command.
     """
-    pool = ProcessPoolExecutor(max_workers=workers, initializer=_ignore_sigint)
+    pool = multiprocessing.get_context().Pool(processes=workers, initializer=_ignore_sigint)
     try:
         yield pool
     except BaseException:
-        end_pool(pool)
+        pool.terminate()
+        pool.join()
         raise
-    pool.shutdown(wait=True)
+    pool.close()
+    pool.join()
+
+
+def results_in_order(tasks: Iterable[AsyncResult]) -> Iterator:
+    """Each task's result in the given order, waiting in short steps.
+
+    Every wait has a timeout of :data:`POLL_SECONDS`, so the main thread
+    runs Python often enough for a Ctrl-C to raise ``KeyboardInterrupt``.
+    """
+    for task in tasks:
+        while not task.ready():
+            task.wait(POLL_SECONDS)
+        yield task.get()
+
+
+def results_as_completed(tasks: Iterable[AsyncResult]) -> Iterator[AsyncResult]:
+    """The tasks as they finish, looked at every :data:`POLL_SECONDS`."""
+    pending = list(tasks)
+    while pending:
+        done = [task for task in pending if task.ready()]
+        if not done:
+            pending[0].wait(POLL_SECONDS)
+            continue
+        pending = [task for task in pending if task not in done]
+        yield from done
