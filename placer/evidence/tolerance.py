@@ -32,15 +32,16 @@ from __future__ import annotations
 import math
 import numbers
 import warnings
-from collections.abc import Iterator, Mapping, Sequence
-from concurrent.futures import ProcessPoolExecutor
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from dataclasses import dataclass
+from typing import Any, NamedTuple
 
 import numpy as np
 
 from ..errors import NumericalWarning, SpecError
-from ..analysis.network import polynomial_values
-from .workers import PARALLEL_MIN_SAMPLES, check_workers, worker_ranges
+from ..analysis.network import NetworkFunction, polynomial_values
+from .workers import (PARALLEL_MIN_SAMPLES, check_workers, results_in_order, worker_pool,
+                      worker_ranges)
 from ..analysis.sensitivity import (
     Sensitivities,
     _check_order,
@@ -383,17 +384,20 @@ def _evaluate_block(nf, nominal, multipliers, index, ref, reject_hz):
     return join(0), join(1), join(2), join(3)
 
 
-def _blocks(total, workers, progress):
-    """Column ranges handed out at once: in-process everything, or CHUNK at a
-    time to report progress; with workers, :func:`worker_ranges`."""
+def _blocks(total: int, workers: int) -> list[tuple[int, int]]:
+    """Column ranges handed out at once: CHUNK at a time in-process (a Ctrl-C
+    stops between them, and progress is reported after each), or
+    :func:`worker_ranges` for worker processes."""
     if workers > 1:
         return worker_ranges(total, workers, CHUNK)
-    size = CHUNK if progress is not None else total
-    return [(start, min(start + size, total)) for start in range(0, total, size)]
+    return [(start, min(start + CHUNK, total)) for start in range(0, total, CHUNK)]
 
 
-def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform", seed=0,
-                windows=None, progress=None, allow_zero=False, reject_hz=None, workers=1):
+def monte_carlo(nf: NetworkFunction, values: Mapping[str, float],
+                tolerances: Mapping[str, float] | float, *, samples: int = 10_000,
+                distribution: str = "uniform", seed: Any = 0, windows: Mapping | None = None,
+                progress: Callable[[int, int], None] | None = None, allow_zero: bool = False,
+                reject_hz: float | None = None, workers: int | None = 1) -> MonteCarloResult:
     """Tolerance Monte Carlo of f0, Q and gain, vectorised over samples.
 
     Parameters
@@ -417,8 +421,11 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
         "rejection_db": 40 asks for at least 40 dB of rejection at
         `reject_hz`.
     progress : callable, optional
-        ``progress(done, total)``, called after each chunk of 2,000 samples.
-        Without it all samples are evaluated in one call.
+        ``progress(done, total)``, called after each chunk of 2,000 samples
+        (in-process) or each worker's range. Samples are evaluated in such
+        blocks either way, so a Ctrl-C stops between two of them; worker
+        processes are then ended at once
+        (:func:`placer.evidence.workers.worker_pool`).
     allow_zero : bool, optional
         Accept tolerances of exactly 0 (a check that samples equal nominal).
     reject_hz : float, optional
@@ -457,8 +464,7 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
     """
     _check_order(nf)
     nominal = _nominal_values(nf, values)
-    names = list(nf.symbols)
-    tolerances = _check_tolerances(tolerances, names, allow_zero)
+    tolerances = _check_tolerances(tolerances, list(nf.symbols), allow_zero)
     samples = _check_samples(samples)
     if distribution not in DISTRIBUTIONS:
         raise SpecError(f"distribution must be one of {_choices(DISTRIBUTIONS)}, "
@@ -466,64 +472,84 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
     reject_hz = _check_reject_hz(reject_hz)
     windows = _check_windows(windows, nf.order, reject_hz)
     workers = check_workers(workers)
-    rng = np.random.default_rng(seed)
+    workers = workers if samples >= PARALLEL_MIN_SAMPLES else 1
     ref = _reference(nf, nominal)
-
-    multipliers = _draw(rng, tolerances, samples, distribution)
+    multipliers = _draw(np.random.default_rng(seed), tolerances, samples, distribution)
     # Column 0 is the nominal itself, so nominal and samples share one code path.
     multipliers = np.concatenate([np.ones((len(tolerances), 1)), multipliers], axis=1)
-    total = samples + 1
-    if samples < PARALLEL_MIN_SAMPLES:
-        workers = 1
-    omega0 = np.empty(total)
-    q = np.empty(total) if nf.order >= 2 else None
-    gain = np.empty(total)
-    rejection = np.empty(total) if reject_hz is not None else None
-    index = {name: i for i, name in enumerate(tolerances)}
-    blocks = _blocks(total, workers, progress)
+    index = {name: i for i, name in enumerate(tolerances)}  # row of each toleranced part
+    figures = _evaluate_samples(nf, nominal, multipliers, index, ref, reject_hz, workers,
+                                progress)
+    return _result(nf, nominal, tolerances, distribution, windows, reject_hz, ref, figures)
 
-    def store(block, figures):
+
+class _Figures(NamedTuple):
+    """Per build (column 0 the nominal): ω0, Q (None, first order), gain, rejection."""
+
+    omega0: np.ndarray
+    q: np.ndarray | None
+    gain: np.ndarray
+    rejection: np.ndarray | None
+
+
+def _evaluate_samples(nf: NetworkFunction, nominal: dict, multipliers: np.ndarray,
+                      index: dict, ref: Any, reject_hz: float | None, workers: int,
+                      progress: Callable[[int, int], None] | None) -> _Figures:
+    """Figures of every column of `multipliers`, block by block (in-process or in workers).
+
+    `index` maps a toleranced part to its row of `multipliers`.
+    """
+    total = multipliers.shape[1]
+    samples = total - 1
+    figures = _Figures(np.empty(total), np.empty(total) if nf.order >= 2 else None,
+                       np.empty(total), np.empty(total) if reject_hz is not None else None)
+    blocks = _blocks(total, workers)
+
+    def store(block: tuple[int, int], found: tuple) -> None:
         start, stop = block
-        w, quality, k, rejected = figures
-        omega0[start:stop] = w
-        if q is not None:
-            q[start:stop] = quality
-        gain[start:stop] = k
-        if rejection is not None:
-            rejection[start:stop] = rejected
+        for array, values in zip(figures, found):
+            if array is not None:
+                array[start:stop] = values
         if progress is not None:
             progress(stop - 1, samples)
 
     if workers == 1 or len(blocks) == 1:
-        for block in blocks:
-            start, stop = block
-            store(block, _evaluate_block(nf, nominal, multipliers[:, start:stop], index, ref,
-                                         reject_hz))
+        for start, stop in blocks:
+            store((start, stop), _evaluate_block(nf, nominal, multipliers[:, start:stop], index,
+                                                 ref, reject_hz))
     else:
-        with ProcessPoolExecutor(max_workers=min(workers, len(blocks))) as pool:
-            futures = [pool.submit(_evaluate_block, nf, nominal, multipliers[:, start:stop],
-                                   index, ref, reject_hz) for start, stop in blocks]
-            for block, future in zip(blocks, futures):
-                store(block, future.result())
-    if not (np.all(np.isfinite(omega0)) and np.all(np.isfinite(gain))):
+        with worker_pool(min(workers, len(blocks))) as pool:
+            tasks = [pool.apply_async(_evaluate_block, (nf, nominal, multipliers[:, start:stop],
+                                                        index, ref, reject_hz))
+                     for start, stop in blocks]
+            for block, found in zip(blocks, results_in_order(tasks)):
+                store(block, found)
+    if not (np.all(np.isfinite(figures.omega0)) and np.all(np.isfinite(figures.gain))):
         warnings.warn("some Monte Carlo samples gave non-finite figures (NaN or inf)",
-                      NumericalWarning, stacklevel=2)
+                      NumericalWarning, stacklevel=3)
+    return figures
 
-    f0 = omega0 / (2 * math.pi)
+
+def _result(nf: NetworkFunction, nominal: dict, tolerances: dict, distribution: str,
+            windows: dict | None, reject_hz: float | None, ref: Any,
+            figures: _Figures) -> MonteCarloResult:
+    """Statistics, yield windows and variance shares of the evaluated builds."""
+    samples = figures.gain.size - 1
+    f0 = figures.omega0 / (2 * math.pi)
     nominal_f0, f0 = float(f0[0]), _readonly(f0[1:])
-    nominal_gain, gain = float(gain[0]), _readonly(gain[1:])
-    nominal_q = None
-    if q is not None:
-        nominal_q, q = float(q[0]), _readonly(q[1:])
+    nominal_gain, gain = float(figures.gain[0]), _readonly(figures.gain[1:])
+    nominal_q = q = None
+    if figures.q is not None:
+        nominal_q, q = float(figures.q[0]), _readonly(figures.q[1:])
     statistics = {"f0_hz": Statistics.of(f0), "gain": Statistics.of(gain),
                   "gain_db": Statistics.of(_db(gain))}
     if q is not None:
         statistics["q"] = Statistics.of(q)
-    nominal_rejection = None
-    if rejection is not None:
-        nominal_rejection, rejection = float(rejection[0]), _readonly(rejection[1:])
+    nominal_rejection = rejection = None
+    if figures.rejection is not None:
+        nominal_rejection = float(figures.rejection[0])
+        rejection = _readonly(figures.rejection[1:])
         statistics["rejection_db"] = Statistics.of(rejection)
-
     window_yield = yield_fraction = passed = None
     if windows is not None:
         masks = _window_masks(windows, f0, q, _db(gain), nominal_f0, nominal_q,
@@ -532,7 +558,6 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
         passed = _readonly(np.logical_and.reduce(list(masks.values())) if masks
                            else np.ones(samples, bool))
         yield_fraction = float(passed.mean())
-
     sens = sensitivities(nf, nominal)
     contributions, ranking = _contributions(sens, tolerances)
     return MonteCarloResult(
