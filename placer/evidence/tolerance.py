@@ -33,17 +33,16 @@ import math
 import numbers
 import warnings
 from collections.abc import Callable, Iterator, Mapping, Sequence
-from dataclasses import dataclass
 from typing import Any, NamedTuple
 
 import numpy as np
 
 from ..errors import NumericalWarning, SpecError
 from ..analysis.network import NetworkFunction, polynomial_values
+from .tolerance_results import CascadeMonteCarloResult, MonteCarloResult, Statistics
 from .workers import (PARALLEL_MIN_SAMPLES, check_workers, results_in_order, worker_pool,
                       worker_ranges)
 from ..analysis.sensitivity import (
-    Sensitivities,
     _check_order,
     _figures,
     _is_number,
@@ -58,9 +57,6 @@ __all__ = [
     "MAX_REJECTION_DB",
     "MAX_SAMPLES",
     "CHUNK",
-    "Statistics",
-    "MonteCarloResult",
-    "CascadeMonteCarloResult",
     "monte_carlo",
     "cascade_monte_carlo",
     "cascade_magnitude_blocks",
@@ -79,132 +75,6 @@ MAX_SAMPLES = 1_000_000
 CHUNK = 2_000
 #: Builds per block of :func:`cascade_magnitude_blocks` (bounds its memory).
 MASK_BLOCK = 256
-
-
-@dataclass(frozen=True)
-class Statistics:
-    """Summary of one Monte Carlo figure (population std, ddof = 0)."""
-
-    mean: float
-    std: float
-    minimum: float
-    maximum: float
-    p01: float
-    p99: float
-
-    @classmethod
-    def of(cls, samples):
-        """Statistics of a sample array."""
-        samples = np.asarray(samples, dtype=float)
-        low, high = float(np.min(samples)), float(np.max(samples))
-        if low == high:     # constant: exact, without summation round-off
-            return cls(low, 0.0, low, high, low, high)
-        p01, p99 = np.percentile(samples, [1.0, 99.0])
-        return cls(float(np.mean(samples)), float(np.std(samples)), low, high,
-                   float(p01), float(p99))
-
-
-@dataclass(frozen=True, eq=False)
-class MonteCarloResult:
-    """Samples and statistics of f0, Q and gain under part tolerances.
-
-    Attributes
-    ----------
-    samples, distribution, tolerances
-        As applied (tolerances: part → fraction; parts absent are exact).
-    nominal_f0_hz, nominal_q, nominal_gain : float
-        Figures at the nominal values (``nominal_q`` None for first order).
-    gain_reference : str
-        Where the gain is read: "dc", "hf", "center" (signed), or
-        "|H| at <f> Hz" when the network has none of those (e.g. 4th-order
-        band-pass): the magnitude at the reference frequency.
-    f0_hz, q, gain : ndarray
-        One value per sample (read-only); ``q`` None for first order.
-    statistics : dict
-        "f0_hz", "q", "gain", "gain_db" → :class:`Statistics`.
-    windows, window_yield, yield_fraction, passed
-        The yield windows ("f0", "q" relative: 0.02 = ±2 % of nominal;
-        "gain_db" absolute, dB; "rejection_db" a minimum, dB), the
-        fraction inside each window alone,
-        inside all at once, and the per-sample pass mask (None without
-        windows).
-    contributions, ranking : dict
-        "f0", "q", "gain" → {part: share of the variance} from first-order
-        sensitivity × tolerance (sums to 1; all 0 when nothing varies), and
-        → parts sorted by falling share.
-    sensitivities : Sensitivities
-    reject_hz : float or None
-        Frequency at which the rejection is read (Hz), when asked for.
-    nominal_rejection_db : float or None
-    rejection_db : ndarray or None
-        Pass-band gain over |H(j2π·reject_hz)|, dB, per sample (read-only;
-        each build against its own pass-band gain), capped at
-        MAX_REJECTION_DB; ``statistics["rejection_db"]`` summarises it.
-    """
-
-    samples: int
-    distribution: str
-    tolerances: dict
-    nominal_f0_hz: float
-    nominal_q: float | None
-    nominal_gain: float
-    gain_reference: str
-    f0_hz: np.ndarray
-    q: np.ndarray | None
-    gain: np.ndarray
-    statistics: dict
-    windows: dict | None
-    window_yield: dict | None
-    yield_fraction: float | None
-    passed: np.ndarray | None
-    contributions: dict
-    ranking: dict
-    sensitivities: Sensitivities
-    reject_hz: float | None = None
-    nominal_rejection_db: float | None = None
-    rejection_db: np.ndarray | None = None
-
-    @property
-    def gain_db(self):
-        """20·log10|gain| per sample, dB."""
-        return _db(self.gain)
-
-    @property
-    def nominal_gain_db(self):
-        """20·log10|nominal gain|, dB."""
-        return float(_db(self.nominal_gain))
-
-
-@dataclass(frozen=True, eq=False)
-class CascadeMonteCarloResult:
-    """Monte Carlo of a cascade: per-section results and the overall gain.
-
-    Attributes
-    ----------
-    sections : tuple of MonteCarloResult
-    gain : ndarray
-        Product of the section gains per sample (signed).
-    nominal_gain : float
-    statistics : dict
-        "gain", "gain_db" → :class:`Statistics` of the overall gain.
-    yield_fraction : float or None
-        Fraction of samples where every section is inside its "f0" and "q"
-        windows and the *overall* gain inside the "gain_db" window.
-    passed : ndarray of bool or None
-    """
-
-    sections: tuple
-    gain: np.ndarray
-    nominal_gain: float
-    statistics: dict
-    windows: dict | None
-    yield_fraction: float | None
-    passed: np.ndarray | None
-
-    @property
-    def gain_db(self):
-        """20·log10|overall gain| per sample, dB."""
-        return _db(self.gain)
 
 
 # -- validation -------------------------------------------------------------
