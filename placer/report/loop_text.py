@@ -81,24 +81,23 @@ def _margin_row(label: str, m: dict) -> list[str]:
 
 
 def _frequencies(values: list[float]) -> str:
-    return ", ".join(_hz(v, "0 Hz") for v in values) if values else "none"
+    shown = ["0 Hz (integrator)" if v == 0 else _hz(v) for v in values]
+    return ", ".join(shown) if shown else "none"
 
 
 def root_lines(data: dict) -> list[str]:
-    """The compensator's zeros and poles (Hz) and a plant's right-half-plane zero."""
-    comp = data["compensator"]
-    poles = comp.get("poles_hz", [])
-    integrators = sum(1 for p in poles if p == 0)
-    others = [p for p in poles if p != 0]
-    lines = [f"  compensator zeros: {_frequencies(comp.get('zeros_hz', []))}; poles: "
-             + ("integrator (0 Hz)" + (", " if others else "") if integrators else "")
-             + (_frequencies(others) if others or not integrators else "")
-             + " (snapped parts)"]
-    rhp = data["plant"].get("rhp_zero_hz")
-    if rhp:
-        lines.append(f"  plant right-half-plane zero: {_hz(rhp)}; crossover limit "
-                     f"{_hz(data['plant']['rhp_zero_limit_hz'])} "
-                     f"(1/{1 / data['plant']['rhp_zero_fraction']:g} of it, common practice)")
+    """The compensator's zeros and poles (Hz), placed and as built, and a plant's RHP zero."""
+    comp, k = data["compensator"], data["k_factor"]
+    double = " (double)" if comp["family"] == "type3" else ""
+    lines = [f"  compensator zeros, placed: {_hz(k['zero_hz'])}{double}; as built: "
+             f"{_frequencies(comp.get('zeros_hz', []))}",
+             f"  compensator poles, placed: 0 Hz (integrator), {_hz(k['pole_hz'])}{double}; "
+             f"as built: {_frequencies(comp.get('poles_hz', []))}"]
+    plant = data["plant"]
+    if plant.get("rhp_zero_hz"):
+        lines.append(f"  plant right-half-plane zero {_hz(plant['rhp_zero_hz'])}: keep the "
+                     f"crossover below {_hz(plant['rhp_zero_limit_hz'])} "
+                     f"(1/{1 / plant['rhp_zero_fraction']:g} of it, common practice)")
     return lines
 
 
@@ -124,14 +123,12 @@ def loop_text(data: dict) -> str:
     """The console text of a loop result (the data of :func:`loop_data`)."""
     target = data["target"]
     k = data["k_factor"]
-    double = " (each double)" if data["compensator"]["family"] == "type3" else ""
     lines = [f"Loop: {data['plant'].get('description', 'plant')}",
              f"  target crossover {_hz(target['crossover_hz'])}, "
              f"phase margin {target['phase_margin_deg']:.1f}°; compensator "
              f"{data['compensator']['family']} ({data['compensator']['topology']})",
              f"  K factor {k['k']:.3g}, boost {k['boost_deg']:.1f}° (plant phase at crossover "
-             f"{k['plant_phase_deg']:.1f}°, plant gain {k['plant_gain_db']:.2f} dB); placed "
-             f"zero {_hz(k['zero_hz'])}, pole {_hz(k['pole_hz'])}{double}"]
+             f"{k['plant_phase_deg']:.1f}°, plant gain {k['plant_gain_db']:.2f} dB)"]
     lines += root_lines(data)
     lines.append(table(["loop", "crossover", "phase margin", "gain margin", "phase crossover"],
                        [_margin_row("continuous", data["continuous"]),
