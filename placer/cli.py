@@ -135,7 +135,7 @@ def _check_schematic_folder(folder):
         raise SpecError(f"--schematic: folder {folder!r} does not exist")
 
 
-def main(argv=None):
+def main(argv: list[str] | None = None) -> int:
     """Run the command; returns the exit status."""
     parser = build_parser()
     try:
@@ -475,7 +475,7 @@ def _cmd_compare(args):
 
 # -- loop ----------------------------------------------------------------------
 
-def _cmd_loop(args):
+def _cmd_loop(args: argparse.Namespace) -> int:
     from .report.console import Progress
     from .report.loop_text import LOOP_CAUTION, loop_data, loop_text
     from .spec.loop_table import run_loop

@@ -36,6 +36,7 @@ from __future__ import annotations
 import math
 import os
 from dataclasses import asdict, dataclass, field
+from collections.abc import Callable
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -487,7 +488,7 @@ def _target_yield(section, result, windows):
     return float(np.mean(passed))
 
 
-def _run(tasks, workers, progress):
+def _run(tasks: list, workers: int, progress: Callable | None) -> list:
     """Evaluate tasks in-process or in a process pool; results in task order."""
     total = len(tasks)
     results = [None] * total

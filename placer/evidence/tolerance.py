@@ -334,23 +334,23 @@ def monte_carlo(nf: NetworkFunction, values: Mapping[str, float],
     """
     _check_order(nf)
     nominal = _nominal_values(nf, values)
-    tolerances = _check_tolerances(tolerances, list(nf.symbols), allow_zero)
+    checked: dict = _check_tolerances(tolerances, list(nf.symbols), allow_zero)
     samples = _check_samples(samples)
     if distribution not in DISTRIBUTIONS:
         raise SpecError(f"distribution must be one of {_choices(DISTRIBUTIONS)}, "
                         f"not {distribution!r}")
     reject_hz = _check_reject_hz(reject_hz)
-    windows = _check_windows(windows, nf.order, reject_hz)
+    shape: dict | None = _check_windows(windows, nf.order, reject_hz)
     workers = check_workers(workers)
     workers = workers if samples >= PARALLEL_MIN_SAMPLES else 1
     ref = _reference(nf, nominal)
-    multipliers = _draw(np.random.default_rng(seed), tolerances, samples, distribution)
+    multipliers = _draw(np.random.default_rng(seed), checked, samples, distribution)
     # Column 0 is the nominal itself, so nominal and samples share one code path.
-    multipliers = np.concatenate([np.ones((len(tolerances), 1)), multipliers], axis=1)
-    index = {name: i for i, name in enumerate(tolerances)}  # row of each toleranced part
+    multipliers = np.concatenate([np.ones((len(checked), 1)), multipliers], axis=1)
+    index = {name: i for i, name in enumerate(checked)}  # row of each toleranced part
     figures = _evaluate_samples(nf, nominal, multipliers, index, ref, reject_hz, workers,
                                 progress)
-    return _result(nf, nominal, tolerances, distribution, windows, reject_hz, ref, figures)
+    return _result(nf, nominal, checked, distribution, shape, reject_hz, ref, figures)
 
 
 class _Figures(NamedTuple):

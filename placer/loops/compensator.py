@@ -278,7 +278,7 @@ class LoopDesign:
     continuous_margins: Margins
     snapped_margins: Margins
     notes: tuple = ()
-    network: NetworkFunction = field(default=None, repr=False, compare=False)
+    network: NetworkFunction | None = field(default=None, repr=False, compare=False)
 
     def loop_transfer_function(self, *, snapped=True):
         """L(s) as a python-control TransferFunction."""
@@ -296,6 +296,8 @@ class LoopDesign:
         integrator is a pole at 0), each sorted by magnitude.
         """
         values = self.snapped if snapped else self.continuous
+        if self.network is None:
+            raise ValueError("this LoopDesign carries no network function")
         roots = []
         for coefficients in self.network.coefficients(values):
             c = np.trim_zeros(np.ravel(coefficients), "f")
@@ -625,8 +627,9 @@ def _with_rhp_zero(error: UnreachableTarget, plant: Plant,
                    crossover_hz: float) -> UnreachableTarget:
     """The failure, with the RHP-zero limit added when the crossover passes it."""
     note = rhp_zero_note(plant, crossover_hz) if isinstance(crossover_hz, (int, float)) else None
-    if note is None:
+    zero = rhp_zero_hz(plant)
+    if note is None or zero is None:
         return error
     return UnreachableTarget(f"{error.reason}; {note}: lower the crossover below "
-                             f"{format_value(RHP_ZERO_FRACTION * rhp_zero_hz(plant), 'Hz', digits=4)}",
+                             f"{format_value(RHP_ZERO_FRACTION * zero, 'Hz', digits=4)}",
                              error.alternatives)

@@ -432,8 +432,10 @@ def _margin_row(label, m):
             "-" if m.get("stable") is None else ("yes" if m["stable"] else "NO")]
 
 
-def write_loop_report(result, data, *, html_path=None, plots_dir=None, inputs=(), spec_path=None,
-                      opamp_loops=(), resistor_style="iec"):
+def write_loop_report(result: Any, data: dict, *, html_path: str | None = None,
+                      plots_dir: str | None = None, inputs: tuple = (),
+                      spec_path: str | None = None, opamp_loops: tuple = (),
+                      resistor_style: str = "iec") -> Any:
     """Write the HTML report of a compensated loop, and its plots.
 
     Parameters
