@@ -83,8 +83,8 @@ _EXPORTS = {
     "SectionDesign": "design", "PartChoice": "design", "design_to_dict": "report.data",
     "Comparison": "compare", "SectionComparison": "compare", "CandidateResult": "compare",
     "Evidence": "evidence.gather", "SectionEvidence": "evidence.gather",
-    "MonteCarloResult": "evidence.tolerance", "CascadeMonteCarloResult": "evidence.tolerance",
-    "Statistics": "evidence.tolerance",
+    "MonteCarloResult": "evidence.tolerance_results", "CascadeMonteCarloResult": "evidence.tolerance_results",
+    "Statistics": "evidence.tolerance_results",
     "Verification": "evidence.verify", "Margins": "evidence.verify",
     "Candidate": "place.placement",
 }

@@ -14,6 +14,7 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import os
 import sys
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -134,7 +135,7 @@ def _check_schematic_folder(folder):
         raise SpecError(f"--schematic: folder {folder!r} does not exist")
 
 
-def main(argv=None):
+def main(argv: list[str] | None = None) -> int:
     """Run the command; returns the exit status."""
     parser = build_parser()
     try:
@@ -158,7 +159,19 @@ def main(argv=None):
         return 0
     except KeyboardInterrupt:
         print("error: interrupted", file=sys.stderr)
+        if argv is None:  # the command itself: worker pools are ended, skip the slow teardown
+            _exit_now(130)
         return 130
+
+
+def _exit_now(status: int) -> None:
+    """Flush the output and leave at once (a Ctrl-C should not wait for cleanup)."""
+    for stream in (sys.stdout, sys.stderr):
+        try:
+            stream.flush()
+        except (OSError, ValueError):
+            pass
+    os._exit(status)
 
 
 # -- helpers -------------------------------------------------------------------
@@ -499,9 +512,10 @@ def _cmd_compare(args):
 
 # -- loop ----------------------------------------------------------------------
 
-def _cmd_loop(args):
+def _cmd_loop(args: argparse.Namespace) -> int:
     from .report.console import Progress
-    from .spec.loop_table import loop_to_dict, run_loop
+    from .report.loop_text import LOOP_CAUTION, loop_data, loop_text
+    from .spec.loop_table import run_loop
     from .spec.reader import load_spec
 
     spec = load_spec(args.spec)
@@ -521,17 +535,17 @@ def _cmd_loop(args):
     _check_counts(("--seed", args.seed, 0), ("--workers", args.workers, 1))
     tolerances = dict(spec.tolerance.tolerances)
     progress = Progress("loop", quiet=args.quiet)
-    progress(0, 1, f"compensator and {samples} Monte Carlo builds")
+    progress(0, max(samples, 1), "compensator")
     try:
         result = run_loop(spec.loop, source=args.spec, samples=samples, seed=seed,
                           tolerances=tolerances, distribution=spec.tolerance.distribution,
-                          workers=args.workers, parts=spec.parts)
-        progress(1, 1, "done")
+                          workers=args.workers, parts=spec.parts,
+                          progress=lambda done, total: progress(done, total, "Monte Carlo builds"))
+        progress(max(samples, 1), max(samples, 1), "done")
     finally:
         progress.close()
-    data = loop_to_dict(result)
-    loops = _compensator_loops(result, spec, data)
-    print(_loop_text(data))
+    data, loops = loop_data(result, spec.amplifier)
+    print(loop_text(data))
     if args.json:
         _emit_json(data, args.json, inputs=inputs)
     if args.report or args.plots:
@@ -545,86 +559,8 @@ def _cmd_loop(args):
         write_schematic_files({"compensator": compensator_schematic(result.design)},
                               args.schematic, resistor_style=args.resistor_style, inputs=inputs)
     print()
-    print("Caution: power converters and anything connected to mains can hurt people. These values "
-          "are a starting point: confirm the loop by simulation and on the bench, and follow the "
-          "applicable safety standards and licensed practice.")
+    print(LOOP_CAUTION)
     return 0
-
-
-def _compensator_loops(result, spec, data: dict) -> tuple:
-    """The compensator op-amp's own loop: into `data` (JSON), returned for the report."""
-    from .place.opamp import describe_amplifier
-    from .evidence.prelayout import DEFAULT_LOOP_PRESET, compensator_loops, loop_to_dict
-
-    loops, model, is_default = compensator_loops(result.design.circuit(snapped=True), spec.amplifier)
-    data["opamp_loops"] = {
-        "model": describe_amplifier(model),
-        "model_source": (f"default: the {DEFAULT_LOOP_PRESET!r} preset (the spec gives no GBW)"
-                         if is_default else "spec"),
-        "load_capacitance_f": spec.amplifier.load_capacitance,
-        "loops": [loop_to_dict(loop) for loop in loops],
-    }
-    for loop in loops:
-        if loop.low_margin:
-            data.setdefault("notes", []).append(
-                f"compensator op-amp {loop.opamp}: its own phase margin "
-                f"{loop.phase_margin_deg:.1f}° is below 45°")
-    return loops
-
-
-def _loop_text(data):
-    from .report.console import table
-    from .report.prelayout import compensator_lines
-
-    def margin_row(label, m):
-        return [label, format_value(m["crossover_hz"], "Hz", digits=4) if m.get("crossover_hz") else "none",
-                f"{m['phase_margin_deg']:.2f}°" if m.get("phase_margin_deg") is not None else "-",
-                f"{m['gain_margin_db']:.2f} dB" if m.get("gain_margin_db") is not None else "none",
-                format_value(m["phase_crossover_hz"], "Hz", digits=4) if m.get("phase_crossover_hz") else "-"]
-
-    target = data["target"]
-    lines = [f"Loop: {data['plant'].get('description', 'plant')}",
-             f"  target crossover {format_value(target['crossover_hz'], 'Hz', digits=4)}, "
-             f"phase margin {target['phase_margin_deg']:.1f}°; compensator "
-             f"{data['compensator']['family']} ({data['compensator']['topology']})"]
-    k = data["k_factor"]
-    lines.append(f"  K factor {k['k']:.3g}, boost {k['boost_deg']:.1f}° (plant phase at crossover "
-                 f"{k['plant_phase_deg']:.1f}°, plant gain {k['plant_gain_db']:.2f} dB)")
-    lines.append(table(["loop", "crossover", "phase margin", "gain margin", "phase crossover"],
-                       [margin_row("continuous", data["continuous"]), margin_row("snapped", data)]))
-    unit = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
-    rows = [[p["name"], p["kind"], format_value(p["value"], unit.get(p["kind"], "")), p["series"],
-             format_value(p["continuous"], unit.get(p["kind"], ""), digits=4)] for p in data["parts"]]
-    lines.append("")
-    lines.append(table(["part", "kind", "value", "series", "continuous value"], rows))
-    mc = data.get("monte_carlo")
-    if mc:
-        lines.append("")
-        labels = {"samples": ("builds", ""), "phase_margin_worst_deg": ("worst phase margin", "°"),
-                  "phase_margin_median_deg": ("median phase margin", "°"),
-                  "gain_margin_worst_db": ("worst gain margin", " dB"),
-                  "crossover_min_hz": ("crossover from", " Hz"), "crossover_max_hz": ("to", " Hz"),
-                  "unstable_samples": ("unstable builds", ""),
-                  "margin_floor_deg": ("phase-margin floor", "°")}
-        parts = []
-        for key, (label, unit) in labels.items():
-            if key in mc:
-                value = mc[key]
-                if value is None:
-                    shown = ("unbounded (no phase crossover)" if key == "gain_margin_worst_db"
-                             else "none")
-                elif unit == " Hz":
-                    shown = format_value(value, "Hz", digits=4)
-                else:
-                    shown = f"{_plain(value)}{unit}"
-                parts.append(f"{label} {shown}")
-        if mc.get("yield") is not None:
-            parts.append(f"yield {100 * mc['yield']:.1f} % (phase margin at or above the floor)")
-        lines.append("Monte Carlo (" + mc.get("distribution", "") + "): " + ", ".join(parts))
-    lines.extend(compensator_lines(data))
-    for note in data.get("notes", []):
-        lines.append(f"  note: {note}")
-    return "\n".join(lines)
 
 
 def _plain(value):

@@ -35,8 +35,8 @@ from __future__ import annotations
 
 import math
 import os
-from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import asdict, dataclass, field
+from collections.abc import Callable
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -49,6 +49,7 @@ from .place.opamp import AmplifierSpec, check_amplifier
 from .place.placement import Candidate, candidate_seeds, value_spread, worst_error_pct
 from .analysis.noise import analyse_noise
 from .evidence.prelayout import checked_circuit, level_rules_for, settings_for
+from .evidence.workers import results_as_completed, worker_pool
 from .analysis.return_ratio import opamp_loops
 from .target.sections import split_sections
 from .evidence.tolerance import monte_carlo
@@ -501,7 +502,7 @@ def _target_yield(section, result, windows):
     return float(np.mean(passed))
 
 
-def _run(tasks, workers, progress):
+def _run(tasks: list, workers: int, progress: Callable | None) -> list:
     """Evaluate tasks in-process or in a process pool; results in task order."""
     total = len(tasks)
     results = [None] * total
@@ -511,17 +512,15 @@ def _run(tasks, workers, progress):
             if progress:
                 progress(i + 1, total, task.topology.id)
         return results
-    with ProcessPoolExecutor(max_workers=min(workers, total)) as pool:
-        futures = {pool.submit(_evaluate, task): i for i, task in enumerate(tasks)}
-        try:
-            for done, future in enumerate(as_completed(futures), start=1):
-                i = futures[future]
-                results[i] = future.result()
-                if progress:
-                    progress(done, total, tasks[i].topology.id)
-        except BaseException:
-            pool.shutdown(wait=False, cancel_futures=True)
-            raise
+    # A Ctrl-C is seen between candidates (every POLL_SECONDS while waiting)
+    # and ends the workers at once (worker_pool terminates them).
+    with worker_pool(min(workers, total)) as pool:
+        pending = {pool.apply_async(_evaluate, (task,)): i for i, task in enumerate(tasks)}
+        for done, future in enumerate(results_as_completed(pending), start=1):
+            i = pending[future]
+            results[i] = future.get()
+            if progress:
+                progress(done, total, tasks[i].topology.id)
     return results
 
 

@@ -44,16 +44,15 @@ if TYPE_CHECKING:
         MAX_REJECTION_DB,
         MAX_SAMPLES,
         CHUNK,
-        PARALLEL_MIN_SAMPLES,
-        check_workers,
-        worker_ranges,
-        Statistics,
-        MonteCarloResult,
-        CascadeMonteCarloResult,
         monte_carlo,
         cascade_monte_carlo,
         cascade_magnitude_blocks,
         MASK_BLOCK,
+    )
+    from .tolerance_results import (
+        Statistics,
+        MonteCarloResult,
+        CascadeMonteCarloResult,
     )
     from .verify import (
         HALF_POWER_DB,
@@ -69,6 +68,15 @@ if TYPE_CHECKING:
         deviation,
         verify,
         margins,
+    )
+    from .workers import (
+        PARALLEL_MIN_SAMPLES,
+        POLL_SECONDS,
+        check_workers,
+        worker_ranges,
+        worker_pool,
+        results_in_order,
+        results_as_completed,
     )
 
 #: Public name -> the module of this folder that defines it.
@@ -102,16 +110,13 @@ _EXPORTS = {
     "MAX_REJECTION_DB": "tolerance",
     "MAX_SAMPLES": "tolerance",
     "CHUNK": "tolerance",
-    "PARALLEL_MIN_SAMPLES": "tolerance",
-    "check_workers": "tolerance",
-    "worker_ranges": "tolerance",
-    "Statistics": "tolerance",
-    "MonteCarloResult": "tolerance",
-    "CascadeMonteCarloResult": "tolerance",
     "monte_carlo": "tolerance",
     "cascade_monte_carlo": "tolerance",
     "cascade_magnitude_blocks": "tolerance",
     "MASK_BLOCK": "tolerance",
+    "Statistics": "tolerance_results",
+    "MonteCarloResult": "tolerance_results",
+    "CascadeMonteCarloResult": "tolerance_results",
     "HALF_POWER_DB": "verify",
     "PEAK_TIE_DB": "verify",
     "StepFigures": "verify",
@@ -125,6 +130,13 @@ _EXPORTS = {
     "deviation": "verify",
     "verify": "verify",
     "margins": "verify",
+    "PARALLEL_MIN_SAMPLES": "workers",
+    "POLL_SECONDS": "workers",
+    "check_workers": "workers",
+    "worker_ranges": "workers",
+    "worker_pool": "workers",
+    "results_in_order": "workers",
+    "results_as_completed": "workers",
 }
 
 __all__ = sorted(_EXPORTS)

@@ -31,18 +31,21 @@ from __future__ import annotations
 
 import math
 import numbers
-import os
 import warnings
-from collections.abc import Iterator, Mapping, Sequence
-from concurrent.futures import ProcessPoolExecutor
-from dataclasses import dataclass
+from collections.abc import Callable, Iterator, Mapping, Sequence
+from typing import TYPE_CHECKING, Any, NamedTuple
 
 import numpy as np
 
 from ..errors import NumericalWarning, SpecError
-from ..analysis.network import polynomial_values
+from ..analysis.network import NetworkFunction, polynomial_values
+
+if TYPE_CHECKING:
+    from ..analysis.protocols import PartFunction
+from .tolerance_results import CascadeMonteCarloResult, MonteCarloResult, Statistics
+from .workers import (PARALLEL_MIN_SAMPLES, check_workers, results_in_order, worker_pool,
+                      worker_ranges)
 from ..analysis.sensitivity import (
-    Sensitivities,
     _check_order,
     _figures,
     _is_number,
@@ -57,12 +60,6 @@ __all__ = [
     "MAX_REJECTION_DB",
     "MAX_SAMPLES",
     "CHUNK",
-    "PARALLEL_MIN_SAMPLES",
-    "check_workers",
-    "worker_ranges",
-    "Statistics",
-    "MonteCarloResult",
-    "CascadeMonteCarloResult",
     "monte_carlo",
     "cascade_monte_carlo",
     "cascade_magnitude_blocks",
@@ -79,151 +76,8 @@ MAX_REJECTION_DB = 200.0
 MAX_SAMPLES = 1_000_000
 #: Samples per chunk when a progress callback is given.
 CHUNK = 2_000
-#: Fewest samples for which worker processes are started (below it, starting
-#: them costs more than they save).
-PARALLEL_MIN_SAMPLES = 50_000
 #: Builds per block of :func:`cascade_magnitude_blocks` (bounds its memory).
 MASK_BLOCK = 256
-
-
-@dataclass(frozen=True)
-class Statistics:
-    """Summary of one Monte Carlo figure (population std, ddof = 0)."""
-
-    mean: float
-    std: float
-    minimum: float
-    maximum: float
-    p01: float
-    p99: float
-
-    @classmethod
-    def of(cls, samples):
-        """Statistics of a sample array."""
-        samples = np.asarray(samples, dtype=float)
-        low, high = float(np.min(samples)), float(np.max(samples))
-        if low == high:     # constant: exact, without summation round-off
-            return cls(low, 0.0, low, high, low, high)
-        p01, p99 = np.percentile(samples, [1.0, 99.0])
-        return cls(float(np.mean(samples)), float(np.std(samples)), low, high,
-                   float(p01), float(p99))
-
-
-@dataclass(frozen=True, eq=False)
-class MonteCarloResult:
-    """Samples and statistics of f0, Q and gain under part tolerances.
-
-    Attributes
-    ----------
-    samples, distribution, tolerances
-        As applied (tolerances: part → fraction; parts absent are exact).
-    nominal_f0_hz, nominal_q, nominal_gain : float
-        Figures at the nominal values (``nominal_q`` None for first order).
-    gain_reference : str
-        Where the gain is read: "dc", "hf", "center" (signed), or
-        "|H| at <f> Hz" when the network has none of those (e.g. 4th-order
-        band-pass): the magnitude at the reference frequency.
-    f0_hz, q, gain : ndarray
-        One value per sample (read-only); ``q`` None for first order.
-    statistics : dict
-        "f0_hz", "q", "gain", "gain_db" → :class:`Statistics`.
-    windows, window_yield, yield_fraction, passed
-        The yield windows ("f0", "q" relative: 0.02 = ±2 % of nominal;
-        "gain_db" absolute, dB; "rejection_db" a minimum, dB), the
-        fraction inside each window alone,
-        inside all at once, and the per-sample pass mask (None without
-        windows).
-    contributions, ranking : dict
-        "f0", "q", "gain" → {part: share of the variance} from first-order
-        sensitivity × tolerance (sums to 1; all 0 when nothing varies), and
-        → parts sorted by falling share.
-    sensitivities : Sensitivities
-    reject_hz : float or None
-        Frequency at which the rejection is read (Hz), when asked for.
-    nominal_rejection_db : float or None
-    rejection_db : ndarray or None
-        Pass-band gain over |H(j2π·reject_hz)|, dB, per sample (read-only;
-        each build against its own pass-band gain), capped at
-        MAX_REJECTION_DB; ``statistics["rejection_db"]`` summarises it.
-    """
-
-    samples: int
-    distribution: str
-    tolerances: dict
-    nominal_f0_hz: float
-    nominal_q: float | None
-    nominal_gain: float
-    gain_reference: str
-    f0_hz: np.ndarray
-    q: np.ndarray | None
-    gain: np.ndarray
-    statistics: dict
-    windows: dict | None
-    window_yield: dict | None
-    yield_fraction: float | None
-    passed: np.ndarray | None
-    contributions: dict
-    ranking: dict
-    sensitivities: Sensitivities
-    reject_hz: float | None = None
-    nominal_rejection_db: float | None = None
-    rejection_db: np.ndarray | None = None
-
-    @property
-    def gain_db(self):
-        """20·log10|gain| per sample, dB."""
-        return _db(self.gain)
-
-    @property
-    def nominal_gain_db(self):
-        """20·log10|nominal gain|, dB."""
-        return float(_db(self.nominal_gain))
-
-    # report/ sits above this module in the layering: the notebook view is
-    # imported on use (see placer.report.notebook), so no plotting loads before.
-    def _repr_html_(self):
-        """The notebook view: tables and plots (inline SVG), self-contained."""
-        from ..report.notebook import monte_carlo_html
-
-        return monte_carlo_html(self)
-
-    def plot(self, **options):
-        """The main figure: the f0 histogram with the nominal and the window, a matplotlib Figure (see :func:`placer.report.notebook.plot`)."""
-        from ..report.notebook import monte_carlo_figure
-
-        return monte_carlo_figure(self, **options)
-
-
-@dataclass(frozen=True, eq=False)
-class CascadeMonteCarloResult:
-    """Monte Carlo of a cascade: per-section results and the overall gain.
-
-    Attributes
-    ----------
-    sections : tuple of MonteCarloResult
-    gain : ndarray
-        Product of the section gains per sample (signed).
-    nominal_gain : float
-    statistics : dict
-        "gain", "gain_db" → :class:`Statistics` of the overall gain.
-    yield_fraction : float or None
-        Fraction of samples where every section is inside its "f0" and "q"
-        windows and the *overall* gain inside the "gain_db" window.
-    passed : ndarray of bool or None
-    """
-
-    sections: tuple
-    gain: np.ndarray
-    nominal_gain: float
-    statistics: dict
-    windows: dict | None
-    yield_fraction: float | None
-    passed: np.ndarray | None
-
-    @property
-    def gain_db(self):
-        """20·log10|overall gain| per sample, dB."""
-        return _db(self.gain)
 
 
 # -- validation -------------------------------------------------------------
@@ -403,43 +257,20 @@ def _evaluate_block(nf, nominal, multipliers, index, ref, reject_hz):
     return join(0), join(1), join(2), join(3)
 
 
-def worker_ranges(total, workers, chunk):
-    """(start, stop) ranges of `total` samples for `workers` processes.
-
-    About four ranges per worker, each a whole number of `chunk`s and so
-    starting at a multiple of `chunk`: evaluated `chunk` at a time from its
-    start, every sample meets the same arithmetic as in one process.
-
-    Examples
-    --------
-    >>> worker_ranges(20, 1, 2)
-    [(0, 6), (6, 12), (12, 18), (18, 20)]
-    """
-    chunks = -(-total // chunk)
-    size = chunk * max(1, -(-chunks // (4 * workers)))
-    return [(start, min(start + size, total)) for start in range(0, total, size)]
-
-
-def check_workers(workers):
-    """A worker count: None means every core; else a whole number >= 1."""
-    if workers is None:
-        return os.cpu_count() or 1
-    if not (isinstance(workers, numbers.Integral) and not isinstance(workers, bool) and workers >= 1):
-        raise SpecError(f"workers must be a whole number >= 1, not {workers!r}")
-    return int(workers)
-
-
-def _blocks(total, workers, progress):
-    """Column ranges handed out at once: in-process everything, or CHUNK at a
-    time to report progress; with workers, :func:`worker_ranges`."""
+def _blocks(total: int, workers: int) -> list[tuple[int, int]]:
+    """Column ranges handed out at once: CHUNK at a time in-process (a Ctrl-C
+    stops between them, and progress is reported after each), or
+    :func:`worker_ranges` for worker processes."""
     if workers > 1:
         return worker_ranges(total, workers, CHUNK)
-    size = CHUNK if progress is not None else total
-    return [(start, min(start + size, total)) for start in range(0, total, size)]
+    return [(start, min(start + CHUNK, total)) for start in range(0, total, CHUNK)]
 
 
-def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform", seed=0,
-                windows=None, progress=None, allow_zero=False, reject_hz=None, workers=1):
+def monte_carlo(nf: NetworkFunction | PartFunction, values: Mapping[str, float],
+                tolerances: Mapping[str, float] | float, *, samples: int = 10_000,
+                distribution: str = "uniform", seed: Any = 0, windows: Mapping | None = None,
+                progress: Callable[[int, int], None] | None = None, allow_zero: bool = False,
+                reject_hz: float | None = None, workers: int | None = 1) -> MonteCarloResult:
     """Tolerance Monte Carlo of f0, Q and gain, vectorised over samples.
 
     Parameters
@@ -463,8 +294,11 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
         "rejection_db": 40 asks for at least 40 dB of rejection at
         `reject_hz`.
     progress : callable, optional
-        ``progress(done, total)``, called after each chunk of 2,000 samples.
-        Without it all samples are evaluated in one call.
+        ``progress(done, total)``, called after each chunk of 2,000 samples
+        (in-process) or each worker's range. Samples are evaluated in such
+        blocks either way, so a Ctrl-C stops between two of them; worker
+        processes are then ended at once
+        (:func:`placer.evidence.workers.worker_pool`).
     allow_zero : bool, optional
         Accept tolerances of exactly 0 (a check that samples equal nominal).
     reject_hz : float, optional
@@ -503,73 +337,92 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
     """
     _check_order(nf)
     nominal = _nominal_values(nf, values)
-    names = list(nf.symbols)
-    tolerances = _check_tolerances(tolerances, names, allow_zero)
+    checked: dict = _check_tolerances(tolerances, list(nf.symbols), allow_zero)
     samples = _check_samples(samples)
     if distribution not in DISTRIBUTIONS:
         raise SpecError(f"distribution must be one of {_choices(DISTRIBUTIONS)}, "
                         f"not {distribution!r}")
     reject_hz = _check_reject_hz(reject_hz)
-    windows = _check_windows(windows, nf.order, reject_hz)
+    shape: dict | None = _check_windows(windows, nf.order, reject_hz)
     workers = check_workers(workers)
-    rng = np.random.default_rng(seed)
+    workers = workers if samples >= PARALLEL_MIN_SAMPLES else 1
     ref = _reference(nf, nominal)
-
-    multipliers = _draw(rng, tolerances, samples, distribution)
+    multipliers = _draw(np.random.default_rng(seed), checked, samples, distribution)
     # Column 0 is the nominal itself, so nominal and samples share one code path.
-    multipliers = np.concatenate([np.ones((len(tolerances), 1)), multipliers], axis=1)
-    total = samples + 1
-    if samples < PARALLEL_MIN_SAMPLES:
-        workers = 1
-    omega0 = np.empty(total)
-    q = np.empty(total) if nf.order >= 2 else None
-    gain = np.empty(total)
-    rejection = np.empty(total) if reject_hz is not None else None
-    index = {name: i for i, name in enumerate(tolerances)}
-    blocks = _blocks(total, workers, progress)
+    multipliers = np.concatenate([np.ones((len(checked), 1)), multipliers], axis=1)
+    index = {name: i for i, name in enumerate(checked)}  # row of each toleranced part
+    figures = _evaluate_samples(nf, nominal, multipliers, index, ref, reject_hz, workers,
+                                progress)
+    return _result(nf, nominal, checked, distribution, shape, reject_hz, ref, figures)
 
-    def store(block, figures):
+
+class _Figures(NamedTuple):
+    """Per build (column 0 the nominal): ω0, Q (None, first order), gain, rejection."""
+
+    omega0: np.ndarray
+    q: np.ndarray | None
+    gain: np.ndarray
+    rejection: np.ndarray | None
+
+
+def _evaluate_samples(nf: NetworkFunction, nominal: dict, multipliers: np.ndarray,
+                      index: dict, ref: Any, reject_hz: float | None, workers: int,
+                      progress: Callable[[int, int], None] | None) -> _Figures:
+    """Figures of every column of `multipliers`, block by block (in-process or in workers).
+
+    `index` maps a toleranced part to its row of `multipliers`.
+    """
+    total = multipliers.shape[1]
+    samples = total - 1
+    figures = _Figures(np.empty(total), np.empty(total) if nf.order >= 2 else None,
+                       np.empty(total), np.empty(total) if reject_hz is not None else None)
+    blocks = _blocks(total, workers)
+
+    def store(block: tuple[int, int], found: tuple) -> None:
         start, stop = block
-        w, quality, k, rejected = figures
-        omega0[start:stop] = w
-        if q is not None:
-            q[start:stop] = quality
-        gain[start:stop] = k
-        if rejection is not None:
-            rejection[start:stop] = rejected
+        for array, values in zip(figures, found):
+            if array is not None:
+                array[start:stop] = values
         if progress is not None:
             progress(stop - 1, samples)
 
     if workers == 1 or len(blocks) == 1:
-        for block in blocks:
-            start, stop = block
-            store(block, _evaluate_block(nf, nominal, multipliers[:, start:stop], index, ref,
-                                         reject_hz))
+        for start, stop in blocks:
+            store((start, stop), _evaluate_block(nf, nominal, multipliers[:, start:stop], index,
+                                                 ref, reject_hz))
     else:
-        with ProcessPoolExecutor(max_workers=min(workers, len(blocks))) as pool:
-            futures = [pool.submit(_evaluate_block, nf, nominal, multipliers[:, start:stop],
-                                   index, ref, reject_hz) for start, stop in blocks]
-            for block, future in zip(blocks, futures):
-                store(block, future.result())
-    if not (np.all(np.isfinite(omega0)) and np.all(np.isfinite(gain))):
+        with worker_pool(min(workers, len(blocks))) as pool:
+            tasks = [pool.apply_async(_evaluate_block, (nf, nominal, multipliers[:, start:stop],
+                                                        index, ref, reject_hz))
+                     for start, stop in blocks]
+            for block, found in zip(blocks, results_in_order(tasks)):
+                store(block, found)
+    if not (np.all(np.isfinite(figures.omega0)) and np.all(np.isfinite(figures.gain))):
         warnings.warn("some Monte Carlo samples gave non-finite figures (NaN or inf)",
-                      NumericalWarning, stacklevel=2)
+                      NumericalWarning, stacklevel=3)
+    return figures
 
-    f0 = omega0 / (2 * math.pi)
+
+def _result(nf: NetworkFunction, nominal: dict, tolerances: dict, distribution: str,
+            windows: dict | None, reject_hz: float | None, ref: Any,
+            figures: _Figures) -> MonteCarloResult:
+    """Statistics, yield windows and variance shares of the evaluated builds."""
+    samples = figures.gain.size - 1
+    f0 = figures.omega0 / (2 * math.pi)
     nominal_f0, f0 = float(f0[0]), _readonly(f0[1:])
-    nominal_gain, gain = float(gain[0]), _readonly(gain[1:])
-    nominal_q = None
-    if q is not None:
-        nominal_q, q = float(q[0]), _readonly(q[1:])
+    nominal_gain, gain = float(figures.gain[0]), _readonly(figures.gain[1:])
+    nominal_q = q = None
+    if figures.q is not None:
+        nominal_q, q = float(figures.q[0]), _readonly(figures.q[1:])
     statistics = {"f0_hz": Statistics.of(f0), "gain": Statistics.of(gain),
                   "gain_db": Statistics.of(_db(gain))}
     if q is not None:
         statistics["q"] = Statistics.of(q)
-    nominal_rejection = None
-    if rejection is not None:
-        nominal_rejection, rejection = float(rejection[0]), _readonly(rejection[1:])
+    nominal_rejection = rejection = None
+    if figures.rejection is not None:
+        nominal_rejection = float(figures.rejection[0])
+        rejection = _readonly(figures.rejection[1:])
         statistics["rejection_db"] = Statistics.of(rejection)
-
     window_yield = yield_fraction = passed = None
     if windows is not None:
         masks = _window_masks(windows, f0, q, _db(gain), nominal_f0, nominal_q,
@@ -578,7 +431,6 @@ def monte_carlo(nf, values, tolerances, *, samples=10_000, distribution="uniform
         passed = _readonly(np.logical_and.reduce(list(masks.values())) if masks
                            else np.ones(samples, bool))
         yield_fraction = float(passed.mean())
-
     sens = sensitivities(nf, nominal)
     contributions, ranking = _contributions(sens, tolerances)
     return MonteCarloResult(

@@ -52,6 +52,7 @@ import difflib
 import itertools
 import math
 import numbers
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -62,12 +63,14 @@ from ..circuit.library import find_topologies
 from .tolerance import GridLoop, frequency_grid, grid_margins
 from ..analysis.network import NetworkFunction, network_function
 from .plants import Plant
+from ..circuit.elements import Circuit
 from ..circuit.topology import Topology
 from ..units import format_value
 from ..evidence.verify import Margins, margins
 
 __all__ = [
     "COMPENSATOR_FAMILIES", "MAX_BOOST_DEG", "MIN_BOOST_DEG", "LOW_GAIN_MARGIN_DB",
+    "RHP_ZERO_FRACTION", "DEFAULT_RANGES", "rhp_zero_hz", "rhp_zero_note",
     "KFactorPlacement", "LoopDesign", "check_compensator", "k_factor", "k_factor_placement",
     "design_compensator",
 ]
@@ -79,6 +82,13 @@ MAX_BOOST_DEG = {"type2": 70.0, "type3": 150.0}
 MIN_BOOST_DEG = 10.0
 #: Gain margins below this get a note (common practice, no source).
 LOW_GAIN_MARGIN_DB = 6.0
+#: The crossover should stay below this fraction of a right-half-plane zero
+#: (a boost's R(1−D)²/L): common practice, no source; a fifth is the usual
+#: rule, some designers keep to a tenth.
+RHP_ZERO_FRACTION = 1 / 5
+#: Default ranges of the parts, Ω and F: the defaults of a spec's ``[parts]``
+#: table (:class:`placer.spec.reader.PartsSpec`), which ``placer loop`` passes.
+DEFAULT_RANGES = {"resistor": (1e3, 1e6), "capacitor": (100e-12, 10e-6)}
 _ROLES = {"type2": ("R1", "R2", "C1", "C2"), "type3": ("R1", "R2", "R3", "C1", "C2", "C3")}
 _KINDS = {"R": "resistor", "C": "capacitor"}
 
@@ -268,16 +278,32 @@ class LoopDesign:
     continuous_margins: Margins
     snapped_margins: Margins
     notes: tuple = ()
-    network: NetworkFunction = field(default=None, repr=False, compare=False)
+    network: NetworkFunction | None = field(default=None, repr=False, compare=False)
 
     def loop_transfer_function(self, *, snapped=True):
         """L(s) as a python-control TransferFunction."""
         values = self.snapped if snapped else self.continuous
         return _loop_tf(self.network, self.sign, self.plant, values)
 
-    def circuit(self, *, snapped=True):
+    def circuit(self, *, snapped: bool = True) -> Circuit:
         """The compensator circuit with every part's value."""
         return self.topology.circuit.with_values(self.snapped if snapped else self.continuous)
+
+    def compensator_roots(self, *, snapped: bool = True) -> tuple[np.ndarray, np.ndarray]:
+        """Zeros and poles of the compensator H(s) with its parts, rad/s.
+
+        Roots of the network function's numerator and denominator (an
+        integrator is a pole at 0), each sorted by magnitude.
+        """
+        values = self.snapped if snapped else self.continuous
+        if self.network is None:
+            raise ValueError("this LoopDesign carries no network function")
+        roots = []
+        for coefficients in self.network.coefficients(values):
+            c = np.trim_zeros(np.ravel(coefficients), "f")
+            found = np.roots(c) if c.size > 1 else np.array([], complex)
+            roots.append(found[np.argsort(np.abs(found))])
+        return roots[0], roots[1]
 
 
 def _loop_tf(nf, sign, plant, values):
@@ -402,10 +428,12 @@ def _search(parts, options, fixed, target):
     return {**fixed, **{n: float(grid[index, i]) for i, n in enumerate(names)}}
 
 
-def design_compensator(plant, crossover_hz, phase_margin_deg, *, compensator="type2",
-                       resistor_series="E96", capacitor_series="E12",
-                       resistor_range=(1e3, 1e6), capacitor_range=(100e-12, 10e-6),
-                       r1=10e3, topologies=None):
+def design_compensator(plant: Plant, crossover_hz: float, phase_margin_deg: float, *,
+                       compensator: str | Topology = "type2", resistor_series: str = "E96",
+                       capacitor_series: str = "E12",
+                       resistor_range: tuple[float, float] = DEFAULT_RANGES["resistor"],
+                       capacitor_range: tuple[float, float] = DEFAULT_RANGES["capacitor"],
+                       r1: float = 10e3, topologies: Mapping | None = None) -> LoopDesign:
     """Design a Type II or III error amplifier for a plant.
 
     Parameters
@@ -421,7 +449,9 @@ def design_compensator(plant, crossover_hz, phase_margin_deg, *, compensator="ty
     resistor_series, capacitor_series : str
         IEC 60063 series of the parts, {"E3", ..., "E192"}.
     resistor_range, capacitor_range : (float, float)
-        Allowed values, Ω and F.
+        Allowed values, Ω and F (default :data:`DEFAULT_RANGES`, the
+        defaults of a spec's ``[parts]`` table; ``placer loop`` passes the
+        spec's own).
     r1 : float
         Input resistor (the impedance level), Ω. If a part falls outside its
         range at this level, the network is impedance-scaled (R·a, C/a,
@@ -443,8 +473,46 @@ def design_compensator(plant, crossover_hz, phase_margin_deg, *, compensator="ty
         For bad arguments (naming the argument and value).
     UnreachableTarget
         When the boost needed exceeds what the type gives, no impedance
-        level fits the ranges, or the continuous loop fails its own target.
+        level fits the ranges, or the continuous loop fails its own target;
+        with a right-half-plane zero in the plant and the crossover above
+        :data:`RHP_ZERO_FRACTION` of it, the message says so.
     """
+    setup = _setup(compensator, topologies, resistor_series, capacitor_series, resistor_range,
+                   capacitor_range, r1)
+    try:
+        placement = k_factor_placement(plant, crossover_hz, phase_margin_deg,
+                                       compensator=setup.family)
+        notes = _boost_notes(placement)
+        continuous, nf, sign, more = _continuous_design(plant, placement, setup)
+        notes += more
+        cont = _continuous_margins(nf, sign, plant, continuous, placement)
+    except UnreachableTarget as error:
+        raise _with_rhp_zero(error, plant, crossover_hz) from None
+    part_series = {s: setup.series[r[0]] for r, s in setup.roles.items()}
+    grid = GridLoop(nf, sign, plant, frequency_grid(placement.crossover))
+    snapped = _snap(grid, setup.roles, continuous, part_series, setup.ranges, placement)
+    after = margins(_loop_tf(nf, sign, plant, snapped))
+    notes += _snapped_notes(after, placement, plant)
+    return LoopDesign(plant, setup.topology, placement, setup.roles, continuous, snapped,
+                      part_series, sign, cont, after, tuple(notes), nf)
+
+
+@dataclass(frozen=True)
+class _Setup:
+    """The checked arguments of :func:`design_compensator`."""
+
+    topology: Topology
+    family: str
+    roles: dict
+    series: dict
+    ranges: dict
+    r1: float
+
+
+def _setup(compensator: str | Topology, topologies: Mapping | None, resistor_series: str,
+           capacitor_series: str, resistor_range: tuple[float, float],
+           capacitor_range: tuple[float, float], r1: float) -> _Setup:
+    """Check the arguments: topology and roles, series, ranges, R1 inside its range."""
     topology, family = _compensator_topology(compensator, topologies)
     roles = _roles_of(topology, family)
     series = {"R": check_series(resistor_series, field="resistor_series"),
@@ -455,14 +523,27 @@ def design_compensator(plant, crossover_hz, phase_margin_deg, *, compensator="ty
     if not ranges["resistor"][0] <= r1 <= ranges["resistor"][1]:
         raise SpecError(f"r1 = {format_value(r1, 'ohm')} lies outside resistor_range "
                         f"{_span(ranges['resistor'], 'ohm')}")
-    placement = k_factor_placement(plant, crossover_hz, phase_margin_deg, compensator=family)
-    notes = []
+    return _Setup(topology, family, roles, series, ranges, r1)
+
+
+def _boost_notes(placement: KFactorPlacement) -> list[str]:
+    """A note when the plant needs less boost than the minimum placed."""
     if placement.boost_deg > placement.required_boost_deg:
-        notes.append(f"the plant has phase to spare at the crossover (the K factor asks for "
-                     f"{placement.required_boost_deg:.1f}° of boost): the minimum "
-                     f"{MIN_BOOST_DEG:g}° is placed, so the phase margin comes out above target")
-    by_role, fit_notes = _fit_ranges(placement, r1, ranges, series["R"])
-    notes += fit_notes
+        return [f"the plant has phase to spare at the crossover (the K factor asks for "
+                f"{placement.required_boost_deg:.1f}° of boost): the minimum "
+                f"{MIN_BOOST_DEG:g}° is placed, so the phase margin comes out above target"]
+    return []
+
+
+def _continuous_design(plant: Plant, placement: KFactorPlacement,
+                       setup: _Setup) -> tuple[dict, NetworkFunction, float, list[str]]:
+    """Closed-form parts fitted into the ranges, the network, its sign, and notes.
+
+    With an ideal op-amp the network must respond as the placement's Gc.
+    """
+    by_role, fit_notes = _fit_ranges(placement, setup.r1, setup.ranges, setup.series["R"])
+    notes = list(fit_notes)
+    topology, roles, family = setup.topology, setup.roles, setup.family
     continuous = {**topology.values, **{roles[r]: v for r, v in by_role.items()}}
     nf = network_function(topology.circuit)
     sign = _sign_of(nf, continuous)
@@ -476,9 +557,15 @@ def design_compensator(plant, crossover_hz, phase_margin_deg, *, compensator="ty
     else:
         notes.append("the topology's op-amp is not ideal: the placement assumes an ideal one, "
                      "the margins include the op-amp model")
+    return continuous, nf, sign, notes
+
+
+def _continuous_margins(nf: NetworkFunction, sign: float, plant: Plant, continuous: dict,
+                        placement: KFactorPlacement) -> Margins:
+    """Margins of the continuous loop; UnreachableTarget when it misses its own target."""
     cont = margins(_loop_tf(nf, sign, plant, continuous))
-    pm = placement.phase_margin_deg
-    if not cont.stable or cont.phase_margin_deg is None or cont.phase_margin_deg < pm - 0.5:
+    if not cont.stable or cont.phase_margin_deg is None \
+            or cont.phase_margin_deg < placement.phase_margin_deg - 0.5:
         where = (f"crosses 0 dB at {format_value(cont.crossover_hz, 'Hz')} with "
                  f"{cont.phase_margin_deg:.1f}° of phase margin" if cont.crossover_hz else
                  "never crosses 0 dB")
@@ -487,23 +574,62 @@ def design_compensator(plant, crossover_hz, phase_margin_deg, *, compensator="ty
             f"loop {where}{'' if cont.stable else ' and is unstable'}: other 0 dB crossings "
             "(or an unstable plant) spoil the placement; choose another crossover"
         )
-    part_series = {s: series[r[0]] for r, s in roles.items()}
-    parts = GridLoop(nf, sign, plant, frequency_grid(placement.crossover))
-    snapped = _snap(parts, roles, continuous, part_series, ranges, placement)
-    after = margins(_loop_tf(nf, sign, plant, snapped))
+    return cont
+
+
+def _snapped_notes(after: Margins, placement: KFactorPlacement, plant: Plant) -> list[str]:
+    """Notes on the snapped loop: missed margin, instability, RHP zero, low gain margin."""
+    notes = []
+    pm = placement.phase_margin_deg
     if after.phase_margin_deg is None or after.phase_margin_deg < pm:
         best = "no crossover" if after.phase_margin_deg is None else \
             f"{after.phase_margin_deg:.1f}°"
         notes.append(f"no preferred-value set meets {pm:g}° of phase margin; the best gives {best}")
     if not after.stable:
         notes.append("the snapped loop is unstable")
-    rhp = [abs(z) for z in plant.zeros if z.real > 0]
-    if rhp and placement.crossover > min(rhp) / 5:
-        notes.append(f"the crossover is above a fifth of the right-half-plane zero at "
-                     f"{format_value(min(rhp) / (2 * math.pi), 'Hz')}, where common practice "
-                     "keeps it; expect little gain margin")
+    rhp = rhp_zero_note(plant, placement.crossover_hz)
+    if rhp:
+        notes.append(rhp + "; expect little gain margin")
     if after.gain_margin_db is not None and after.gain_margin_db < LOW_GAIN_MARGIN_DB:
         notes.append(f"the gain margin is only {after.gain_margin_db:.1f} dB "
                      f"(at {format_value(after.phase_crossover_hz, 'Hz')})")
-    return LoopDesign(plant, topology, placement, roles, continuous, snapped, part_series, sign,
-                      cont, after, tuple(notes), nf)
+    return notes
+
+
+def rhp_zero_hz(plant: Plant) -> float | None:
+    """The plant's lowest right-half-plane zero, Hz (None without one).
+
+    Examples
+    --------
+    >>> from placer.loops.plants import boost_plant
+    >>> plant = boost_plant(5.0, vout=10.0, inductance=10e-6, capacitance=100e-6,
+    ...                     esr=0.0, load=10.0, ramp=1.0)
+    >>> round(rhp_zero_hz(plant))          # 250 krad/s
+    39789
+    """
+    rhp = [abs(z) for z in plant.zeros if z.real > 0]
+    return min(rhp) / (2 * math.pi) if rhp else None
+
+
+def rhp_zero_note(plant: Plant, crossover_hz: float) -> str | None:
+    """Why a crossover above :data:`RHP_ZERO_FRACTION` of the RHP zero is unwise, or None."""
+    zero = rhp_zero_hz(plant)
+    words = f"1/{1 / RHP_ZERO_FRACTION:g}"
+    if zero is None or not crossover_hz > RHP_ZERO_FRACTION * zero:
+        return None
+    return (f"the crossover {format_value(crossover_hz, 'Hz', digits=4)} is above "
+            f"{format_value(RHP_ZERO_FRACTION * zero, 'Hz', digits=4)}, {words} of the "
+            f"right-half-plane zero at {format_value(zero, 'Hz', digits=4)} (common practice keeps "
+            f"the crossover below {words} of the RHP zero, whose phase lag grows toward it)")
+
+
+def _with_rhp_zero(error: UnreachableTarget, plant: Plant,
+                   crossover_hz: float) -> UnreachableTarget:
+    """The failure, with the RHP-zero limit added when the crossover passes it."""
+    note = rhp_zero_note(plant, crossover_hz) if isinstance(crossover_hz, (int, float)) else None
+    zero = rhp_zero_hz(plant)
+    if note is None or zero is None:
+        return error
+    return UnreachableTarget(f"{error.reason}; {note}: lower the crossover below "
+                             f"{format_value(RHP_ZERO_FRACTION * zero, 'Hz', digits=4)}",
+                             error.alternatives)

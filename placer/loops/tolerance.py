@@ -26,9 +26,9 @@ from __future__ import annotations
 
 import math
 import numbers
-from concurrent.futures import ProcessPoolExecutor
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
-from typing import NamedTuple
+from typing import Any, NamedTuple
 
 import numpy as np
 
@@ -36,14 +36,18 @@ from ..eseries import usual_tolerance
 from ..errors import SpecError
 from ..analysis.network import NetworkFunction, batched_roots, polynomial_values
 from .plants import Plant
-from ..evidence.tolerance import DISTRIBUTIONS, PARALLEL_MIN_SAMPLES, check_workers, worker_ranges
+from ..evidence.tolerance import DISTRIBUTIONS
+from ..evidence.workers import (PARALLEL_MIN_SAMPLES, check_workers, results_in_order,
+                                worker_pool, worker_ranges)
 
 __all__ = [
-    "GridLoop", "GridMargins", "LoopMonteCarlo", "frequency_grid", "grid_margins",
+    "BLOCK", "GridLoop", "GridMargins", "LoopMonteCarlo", "frequency_grid", "grid_margins",
     "loop_monte_carlo",
 ]
 
 _DECADES, _PER_DECADE, _CHUNK = 3, 200, 512
+#: Part sets per in-process block of :func:`grid_margins` (a whole number of chunks).
+BLOCK = 16 * _CHUNK
 
 
 def _wrap(degrees):
@@ -162,16 +166,20 @@ def _evaluate(grid_loop, values):
     return GridMargins(crossover, phase_margin, gain_margin, stable)
 
 
-def _evaluate_chunks(loop, arrays):
+def _evaluate_chunks(loop: GridLoop, arrays: Mapping[str, np.ndarray]) -> GridMargins:
     """GridMargins of consecutive part sets, _CHUNK at a time from the first."""
     count = len(next(iter(arrays.values())))
-    results = [_evaluate(loop, {k: v[i:i + _CHUNK] for k, v in arrays.items()})
-               for i in range(0, count, _CHUNK)]
+    return _join([_evaluate(loop, {k: v[i:i + _CHUNK] for k, v in arrays.items()})
+                  for i in range(0, count, _CHUNK)])
+
+
+def _join(results: Sequence[GridMargins]) -> GridMargins:
     return GridMargins(*(np.concatenate([getattr(r, f) for r in results])
                          for f in ("crossover", "phase_margin", "gain_margin_db", "stable")))
 
 
-def grid_margins(loop, arrays, *, workers=1):
+def grid_margins(loop: GridLoop, arrays: Mapping[str, np.ndarray], *, workers: int | None = 1,
+                 progress: Callable[[int, int], None] | None = None) -> GridMargins:
     """Crossover, margins and stability of `loop` for many part sets at once.
 
     Parameters
@@ -180,6 +188,11 @@ def grid_margins(loop, arrays, *, workers=1):
     arrays : mapping of str to ndarray
         Every part symbol of ``loop.network`` → its values (SI), one per
         part set, all of one length.
+    workers : int or None, optional
+        Worker processes (None: every core), used from
+        :data:`placer.evidence.workers.PARALLEL_MIN_SAMPLES` sets up.
+    progress : callable, optional
+        ``progress(done, total)`` after each block of sets.
 
     Returns
     -------
@@ -189,20 +202,33 @@ def grid_margins(loop, arrays, *, workers=1):
         :func:`placer.evidence.verify.margins` (smallest PM, GM nearest 0 dB); NaN
         where the grid holds no crossing; stable when every closed-loop
         pole lies in the left half-plane. Evaluated in chunks of 512 sets,
-        in `workers` processes (None: every core) from
-        :data:`placer.evidence.tolerance.PARALLEL_MIN_SAMPLES` sets up; the chunks
-        are the same either way, and so are the results.
+        in blocks of :data:`BLOCK` sets in-process (a Ctrl-C stops between
+        blocks) or in worker processes (ended at once on a Ctrl-C, see
+        :func:`placer.evidence.workers.worker_pool`); the chunks are the
+        same either way, and so are the results.
     """
     count = len(next(iter(arrays.values())))
     workers = check_workers(workers)
-    if workers == 1 or count < PARALLEL_MIN_SAMPLES:
-        return _evaluate_chunks(loop, arrays)
-    ranges = worker_ranges(count, workers, _CHUNK)
-    with ProcessPoolExecutor(max_workers=workers) as pool:
-        parts = list(pool.map(_evaluate_chunks, [loop] * len(ranges),
-                              [{k: v[a:b] for k, v in arrays.items()} for a, b in ranges]))
-    return GridMargins(*(np.concatenate([getattr(r, f) for r in parts])
-                         for f in ("crossover", "phase_margin", "gain_margin_db", "stable")))
+    parallel = workers > 1 and count >= PARALLEL_MIN_SAMPLES
+    ranges = (worker_ranges(count, workers, _CHUNK) if parallel
+              else [(a, min(a + BLOCK, count)) for a in range(0, count, BLOCK)])
+    if progress is not None:
+        progress(0, count)
+    pieces = [{k: v[a:b] for k, v in arrays.items()} for a, b in ranges]
+    results = []
+    if not parallel:
+        for (_, stop), piece in zip(ranges, pieces):
+            results.append(_evaluate_chunks(loop, piece))
+            if progress is not None:
+                progress(stop, count)
+        return _join(results)
+    with worker_pool(min(workers, len(ranges))) as pool:
+        tasks = [pool.apply_async(_evaluate_chunks, (loop, piece)) for piece in pieces]
+        for (_, stop), result in zip(ranges, results_in_order(tasks)):
+            results.append(result)
+            if progress is not None:
+                progress(stop, count)
+    return _join(results)
 
 
 # -- Monte Carlo ---------------------------------------------------------------
@@ -253,8 +279,10 @@ class LoopMonteCarlo:
         }
 
 
-def loop_monte_carlo(design, tolerances=None, *, samples=1000, seed=0, distribution="uniform",
-                     margin_floor_deg=None, workers=1):
+def loop_monte_carlo(design: Any, tolerances: Mapping | float | None = None, *,
+                     samples: int = 1000, seed: int = 0, distribution: str = "uniform",
+                     margin_floor_deg: float | None = None, workers: int | None = 1,
+                     progress: Callable[[int, int], None] | None = None) -> LoopMonteCarlo:
     """Tolerance Monte Carlo of a designed loop, vectorised over samples.
 
     Parameters
@@ -272,8 +300,10 @@ def loop_monte_carlo(design, tolerances=None, *, samples=1000, seed=0, distribut
         the target minus 10°.
     workers : int or None, optional
         Worker processes (None: every core), used from
-        :data:`placer.evidence.tolerance.PARALLEL_MIN_SAMPLES` samples up; the
+        :data:`placer.evidence.workers.PARALLEL_MIN_SAMPLES` samples up; the
         result does not depend on it.
+    progress : callable, optional
+        ``progress(done, samples)`` after each block of builds.
 
     Returns
     -------
@@ -305,7 +335,7 @@ def loop_monte_carlo(design, tolerances=None, *, samples=1000, seed=0, distribut
         arrays[symbol] = design.snapped[symbol] * factor
     loop = GridLoop(design.network, design.sign, design.plant,
                     frequency_grid(design.placement.crossover))
-    margins = grid_margins(loop, arrays, workers=workers)
+    margins = grid_margins(loop, arrays, workers=workers, progress=progress)
     floor = (design.placement.phase_margin_deg - 10.0 if margin_floor_deg is None
              else float(margin_floor_deg))
     return LoopMonteCarlo(int(samples), seed, distribution, chosen, floor,

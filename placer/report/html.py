@@ -35,6 +35,7 @@ if TYPE_CHECKING:
     from ..design import Design
     from ..evidence.gather import Evidence, MaskVerdict
     from ..evidence.prelayout import Prelayout
+    from ..loops.compensator import LoopDesign
     from ..spec.loop_table import LoopResult
     from ..target.mask import Mask
     from .page import ReportFiles
@@ -407,6 +408,38 @@ def loop_frequency_response(transfer_function: Any, crossover_hz: float, *,
     return np.ravel(response.omega) / (2 * math.pi), magnitude_db, phase_deg
 
 
+def loop_components(design: LoopDesign, crossover_hz: float, *,
+                    also_hz: Iterable[float | None] = ()) -> dict[str, tuple[np.ndarray, np.ndarray]]:
+    """The plant G and the compensator Gc = sign·H (snapped parts) on the loop's grid.
+
+    ``{"plant G": (dB, degrees), "compensator Gc": (dB, degrees)}``, on the
+    grid of :func:`loop_frequency_response` with the same arguments.
+    """
+    network = design.network
+    assert network is not None, "a designed loop carries its compensator's network function"
+    compensator = design.sign * network.transfer_function(design.snapped)
+    out: dict[str, tuple[np.ndarray, np.ndarray]] = {}
+    for label, tf in (("plant G", design.plant.transfer_function()),
+                      ("compensator Gc", compensator)):
+        _, magnitude, phase = loop_frequency_response(tf, crossover_hz, also_hz=also_hz)
+        out[label] = (magnitude, phase)
+    return out
+
+
+def root_table(data: dict[str, Any]) -> str:
+    """The compensator's zeros and poles as built, and a plant's RHP zero, in Hz."""
+    comp = data["compensator"]
+    rows = [["compensator zero", fmt_hz(f)] for f in comp.get("zeros_hz", [])]
+    rows += [["compensator pole", "0 Hz (integrator)" if f == 0 else fmt_hz(f)]
+             for f in comp.get("poles_hz", [])]
+    plant = data["plant"]
+    if plant.get("rhp_zero_hz"):
+        rows.append(["plant right-half-plane zero", fmt_hz(plant["rhp_zero_hz"])])
+        rows.append([f"crossover limit (1/{1 / plant['rhp_zero_fraction']:g} of the RHP zero, "
+                     "common practice)", fmt_hz(plant["rhp_zero_limit_hz"])])
+    return table(["root (preferred-value parts)", "frequency"], rows)
+
+
 def _degrees(x: float) -> str:
     return f"{x:.2f}°"
 
@@ -481,16 +514,19 @@ def write_loop_report(result: LoopResult, data: dict[str, Any], *, html_path: Pa
                                       "with its preferred values.", "compensator-",
                                       resistor_style=resistor_style))
     fc = data.get("crossover_hz") or data["target"]["crossover_hz"]
+    also = (data.get("phase_crossover_hz"),)
     frequency, magnitude, phase = loop_frequency_response(
-        result.design.loop_transfer_function(snapped=True), fc,
-        also_hz=(data.get("phase_crossover_hz"),))
+        result.design.loop_transfer_function(snapped=True), fc, also_hz=also)
     parts += ["<h2>Loop gain and margins</h2>", plots.block("loop-gain", loop_bode_figure(
         frequency, magnitude, phase, crossover_hz=data.get("crossover_hz"),
         phase_margin_deg=data.get("phase_margin_deg"), gain_margin_db=data.get("gain_margin_db"),
-        phase_crossover_hz=data.get("phase_crossover_hz")),
-        "Loop gain L = compensator × plant with preferred-value parts: magnitude (dB) and "
-        "phase (degrees) against frequency (Hz), the phase margin at the 0 dB crossover and the "
-        "gain margin at the −180° crossing marked."),
+        phase_crossover_hz=data.get("phase_crossover_hz"),
+        components=loop_components(result.design, fc, also_hz=also)),
+        "Loop gain L = compensator Gc × plant G with preferred-value parts (solid), and the "
+        "plant and the compensator alone (dashed): magnitude (dB) and phase (degrees) against "
+        "frequency (Hz), the phase margin at the 0 dB crossover and the gain margin at the "
+        "−180° crossing marked."),
+        root_table(data),
         table(["loop", "crossover", "phase margin", "gain margin", "phase crossover",
                 "closed loop stable"],
                [["target", fmt_hz(data["target"]["crossover_hz"]),

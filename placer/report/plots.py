@@ -549,10 +549,18 @@ def _at(frequency: np.ndarray, values: np.ndarray, where: float) -> float:
     return float(np.interp(math.log(where), np.log(frequency), values))
 
 
+def _component_phase(frequency: np.ndarray, phase: np.ndarray, at_hz: float | None) -> np.ndarray:
+    """A plant's or compensator's phase on the branch where it reads (−270°, 90°] at `at_hz`."""
+    if at_hz is None or not phase.size:
+        return phase
+    return phase - 360.0 * math.floor((_at(frequency, phase, at_hz) + 270.0) / 360.0)
+
+
 def loop_bode_figure(frequency_hz: ArrayLike, magnitude_db: ArrayLike, phase_deg: ArrayLike, *,
                      crossover_hz: float | None, phase_margin_deg: float | None,
                      gain_margin_db: float | None, phase_crossover_hz: float | None,
-                     title: str | None = None) -> Figure:
+                     title: str | None = None,
+                     components: Mapping[str, tuple[Any, Any]] | None = None) -> Figure:
     """Loop gain with its margins marked.
 
     Parameters
@@ -568,6 +576,11 @@ def loop_bode_figure(frequency_hz: ArrayLike, magnitude_db: ArrayLike, phase_deg
         Gain margin at the phase crossover (phase −180°); None when the
         phase never reaches −180°.
     title : str, optional
+    components : mapping of str to (magnitude_db, phase_deg), optional
+        The loop's factors on the same grid, e.g. ``{"plant G": ...,
+        "compensator Gc": ...}``: drawn thinner and dashed beside |L| and
+        ∠L, each phase on the branch where it reads (−270°, 90°] at the
+        crossover, with a legend.
 
     Returns
     -------
@@ -589,8 +602,18 @@ def loop_bode_figure(frequency_hz: ArrayLike, magnitude_db: ArrayLike, phase_deg
     phase = phase + shift
     fig = _new_figure(7.5, 6.0)
     magnitude_ax, phase_ax = fig.subplots(2, 1, sharex=True)
-    magnitude_ax.semilogx(frequency, magnitude, color="C0", linewidth=1.5, label="|L|")
-    phase_ax.semilogx(frequency, phase, color="C0", linewidth=1.5, label="∠L")
+    magnitude_ax.semilogx(frequency, magnitude, color="C0", linewidth=1.5, label="loop gain L")
+    phase_ax.semilogx(frequency, phase, color="C0", linewidth=1.5, label="loop gain L")
+    drawn = []
+    for (label, (comp_db, comp_deg)), colour in zip((components or {}).items(), ("C2", "C1", "C5")):
+        comp_db = np.asarray(comp_db, float)
+        comp_deg = _component_phase(frequency, np.asarray(comp_deg, float),
+                                    crossover_hz or phase_crossover_hz)
+        magnitude_ax.semilogx(frequency, comp_db, color=colour, linewidth=1.0, linestyle="--",
+                              label=label)
+        phase_ax.semilogx(frequency, comp_deg, color=colour, linewidth=1.0, linestyle="--",
+                          label=label)
+        drawn.append((comp_db, comp_deg))
     magnitude_ax.axhline(0.0, color="0.3", linewidth=0.9, linestyle="--")
     phase_ax.axhline(-180.0, color="0.3", linewidth=0.9, linestyle="--")
     arrow = dict(arrowstyle="<->", color="C3", linewidth=1.5)
@@ -624,23 +647,27 @@ def loop_bode_figure(frequency_hz: ArrayLike, magnitude_db: ArrayLike, phase_deg
         magnitude_ax.text(0.01, 0.03, "\n".join(notes), transform=magnitude_ax.transAxes,
                           fontsize=8, color="0.25", va="bottom",
                           bbox=dict(facecolor="white", edgecolor="0.8", alpha=0.9))
-    limits = _magnitude_limits([magnitude, np.array([0.0])])
+    limits = _magnitude_limits([magnitude, np.array([0.0])] + [d for d, _ in drawn])
     if limits:
         magnitude_ax.set_ylim(*limits)
-    finite = phase[np.isfinite(phase)]
+    if drawn:
+        magnitude_ax.legend(loc="upper right", fontsize=8)
+    finite = np.concatenate([phase] + [p for _, p in drawn])
+    finite = finite[np.isfinite(finite)]
     if finite.size:
         low, high = min(finite.min(), -180.0), max(finite.max(), -180.0)
         phase_ax.set_ylim(low - 15.0, high + 15.0)
         phase_ax.yaxis.set_major_locator(MultipleLocator(90 if high - low > 270 else 45))
-    magnitude_ax.set_ylabel("loop gain |L| (dB)")
-    phase_ax.set_ylabel("loop phase ∠L (degrees)")
+    magnitude_ax.set_ylabel("magnitude (dB)" if drawn else "loop gain |L| (dB)")
+    phase_ax.set_ylabel("phase (degrees)" if drawn else "loop phase ∠L (degrees)")
     phase_ax.set_xlabel("frequency (Hz)")
     for ax in (magnitude_ax, phase_ax):
         ax.grid(True, which="major", color="0.85")
         ax.grid(True, which="minor", color="0.94")
     if frequency.size:
         magnitude_ax.set_xlim(frequency.min(), frequency.max())
-    magnitude_ax.set_title(title or "Loop gain L(s) with its margins")
+    magnitude_ax.set_title(title or ("Loop gain L = Gc·G, plant G and compensator Gc, with the "
+                                     "margins" if drawn else "Loop gain L(s) with its margins"))
     return fig
 
 

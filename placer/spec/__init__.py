@@ -20,6 +20,7 @@ if TYPE_CHECKING:
     from .reader import (
         Spec,
         PartsSpec,
+        parts_from_table,
         ToleranceSpec,
         AmplifierSpec,
         AMPLIFIER_PRESETS,
@@ -47,6 +48,7 @@ _EXPORTS = {
     "loop_to_dict": "loop_table",
     "Spec": "reader",
     "PartsSpec": "reader",
+    "parts_from_table": "reader",
     "ToleranceSpec": "reader",
     "AmplifierSpec": "reader",
     "AMPLIFIER_PRESETS": "reader",

@@ -10,14 +10,15 @@ writes.
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
 from ..circuit.elements import check_part_value
 from ..eseries import check_series
 from ..errors import SpecError, brief
-from ..loops.compensator import LoopDesign, check_compensator, design_compensator
+from ..loops.compensator import (DEFAULT_RANGES, RHP_ZERO_FRACTION, LoopDesign,
+                                 check_compensator, design_compensator, rhp_zero_hz)
 from ..loops.tolerance import LoopMonteCarlo, loop_monte_carlo
 from ..loops.plants import Plant, plant_from_table
 from ..schema import check_limit, check_table
@@ -29,11 +30,6 @@ if TYPE_CHECKING:
     from .reader import PartsSpec
 
 __all__ = ["LoopSpec", "LoopResult", "loop_from_table", "run_loop", "loop_to_dict"]
-
-#: Series and ranges of a loop's parts when neither [loop] nor [parts] names them.
-_DEFAULT_SERIES = {"resistor": "E96", "capacitor": "E12"}
-_DEFAULT_RANGES = {"resistor": (1e3, 1e6), "capacitor": (100e-12, 10e-6)}
-
 
 @dataclass(frozen=True)
 class LoopSpec:
@@ -47,8 +43,8 @@ class LoopSpec:
     r1: float = 10e3
     resistor_series: str = "E96"
     capacitor_series: str = "E12"
-    resistor_range: tuple[float, float] = _DEFAULT_RANGES["resistor"]
-    capacitor_range: tuple[float, float] = _DEFAULT_RANGES["capacitor"]
+    resistor_range: tuple[float, float] = DEFAULT_RANGES["resistor"]
+    capacitor_range: tuple[float, float] = DEFAULT_RANGES["capacitor"]
 
 
 @dataclass(frozen=True)
@@ -74,24 +70,37 @@ class LoopResult:
         return loop_figure(self, **options)
 
 
-def _series_and_ranges(loop: Mapping[str, Any], parts: PartsSpec | None,
-                       where: str) -> dict[str, Any]:
+def _parts_of(table: Mapping[str, Any], parts: PartsSpec | None, source: str) -> PartsSpec:
+    """The spec's ``[parts]``: as given, else read from the file's own table.
+
+    Read by :func:`placer.spec.reader.parts_from_table`, the reader of a
+    design's ``[parts]``, so a loop and a design share defaults and checks.
+    """
+    if parts is not None:
+        return parts
+    from .reader import parts_from_table  # the reader imports this module
+
+    raw = table.get("parts", {}) if "loop" in table else {}
+    if not isinstance(raw, Mapping):
+        raise SpecError(f"{source}: parts must be a table, not {brief(raw)}")
+    return parts_from_table(dict(raw), source=source)
+
+
+def _series_and_ranges(loop: Mapping[str, Any], parts: PartsSpec, where: str) -> dict[str, Any]:
     """The parts' series ([loop] or [parts], not both at odds) and [parts] ranges."""
-    given = parts.given if parts is not None else frozenset()
     out: dict[str, Any] = {}
     for kind in ("resistor", "capacitor"):
         key = f"{kind}_series"
-        from_parts = parts.series[kind] if parts is not None and key in given else None
+        from_parts = parts.series[kind] if key in parts.given else None
         if key in loop:
             series = check_series(loop[key], field=f"{where}.{key}")
             if from_parts is not None and from_parts != series:
                 raise SpecError(f"{where}.{key} = {brief(loop[key])} differs from [parts] "
                                 f"{key} = {from_parts!r}; give the series in one place")
         else:
-            series = from_parts or _DEFAULT_SERIES[kind]
+            series = parts.series[kind]
         out[key] = series
-        ranges = parts.ranges if parts is not None else _DEFAULT_RANGES
-        out[f"{kind}_range"] = tuple(ranges.get(kind, _DEFAULT_RANGES[kind]))
+        out[f"{kind}_range"] = tuple(parts.ranges[kind])
     return out
 
 
@@ -113,7 +122,8 @@ def loop_from_table(table: Mapping[str, Any], *, source: str = "spec",
     parts : placer.spec.reader.PartsSpec, optional
         The spec's ``[parts]``: its ranges bound the loop's resistors and
         capacitors, and its series apply unless ``[loop]`` names them (the
-        two may not differ).
+        two may not differ). Default: the file's own ``[parts]`` table
+        (when `table` is the whole file), read as a design reads it.
 
     Raises
     ------
@@ -160,7 +170,7 @@ def loop_from_table(table: Mapping[str, Any], *, source: str = "spec",
     if floor is not None:
         floor = check_limit(parse_value(floor, unit="deg", field=f"{where}.margin_floor"),
                             "margin_deg", f"{where}.margin_floor", shown=floor)
-    chosen = _series_and_ranges(loop, parts, where)
+    chosen = _series_and_ranges(loop, _parts_of(table, parts, source), where)
     if "r1" in loop:
         r1 = parse_value(loop["r1"], unit="ohm", field=f"{where}.r1")
         check_part_value("resistor", r1, f"{where}.r1")
@@ -174,7 +184,8 @@ def loop_from_table(table: Mapping[str, Any], *, source: str = "spec",
 def run_loop(spec_table: Mapping[str, Any], *, source: str = "spec", samples: int = 1000,
              seed: int = 0, tolerances: Mapping[str, float] | float | None = None,
              distribution: str = "uniform", topologies: Mapping[str, Topology] | None = None,
-             workers: int | None = 1, parts: PartsSpec | None = None) -> LoopResult:
+             workers: int | None = 1, parts: PartsSpec | None = None,
+             progress: Callable[[int, int], None] | None = None) -> LoopResult:
     """Read a ``[loop]`` spec, design the compensator, run the Monte Carlo.
 
     Parameters
@@ -193,6 +204,8 @@ def run_loop(spec_table: Mapping[str, Any], *, source: str = "spec", samples: in
         Worker processes of the Monte Carlo (see :func:`loop_monte_carlo`).
     parts : placer.spec.reader.PartsSpec, optional
         The spec's ``[parts]`` (series and ranges), as for :func:`loop_from_table`.
+    progress : callable, optional
+        ``progress(done, total)`` after each block of Monte Carlo builds.
 
     Returns
     -------
@@ -206,8 +219,17 @@ def run_loop(spec_table: Mapping[str, Any], *, source: str = "spec", samples: in
         r1=spec.r1, topologies=topologies)
     monte_carlo = (loop_monte_carlo(design, tolerances, samples=samples, seed=seed,
                                     distribution=distribution, margin_floor_deg=spec.margin_floor_deg,
-                                    workers=workers) if samples else None)
+                                    workers=workers, progress=progress) if samples else None)
     return LoopResult(spec, design, monte_carlo)
+
+
+def _rhp_dict(plant: Plant) -> dict[str, Any]:
+    """A plant's lowest right-half-plane zero (Hz) and the crossover limit it sets."""
+    zero = rhp_zero_hz(plant)
+    if zero is None:
+        return {}
+    return {"rhp_zero_hz": zero, "rhp_zero_fraction": RHP_ZERO_FRACTION,
+            "rhp_zero_limit_hz": RHP_ZERO_FRACTION * zero}
 
 
 def _margins_dict(m: Margins) -> dict[str, Any]:
@@ -220,6 +242,7 @@ def loop_to_dict(result: LoopResult) -> dict[str, Any]:
     """A LoopResult as JSON-ready data (SI units, Hz, degrees, dB, rad/s roots)."""
     design = result.design
     placement = design.placement
+    zeros, poles = design.compensator_roots(snapped=True)
     parts = [{"name": e.name, "kind": e.kind, "value": design.snapped[e.symbol],
               "series": design.series[e.symbol], "continuous": design.continuous[e.symbol]}
              for e in design.topology.circuit.elements if e.symbol in design.series]
@@ -228,7 +251,7 @@ def loop_to_dict(result: LoopResult) -> dict[str, Any]:
         "target": {"crossover_hz": placement.crossover_hz,
                    "phase_margin_deg": placement.phase_margin_deg},
         "continuous": _margins_dict(design.continuous_margins),
-        "plant": design.plant.to_dict(),
+        "plant": {**design.plant.to_dict(), **_rhp_dict(design.plant)},
         "k_factor": {"k": placement.k, "boost_deg": placement.boost_deg,
                      "required_boost_deg": placement.required_boost_deg,
                      "plant_phase_deg": placement.plant_phase_deg,
@@ -236,6 +259,8 @@ def loop_to_dict(result: LoopResult) -> dict[str, Any]:
                      "zero_hz": placement.zero_hz, "pole_hz": placement.pole_hz,
                      "integrator_rad_s": placement.integrator},
         "compensator": {"family": placement.family, "topology": design.topology.id,
+                        "zeros_hz": [float(abs(z)) / (2 * math.pi) for z in zeros],
+                        "poles_hz": [float(abs(p)) / (2 * math.pi) for p in poles],
                         "circuit": design.circuit().to_dict()},
         "parts": parts,
         "monte_carlo": result.monte_carlo.summary() if result.monte_carlo else None,

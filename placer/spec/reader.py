@@ -71,6 +71,7 @@ if TYPE_CHECKING:
 __all__ = [
     "Spec",
     "PartsSpec",
+    "parts_from_table",
     "ToleranceSpec",
     "AmplifierSpec",
     "AMPLIFIER_PRESETS",
@@ -243,6 +244,11 @@ def _parts(table: dict, source: str) -> PartsSpec:
     )
     return PartsSpec(series=series, ranges=ranges, fixed=fixed, constraints=constraints,
                      given=frozenset(table))
+
+
+def parts_from_table(table: dict, *, source: str = "spec") -> PartsSpec:
+    """The ``[parts]`` table read and checked; defaults for the keys it leaves out."""
+    return _parts(table, source)
 
 
 def _folder(folder: str, source: str) -> str:
