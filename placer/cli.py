@@ -416,7 +416,7 @@ def _cmd_design(args):
                               resistor_style=args.resistor_style, inputs=inputs)
     print()
     print("Caution: these values are a starting point; confirm the design by simulation and on the "
-          "bench. Equipment connected to mains, or used where a failure can hurt someone, must follow "
+          "bench.\nEquipment connected to mains, or used where a failure can hurt someone, must follow\n"
           "its applicable safety standards and licensed practice.")
     return 0
 
@@ -508,8 +508,8 @@ def _cmd_loop(args):
         write_schematic_files({"compensator": compensator_schematic(result.design)},
                               args.schematic, resistor_style=args.resistor_style, inputs=inputs)
     print()
-    print("Caution: power converters and anything connected to mains can hurt people. These values "
-          "are a starting point: confirm the loop by simulation and on the bench, and follow the "
+    print("Caution: power converters and anything connected to mains can hurt people.\nThese values "
+          "are a starting point: confirm the loop by simulation and on the bench,\nand follow the "
           "applicable safety standards and licensed practice.")
     return 0
 
