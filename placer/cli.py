@@ -91,10 +91,11 @@ def build_parser():
     p.add_argument("--workers", type=int, help="worker processes (default: all cores)")
     p.add_argument("--gbw", choices=("built", "rule", "model"), default="built",
                    help="op-amp GBW each candidate needs: the finite-GBW model on the snapped "
-                        "design as built (default), the 100·f0·Q rule of thumb, or the model "
+                        "design as built (default), the 100·f0·Q common practice, or the model "
                         "plus the GBW a design re-solved for the op-amp needs (slower)")
     p.add_argument("--seed", type=int, help="random seed")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.add_argument("--wide", action="store_true", help="one line per candidate, past 100 columns")
 
     p = sub.add_parser("loop", help="design a loop compensator and check its margins")
     p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
@@ -189,7 +190,7 @@ def _cmd_analyze(args):
     from .circuit.library import load_analysable
     from .analysis.network import network_function
     from .analysis.pencil import circuit_poles, circuit_zeros
-    from .report.console import table
+    from .report.console import table, wrap_text
 
     loaded = load_analysable(args.topology)
     topology, circuit = loaded.topology, loaded.circuit
@@ -204,7 +205,9 @@ def _cmd_analyze(args):
     except SymbolicSizeError as error:
         return _analyze_numerically(args, circuit, values, label, error)
     lines = [f"H(s) of {label}" + (f" — {topology.title}" if topology is not None else "") + ":"]
-    numerator_text, denominator_text = str(nf.numerator.as_expr()), str(nf.denominator.as_expr())
+    from .report.polynomial import polynomial_text
+
+    numerator_text, denominator_text = polynomial_text(nf.numerator), polynomial_text(nf.denominator)
     lines.append(f"  N(s) = {numerator_text}")
     lines.append(f"  D(s) = {denominator_text}")
     lines.append(f"  order {nf.order}")
@@ -267,7 +270,7 @@ def _cmd_analyze(args):
         _emit_json(data, args.json, inputs=(args.topology,))
         if args.json == "-":
             return 0
-    print("\n".join(lines))
+    print(wrap_text("\n".join(lines)))
     return 0
 
 
@@ -444,7 +447,7 @@ def _cmd_compare(args):
                              workers=args.workers, seed=args.seed, progress=progress, gbw=args.gbw)
     finally:
         progress.close()
-    print(comparison_text(comparison))
+    print(comparison_text(comparison, wide=args.wide))
     if args.json:
         _emit_json(comparison_to_dict(comparison), args.json, inputs=inputs)
     if args.report or args.plots:
@@ -463,7 +466,7 @@ def _cmd_compare(args):
 # -- loop ----------------------------------------------------------------------
 
 def _cmd_loop(args):
-    from .report.console import Progress
+    from .report.console import Progress, wrap_text
     from .spec.loop_table import loop_to_dict, run_loop
     from .spec.reader import load_spec
 
@@ -494,7 +497,7 @@ def _cmd_loop(args):
         progress.close()
     data = loop_to_dict(result)
     loops = _compensator_loops(result, spec, data)
-    print(_loop_text(data))
+    print(wrap_text(_loop_text(data)))
     if args.json:
         _emit_json(data, args.json, inputs=inputs)
     if args.report or args.plots:
@@ -607,7 +610,8 @@ def _solved_for(topology):
 def _cmd_topologies(args):
     from .circuit.library import library_topologies, load_folder, resolve_topology
     from .analysis.network import network_function
-    from .report.console import table
+    from .report.console import WIDTH, table, wrap_text
+    from .report.polynomial import polynomial_text
 
     pool = dict(library_topologies())
     errors = {}
@@ -635,7 +639,7 @@ def _cmd_topologies(args):
             "parts": list(topology.symbols), "free": list(topology.free),
             "opamps": topology.opamp_count, "constraints": [str(c) for c in topology.constraints],
             "ranges": {k: list(v) for k, v in topology.ranges.items()},
-            "numerator": str(nf.numerator.as_expr()), "denominator": str(nf.denominator.as_expr()),
+            "numerator": polynomial_text(nf.numerator), "denominator": polynomial_text(nf.denominator),
             "formula": topology.formula, "description": topology.description,
             "circuit": topology.circuit.to_dict(),
         }
@@ -666,7 +670,7 @@ def _cmd_topologies(args):
             lines.append(f"  gain = {data['gain']}")
         if topology.formula:
             lines.append(f"  published: {topology.formula}")
-        print("\n".join(lines))
+        print(wrap_text("\n".join(lines)))
         return 0
     rows = []
     listing = []
@@ -683,7 +687,7 @@ def _cmd_topologies(args):
         _emit_json(listing, args.json)
         if args.json == "-":
             return 0
-    print(table(["id", "title", "response", "order", "parts", "op-amps"], rows))
+    print(table(["id", "title", "response", "order", "parts", "op-amps"], rows, width=WIDTH, wrap=1))
     for path, message in errors.items():
         print(f"  could not load {path}: {message}")
     return 0
