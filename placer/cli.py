@@ -404,7 +404,8 @@ def _cmd_design(args):
         _emit_json(data, args.json, inputs=inputs)
     if args.bom:
         opamps = [(e.name, "op-amp") for e in result.circuit.elements if e.kind == "opamp"]
-        rows = bom_rows(result.parts, tolerances=spec.tolerance.tolerances, opamps=opamps)
+        rows = bom_rows(result.parts, tolerances=spec.tolerance.tolerances, opamps=opamps,
+                        amplifier=spec.amplifier)
         write_text(args.bom, bom_csv(rows), inputs=inputs, option="--bom")
     if args.report or args.plots:
         from .report.html import write_design_report
