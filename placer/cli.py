@@ -558,7 +558,7 @@ def _loop_text(data):
     lines.append(f"  K factor {k['k']:.3g}, boost {k['boost_deg']:.1f}° (plant phase at crossover "
                  f"{k['plant_phase_deg']:.1f}°, plant gain {k['plant_gain_db']:.2f} dB)")
     lines.append(table(["loop", "crossover", "phase margin", "gain margin", "phase crossover"],
-                       [margin_row("continuous", data["continuous"]), margin_row("snapped", data)]))
+                       [margin_row("continuous", data["continuous"]), margin_row("preferred values", data)]))
     unit = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
     rows = [[p["name"], p["kind"], format_value(p["value"], unit.get(p["kind"], "")), p["series"],
              format_value(p["continuous"], unit.get(p["kind"], ""), digits=4)] for p in data["parts"]]

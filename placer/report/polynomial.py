@@ -100,6 +100,8 @@ def polynomial_text(poly, s=None) -> str:
     pieces = []
     for (k,), coefficient in sorted(poly.terms(), key=lambda t: -t[0][0]):
         terms = _terms(sympy.expand(coefficient), params)
+        if terms == []:
+            continue
         if terms is None:           # not a polynomial in the parts: sympy's own text
             sign, body = 1, f"({coefficient})"
         elif len(terms) == 1:
