@@ -92,10 +92,11 @@ def build_parser():
     p.add_argument("--workers", type=int, help="worker processes (default: all cores)")
     p.add_argument("--gbw", choices=("built", "rule", "model"), default="built",
                    help="op-amp GBW each candidate needs: the finite-GBW model on the snapped "
-                        "design as built (default), the 100·f0·Q rule of thumb, or the model "
+                        "design as built (default), the 100·f0·Q common practice, or the model "
                         "plus the GBW a design re-solved for the op-amp needs (slower)")
     p.add_argument("--seed", type=int, help="random seed")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.add_argument("--wide", action="store_true", help="one line per candidate, past 100 columns")
 
     p = sub.add_parser("loop", help="design a loop compensator and check its margins")
     p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
@@ -239,7 +240,7 @@ def _cmd_analyze(args):
     from .circuit.library import load_analysable
     from .analysis.network import network_function
     from .analysis.pencil import circuit_poles, circuit_zeros
-    from .report.console import table
+    from .report.console import table, wrap_text
 
     loaded = load_analysable(args.topology)
     topology, circuit = loaded.topology, loaded.circuit
@@ -254,7 +255,9 @@ def _cmd_analyze(args):
     except SymbolicSizeError as error:
         return _analyze_numerically(args, circuit, values, label, error)
     lines = [f"H(s) of {label}" + (f" — {topology.title}" if topology is not None else "") + ":"]
-    numerator_text, denominator_text = str(nf.numerator.as_expr()), str(nf.denominator.as_expr())
+    from .report.polynomial import polynomial_text
+
+    numerator_text, denominator_text = polynomial_text(nf.numerator), polynomial_text(nf.denominator)
     lines.append(f"  N(s) = {numerator_text}")
     lines.append(f"  D(s) = {denominator_text}")
     lines.append(f"  order {nf.order}")
@@ -317,7 +320,7 @@ def _cmd_analyze(args):
         _emit_json(data, args.json, inputs=(args.topology,))
         if args.json == "-":
             return 0
-    print("\n".join(lines))
+    print(wrap_text("\n".join(lines)))
     return 0
 
 
@@ -451,7 +454,8 @@ def _cmd_design(args):
         _emit_json(data, args.json, inputs=inputs)
     if args.bom:
         opamps = [(e.name, "op-amp") for e in result.circuit.elements if e.kind == "opamp"]
-        rows = bom_rows(result.parts, tolerances=spec.tolerance.tolerances, opamps=opamps)
+        rows = bom_rows(result.parts, tolerances=spec.tolerance.tolerances, opamps=opamps,
+                        amplifier=spec.amplifier)
         write_text(args.bom, bom_csv(rows), inputs=inputs, option="--bom")
     if args.report or args.plots:
         from .report.html import write_design_report
@@ -466,7 +470,7 @@ def _cmd_design(args):
                               resistor_style=args.resistor_style, inputs=inputs)
     print()
     print("Caution: these values are a starting point; confirm the design by simulation and on the "
-          "bench. Equipment connected to mains, or used where a failure can hurt someone, must follow "
+          "bench.\nEquipment connected to mains, or used where a failure can hurt someone, must follow\n"
           "its applicable safety standards and licensed practice.")
     return 0
 
@@ -494,7 +498,7 @@ def _cmd_compare(args):
                              workers=args.workers, seed=args.seed, progress=progress, gbw=args.gbw)
     finally:
         progress.close()
-    print(comparison_text(comparison))
+    print(comparison_text(comparison, wide=args.wide))
     if args.json:
         _emit_json(comparison_to_dict(comparison), args.json, inputs=inputs)
     if args.report or args.plots:
@@ -513,7 +517,7 @@ def _cmd_compare(args):
 # -- loop ----------------------------------------------------------------------
 
 def _cmd_loop(args: argparse.Namespace) -> int:
-    from .report.console import Progress
+    from .report.console import Progress, wrap_text
     from .report.loop_text import LOOP_CAUTION, loop_data, loop_text
     from .spec.loop_table import run_loop
     from .spec.reader import load_spec
@@ -545,7 +549,7 @@ def _cmd_loop(args: argparse.Namespace) -> int:
     finally:
         progress.close()
     data, loops = loop_data(result, spec.amplifier)
-    print(loop_text(data))
+    print(wrap_text(loop_text(data)))
     if args.json:
         _emit_json(data, args.json, inputs=inputs)
     if args.report or args.plots:
@@ -580,7 +584,8 @@ def _solved_for(topology):
 def _cmd_topologies(args):
     from .circuit.library import library_topologies, load_folder, resolve_topology
     from .analysis.network import network_function
-    from .report.console import table
+    from .report.console import WIDTH, table, wrap_text
+    from .report.polynomial import polynomial_text
 
     pool = dict(library_topologies())
     errors = {}
@@ -608,7 +613,7 @@ def _cmd_topologies(args):
             "parts": list(topology.symbols), "free": list(topology.free),
             "opamps": topology.opamp_count, "constraints": [str(c) for c in topology.constraints],
             "ranges": {k: list(v) for k, v in topology.ranges.items()},
-            "numerator": str(nf.numerator.as_expr()), "denominator": str(nf.denominator.as_expr()),
+            "numerator": polynomial_text(nf.numerator), "denominator": polynomial_text(nf.denominator),
             "formula": topology.formula, "description": topology.description,
             "circuit": topology.circuit.to_dict(),
         }
@@ -639,7 +644,7 @@ def _cmd_topologies(args):
             lines.append(f"  gain = {data['gain']}")
         if topology.formula:
             lines.append(f"  published: {topology.formula}")
-        print("\n".join(lines))
+        print(wrap_text("\n".join(lines)))
         return 0
     rows = []
     listing = []
@@ -656,7 +661,7 @@ def _cmd_topologies(args):
         _emit_json(listing, args.json)
         if args.json == "-":
             return 0
-    print(table(["id", "title", "response", "order", "parts", "op-amps"], rows))
+    print(table(["id", "title", "response", "order", "parts", "op-amps"], rows, width=WIDTH, wrap=1))
     for path, message in errors.items():
         print(f"  could not load {path}: {message}")
     return 0

@@ -46,13 +46,14 @@ from .design import candidate_topologies, check_part_names, place_candidate, rea
 from .errors import PlacerError, SpecError
 from .place.gbw import as_built_gbw, required_gbw, search_top_hz
 from .place.opamp import AmplifierSpec, check_amplifier
-from .place.placement import Candidate, candidate_seeds, value_spread, worst_error_pct
+from .place.placement import (Candidate, candidate_seeds, value_spread, worst_error_pct,
+                              worst_error_quantity)
 from .analysis.noise import analyse_noise
 from .evidence.prelayout import checked_circuit, level_rules_for, settings_for
 from .evidence.workers import results_as_completed, worker_pool
 from .analysis.return_ratio import opamp_loops
 from .target.sections import split_sections
-from .evidence.tolerance import monte_carlo
+from .evidence.tolerance import DEFAULT_WINDOWS, monte_carlo
 from .units import finite_or_none, format_value
 
 if TYPE_CHECKING:
@@ -90,14 +91,15 @@ _RULE_FAMILIES = ("sallen-key", "mfb-")
 _SOURCES = {
     "practice": "common practice (no source): GBW >= 100·f0·Q for Sallen–Key and "
                 "multiple-feedback stages",
-    "thumb": "rule of thumb: GBW >= 100·f0·Q, the Sallen–Key/MFB practice applied to "
-             "a topology it was not stated for",
+    "thumb": "common practice for Sallen–Key and multiple-feedback stages, GBW >= 100·f0·Q, "
+             "applied to a topology it was not stated for",
     "passive": "no op-amp",
-    "built": f"op-amp model (single pole, placer.place.gbw.as_built_gbw): the smallest GBW, and at "
-             f"least 10·f0, at which the snapped design, as built, stays within "
+    "built": f"op-amp model (single pole): the smallest GBW, and at "
+             f"least 10·f0, at which the design with preferred values, as built, stays "
+             f"within "
              f"{GBW_ERROR_PCT:g} % of the target",
 }
-_SHORT = {"practice": "100·f0·Q (common practice)", "thumb": "100·f0·Q (rule of thumb)",
+_SHORT = {"practice": "100·f0·Q (common practice)", "thumb": "100·f0·Q (by extension)",
           "passive": "-", "built": "op-amp model", "model": "op-amp model"}
 
 
@@ -118,6 +120,10 @@ class CandidateResult:
         Resistors, capacitors and inductors; op-amps.
     error_pct : float
         Worst root/figure error after snapping, percent, gain included.
+    error_of : str
+        What that worst error measures: "f0", "Q", "zero f0", "roots" or "gain".
+    gain_error_db : float or None
+        The gain's error, dB (None: the section sets no gain).
     yield_pct : float
         Monte Carlo samples inside every yield window around nominal, percent.
     spread : dict
@@ -161,6 +167,8 @@ class CandidateResult:
     parts: int | None = None
     opamps: int | None = None
     error_pct: float | None = None
+    error_of: str = ""
+    gain_error_db: float | None = None
     yield_pct: float | None = None
     spread: dict = field(default_factory=dict)
     max_sensitivity_w0: float | None = None
@@ -380,7 +388,7 @@ def _gbw_needed(section: Section, topology: Topology, spec: Spec, method: str,
                                 amplifier_gain=spec.amplifier.gain, seed=seed)
             if math.isfinite(need.gbw_hz):
                 resolved = float(need.gbw_hz)
-                source += (f"; re-solved for the op-amp (placer.place.gbw.required_gbw), "
+                source += (f"; re-solved for the op-amp, "
                            f"{format_value(need.gbw_hz, 'Hz')} would do")
             elif need.note:
                 source += f"; re-solved for the op-amp: {need.note}"
@@ -460,6 +468,9 @@ def _evaluate(task):
         section=task.index, topology=topology.id, title=topology.title, reachable=True,
         parts=topology.part_count, opamps=topology.opamp_count,
         error_pct=float(candidate.error_pct),
+        error_of=worst_error_quantity(candidate.errors),
+        gain_error_db=(None if candidate.errors.gain_db is None
+                       else float(candidate.errors.gain_db)),
         yield_pct=100.0 * target_yield,
         spread=value_spread(topology, values),
         max_sensitivity_w0=_largest(sens.omega0, parts), max_sensitivity_q=_largest(sens.q, parts),
@@ -473,12 +484,12 @@ def _evaluate(task):
     )
 
 
-#: Gain window (dB) of the yield when the spec sets none.
-DEFAULT_GAIN_WINDOW_DB = 0.5
+#: Gain window (dB) of the yield when the windows give none (the spec's default has one).
+DEFAULT_GAIN_WINDOW_DB = DEFAULT_WINDOWS["gain_db"]
 
 
 def _target_yield(section, result, windows):
-    """Fraction of builds whose f0, Q and gain lie within the windows of the TARGET.
+    """Fraction of builds whose f0, Q and gain lie within the windows of the target.
 
     A notch's rejection at the target zero frequency counts too when the
     spec sets a rejection window.

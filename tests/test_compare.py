@@ -149,14 +149,15 @@ def test_equal_component_sallen_key_gain_is_three_minus_one_over_q(q):
 
 def test_gbw_rule_of_thumb_labels(tmp_path):
     # GBW >= 100·f0·Q: common practice for Sallen–Key and MFB stages, no source;
-    # the same figure is labelled a rule of thumb for other active stages.
+    # for other active stages the same practice is labelled as applied by extension.
     q = 1.932
     spec = load_spec(_write_spec(tmp_path, _section_spec(q, ["mfb-lowpass", "tow-thomas-lowpass"])))
     results = {c.topology: c for c in compare(spec, workers=1, gbw="rule").sections[0].candidates}
     for topology in ("mfb-lowpass", "tow-thomas-lowpass"):
         assert results[topology].gbw_hz == pytest.approx(100 * 1e3 * q, rel=1e-9)
     assert results["mfb-lowpass"].gbw_source.startswith("common practice")
-    assert results["tow-thomas-lowpass"].gbw_source.startswith("rule of thumb")
+    assert results["tow-thomas-lowpass"].gbw_source.startswith("common practice")
+    assert "not stated for" in results["tow-thomas-lowpass"].gbw_source
 
 
 # -- ranking, determinism and output -------------------------------------------
@@ -236,8 +237,8 @@ def test_cli_json_has_candidates_in_rank_order(ranked_spec, tmp_path, capsys):
                    "--workers", "1", "--quiet"])
     assert status == 0
     text = capsys.readouterr().out
-    for label in ("rank", "error (%)", "yield (%)", "R spread", "max|S Q|",
-                  "GBW needed (Hz)", "drift at 100·f0·Q (%)", "cannot reach it", "sallen-key-lowpass-unity"):
+    for label in ("rank", "worst error", "yield (%)", "R spread", "max|S Q|",
+                  "GBW needed", "GBW drift (%)", "cannot reach it", "sallen-key-lowpass-unity"):
         assert label in text
     data = json.loads(out.read_text())
     assert data["rank_by"] == "parts" and data["samples"] == 200 and data["seed"] == 0

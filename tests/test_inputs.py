@@ -267,7 +267,7 @@ def test_a_symbol_named_like_a_conductance_does_not_collide(tmp_path, capsys):
     assert status == 0
     # RC low-pass: one pole at -1/(R·C) = -1000 rad/s (circuit theory, common practice)
     assert data["poles"] == [[pytest.approx(-1000.0, rel=1e-9), 0.0]]
-    assert data["denominator"] == "G__R1*R1*s + 1"
+    assert data["denominator"] == "R1*G__R1*s + 1"
 
 
 def test_a_symbol_named_s_is_refused(tmp_path, capsys):

@@ -41,6 +41,7 @@ if TYPE_CHECKING:
     from .tolerance import (
         DISTRIBUTIONS,
         WINDOW_KEYS,
+        DEFAULT_WINDOWS,
         MAX_REJECTION_DB,
         MAX_SAMPLES,
         CHUNK,
@@ -107,6 +108,7 @@ _EXPORTS = {
     "loop_to_dict": "prelayout",
     "DISTRIBUTIONS": "tolerance",
     "WINDOW_KEYS": "tolerance",
+    "DEFAULT_WINDOWS": "tolerance",
     "MAX_REJECTION_DB": "tolerance",
     "MAX_SAMPLES": "tolerance",
     "CHUNK": "tolerance",

@@ -57,6 +57,7 @@ from ..analysis.sensitivity import (
 __all__ = [
     "DISTRIBUTIONS",
     "WINDOW_KEYS",
+    "DEFAULT_WINDOWS",
     "MAX_REJECTION_DB",
     "MAX_SAMPLES",
     "CHUNK",
@@ -70,6 +71,10 @@ __all__ = [
 DISTRIBUTIONS = ("uniform", "gaussian")
 #: Accepted keys of ``windows``.
 WINDOW_KEYS = ("f0", "q", "gain_db", "rejection_db")
+#: The yield windows when a spec's [tolerance] gives none, one set for
+#: ``design`` (around nominal) and ``compare`` (around the target): f0 and Q
+#: relative (±2 %, ±5 %), the gain in dB (±0.5 dB).
+DEFAULT_WINDOWS = {"f0": 0.02, "q": 0.05, "gain_db": 0.5}
 #: Largest rejection reported, dB (an exact null would be infinite).
 MAX_REJECTION_DB = 200.0
 #: Upper limit on Monte Carlo samples; larger requests are capped.

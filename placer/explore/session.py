@@ -511,7 +511,8 @@ class ExploreSession:
             result = self._design(spec, _Tracker())
             if kind == "bom":
                 opamps = [(e.name, "op-amp") for e in result.circuit.elements if e.kind == "opamp"]
-                rows = bom_rows(result.parts, tolerances=spec.tolerance.tolerances, opamps=opamps)
+                rows = bom_rows(result.parts, tolerances=spec.tolerance.tolerances, opamps=opamps,
+                                amplifier=spec.amplifier)
                 body = bom_csv(rows)
             else:
                 evidence = gather_evidence(result, workers=1)

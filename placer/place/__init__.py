@@ -67,6 +67,7 @@ if TYPE_CHECKING:
         place_ideal,
         value_spread,
         worst_error_pct,
+        worst_error_quantity,
         snap_weighs_gain,
         GAIN_WITHIN_REACH,
     )
@@ -149,6 +150,7 @@ _EXPORTS = {
     "place_ideal": "placement",
     "value_spread": "placement",
     "worst_error_pct": "placement",
+    "worst_error_quantity": "placement",
     "snap_weighs_gain": "placement",
     "GAIN_WITHIN_REACH": "placement",
     "SnapResult": "snap",

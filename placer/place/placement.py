@@ -51,6 +51,7 @@ __all__ = [
     "place_ideal",
     "value_spread",
     "worst_error_pct",
+    "worst_error_quantity",
     "snap_weighs_gain",
     "GAIN_WITHIN_REACH",
 ]
@@ -245,6 +246,25 @@ def worst_error_pct(errors):
     if errors.gain_db is not None:
         worst = max(worst, 100 * abs(10 ** (errors.gain_db / 20) - 1))
     return worst
+
+
+def worst_error_quantity(errors):
+    """What sets :func:`worst_error_pct`: "f0", "Q", "zero f0", "roots" or "gain".
+
+    Parameters
+    ----------
+    errors : placer.place.solve.RootErrors
+
+    Returns
+    -------
+    str
+    """
+    figures = [(abs(x), name) for name, x in (("f0", errors.f0_pct), ("Q", errors.q_pct),
+                                              ("zero f0", errors.zero_f0_pct)) if x is not None]
+    worst, name = max(figures) if figures else (errors.worst_root_pct, "roots")
+    if errors.gain_db is not None and 100 * abs(10 ** (errors.gain_db / 20) - 1) > worst:
+        return "gain"
+    return name
 
 
 def value_spread(topology, values):

@@ -4,16 +4,35 @@ from __future__ import annotations
 
 import csv
 import io
+import math
 
 from ..eseries import usual_tolerance
 from ..units import format_value
 
-__all__ = ["bom_rows", "bom_csv"]
+__all__ = ["bom_rows", "bom_csv", "opamp_model_text", "BOM_FIELDS"]
+
+#: The CSV columns, in order.
+BOM_FIELDS = ["references", "value", "value_si", "series", "tolerance", "kind", "quantity",
+              "opamp_model"]
 
 _UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 
 
-def bom_rows(parts, *, tolerances=None, opamps=()):
+def opamp_model_text(amplifier) -> str:
+    """The op-amp model a design assumed, in words: "GBW 10 MHz, gain 110 dB, ..." or "ideal"."""
+    if amplifier is None or (amplifier.gbw is None and amplifier.gain is None):
+        return "ideal (infinite gain and GBW)"
+    words = []
+    if amplifier.gbw is not None:
+        words.append(f"GBW {format_value(amplifier.gbw, 'Hz')}")
+    if amplifier.gain is not None:
+        words.append(f"DC gain {20 * math.log10(amplifier.gain):.0f} dB")
+    if amplifier.output_resistance:
+        words.append(f"output resistance {format_value(amplifier.output_resistance, 'ohm')}")
+    return "single-pole model: " + ", ".join(words)
+
+
+def bom_rows(parts, *, tolerances=None, opamps=(), amplifier=None):
     """Rows of a bill of materials, one per (kind, value, series).
 
     Parameters
@@ -23,12 +42,16 @@ def bom_rows(parts, *, tolerances=None, opamps=()):
         Kind → tolerance fraction (default: the series' usual tolerance).
     opamps : iterable of (designator, description)
         Op-amps to list (they carry no value).
+    amplifier : AmplifierSpec, optional
+        The op-amp model the design assumed (None: ideal), for the op-amp
+        row's ``opamp_model``.
 
     Returns
     -------
     list of dict
         Keys: ``references``, ``value``, ``value_si``, ``series``,
-        ``tolerance``, ``kind``, ``quantity``.
+        ``tolerance``, ``kind``, ``quantity``, ``opamp_model`` (the op-amp
+        model assumed, on op-amp rows; empty on the others).
     """
     tolerances = dict(tolerances or {})
     groups = {}
@@ -48,6 +71,7 @@ def bom_rows(parts, *, tolerances=None, opamps=()):
             "tolerance": f"{100 * tolerance:g}%" if tolerance else "-",
             "kind": kind,
             "quantity": len(members),
+            "opamp_model": "",
         })
     amplifiers = list(opamps)
     if amplifiers:
@@ -59,6 +83,7 @@ def bom_rows(parts, *, tolerances=None, opamps=()):
             "tolerance": "-",
             "kind": "opamp",
             "quantity": len(amplifiers),
+            "opamp_model": opamp_model_text(amplifier),
         })
     return rows
 
@@ -66,8 +91,7 @@ def bom_rows(parts, *, tolerances=None, opamps=()):
 def bom_csv(rows):
     """The rows as CSV text with a header line."""
     buffer = io.StringIO()
-    fields = ["references", "value", "value_si", "series", "tolerance", "kind", "quantity"]
-    writer = csv.DictWriter(buffer, fieldnames=fields, lineterminator="\n")
+    writer = csv.DictWriter(buffer, fieldnames=BOM_FIELDS, lineterminator="\n")
     writer.writeheader()
     for row in rows:
         writer.writerow(row)

@@ -5,33 +5,37 @@ from __future__ import annotations
 import math
 
 from .. import __version__
-from ..compare import _SHORT, _SOURCES, RANK_KEYS, SectionComparison
+from ..compare import _SHORT, _SOURCES, DEFAULT_GAIN_WINDOW_DB, RANK_KEYS, SectionComparison
 from ..design import candidate_topologies
 from ..units import format_value
-from .console import fmt_rejection, table, windows_text
+from .console import WIDTH, fmt_error, fmt_rejection, table, windows_text, wrap_text
 from .page import (Plots, caution_block, escape, finish_report, paragraph, prepare_outputs,
                    spec_block)
 from .page import table as html_table
 from .plots import ranking_figure
 from .schematic import candidate_schematic_html
 
-__all__ = ["comparison_text", "write_comparison_report"]
+__all__ = ["comparison_text", "write_comparison_report", "why_first"]
 
-_HEADERS = ["rank", "topology", "parts", "op-amps", "error (%)", "yield (%)",
+_HEADERS = ["rank", "topology", "parts", "op-amps", "worst error", "yield (%)",
             "R spread", "C spread", "max|S ω0|", "max|S Q|",
-            "GBW needed (Hz)", "GBW from", "drift at 100·f0·Q (%)",
-            "noise (µV rms)", "worst op-amp PM (°)"]
+            "GBW needed", "GBW from", "GBW drift (%)",
+            "noise (µV rms)", "op-amp PM (°)"]
+#: Columns of the ranking table and of the two detail tables (indices into _HEADERS).
+_RANKING = (0, 1, 2, 3, 4, 5)
+_SPREAD = (0, 1, 6, 7, 8, 9, 13)
+_OPAMP = (0, 1, 10, 11, 12, 14)
 
 _LEGEND = [
-    "error: worst root (f0, Q) or gain error after snapping; yield: Monte Carlo builds "
-    "inside the windows above",
+    "worst error: the largest error with preferred values, and what it measures (f0 or Q in "
+    "%, the gain in dB); yield: Monte Carlo builds inside the windows above",
     "R spread, C spread: largest/smallest value of that kind; max|S ω0|, max|S Q|: the "
     "largest part sensitivity (% per %)",
     "GBW needed: '-' for a passive stage, or for a design that misses the bound "
     "with ideal op-amps already, or at every GBW up to 1e4·f0·Q (the JSON says which)",
-    "drift at 100·f0·Q: the larger f0 or Q shift of the snapped design built with "
-    "single-pole op-amps of the rule of thumb's GBW",
-    "noise: the stage alone, integrated output noise over the noise band; worst op-amp PM: "
+    "GBW drift: the larger f0 or Q shift of the design with preferred values built "
+    "with single-pole op-amps of the common-practice GBW, 100·f0·Q",
+    "noise: the stage alone, integrated output noise over the noise band; op-amp PM: "
     "the least phase margin of its op-amps' own loops (return ratio, the spec's op-amp model "
     "or the default '10 MHz' preset; below 45° is low)",
 ]
@@ -39,14 +43,14 @@ _RESOLVED_HEADER = "GBW re-solved (Hz)"
 #: What each GBW method puts in the "GBW needed" column, for the heading.
 _METHOD_LINES = {
     "built": "GBW needed (--gbw built): the single-pole op-amp model on each ideal-op-amp "
-             "design as snapped, the smallest GBW (at least 10·f0) that keeps it within 1 % "
-             "of the target as built",
-    "rule": "GBW needed (--gbw rule): the rule of thumb 100·f0·Q (f0 in Hz; Q taken as 1 "
+             "design with preferred values, the smallest GBW (at least 10·f0) that keeps it "
+             "within 1 % of the target as built",
+    "rule": "GBW needed (--gbw rule): the common practice 100·f0·Q (f0 in Hz; Q taken as 1 "
             "for a first-order stage)",
-    "model": "GBW needed (--gbw model): the op-amp model on each ideal-op-amp design as "
-             "snapped, as with --gbw built; GBW re-solved: the smallest GBW at which a "
-             "design re-solved and re-snapped for the op-amp stays within 1 % of the "
-             "target, also with the GBW 25 % off (placer.place.gbw.required_gbw)",
+    "model": "GBW needed (--gbw model): the op-amp model on each ideal-op-amp design with "
+             "preferred values, as with --gbw built; GBW re-solved: the smallest GBW at which a "
+             "design solved again for the op-amp, with preferred values, stays within 1 % of "
+             "the target, also with the GBW 25 % off",
 }
 _REJECTION_LEGEND = ("rejection: what 99 % of the builds still take off the target's zero "
                      "frequency (pass-band gain over |H| there)")
@@ -70,8 +74,10 @@ def _heading(comparison):
     tolerances = ", ".join(f"{k} {100 * v:g} %" for k, v in spec.tolerance.tolerances.items())
     return (f"ranked by {comparison.rank_by}: {RANK_KEYS[comparison.rank_by]}",
             f"yield: {comparison.samples} Monte Carlo samples per candidate "
-            f"({spec.tolerance.distribution}; {tolerances}) inside {windows} of the TARGET"
-            + ("" if "gain_db" in spec.tolerance.windows else ", gain ±0.5 dB")
+            f"({spec.tolerance.distribution}; {tolerances}) within {windows} of the target "
+            "(design counts them around its own nominal)"
+            + ("" if "gain_db" in spec.tolerance.windows
+               else f", gain ±{DEFAULT_GAIN_WINDOW_DB:g} dB")
             + f"; seed {comparison.seed}; one standard error of a yield is at most "
             f"±{100 * math.sqrt(0.25 / comparison.samples):.1f} %",
             _METHOD_LINES.get(comparison.gbw, f"GBW needed (--gbw {comparison.gbw})"))
@@ -94,7 +100,8 @@ def _rows(s: SectionComparison, gbw: str = "built") -> tuple[list[str], list[lis
     resolved = gbw == "model"
     rows = []
     for rank, c in enumerate((c for c in s.candidates if c.reachable), start=1):
-        rows.append([rank, c.topology, c.parts, c.opamps, f"{c.error_pct:.3f}",
+        rows.append([rank, c.topology, c.parts, c.opamps,
+                     fmt_error(c.error_pct, c.error_of, c.gain_error_db),
                      f"{c.yield_pct:.1f}", _number(c.spread.get("resistor")),
                      _number(c.spread.get("capacitor")), _number(c.max_sensitivity_w0),
                      _number(c.max_sensitivity_q),
@@ -126,14 +133,77 @@ def _notes(comparison):
     return legend, methods
 
 
-def comparison_text(comparison):
-    """One console table per section, then the unreachable ones with reasons."""
+def _columns(headers, rows, keep):
+    """The columns `keep` (indices into _HEADERS) of a table, with the optional ones that go there."""
+    names = [_HEADERS[k] for k in keep]
+    if keep is _RANKING and "rejection (dB)" in headers:
+        names.append("rejection (dB)")
+    if keep is _OPAMP and _RESOLVED_HEADER in headers:
+        names.append(_RESOLVED_HEADER)
+    index = [headers.index(name) for name in names]
+    return names, [[row[k] for k in index] for row in rows]
+
+
+def why_first(s: SectionComparison, rank_by: str) -> str | None:
+    """One line on why rank 1 is not the lowest-error candidate, from the ranking key; or None."""
+    reachable = [c for c in s.candidates if c.reachable and c.error_pct is not None]
+    if len(reachable) < 2:
+        return None
+    first = reachable[0]
+    lowest = min(reachable, key=lambda c: c.error_pct)
+    if lowest is first or lowest.error_pct >= first.error_pct:
+        return None
+    if rank_by == "yield":
+        if first.yield_pct > lowest.yield_pct:
+            reason = f"higher yield ({first.yield_pct:.1f} % against {lowest.yield_pct:.1f} %)"
+        elif first.opamps < lowest.opamps:
+            reason = (f"a yield as good within two standard errors ({first.yield_pct:.1f} % "
+                      f"against {lowest.yield_pct:.1f} %) with fewer op-amps ({first.opamps} "
+                      f"against {lowest.opamps})")
+        else:
+            reason = (f"a yield as good within two standard errors ({first.yield_pct:.1f} % "
+                      f"against {lowest.yield_pct:.1f} %) with fewer parts ({first.parts} "
+                      f"against {lowest.parts})")
+    elif rank_by == "parts":
+        reason = f"fewer parts ({first.parts} against {lowest.parts})"
+    elif rank_by == "sensitivity":
+        reason = (f"lower sensitivity (largest |S| {first.max_sensitivity:.3g} against "
+                  f"{lowest.max_sensitivity:.3g})")
+    else:
+        return None
+    return (f"  rank 1 {first.topology} over {lowest.topology}, whose worst error is lower "
+            f"({fmt_error(lowest.error_pct, lowest.error_of, lowest.gain_error_db)}): {reason}")
+
+
+def comparison_text(comparison, *, wide=False):
+    """Per section a ranking table and two detail tables, then the unreachable ones with reasons.
+
+    Laid out for :data:`~placer.report.console.WIDTH` columns; `wide` puts
+    every column of a candidate on one line instead.
+    """
     ranked, counted, method = _heading(comparison)
     lines = [f"Compare: {comparison.spec.title} — {ranked}", f"  {counted}", f"  {method}"]
     for s in comparison.sections:
         lines += ["", _section_line(s)]
         headers, rows = _rows(s, comparison.gbw)
-        lines.append(table(headers, rows) if rows else "  no candidate reaches this section")
+        if not rows:
+            lines.append("  no candidate reaches this section")
+        elif wide:
+            lines.append(table(headers, rows))
+        else:
+            lines.append(table(*_columns(headers, rows, _RANKING), width=WIDTH))
+            why = why_first(s, comparison.rank_by)
+            if why:
+                lines.append(why)
+            lines += ["", "  spread, sensitivity and noise:"]
+            lines.append(table(*_columns(headers, rows, _SPREAD), width=WIDTH))
+            if any(c.opamps for c in s.candidates if c.reachable):
+                lines += ["", "  op-amps:"]
+                lines.append(table(*_columns(headers, rows, _OPAMP), width=WIDTH, wrap=3))
+        if rows and wide:
+            why = why_first(s, comparison.rank_by)
+            if why:
+                lines.append(why)
         unreachable = [c for c in s.candidates if not c.reachable]
         if unreachable:
             lines.append("  cannot reach it:")
@@ -146,11 +216,12 @@ def comparison_text(comparison):
     lines += ["", "Columns:"] + [f"  {line}" for line in legend]
     if methods:
         lines += ["", "GBW needed:"] + [f"  {method}" for method in methods]
-    return "\n".join(lines)
+    text = "\n".join(lines)
+    return text if wide else wrap_text(text)
 
 
 def _candidate_schematics(comparison, s, resistor_style):
-    """Each reachable candidate of a section drawn with its snapped values."""
+    """Each reachable candidate of a section drawn with its preferred values."""
     pool = {t.id: t for t in candidate_topologies(s.section, comparison.spec)[0]}
     out = []
     for rank, c in enumerate((c for c in s.candidates if c.reachable), start=1):
@@ -208,14 +279,17 @@ def write_comparison_report(comparison, *, html_path=None, plots_dir=None, input
         headers, rows = _rows(s, comparison.gbw)
         if rows:
             parts.append(html_table(headers, rows, numeric_from=2))
+            why = why_first(s, comparison.rank_by)
+            if why:
+                parts.append(paragraph(why.strip().capitalize()))
             reachable = [c for c in s.candidates if c.reachable]
             parts.append(plots.block(
                 f"section{s.index}-ranking",
                 ranking_figure([c.topology for c in reachable], [c.yield_pct for c in reachable],
                                [c.error_pct for c in reachable],
                                title=f"Section {s.index}: yield and error, best first"),
-                f"Section {s.index}: Monte Carlo yield (%) and worst error after snapping (%, "
-                "log scale) of each candidate, in rank order."))
+                f"Section {s.index}: Monte Carlo yield (%) and worst error with preferred values "
+                "(%, log scale) of each candidate, in rank order."))
             if html_path is not None:
                 parts += _candidate_schematics(comparison, s, resistor_style)
         else:

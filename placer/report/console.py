@@ -4,13 +4,19 @@ from __future__ import annotations
 
 import math
 import sys
+import textwrap
 
+from ..design import ERROR_TIE_PCT
 from ..evidence.tolerance import MAX_REJECTION_DB
 from ..units import format_value
 from .prelayout import cascade_lines, section_lines
 
 __all__ = ["table", "design_text", "target_text", "evidence_text", "Progress", "fmt_pct", "fmt_db",
-           "mask_lines", "fmt_hz", "fmt_where", "fmt_edges", "fmt_peak_at", "fmt_gain", "fmt_seconds", "fmt_rejection", "windows_text"]
+           "mask_lines", "fmt_hz", "fmt_where", "fmt_edges", "fmt_peak_at", "fmt_gain", "fmt_seconds", "fmt_rejection", "windows_text",
+           "WIDTH", "wrap_text", "why_chosen", "fmt_error"]
+
+#: Console width the text is laid out for (``compare --wide`` goes past it).
+WIDTH = 100
 
 _UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 
@@ -28,16 +34,97 @@ def windows_text(windows):
     return ", ".join(words)
 
 
-def table(headers, rows, *, indent="  "):
-    """A plain-text table with columns sized to fit."""
+def table(headers, rows, *, indent="  ", width=None, wrap=None):
+    """A plain-text table with columns sized to fit.
+
+    With `width`, a table wider than that wraps the text of column `wrap`
+    (default: the widest column) onto continuation lines so that it fits.
+    """
     cells = [[str(h) for h in headers]] + [["" if c is None else str(c) for c in row] for row in rows]
     widths = [max(len(row[i]) for row in cells) for i in range(len(headers))]
+    total = len(indent) + sum(widths) + 2 * (len(widths) - 1)
+    if width is not None and total > width and widths:
+        column = widths.index(max(widths)) if wrap is None else wrap
+        widths[column] = max(8, widths[column] - (total - width))
+        wrapped = []
+        for row in cells:
+            pieces = textwrap.wrap(row[column], widths[column], break_on_hyphens=False) or [""]
+            for k, piece in enumerate(pieces):
+                wrapped.append([(cell if k == 0 else "") if i != column else piece
+                                for i, cell in enumerate(row)])
+            if row is cells[0]:
+                header_lines = len(pieces)
+        cells = wrapped
+        widths = [max(len(row[i]) for row in cells) for i in range(len(headers))]
+    else:
+        header_lines = 1
     lines = []
     for k, row in enumerate(cells):
         lines.append(indent + "  ".join(cell.ljust(w) for cell, w in zip(row, widths)).rstrip())
-        if k == 0:
+        if k == header_lines - 1:
             lines.append(indent + "  ".join("-" * w for w in widths))
     return "\n".join(lines)
+
+
+def wrap_text(text, width=WIDTH):
+    """Lines longer than `width` wrapped at spaces, continued two columns further in.
+
+    Tables are laid out to fit; this is for prose lines.
+    """
+    out = []
+    for line in text.split("\n"):
+        if len(line) <= width:
+            out.append(line)
+            continue
+        indent = line[:len(line) - len(line.lstrip())]
+        out.extend(textwrap.wrap(line.strip(), width, initial_indent=indent,
+                                 subsequent_indent=indent + "  ", break_on_hyphens=False,
+                                 break_long_words=False))
+    return "\n".join(out)
+
+
+def fmt_error(error_pct, quantity, gain_error_db=None):
+    """A worst error with what it measures: "0.324 % in Q", "+4.02 dB in gain"."""
+    if error_pct is None or not math.isfinite(error_pct):
+        return "-"
+    if quantity == "gain" and gain_error_db is not None and math.isfinite(gain_error_db):
+        return f"{gain_error_db + 0.0:+.2f} dB in gain"
+    return f"{error_pct:.3f} % in {quantity}" if quantity else f"{error_pct:.3f} %"
+
+
+def _size(c):
+    return f"{c['parts']} parts + {c['opamps']} op-amp{'s' if c['opamps'] != 1 else ''}"
+
+
+def _spread(c):
+    return math.prod(c.get("spread", {}).values() or [1.0])
+
+
+def why_chosen(candidates):
+    """One line on why the first reachable candidate beat a lower-error one, or None.
+
+    `candidates`: the JSON dicts of a design section's candidates in rank
+    order. Design ranks by error, but errors within ``ERROR_TIE_PCT``
+    percentage points of the best count as equal; among those fewer parts
+    and op-amps win, then the smaller value spread.
+    """
+    reachable = [c for c in candidates if c.get("reachable") and c.get("error_pct") is not None]
+    if len(reachable) < 2:
+        return None
+    chosen = reachable[0]
+    lowest = min(reachable, key=lambda c: c["error_pct"])
+    if lowest is chosen or lowest["error_pct"] >= chosen["error_pct"]:
+        return None
+    size = (chosen["parts"] + chosen["opamps"], lowest["parts"] + lowest["opamps"])
+    if size[0] < size[1]:
+        reason = f"fewer parts ({_size(chosen)} against {_size(lowest)})"
+    else:
+        reason = (f"lower value spread (R ratio × C ratio {_spread(chosen):.3g} against "
+                  f"{_spread(lowest):.3g})")
+    return (f"  chosen over {lowest['topology']}, whose worst error is lower "
+            f"({fmt_error(lowest['error_pct'], lowest.get('error_of'), lowest.get('gain_error_db'))}"
+            f" against {chosen['error_pct']:.3f} %): errors within {ERROR_TIE_PCT:g} percentage "
+            f"points count as equal, and this one has {reason}")
 
 
 def fmt_pct(x, digits=3):
@@ -123,7 +210,8 @@ def design_text(data):
                          fmt_pct(e["zero_f0_pct"]), fmt_hz(s["continuous"]["zero_f0_hz"])])
         rows.append(["gain", fmt_gain(t["gain_db"]), fmt_gain(a["gain_db"]), fmt_db(e["gain_db"]),
                      fmt_gain(s["continuous"]["gain_db"])])
-        lines.append(table(["figure", "target", "achieved (snapped)", "error", "continuous"], rows))
+        lines.append(table(["quantity", "target", "achieved (preferred values)", "error",
+                            "continuous"], rows))
         rows = []
         for p in s["parts"]:
             rows.append([p["name"], p["kind"], format_value(p["value"], _UNIT[p["kind"]]),
@@ -134,11 +222,15 @@ def design_text(data):
         if s.get("amplifier"):
             lines.append("")
             lines.extend(_amplifier_lines(s["amplifier"]))
+        why = why_chosen(s["candidates"])
+        if why:
+            lines.append(why)
         others = [c for c in s["candidates"] if c["topology"] != s["topology"]]
         if others:
-            lines.append("  other candidates: " + "; ".join(
-                f"{c['topology']} {c['error_pct']:.3f} %" if c["reachable"]
-                else f"{c['topology']} (cannot: {c['reason']})" for c in others[:8]))
+            lines.append("  other candidates, worst error: " + "; ".join(
+                f"{c['topology']} {fmt_error(c['error_pct'], c.get('error_of'), c.get('gain_error_db'))}"
+                if c["reachable"] else f"{c['topology']} (cannot: {c['reason']})"
+                for c in others[:8]))
         if data.get("prelayout"):
             lines.extend(section_lines(data["prelayout"], s["index"]))
     achieved = data["achieved"]
@@ -154,7 +246,7 @@ def design_text(data):
                  f"{' (inverting)' if achieved['inverting'] else ''}")
     if data.get("prelayout"):
         lines.extend(cascade_lines(data["prelayout"]))
-    return "\n".join(lines)
+    return wrap_text("\n".join(lines))
 
 
 def _amplifier_lines(amp):
@@ -185,18 +277,20 @@ def evidence_text(evidence):
     """A design's evidence as text: responses, then each section's spread."""
     v = evidence.verification
     lines = ["Evidence (python-control, on the designed circuit):"]
-    rows = []
-    for name, fig in (("target", v.target), ("snapped", v.design), ("continuous", v.continuous)):
+    rows, steps = [], []
+    for name, fig in (("target", v.target), ("preferred values", v.design),
+                      ("continuous", v.continuous)):
         if fig is None:
             continue
         f, s = fig.frequency, fig.step
         rows.append([name, fmt_gain(f.gain_db), fmt_edges(f),
-                     fmt_gain(f.peak_db), fmt_peak_at(f.peak_hz),
-                     "n/a" if s.overshoot_pct is None else f"{s.overshoot_pct:.2f} %",
-                     fmt_seconds(s.rise_time_s, absent="n/a"),
-                     fmt_seconds(s.settling_time_s)])
-    lines.append(table(["response", "gain", "-3 dB (from the peak)", "peak", "at", "overshoot",
-                        "rise 10-90 %", "settle 2 %"], rows))
+                     fmt_gain(f.peak_db), fmt_peak_at(f.peak_hz)])
+        steps.append([name, "n/a" if s.overshoot_pct is None else f"{s.overshoot_pct:.2f} %",
+                      fmt_seconds(s.rise_time_s, absent="n/a"), fmt_seconds(s.settling_time_s)])
+    lines.append(table(["frequency response", "gain", "-3 dB from the peak", "peak", "peak at"],
+                       rows, width=WIDTH, wrap=2))
+    lines.append("")
+    lines.append(table(["step response", "overshoot", "rise 10-90 %", "settle 2 %"], steps))
     d = v.deviation
     nulls = [s.monte_carlo.reject_hz for s in evidence.sections if s.monte_carlo.reject_hz]
     at_null = any(abs(d.magnitude_at_hz / f - 1) < 0.1 for f in nulls)
@@ -205,10 +299,10 @@ def evidence_text(evidence):
                  f"{d.phase_deg:.2f}° phase (at {fmt_hz(d.phase_at_hz)})"
                  + (" — output inverted" if d.inverted else "")
                  + (" — at a notch's null, where moving the null a fraction of a per cent "
-                    "reads as many dB; the rejection rows below give the figure that matters"
+                    "reads as many dB; the rejection rows below give the quantity that matters"
                     if at_null else ""))
     if v.snapping_deviation is not None:
-        lines.append(f"  cost of preferred values (snapped vs continuous): "
+        lines.append(f"  cost of preferred values (against the continuous values): "
                      f"{v.snapping_deviation.magnitude_db:.3f} dB, {v.snapping_deviation.phase_deg:.2f}°")
     if evidence.mask is not None:
         lines.append("")
@@ -235,9 +329,10 @@ def evidence_text(evidence):
             rows.append([f"rejection at {fmt_hz(mc.reject_hz)}", fmt_rejection(mc.nominal_rejection_db),
                          fmt_rejection(rej.mean), f"{rej.std:.2f} dB",
                          f"{fmt_rejection(rej.p01)} – {fmt_rejection(rej.p99)}"])
-        lines.append(table(["figure", "nominal", "mean", "std dev", "1 % – 99 %"], rows))
+        lines.append(table(["quantity", "nominal", "mean", "std dev", "1 % – 99 %"], rows))
         if mc.yield_fraction is not None:
-            lines.append(f"  yield ({windows_text(mc.windows)}): {100 * mc.yield_fraction:.1f} %")
+            lines.append(f"  yield (builds within {windows_text(mc.windows)} of nominal): "
+                         f"{100 * mc.yield_fraction:.1f} %")
         ranking = mc.ranking.get("f0", [])
         if ranking:
             lines.append("  f0 spread dominated by: " + ", ".join(
@@ -250,7 +345,7 @@ def evidence_text(evidence):
                          f"{sens.gain[symbol]:+.3f}"])
         lines.append(f"  sensitivities ({sens.method}):")
         lines.append(table(["part", "S w0", "S Q", "S gain"], rows, indent="    "))
-    return "\n".join(lines)
+    return wrap_text("\n".join(lines))
 
 
 def _margin_words(figures: object, mask: object) -> str:
@@ -274,7 +369,7 @@ def mask_lines(verdict: object) -> list:
              + (f"; designed with a {mask.margin_db:g} dB margin" if mask.margin_db else "")
              + f"): {mask.describe()}"]
     rows = []
-    for name, figures in (("target", verdict.target), ("snapped", verdict.snapped),
+    for name, figures in (("target", verdict.target), ("preferred values", verdict.snapped),
                           ("continuous", verdict.continuous)):
         if figures is None:
             continue
@@ -286,7 +381,7 @@ def mask_lines(verdict: object) -> list:
                      else f"{figures.stopband_attenuation_db:.3f} dB",
                      fmt_db(figures.stopband_margin_db), _margin_words(figures, mask)])
     lines.append(table(["response", "pass-band deviation", "margin", "least stop-band attenuation",
-                        "margin", "verdict"], rows))
+                        "margin", "verdict"], rows, width=WIDTH, wrap=5))
     shares = [f"pass band alone {100 * verdict.passband_yield:.1f} %"
               if verdict.passband_yield is not None else "",
               f"stop band alone {100 * verdict.stopband_yield:.1f} %"
@@ -296,9 +391,9 @@ def mask_lines(verdict: object) -> list:
                  + (f" ({', '.join(x for x in shares if x)})" if any(shares) else ""))
     snapped = verdict.snapped
     if snapped.meets:
-        lines.append("  The snapped circuit meets the mask.")
+        lines.append("  The circuit with preferred values meets the mask.")
     else:
-        lines.append("  The snapped circuit does not meet the mask: "
+        lines.append("  The circuit with preferred values does not meet the mask: "
                      + _margin_words(snapped, mask).removeprefix("MISSES: ") + "."
                      + ("" if mask.margin_db else
                         " A design margin ([target] margin, in dB) leaves headroom for "

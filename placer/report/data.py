@@ -11,6 +11,7 @@ import math
 import numpy as np
 
 from ..place.amplifier import amplifier_summary
+from ..place.placement import worst_error_quantity
 from ..place.solve import passband_gain
 from ..spec.target_table import target_to_dict
 from ..units import finite_or_none
@@ -78,6 +79,9 @@ def candidate_to_dict(candidate):
     }
     if candidate.reachable:
         out["error_pct"] = finite_or_none(candidate.error_pct)
+        # what the worst error measures ("f0", "Q", "zero f0", "roots", "gain")
+        out["error_of"] = worst_error_quantity(candidate.errors)
+        out["gain_error_db"] = finite_or_none(candidate.errors.gain_db)
         out["parts"] = int(candidate.topology.part_count)
         out["opamps"] = int(candidate.topology.opamp_count)
         out["spread"] = {k: float(v) for k, v in candidate.spread.items()}

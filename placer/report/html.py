@@ -23,7 +23,7 @@ from .. import __version__
 from ..evidence.tolerance import MAX_REJECTION_DB
 from ..units import format_value
 from .console import (fmt_db, fmt_edges, fmt_gain, fmt_hz, fmt_pct, fmt_peak_at, fmt_q,
-                      fmt_rejection, fmt_where, mask_lines, windows_text)
+                      fmt_error, fmt_rejection, fmt_where, mask_lines, why_chosen, windows_text)
 from .page import (POWER_CAUTION, Plots, caution_block, escape, finish_report, number_or_dash,
                    paragraph, prepare_outputs, spec_block, table)
 from .plots import bode_figure, histogram_figure, loop_bode_figure, pole_zero_figure, step_figure
@@ -149,8 +149,8 @@ def write_design_report(design: Design, data: dict[str, Any], evidence: Evidence
 
 def _section_tables(data: dict[str, Any]) -> list[str]:
     out = ["<h2>Target and achieved, section by section</h2>",
-           paragraph("“Continuous” is the exact solution before snapping; “preferred values” is the "
-              "built design. Errors are of the preferred-value design against the target.",
+           paragraph("“Continuous” is the exact solution before the parts take preferred values; "
+              "“preferred values” is the built design. Errors are of the preferred-value design against the target.",
               "note")]
     for s in data["sections"]:
         t, a, c, e = s["target"], s["achieved"], s["continuous"], s["error"]
@@ -167,7 +167,7 @@ def _section_tables(data: dict[str, Any]) -> list[str]:
                          fmt_hz(a["zero_f0_hz"]), fmt_pct(e["zero_f0_pct"])])
         rows.append(["gain (dB)", fmt_gain(t["gain_db"]), fmt_gain(c["gain_db"]),
                      fmt_gain(a["gain_db"]), fmt_db(e["gain_db"])])
-        out.append(table(["figure", "target", "continuous", "preferred values", "error"], rows))
+        out.append(table(["quantity", "target", "continuous", "preferred values", "error"], rows))
     achieved = data["achieved"]
     out.append(paragraph(f"Whole cascade: target gain {fmt_gain(data['target']['gain_db'])}, achieved "
                   f"{fmt_gain(achieved['gain_db'])} {fmt_where(achieved.get('gain_at_hz'))}"
@@ -323,11 +323,11 @@ def _monte_carlo_parts(evidence: Evidence, plots: Plots) -> list[str]:
             rows.append([f"rejection at {fmt_hz(mc.reject_hz)} (dB)",
                          fmt_rejection(mc.nominal_rejection_db), fmt_rejection(rej.mean),
                          f"{rej.std:.2f} dB", f"{fmt_rejection(rej.p01)} – {fmt_rejection(rej.p99)}"])
-        out.append(table(["figure", "nominal", "mean", "standard deviation",
+        out.append(table(["quantity", "nominal", "mean", "standard deviation",
                            "1 % – 99 % of builds"], rows))
         if mc.yield_fraction is not None:
             out.append(paragraph(f"Yield: {100 * mc.yield_fraction:.1f} % of builds fall inside every "
-                          f"window ({windows_text(windows)})."))
+                          f"window around nominal ({windows_text(windows)})."))
     return out
 
 
@@ -373,13 +373,17 @@ def _candidates(data: dict[str, Any]) -> list[str]:
     out = ["<h2>Topologies tried</h2>"]
     for s in data["sections"]:
         rows = [[c["topology"], "chosen" if c["topology"] == s["topology"] else "",
-                 fmt_pct(c["error_pct"]) if c["reachable"] else "cannot reach",
+                 fmt_error(c["error_pct"], c.get("error_of"), c.get("gain_error_db"))
+                 if c["reachable"] else "cannot reach",
                  c.get("parts", "-"), c.get("opamps", "-")] if c["reachable"]
                 else [c["topology"], "", "cannot reach", "-", c.get("reason", "")]
                 for c in s["candidates"]]
         out.append(f"<h3>Section {s['index']}</h3>")
-        out.append(table(["topology", "", "worst error (%)", "parts", "op-amps / reason"], rows,
+        out.append(table(["topology", "", "worst error", "parts", "op-amps / reason"], rows,
                           numeric_from=2))
+        why = why_chosen(s["candidates"])
+        if why:
+            out.append(paragraph(why.strip().capitalize()))
     return out
 
 
@@ -566,7 +570,7 @@ def _loop_monte_carlo_parts(result: LoopResult, data: dict[str, Any], mc: dict[s
     out = ["<h2>Tolerance spread (Monte Carlo)</h2>",
            paragraph(f"{mc['samples']} builds, {mc['distribution']} distribution, seed {mc['seed']}; "
               f"tolerances: {tolerances}."),
-           table(["figure", "value"], rows)]
+           table(["quantity", "value"], rows)]
     samples = None if result.monte_carlo is None else result.monte_carlo.phase_margin_deg
     if samples is not None:
         out.append(plots.block("phase-margin-histogram", histogram_figure(

@@ -19,9 +19,9 @@ from .prelayout import compensator_lines
 __all__ = ["LOOP_CAUTION", "loop_data", "loop_text"]
 
 #: Printed after every loop result.
-LOOP_CAUTION = ("Caution: power converters and anything connected to mains can hurt people. "
-                "These values are a starting point: confirm the loop by simulation and on the "
-                "bench, and follow the applicable safety standards and licensed practice.")
+LOOP_CAUTION = ("Caution: power converters and anything connected to mains can hurt people.\n"
+                "These values are a starting point: confirm the loop by simulation and on the bench,\n"
+                "and follow the applicable safety standards and licensed practice.")
 
 _UNITS = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 _MONTE_CARLO = {"samples": ("builds", ""), "phase_margin_worst_deg": ("worst phase margin", "°"),
@@ -132,7 +132,7 @@ def loop_text(data: dict) -> str:
     lines += root_lines(data)
     lines.append(table(["loop", "crossover", "phase margin", "gain margin", "phase crossover"],
                        [_margin_row("continuous", data["continuous"]),
-                        _margin_row("snapped", data)]))
+                        _margin_row("preferred values", data)]))
     rows = [[p["name"], p["kind"], format_value(p["value"], _UNITS.get(p["kind"], "")),
              p["series"], format_value(p["continuous"], _UNITS.get(p["kind"], ""), digits=4)]
             for p in data["parts"]]

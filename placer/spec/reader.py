@@ -20,7 +20,8 @@ engineering string read by :mod:`placer.units`):
 ``[tolerance]``
     ``resistor``, ``capacitor``, ``inductor`` (e.g. "1%"; default: the
     series' usual tolerance), ``distribution`` ("uniform", "gaussian"),
-    ``samples``, ``seed``, and yield windows ``f0``, ``q``, ``gain`` (±)
+    ``samples``, ``seed``, and yield windows ``f0``, ``q``, ``gain`` (±;
+    default :data:`~placer.evidence.tolerance.DEFAULT_WINDOWS`, ±2 %, ±5 %, ±0.5 dB)
     and ``rejection`` (a notch section's least rejection at its target
     zero frequency, e.g. "40 dB").
 ``[amplifier]``
@@ -56,6 +57,7 @@ from typing import TYPE_CHECKING, Any
 from ..circuit.elements import KIND_UNITS, VALUE_LIMITS, check_part_value
 from ..errors import SpecError, brief
 from ..eseries import check_series, usual_tolerance
+from ..evidence.tolerance import DEFAULT_WINDOWS
 from ..circuit.library import load_folder, resolve_topology
 from .loop_table import loop_from_table
 from ..place.opamp import AMPLIFIER_PRESETS, AmplifierSpec
@@ -115,7 +117,7 @@ class ToleranceSpec:
     distribution: str = "uniform"
     samples: int = 2000
     seed: int = 0
-    windows: dict[str, float] = field(default_factory=lambda: {"f0": 0.02, "q": 0.05})
+    windows: dict[str, float] = field(default_factory=lambda: dict(DEFAULT_WINDOWS))
 
 
 @dataclass(frozen=True)
@@ -359,7 +361,7 @@ def _tolerance(table: dict, parts: PartsSpec, source: str) -> ToleranceSpec:
     seed = table.get("seed", 0)
     if seed < 0:
         raise SpecError(f"{source}: tolerance.seed = {seed!r} must be a whole number >= 0")
-    windows = {"f0": 0.02, "q": 0.05}
+    windows = dict(DEFAULT_WINDOWS)
     for key in ("f0", "q"):
         if key in table:
             windows[key] = _percent_window(table, key, source)
