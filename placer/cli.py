@@ -555,9 +555,10 @@ def _loop_text(data):
                  f"{k['plant_phase_deg']:.1f}°, plant gain {k['plant_gain_db']:.2f} dB)")
     lines.append(table(["loop", "crossover", "phase margin", "gain margin", "phase crossover"],
                        [margin_row("continuous", data["continuous"]), margin_row("snapped", data)]))
-    unit = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
-    rows = [[p["name"], p["kind"], format_value(p["value"], unit.get(p["kind"], "")), p["series"],
-             format_value(p["continuous"], unit.get(p["kind"], ""), digits=4)] for p in data["parts"]]
+    from .circuit.elements import KIND_UNITS
+
+    rows = [[p["name"], p["kind"], format_value(p["value"], KIND_UNITS.get(p["kind"], "")), p["series"],
+             format_value(p["continuous"], KIND_UNITS.get(p["kind"], ""), digits=4)] for p in data["parts"]]
     lines.append("")
     lines.append(table(["part", "kind", "value", "series", "continuous value"], rows))
     mc = data.get("monte_carlo")
@@ -613,8 +614,8 @@ def _cmd_topologies(args):
     errors = {}
     if args.folder:
         loaded = load_folder(args.folder)
-        pool.update(loaded["topologies"])
-        errors = loaded["errors"]
+        pool.update(loaded.topologies)
+        errors = loaded.errors
     if args.schematic and not args.id:
         raise SpecError("--schematic: name a topology, for example "
                         "`placer topologies mfb-lowpass --schematic mfb.svg`")

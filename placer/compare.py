@@ -46,7 +46,7 @@ from .design import candidate_topologies, check_part_names, place_candidate, rea
 from .errors import PlacerError, SpecError
 from .place.gbw import as_built_gbw, required_gbw, search_top_hz
 from .place.opamp import AmplifierSpec, check_amplifier
-from .place.placement import Candidate, candidate_seeds, value_spread, worst_error_pct
+from .place.placement import Candidate, candidate_seeds, value_spread
 from .analysis.noise import analyse_noise
 from .evidence.prelayout import checked_circuit, level_rules_for, settings_for
 from .analysis.return_ratio import opamp_loops
@@ -337,7 +337,7 @@ def _ideal_design(candidate: Candidate) -> tuple[dict, float]:
     and without ``[amplifier]``.
     """
     if isinstance(candidate, AmplifiedCandidate):
-        return candidate.ideal_snapped.values, worst_error_pct(candidate.ideal_errors)
+        return candidate.ideal_snapped.values, candidate.ideal_errors.worst_error_with_gain_pct
     return candidate.snapped.values, candidate.error_pct
 
 
@@ -569,13 +569,13 @@ def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, pro
     tasks, failed = [], []
     levels = level_rules_for(spec, sections)
     plans = [candidate_topologies(section, spec) for section in sections]
-    check_part_names(spec, [t for topologies, _ in plans for t in topologies])
-    for index, (section, (topologies, load_errors)) in enumerate(zip(sections, plans), start=1):
-        for topology in sorted(topologies, key=lambda t: t.id):
+    check_part_names(spec, [t for plan in plans for t in plan.topologies])
+    for index, (section, plan) in enumerate(zip(sections, plans), start=1):
+        for topology in sorted(plan.topologies, key=lambda t: t.id):
             tasks.append(_Task(spec, index, section, topology, samples, seed, gbw,
                                levels[index - 1]))
         failed.append([CandidateResult(index, path, reason=message)
-                       for path, message in sorted(load_errors.items())])
+                       for path, message in sorted(plan.load_errors.items())])
     results = _run(tasks, workers, progress)
     ranked = []
     for index, section in enumerate(sections, start=1):

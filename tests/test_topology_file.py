@@ -317,10 +317,10 @@ def test_load_folder_lists_the_bad_file_and_loads_the_others(tmp_path):
     bad = write(tmp_path, "b-bad.toml", HEADER.replace('"lowpass"', '"bandstop"') + ELEMENTS)
     write(tmp_path, "notes.txt", "not a topology")
     result = load_folder(tmp_path)
-    assert sorted(result["topologies"]) == ["demo-lowpass", "demo-two"]
-    assert list(result["errors"]) == [str(bad)]
-    assert "bandstop" in result["errors"][str(bad)]
-    assert str(bad) in result["errors"][str(bad)]
+    assert sorted(result.topologies) == ["demo-lowpass", "demo-two"]
+    assert list(result.errors) == [str(bad)]
+    assert "bandstop" in result.errors[str(bad)]
+    assert str(bad) in result.errors[str(bad)]
 
 
 def test_load_folder_that_does_not_exist(tmp_path):

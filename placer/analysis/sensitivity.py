@@ -41,7 +41,8 @@ import numpy as np
 import sympy
 
 from ..errors import SpecError, TopologyError
-from .network import NetworkFunction, batched_roots, polynomial_values
+from .network import NetworkFunction, polynomial_values
+from .second_order import dominant_pair, omega0_q, passband_gain
 
 __all__ = ["Sensitivities", "sensitivities"]
 
@@ -130,48 +131,18 @@ def _figures(numerator, denominator, ref):
         if ref.order == 1:
             omega0, q = denominator[1] / denominator[0], None
         elif ref.order == 2:
-            # The same expressions as NetworkFunction.omega0 and .q.
-            omega0 = np.sqrt(denominator[2] / denominator[0])
-            q = np.sqrt(denominator[0] * denominator[2]) / denominator[1]
+            omega0, q = omega0_q(*denominator)
         else:
-            omega0, q = _dominant_pair(denominator, ref.omega_ref)
+            omega0, q = dominant_pair(denominator, ref.omega_ref)
         gain = _gain(numerator, denominator, ref)
     return omega0, q, gain
 
 
 def _gain(numerator, denominator, ref):
-    if ref.gain_kind == "dc":
-        return numerator[-1] / denominator[-1]
-    if ref.gain_kind == "center":
-        return numerator[-2] / denominator[-2]
-    if ref.gain_kind == "hf":
-        return numerator[0] / denominator[0]
+    if ref.gain_kind in ("dc", "center", "hf"):
+        return passband_gain(numerator, denominator, ref.gain_kind)
     s = 1j * ref.omega_ref
     return np.abs(polynomial_values(numerator, s) / polynomial_values(denominator, s))
-
-
-def _dominant_pair(denominator, omega_ref):
-    """ω0 and Q of the complex pair with the highest Q, per column.
-
-    With no complex pair, the two real poles nearest the origin are taken
-    as a pair (ω0 = √(p1 p2), Q = ω0 / −(p1 + p2)).
-    """
-    roots = batched_roots(denominator, scale=omega_ref)
-    magnitude = np.abs(roots)
-    upper = roots.imag > 1e-9 * magnitude
-    damping = np.where(upper, np.abs(roots.real) / np.where(magnitude > 0, magnitude, 1.0), np.inf)
-    rows = np.arange(roots.shape[0])
-    pole = roots[rows, np.argmin(damping, axis=1)]
-    omega_complex = np.abs(pole)
-    q_complex = omega_complex / (-2.0 * pole.real)
-    real_magnitude = np.where(upper | (roots.imag < -1e-9 * magnitude), np.inf, magnitude)
-    nearest = np.argsort(real_magnitude, axis=1)[:, :2]
-    p1 = roots[rows, nearest[:, 0]].real
-    p2 = roots[rows, nearest[:, 1]].real
-    omega_real = np.sqrt(p1 * p2)
-    q_real = omega_real / -(p1 + p2)
-    has_pair = upper.any(axis=1)
-    return np.where(has_pair, omega_complex, omega_real), np.where(has_pair, q_complex, q_real)
 
 
 # -- sensitivities ----------------------------------------------------------

@@ -30,7 +30,9 @@ on the effect of finite op-amp bandwidth (from memory).
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 
@@ -38,6 +40,7 @@ from ..analysis.dominant import DominantFunction, nearest_root_set
 from ..errors import UnreachableTarget
 from .level import within
 from ..analysis.network import network_function
+from ..analysis.second_order import pair_figures
 from .opamp import (
     GBW_SPREAD,
     apply_amplifier,
@@ -46,9 +49,12 @@ from .opamp import (
     function_at_gbw,
 )
 from ..analysis.pencil import circuit_poles
-from .placement import Candidate, place_ideal, problem_options, snap_weighs_gain
-from .snap import COARSE_BUDGET, snap
-from .solve import make_problem, root_errors, solve
+from .placement import Candidate, IdealPlacement, place_ideal, problem_options, snap_weighs_gain
+from .snap import COARSE_BUDGET, SnapResult, snap
+from .solve import Problem, Solution, make_problem, root_errors, solve
+
+if TYPE_CHECKING:
+    from ..circuit.topology import Topology
 
 __all__ = [
     "Drift",
@@ -57,6 +63,7 @@ __all__ = [
     "amplifier_summary",
     "built_drift",
     "correct_placement",
+    "CorrectedPlacement",
     "gbw_spread_error",
     "robust_first",
     "ROBUST_STARTS",
@@ -88,7 +95,8 @@ class Drift:
     q_shift_pct: float | None
 
     @property
-    def worst_pct(self):
+    def worst_root_error_pct(self) -> float:
+        """Worst of the f0 and Q drifts, percent (no gain in a drift)."""
         return max(abs(x) for x in (self.f0_pct, self.q_pct) if x is not None)
 
 
@@ -167,8 +175,7 @@ def _pair_figures(poles, goal):
         return abs(chosen[0]), None
     if len(chosen) != 2:
         return math.nan, math.nan
-    omega0 = math.sqrt(abs(chosen[0] * chosen[1]))
-    return omega0, omega0 / -float((chosen[0] + chosen[1]).real)
+    return pair_figures(chosen[0], chosen[1])
 
 
 def built_drift(topology, values, goal, amplifier):
@@ -310,20 +317,23 @@ def _correct(section, topology, amplifier, modelled, ideal, parts, seed, coarse_
             errors=ideal.errors, continuous_errors=ideal.continuous_errors,
             drift=ideal_drift, note="the topology has no op-amp: nothing to model", **common,
         )
-    ranges, series, fixed, constraints = problem_options(topology, parts)
+    options = problem_options(topology, parts)
     prefer = None
     if amplifier.gbw is not None:
         prefer = gbw_spread_error(topology, goal, function_at_gbw(topology.circuit, amplifier),
-                                  amplifier.gbw, ranges=ranges, fixed=fixed, constraints=constraints)
+                                  amplifier.gbw, ranges=options.ranges, fixed=options.fixed,
+                                  constraints=options.constraints)
     try:
-        problem, solution, snapped = correct_placement(
-            ideal, topology, dominant, ranges=ranges, fixed=fixed, constraints=constraints,
-            series=series, seed=seed, coarse_budget=coarse_budget, prefer=prefer)
+        corrected = correct_placement(
+            ideal, topology, dominant, ranges=options.ranges, fixed=options.fixed,
+            constraints=options.constraints, series=options.series, seed=seed,
+            coarse_budget=coarse_budget, prefer=prefer)
     except UnreachableTarget as reason:
         return AmplifiedCandidate(
             reachable=False,
             reason=f"with the op-amp model ({describe_amplifier(amplifier)}): {reason.reason}", **common,
         )
+    problem, solution, snapped = corrected.problem, corrected.solution, corrected.snapped
     return AmplifiedCandidate(
         reachable=True, problem=problem, solution=solution, snapped=snapped,
         errors=root_errors(dominant, snapped.values, goal),
@@ -335,8 +345,21 @@ def _correct(section, topology, amplifier, modelled, ideal, parts, seed, coarse_
     )
 
 
-def correct_placement(ideal, topology, dominant, *, ranges=None, fixed=None, constraints=None,
-                      series=None, seed=0, coarse_budget=COARSE_BUDGET, prefer=None):
+class CorrectedPlacement(NamedTuple):
+    """A section re-solved and snapped with its op-amps modelled."""
+
+    problem: Problem
+    solution: Solution
+    snapped: SnapResult
+
+
+def correct_placement(ideal: IdealPlacement, topology: Topology, dominant: DominantFunction, *,
+                      ranges: Mapping[str, tuple[float, float]] | None = None,
+                      fixed: Mapping[str, float] | None = None, constraints: Sequence = (),
+                      series: Mapping[str, str] | None = None, seed: int = 0,
+                      coarse_budget: int = COARSE_BUDGET,
+                      prefer: Callable[[np.ndarray], np.ndarray] | None = None,
+                      ) -> CorrectedPlacement:
     """Re-solve and snap a section's dominant roots, starting from its ideal placement.
 
     Parameters
@@ -357,7 +380,8 @@ def correct_placement(ideal, topology, dominant, *, ranges=None, fixed=None, con
 
     Returns
     -------
-    (Problem, Solution, SnapResult)
+    CorrectedPlacement
+        ``problem``, ``solution`` and ``snapped``.
 
     Raises
     ------
@@ -371,12 +395,13 @@ def correct_placement(ideal, topology, dominant, *, ranges=None, fixed=None, con
     solution = solve(problem, seed=seed, initial=[ideal.solution.u, *ideal.solution.alternatives],
                      starts=ROBUST_STARTS)
     if prefer is None:
-        return problem, solution, snap(problem, solution, series=series, coarse_budget=coarse_budget,
-                                       with_gain=snap_weighs_gain(problem, solution))
+        return CorrectedPlacement(problem, solution, snap(
+            problem, solution, series=series, coarse_budget=coarse_budget,
+            with_gain=snap_weighs_gain(problem, solution)))
     solution = robust_first(problem, solution, prefer)
     snapped = snap(problem, solution, series=series, coarse_budget=coarse_budget, prefer=prefer,
                    spread_slack=ROBUST_SLACK, with_gain=snap_weighs_gain(problem, solution))
-    return problem, solution, snapped
+    return CorrectedPlacement(problem, solution, snapped)
 
 
 def gbw_spread_error(topology, goal, family, gbw, *, ranges=None, fixed=None, constraints=None,
@@ -415,7 +440,7 @@ def gbw_spread_error(topology, goal, family, gbw, *, ranges=None, fixed=None, co
 
     def score(U):
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-            return np.maximum(*(p.worst_error(U) for p in problems))
+            return np.maximum(*(p.worst_error_matched(U) for p in problems))
     return score
 
 
@@ -434,7 +459,7 @@ def robust_first(problem, solution, prefer):
     rest = tuple(u for u in options if u is not best)
     values = {k: float(np.asarray(v)) for k, v in problem.values(best).items()}
     return replace(solution, u=best, values=values, alternatives=(best,) + rest,
-                   error=float(problem.worst_error(best, with_gain=False)))
+                   error=float(problem.worst_root_error(best)))
 
 
 def amplifier_summary(candidate):

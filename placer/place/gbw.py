@@ -28,7 +28,7 @@ from .amplifier import correct_placement, gbw_spread_error
 from ..analysis.dominant import DominantFunction
 from ..errors import SpecError, UnreachableTarget
 from .opamp import GBW_SPREAD, AmplifierSpec, check_amplifier, function_at_gbw
-from .placement import place_ideal, problem_options, worst_error_pct
+from .placement import place_ideal, problem_options
 from .solve import root_errors
 from ..units import format_value
 
@@ -153,11 +153,11 @@ def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain
     except UnreachableTarget as reason:
         return GBWRequirement(math.inf, math.inf, (), error_pct, gbw_spread,
                               note=f"the topology cannot reach the section: {reason.reason}")
-    if worst_error_pct(ideal.errors) > error_pct:
+    if ideal.errors.worst_error_with_gain_pct > error_pct:
         return GBWRequirement(
             math.inf, math.inf, (), error_pct, gbw_spread,
             note=f"even with ideal op-amps the snapped design misses by "
-                 f"{worst_error_pct(ideal.errors):.3g} %, more than the bound",
+                 f"{ideal.errors.worst_error_with_gain_pct:.3g} %, more than the bound",
         )
     if topology.circuit.opamp_count == 0:
         return GBWRequirement(0.0, 0.0, (), error_pct, gbw_spread, note="the topology has no op-amp")
@@ -167,7 +167,7 @@ def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain
 
     def worst_at(gbw, values):
         dominant = DominantFunction.for_goal(function_at(gbw), ideal.goal)
-        return worst_error_pct(root_errors(dominant, values, ideal.goal))
+        return root_errors(dominant, values, ideal.goal).worst_error_with_gain_pct
 
     def corrected(gbw):
         if gbw not in corrected_at:
@@ -262,7 +262,7 @@ def as_built_gbw(topology, values, goal, *, error_pct=1.0, amplifier_gain=None, 
 
     def ok(gbw):
         dominant = DominantFunction.for_goal(function_at(gbw), goal)
-        return worst_error_pct(root_errors(dominant, values, goal)) <= error_pct
+        return root_errors(dominant, values, goal).worst_error_with_gain_pct <= error_pct
 
     return _bisect(ok, low, high, rtol)
 
@@ -404,7 +404,7 @@ def _corrected_hint(function_at, ideal, error_pct, gbw_spread, low, high):
     checks every decision on corrected designs.
     """
     goal, values = ideal.goal, ideal.snapped.values
-    floor = worst_error_pct(ideal.errors)
+    floor = ideal.errors.worst_error_with_gain_pct
     if not gbw_spread:
         return low
 
@@ -449,14 +449,14 @@ def _correct(ideal, topology, function, ranges, series, fixed, constraints, seed
     goal = ideal.goal
     dominant = DominantFunction.for_goal(function, goal)
     try:
-        _, _, snapped = correct_placement(ideal, topology, dominant, ranges=ranges, fixed=fixed,
-                                          constraints=constraints, series=series, seed=seed,
-                                          coarse_budget=coarse_budget, prefer=prefer)
+        snapped = correct_placement(ideal, topology, dominant, ranges=ranges, fixed=fixed,
+                                    constraints=constraints, series=series, seed=seed,
+                                    coarse_budget=coarse_budget, prefer=prefer).snapped
     except UnreachableTarget:
         return None
     parasitic = dominant.parasitic_poles(snapped.values)
     return _Corrected(
         values=snapped.values,
-        error_pct=worst_error_pct(root_errors(dominant, snapped.values, goal)),
+        error_pct=root_errors(dominant, snapped.values, goal).worst_error_with_gain_pct,
         parasitic_poles_hz=tuple(sorted(float(abs(p)) / (2 * math.pi) for p in parasitic)),
     )

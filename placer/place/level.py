@@ -50,6 +50,7 @@ from ..errors import UnreachableTarget
 from ..analysis.mna import layout, stamps
 from ..analysis.network import network_function
 from ..analysis.noise import noise_grid, noise_sources, transfers_to_output
+from ..circuit.elements import KIND_UNITS
 from ..units import format_value
 
 __all__ = [
@@ -254,7 +255,7 @@ def _range_failure(problem, values: dict, scaled: dict) -> str:
             continue
         low, high = problem.topology.ranges[symbol]
         value = float(values[symbol])
-        unit = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}[problem.topology.kind_of(symbol)]
+        unit = KIND_UNITS[problem.topology.kind_of(symbol)]
         if value < low * (1 - 1e-9) or value > high * (1 + 1e-9):
             side = "below" if value < low else "above"
             return (f"{symbol} would be {format_value(value, unit)}, {side} its range "

@@ -160,7 +160,7 @@ def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE
     fine = [i for i in range(n) if i not in coarse]
 
     def error_of(U):
-        return problem.worst_error(U, with_gain=with_gain)
+        return problem.worst_error_matched(U, with_gain=with_gain)
 
     starts = [solution.u] + [u for u in solution.alternatives if u is not solution.u]
     coarse_sets = _coarse_candidates(grids, coarse, starts, coarse_budget)
@@ -216,7 +216,7 @@ def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE
     spreads = _spreads(pool, kinds)
     # without the gain in the objective (a gain tied to the poles), the spread
     # must not be bought with gain either
-    gain_errors = None if with_gain else problem.worst_error(pool, with_gain=True)
+    gain_errors = None if with_gain else problem.worst_error_with_gain(pool)
     scores = None if prefer is None else _scores(prefer, pool)
     best = pool[:, _choose(errors, spreads, spread_slack, gain_errors, scores)]
     values = {k: float(np.asarray(v)) for k, v in problem.values(best).items()}
@@ -232,7 +232,7 @@ def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE
         problem.low, problem.high, iterations=40,
     )[:, 0]
     continuous = {k: float(np.asarray(v)) for k, v in problem.values(near).items()}
-    if float(problem.worst_error(near, with_gain=with_gain)) > max(solution.error, 1e-9) * 10:
+    if float(problem.worst_error_matched(near, with_gain=with_gain)) > max(solution.error, 1e-9) * 10:
         continuous = dict(solution.values)
     numerator, denominator = problem.nf.coefficients(values)
     error = float(figure_error(numerator, denominator, problem.goal, with_gain=with_gain))
@@ -323,7 +323,7 @@ def _rounded(U, grids, parts, problem):
     budget = max(1, CANDIDATE_BUDGET // len(choices))
     if U.shape[1] > budget:
         # keep the columns whose continuous fine solution is best
-        errors = problem.worst_error(U)
+        errors = problem.worst_error_matched(U)
         U = U[:, np.argsort(errors)[:budget]]
     lower, upper = {}, {}
     for i in active:

@@ -6,11 +6,11 @@ import csv
 import io
 
 from ..eseries import usual_tolerance
+from ..circuit.elements import KIND_UNITS
 from ..units import format_value
 
 __all__ = ["bom_rows", "bom_csv"]
 
-_UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 
 
 def bom_rows(parts, *, tolerances=None, opamps=()):
@@ -42,7 +42,7 @@ def bom_rows(parts, *, tolerances=None, opamps=()):
             tolerance = usual_tolerance(series)
         rows.append({
             "references": " ".join(p.name for p in members),
-            "value": format_value(members[0].value, _UNIT[kind]),
+            "value": format_value(members[0].value, KIND_UNITS[kind]),
             "value_si": float(members[0].value),
             "series": series or "-",
             "tolerance": f"{100 * tolerance:g}%" if tolerance else "-",

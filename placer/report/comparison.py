@@ -151,7 +151,7 @@ def comparison_text(comparison):
 
 def _candidate_schematics(comparison, s, resistor_style):
     """Each reachable candidate of a section drawn with its snapped values."""
-    pool = {t.id: t for t in candidate_topologies(s.section, comparison.spec)[0]}
+    pool = {t.id: t for t in candidate_topologies(s.section, comparison.spec).topologies}
     out = []
     for rank, c in enumerate((c for c in s.candidates if c.reachable), start=1):
         if c.topology in pool:

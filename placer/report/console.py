@@ -6,13 +6,13 @@ import math
 import sys
 
 from ..evidence.tolerance import MAX_REJECTION_DB
+from ..circuit.elements import KIND_UNITS
 from ..units import format_value
 from .prelayout import cascade_lines, section_lines
 
 __all__ = ["table", "design_text", "target_text", "evidence_text", "Progress", "fmt_pct", "fmt_db",
            "mask_lines", "fmt_hz", "fmt_where", "fmt_edges", "fmt_peak_at", "fmt_gain", "fmt_seconds", "fmt_rejection", "windows_text"]
 
-_UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 
 
 def windows_text(windows):
@@ -126,8 +126,8 @@ def design_text(data):
         lines.append(table(["figure", "target", "achieved (snapped)", "error", "continuous"], rows))
         rows = []
         for p in s["parts"]:
-            rows.append([p["name"], p["kind"], format_value(p["value"], _UNIT[p["kind"]]),
-                         p["series"] or "fixed", format_value(p["continuous"], _UNIT[p["kind"]], digits=4)])
+            rows.append([p["name"], p["kind"], format_value(p["value"], KIND_UNITS[p["kind"]]),
+                         p["series"] or "fixed", format_value(p["continuous"], KIND_UNITS[p["kind"]], digits=4)])
         lines.append("")
         lines.append(table(["part", "kind", "value", "series", "continuous value"], rows))
         lines.extend(f"  note: {note}" for note in s.get("notes", ()))
