@@ -85,7 +85,6 @@ GBW_ERROR_PCT = 1.0
 GBW_FACTOR = 100.0
 
 _PART_KINDS = ("resistor", "capacitor", "inductor")
-_RULE_FAMILIES = ("sallen-key", "mfb-")
 _SOURCES = {
     "practice": "common practice (no source): GBW >= 100·f0·Q for Sallen–Key and "
                 "multiple-feedback stages",
@@ -370,7 +369,7 @@ def _gbw_needed(section: Section, topology: Topology, spec: Spec, method: str,
             elif need.note:
                 source += f"; re-solved for the op-amp: {need.note}"
         return _GBWFigure(figure if math.isfinite(figure) else None, source, resolved)
-    kind = "practice" if topology.id.startswith(_RULE_FAMILIES) else "thumb"
+    kind = "practice" if topology.gbw_rule else "thumb"   # the topology file's gbw_rule
     source = _SOURCES[kind]
     if section.q is None:
         source += "; Q taken as 1 for a first-order stage"

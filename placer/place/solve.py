@@ -32,6 +32,7 @@ from scipy.stats import qmc
 
 from ..errors import SpecError, UnreachableTarget
 from ..circuit.library import realises
+from ..circuit.topology import Topology
 from ..analysis.network import network_function
 from ..analysis.second_order import first_order_omega, omega0_q, passband_gain, zero_pair_omega
 from .ties import tie_parts
@@ -615,19 +616,31 @@ def structural_reason(topology, goal, problem=None):
         )
     if goal.zeros and topology.response == "lowpass":
         return "a low-pass topology has no finite zeros; the section needs zeros"
-    if problem is not None and goal.q is not None and "sallen-key-lowpass-unity" in topology.id:
-        c_parts = [p for p in problem.independent if topology.kind_of(p) == "capacitor"]
-        if len(c_parts) == 2:
-            ratio = math.exp(problem.high[problem.independent.index(c_parts[0])]
-                             - problem.low[problem.independent.index(c_parts[1])])
-            ratio = max(ratio, math.exp(problem.high[problem.independent.index(c_parts[1])]
-                                        - problem.low[problem.independent.index(c_parts[0])]))
-            if ratio < 4 * goal.q**2:
-                return (
-                    f"the unity-gain Sallen–Key needs C1/C2 >= 4Q^2 = {4 * goal.q**2:.3g}, "
-                    f"but the capacitor range allows at most {ratio:.3g}"
-                )
+    if problem is not None and goal.q is not None and topology.capacitor_ratio_per_q2:
+        return _capacitor_ratio_reason(topology, problem, goal.q)
     return ""
+
+
+def _capacitor_ratio_reason(topology: Topology, problem: Problem, q: float) -> str:
+    """Why the capacitor ranges cannot give the ratio k·Q² the topology needs; "" when they can.
+
+    `k` is the topology file's ``capacitor_ratio_per_q2`` (4 for the
+    unity-gain Sallen–Key's C1/C2 >= 4Q^2).
+    """
+    c_parts = [p for p in problem.independent if topology.kind_of(p) == "capacitor"]
+    if len(c_parts) != 2:
+        return ""
+    first, second = (problem.independent.index(p) for p in c_parts)
+    ratio = max(math.exp(problem.high[first] - problem.low[second]),
+                math.exp(problem.high[second] - problem.low[first]))
+    need = topology.capacitor_ratio_per_q2 * q**2
+    if ratio >= need:
+        return ""
+    return (
+        f"topology {topology.id!r} needs {c_parts[0]}/{c_parts[1]} >= "
+        f"{topology.capacitor_ratio_per_q2:g}Q^2 = {need:.3g}, "
+        f"but the capacitor range allows at most {ratio:.3g}"
+    )
 
 
 @dataclass(frozen=True)
