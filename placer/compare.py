@@ -63,6 +63,7 @@ if TYPE_CHECKING:
 __all__ = [
     "RANK_KEYS", "GBW_METHODS", "CandidateResult", "SectionComparison", "Comparison",
     "candidate_seeds", "rank_candidates", "compare", "comparison_to_dict",
+    "GBW_SOURCES", "GBW_SOURCES_SHORT",
 ]
 
 #: Ranking keys and what each orders by; unreachable candidates always come last.
@@ -85,7 +86,8 @@ GBW_ERROR_PCT = 1.0
 GBW_FACTOR = 100.0
 
 _PART_KINDS = ("resistor", "capacitor", "inductor")
-_SOURCES = {
+#: Where each GBW figure comes from, in words (the comparison report shows them).
+GBW_SOURCES = {
     "practice": "common practice (no source): GBW >= 100·f0·Q for Sallen–Key and "
                 "multiple-feedback stages",
     "thumb": "rule of thumb: GBW >= 100·f0·Q, the Sallen–Key/MFB practice applied to "
@@ -95,7 +97,8 @@ _SOURCES = {
              f"least 10·f0, at which the snapped design, as built, stays within "
              f"{GBW_ERROR_PCT:g} % of the target",
 }
-_SHORT = {"practice": "100·f0·Q (common practice)", "thumb": "100·f0·Q (rule of thumb)",
+#: The same, short, for the comparison table.
+GBW_SOURCES_SHORT = {"practice": "100·f0·Q (common practice)", "thumb": "100·f0·Q (rule of thumb)",
           "passive": "-", "built": "op-amp model", "model": "op-amp model"}
 
 
@@ -344,10 +347,10 @@ def _gbw_needed(section: Section, topology: Topology, spec: Spec, method: str,
                 candidate: Candidate, seed: int) -> _GBWFigure:
     """The :class:`_GBWFigure` of one reachable candidate (`seed`: its solver's)."""
     if topology.opamp_count == 0:
-        return _GBWFigure(None, _SOURCES["passive"])
+        return _GBWFigure(None, GBW_SOURCES["passive"])
     if method in ("built", "model"):
         # The ideal-op-amp design as snapped: what it needs as built.
-        source = _SOURCES["built"]
+        source = GBW_SOURCES["built"]
         values, error_pct = _ideal_design(candidate)
         if error_pct > GBW_ERROR_PCT:
             return _GBWFigure(None, source + f"; its error with ideal op-amps, {error_pct:.3g} %, "
@@ -370,7 +373,7 @@ def _gbw_needed(section: Section, topology: Topology, spec: Spec, method: str,
                 source += f"; re-solved for the op-amp: {need.note}"
         return _GBWFigure(figure if math.isfinite(figure) else None, source, resolved)
     kind = "practice" if topology.gbw_rule else "thumb"   # the topology file's gbw_rule
-    source = _SOURCES[kind]
+    source = GBW_SOURCES[kind]
     if section.q is None:
         source += "; Q taken as 1 for a first-order stage"
     return _GBWFigure(_rule_gbw(section), source)

@@ -85,6 +85,12 @@ if TYPE_CHECKING:
     from .sensitivity import (
         Sensitivities,
         sensitivities,
+        FigureReference,
+        figure_reference,
+        coefficient_figures,
+        check_has_poles,
+        nominal_values,
+        is_real_number,
     )
 
 #: Public name -> the module of this folder that defines it.
@@ -141,6 +147,12 @@ _EXPORTS = {
     "dominant_pair": "second_order",
     "Sensitivities": "sensitivity",
     "sensitivities": "sensitivity",
+    "FigureReference": "sensitivity",
+    "figure_reference": "sensitivity",
+    "coefficient_figures": "sensitivity",
+    "check_has_poles": "sensitivity",
+    "nominal_values": "sensitivity",
+    "is_real_number": "sensitivity",
 }
 
 __all__ = sorted(_EXPORTS)

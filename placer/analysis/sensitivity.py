@@ -44,7 +44,16 @@ from ..errors import SpecError, TopologyError
 from .network import NetworkFunction, polynomial_values
 from .second_order import dominant_pair, omega0_q, passband_gain
 
-__all__ = ["Sensitivities", "sensitivities"]
+__all__ = [
+    "Sensitivities",
+    "sensitivities",
+    "FigureReference",
+    "figure_reference",
+    "coefficient_figures",
+    "check_has_poles",
+    "nominal_values",
+    "is_real_number",
+]
 
 #: Log-space step of the numeric sensitivities.
 _LOG_STEP = 1e-4
@@ -76,23 +85,26 @@ class Sensitivities:
 
 # -- validation -------------------------------------------------------------
 
-def _check_order(nf):
+def check_has_poles(nf):
+    """Raise TopologyError for a network of order 0 (no ω0, Q or sensitivities to read)."""
     if nf.order < 1:
         raise TopologyError("the network has no poles (order 0): no ω0, Q or sensitivities")
 
 
-def _is_number(x):
+def is_real_number(x):
+    """True for a real number that is not a bool."""
     return isinstance(x, numbers.Real) and not isinstance(x, bool)
 
 
-def _nominal_values(nf, values):
+def nominal_values(nf, values):
+    """Every part symbol → its value as a float; SpecError for a missing or non-finite one."""
     out = {}
     for name in nf.symbols:
         if name not in values:
             raise SpecError(
                 f"no value for part {name!r}; every part needs one (parts: {', '.join(nf.symbols)})"
             )
-        if not (_is_number(values[name]) and math.isfinite(values[name])):
+        if not (is_real_number(values[name]) and math.isfinite(values[name])):
             raise SpecError(f"value of {name!r} must be a finite number in SI units, "
                             f"not {values[name]!r}")
         out[name] = float(values[name])
@@ -102,7 +114,7 @@ def _nominal_values(nf, values):
 # -- figures from coefficient arrays ----------------------------------------
 
 @dataclass(frozen=True)
-class _Reference:
+class FigureReference:
     """How figures are read for one network (fixed at the nominal values)."""
 
     order: int
@@ -111,7 +123,8 @@ class _Reference:
     gain_label: str
 
 
-def _reference(nf, nominal):
+def figure_reference(nf, nominal):
+    """How the figures of `nf` are read (order, gain kind, reference frequency) at `nominal`."""
     numerator, denominator = nf.coefficients(nominal)
     order = denominator.shape[0] - 1
     omega_ref = float(abs(denominator[-1] / denominator[0]) ** (1.0 / order))
@@ -122,10 +135,10 @@ def _reference(nf, nominal):
     if kind == "hf" and numerator.shape[0] - 1 < order:
         kind = "reference"
         label = f"|H| at {omega_ref / (2 * math.pi):.6g} Hz"
-    return _Reference(order, kind, omega_ref, label)
+    return FigureReference(order, kind, omega_ref, label)
 
 
-def _figures(numerator, denominator, ref):
+def coefficient_figures(numerator, denominator, ref):
     """(ω0 rad/s, Q or None, gain) arrays from coefficient arrays (..., N)."""
     with np.errstate(divide="ignore", invalid="ignore"):
         if ref.order == 1:
@@ -177,13 +190,13 @@ def sensitivities(nf, values):
     >>> s.omega0["R1"], s.gain["R1"], s.q
     (-1.0, 0.0, None)
     """
-    _check_order(nf)
-    nominal = _nominal_values(nf, values)
+    check_has_poles(nf)
+    nominal = nominal_values(nf, values)
     if nf.order <= 2 and isinstance(nf, NetworkFunction):
         return _symbolic_sensitivities(nf, nominal)
     # a function with no symbolic figures (the dominant part of a circuit
     # whose op-amps are modelled) is read numerically, at its own order
-    return _numeric_sensitivities(nf, nominal, _reference(nf, nominal))
+    return _numeric_sensitivities(nf, nominal, figure_reference(nf, nominal))
 
 
 def _symbolic_sensitivities(nf, nominal):
@@ -219,7 +232,7 @@ def _numeric_sensitivities(nf, nominal, ref):
         factors[i, 2 * i] = math.exp(_LOG_STEP)
         factors[i, 2 * i + 1] = math.exp(-_LOG_STEP)
     columns = {name: nominal[name] * factors[i] for i, name in enumerate(names)}
-    omega0, q, gain = _figures(*nf.coefficients(columns), ref)
+    omega0, q, gain = coefficient_figures(*nf.coefficients(columns), ref)
     out = {}
     out["q"] = None
     for key, figure in (("omega0", omega0), ("q", q), ("gain", gain)):

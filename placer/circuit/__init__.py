@@ -11,6 +11,9 @@ from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
     from .drawing import (
+        PlanBuilder,
+        spans_cross,
+        leg_point,
         DRAWING_KEYS,
         DrawingSpec,
         Point,
@@ -75,6 +78,9 @@ if TYPE_CHECKING:
 
 #: Public name -> the module of this folder that defines it.
 _EXPORTS = {
+    "PlanBuilder": "drawing",
+    "spans_cross": "drawing",
+    "leg_point": "drawing",
     "DRAWING_KEYS": "drawing",
     "DrawingSpec": "drawing",
     "Point": "drawing",

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 
 from .. import __version__
-from ..compare import _SHORT, _SOURCES, RANK_KEYS, SectionComparison
+from ..compare import GBW_SOURCES_SHORT, GBW_SOURCES, RANK_KEYS, SectionComparison
 from ..design import candidate_topologies
 from ..units import format_value
 from .console import fmt_rejection, table, windows_text
@@ -57,10 +57,10 @@ def _number(x, digits=3):
 
 
 def _short_source(source):
-    for key, text in _SOURCES.items():
+    for key, text in GBW_SOURCES.items():
         if source.startswith(text):
-            return _SHORT[key]
-    return _SHORT["model"] if source else "-"
+            return GBW_SOURCES_SHORT[key]
+    return GBW_SOURCES_SHORT["model"] if source else "-"
 
 
 def _heading(comparison):
@@ -122,7 +122,7 @@ def _notes(comparison):
         legend.append(_REJECTION_LEGEND)
     # one line per method; a candidate's own detail (why "-") is in the JSON
     sources = {c.gbw_source for s in comparison.sections for c in s.candidates if c.reachable}
-    methods = sorted({x.split("; ")[0] for x in sources if x and x != _SOURCES["passive"]})
+    methods = sorted({x.split("; ")[0] for x in sources if x and x != GBW_SOURCES["passive"]})
     return legend, methods
 
 
