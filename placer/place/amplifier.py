@@ -32,7 +32,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, replace
-from typing import TYPE_CHECKING, NamedTuple
+from typing import TYPE_CHECKING, Any, NamedTuple
 
 import numpy as np
 
@@ -51,10 +51,14 @@ from .opamp import (
 from ..analysis.pencil import circuit_poles
 from .placement import Candidate, IdealPlacement, place_ideal, problem_options, snap_weighs_gain
 from .snap import COARSE_BUDGET, SnapResult, snap
-from .solve import Problem, Solution, make_problem, root_errors, solve
+from .solve import Goal, Problem, Solution, make_problem, root_errors, solve
 
 if TYPE_CHECKING:
+    from ..circuit.elements import Circuit
     from ..circuit.topology import Topology
+    from .opamp import AmplifierSpec
+    from ..spec.reader import PartsSpec
+    from ..target.targets import Section
 
 __all__ = [
     "Drift",
@@ -166,7 +170,7 @@ def _drift(ideal_nf, modelled_nf, values, goal):
     )
 
 
-def _pair_figures(poles, goal):
+def _pair_figures(poles: Sequence[complex], goal: Goal) -> tuple[float, float | None]:
     """ω0 (rad/s) and Q (None for one pole) of the poles nearest the goal's."""
     x = np.asarray(poles, dtype=complex)[None, :] / goal.omega_ref
     mask = nearest_root_set(x, np.asarray(goal.poles, dtype=complex) / goal.omega_ref)[0]
@@ -304,7 +308,9 @@ def place_section_with_amplifier(section, topology, amplifier, *, parts=None, se
     return _correct(section, topology, amplifier, modelled, ideal, parts, seed, coarse_budget)
 
 
-def _correct(section, topology, amplifier, modelled, ideal, parts, seed, coarse_budget):
+def _correct(section: Section, topology: Topology, amplifier: AmplifierSpec, modelled: Circuit,
+             ideal: IdealPlacement, parts: PartsSpec | None, seed: int,
+             coarse_budget: int) -> AmplifiedCandidate:
     goal = ideal.goal
     full = network_function(modelled)
     dominant = DominantFunction.for_goal(full, goal)
@@ -404,8 +410,10 @@ def correct_placement(ideal: IdealPlacement, topology: Topology, dominant: Domin
     return CorrectedPlacement(problem, solution, snapped)
 
 
-def gbw_spread_error(topology, goal, family, gbw, *, ranges=None, fixed=None, constraints=None,
-                     spread=GBW_SPREAD):
+def gbw_spread_error(topology: Topology, goal: Goal, family: Callable[[float], Any], gbw: float, *,
+                     ranges: Mapping[str, tuple[float, float]] | None = None,
+                     fixed: Mapping[str, float] | None = None, constraints: Sequence = (),
+                     spread: float = GBW_SPREAD) -> Callable[[np.ndarray], np.ndarray]:
     """A score for :func:`placer.place.snap.snap`'s `prefer`: the error at GBW·(1 ± spread).
 
     Designs corrected for an op-amp differ a great deal in how far they move
@@ -438,13 +446,14 @@ def gbw_spread_error(topology, goal, family, gbw, *, ranges=None, fixed=None, co
         for edge in (gbw * (1 - spread), gbw * (1 + spread))
     ]
 
-    def score(U):
+    def score(U: np.ndarray) -> np.ndarray:
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
             return np.maximum(*(p.worst_error_matched(U) for p in problems))
     return score
 
 
-def robust_first(problem, solution, prefer):
+def robust_first(problem: Problem, solution: Solution,
+                 prefer: Callable[[np.ndarray], np.ndarray]) -> Solution:
     """The solution with the best-scoring of its on-target alternatives first.
 
     The snapper starts from ``solution.u``; starting it from the most

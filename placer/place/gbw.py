@@ -31,7 +31,7 @@ from ..analysis.dominant import DominantFunction
 from ..errors import SpecError, UnreachableTarget
 from .opamp import GBW_SPREAD, AmplifierSpec, check_amplifier, function_at_gbw
 from .placement import IdealPlacement, ProblemOptions, place_ideal, problem_options
-from .solve import root_errors
+from .solve import Goal, root_errors
 from ..units import format_value
 
 if TYPE_CHECKING:
@@ -253,7 +253,9 @@ def _requirement_notes(gbw: float, uncorrected: float, low: float, high: float,
     return "; ".join(notes)
 
 
-def as_built_gbw(topology, values, goal, *, error_pct=1.0, amplifier_gain=None, rtol=0.02):
+def as_built_gbw(topology: Topology, values: Mapping[str, float], goal: Goal, *,
+                 error_pct: float = 1.0, amplifier_gain: float | None = None,
+                 rtol: float = 0.02) -> float:
     """Smallest GBW (Hz) at which a design, built as it is, meets `error_pct`.
 
     Bisection in log GBW over [10·f0, 1e4·f0·max(Q, 1)] (f0 of the goal,
@@ -439,7 +441,8 @@ def _guided_bisect(worst, bound, low, high, rtol, hint):
     return min(met) if met else hi
 
 
-def _corrected_hint(function_at, ideal, error_pct, gbw_spread, low, high):
+def _corrected_hint(function_at: Callable[[float], Any], ideal: IdealPlacement, error_pct: float,
+                    gbw_spread: float, low: float, high: float) -> float:
     """A guess (Hz) of the corrected search's answer, from the ideal design alone.
 
     A design corrected at a GBW g sits on target there (up to its snapping

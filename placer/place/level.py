@@ -41,17 +41,20 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING
 
 import numpy as np
 from numpy.typing import NDArray
 
-from ..circuit.elements import Circuit
+from ..circuit.elements import KIND_UNITS, Circuit
 from ..errors import UnreachableTarget
 from ..analysis.mna import layout, stamps
 from ..analysis.network import network_function
 from ..analysis.noise import noise_grid, noise_sources, transfers_to_output
-from ..circuit.elements import KIND_UNITS
 from ..units import format_value
+
+if TYPE_CHECKING:
+    from .solve import Problem
 
 __all__ = [
     "LOAD_HEADROOM",
@@ -249,7 +252,7 @@ def _grid(band: tuple, points_per_decade: int) -> NDArray[np.float64]:
     return np.geomspace(band[0], band[1], count)
 
 
-def _range_failure(problem, values: dict, scaled: dict) -> str:
+def _range_failure(problem: Problem, values: dict, scaled: dict) -> str:
     for symbol in scaled:
         if symbol not in problem.topology.ranges:
             continue

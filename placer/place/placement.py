@@ -29,13 +29,16 @@ import numpy as np
 
 from ..analysis.pencil import natural_frequencies
 from .level import choose_level, within
-from .snap import snap
-from .solve import Problem, Solution, goal_from_section, make_problem, root_errors, solve
+from .snap import SnapResult, snap
+from .solve import (Goal, Problem, RootErrors, Solution, goal_from_section, make_problem,
+                    root_errors, solve)
 
 if TYPE_CHECKING:
     from ..circuit.elements import Circuit
     from ..spec.reader import PartsSpec
     from ..circuit.topology import Topology
+    from ..target.targets import Section
+    from .level import LevelRule
 
 __all__ = [
     "PART_KINDS",
@@ -82,12 +85,12 @@ class IdealPlacement:
         The snapped and the continuous values' errors against the goal.
     """
 
-    goal: object
-    problem: object
-    solution: object
-    snapped: object
-    errors: object
-    continuous_errors: object
+    goal: Goal
+    problem: Problem
+    solution: Solution
+    snapped: SnapResult
+    errors: RootErrors
+    continuous_errors: RootErrors
     window: tuple | None = None     # the impedance level's snapping bounds (placer.place.level)
 
 
@@ -165,7 +168,8 @@ def parts_notes(topology: Topology, parts: PartsSpec | None) -> tuple[str, ...]:
     return tuple(notes)
 
 
-def place_ideal(section, topology, *, parts=None, seed=0, level=None):
+def place_ideal(section: Section, topology: Topology, *, parts: PartsSpec | None = None,
+                seed: int = 0, level: LevelRule | None = None) -> IdealPlacement:
     """Solve and snap one topology for one section with ideal op-amps.
 
     Parameters
@@ -291,7 +295,7 @@ class Candidate:
     notes: tuple = ()
 
     @property
-    def error_pct(self):
+    def error_pct(self) -> float:
         """Worst root/figure error after snapping, percent, gain included."""
         return self.errors.worst_error_with_gain_pct if self.reachable else math.inf
 

@@ -345,7 +345,7 @@ def _neighbours(grid, u):
     return np.where(np.abs(above - u) < 1e-9, above, below), above
 
 
-def _rounded(U, grids, parts, problem):
+def _rounded(U: np.ndarray, grids: list, parts: list[int], problem: Problem) -> np.ndarray:
     """Every floor/ceil choice of the snapped `parts` for every column of U."""
     active = [i for i in parts if grids[i] is not None]
     if not active:

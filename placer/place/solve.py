@@ -22,7 +22,7 @@ fixed parts keep their values. A target a topology cannot reach raises
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field, replace
 from typing import Any
 
@@ -156,8 +156,8 @@ class Problem:
     (source part, factor); ``fixed`` holds numbers for the other parts.
     """
 
-    topology: object
-    nf: object
+    topology: Topology
+    nf: Any               # NetworkFunction or DominantFunction: coefficients, poles, zeros
     goal: Goal
     independent: tuple
     tied: dict
@@ -200,7 +200,8 @@ class Problem:
         return self.worst_error_with_gain(u) if with_gain else self.worst_root_error(u)
 
 
-def residuals_from(numerator, denominator, goal, *, with_gain=True):
+def residuals_from(numerator: np.ndarray, denominator: np.ndarray, goal: Goal, *,
+                   with_gain: bool = True) -> np.ndarray:
     """Residuals of numeric coefficients against a goal (vectorised)."""
     n = denominator.shape[0] - 1
     scale = goal.omega_ref ** np.arange(n, -1, -1).reshape((-1,) + (1,) * (denominator.ndim - 1))
@@ -260,7 +261,8 @@ def _coefficient_residual(achieved: np.ndarray, wanted: float) -> np.ndarray:
     return np.where(ratio > 0, right, wrong)
 
 
-def figure_error(numerator, denominator, goal, *, with_gain=True):
+def figure_error(numerator: np.ndarray, denominator: np.ndarray, goal: Goal, *,
+                 with_gain: bool = True) -> np.ndarray:
     """Worst relative error of ω0, Q (and zero ω0, gain) — vectorised.
 
     For first- and second-order goals these are the section figures; for
@@ -364,7 +366,7 @@ def make_problem(topology, goal, *, ranges=None, fixed=None, constraints=None, n
     return replace(problem, gain_adjustable=_gain_is_adjustable(problem))
 
 
-def _gain_is_adjustable(problem):
+def _gain_is_adjustable(problem: Problem) -> bool:
     """True when the pass-band gain moves with some independent part."""
     if problem.goal.gain is None or not problem.independent:
         return False
@@ -393,7 +395,8 @@ class Solution:
     gain_matched: bool = False  # the pass-band gain is on target too
 
 
-def solve(problem, *, starts=12, seed=0, tolerance=1e-6, initial=()):
+def solve(problem: Problem, *, starts: int = 12, seed: int = 0, tolerance: float = 1e-6,
+          initial: Sequence[np.ndarray] = ()) -> Solution:
     """Continuous part values meeting the goal, multi-start in log space.
 
     Parameters
@@ -567,7 +570,7 @@ def _spread(problem, u):
     return total
 
 
-def _miss_reason(problem, u, error):
+def _miss_reason(problem: Problem, u: np.ndarray, error: float) -> str:
     values = _floats(problem.values(u))
     numerator, denominator = problem.nf.coefficients(values)
     achieved = ""
@@ -586,7 +589,7 @@ def _miss_reason(problem, u, error):
     )
 
 
-def structural_reason(topology, goal, problem=None):
+def structural_reason(topology: Topology, goal: Goal, problem: Problem | None = None) -> str:
     """Why a topology cannot realise a goal, in words; "" when it might.
 
     Examples
