@@ -46,7 +46,7 @@ from .design import candidate_topologies, check_part_names, place_candidate, rea
 from .errors import PlacerError, SpecError
 from .place.gbw import as_built_gbw, required_gbw, search_top_hz
 from .place.opamp import AmplifierSpec, check_amplifier
-from .place.placement import Candidate, candidate_seeds, value_spread
+from .place.placement import PART_KINDS, Candidate, candidate_seeds, value_spread
 from .analysis.noise import analyse_noise
 from .evidence.prelayout import checked_circuit, level_rules_for, settings_for
 from .analysis.return_ratio import opamp_loops
@@ -85,7 +85,6 @@ GBW_ERROR_PCT = 1.0
 #: The rule-of-thumb factor: GBW >= GBW_FACTOR · f0 · Q.
 GBW_FACTOR = 100.0
 
-_PART_KINDS = ("resistor", "capacitor", "inductor")
 #: Where each GBW figure comes from, in words (the comparison report shows them).
 GBW_SOURCES = {
     "practice": "common practice (no source): GBW >= 100·f0·Q for Sallen–Key and "
@@ -434,7 +433,7 @@ def _evaluate(task):
         target_yield = _target_yield(task.section, result, spec.tolerance.windows)
         # monte_carlo's sensitivities are sensitivities(nf, values) at these nominal values
         sens = result.sensitivities
-        parts = [s for s, k in kinds.items() if k in _PART_KINDS]
+        parts = [s for s, k in kinds.items() if k in PART_KINDS]
         gbw = _gbw_needed(task.section, topology, spec, task.gbw, candidate, solver_seed)
         rule_hz = _rule_gbw(task.section) if topology.opamp_count else None
         drift = _drift_at(topology, _ideal_design(candidate)[0], candidate.problem.goal, rule_hz,
