@@ -30,6 +30,9 @@ if TYPE_CHECKING:
         AS_BUILT_FLOOR,
         search_top_hz,
     )
+    from .least_squares import (
+        batched_least_squares,
+    )
     from .level import (
         LOAD_HEADROOM,
         DEFAULT_MIN_LOAD,
@@ -91,7 +94,6 @@ if TYPE_CHECKING:
         RootErrors,
         root_errors,
         structural_reason,
-        batched_least_squares,
         figure_error,
     )
     from .ties import (
@@ -117,6 +119,7 @@ _EXPORTS = {
     "as_built_gbw": "gbw",
     "AS_BUILT_FLOOR": "gbw",
     "search_top_hz": "gbw",
+    "batched_least_squares": "least_squares",
     "LOAD_HEADROOM": "level",
     "DEFAULT_MIN_LOAD": "level",
     "LevelRule": "level",
@@ -169,7 +172,6 @@ _EXPORTS = {
     "RootErrors": "solve",
     "root_errors": "solve",
     "structural_reason": "solve",
-    "batched_least_squares": "solve",
     "figure_error": "solve",
     "Ties": "ties",
     "tie_parts": "ties",

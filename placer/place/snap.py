@@ -39,7 +39,8 @@ import numpy as np
 
 from ..errors import SpecError
 from ..eseries import check_series, nearest, series_values
-from .solve import Problem, Solution, batched_least_squares, figure_error
+from .least_squares import batched_least_squares
+from .solve import Problem, Solution, figure_error
 
 __all__ = ["SnapResult", "snap", "round_each", "default_series", "COARSE_BUDGET",
            "SPREAD_SLACK", "ERROR_CEILING"]

@@ -35,6 +35,7 @@ from ..circuit.library import realises
 from ..circuit.topology import Topology
 from ..analysis.network import network_function
 from ..analysis.second_order import first_order_omega, omega0_q, passband_gain, zero_pair_omega
+from .least_squares import batched_least_squares
 from .ties import tie_parts
 
 __all__ = [
@@ -48,7 +49,6 @@ __all__ = [
     "RootErrors",
     "root_errors",
     "structural_reason",
-    "batched_least_squares",
     "figure_error",
 ]
 
@@ -486,72 +486,6 @@ def solve(problem: Problem, *, starts: int = 12, seed: int = 0, tolerance: float
         values=_floats(problem.values(best_u)), error=best_error, u=best_u,
         alternatives=tuple(distinct), gain_matched=gain_matched,
     )
-
-
-def batched_least_squares(fun, U0, low, high, *, iterations=60, step=1e-6, cost_tol=1e-26,
-                          prune_after=None, prune_cost=None):
-    """Levenberg–Marquardt on many starting points at once, within a box.
-
-    Parameters
-    ----------
-    fun : callable
-        ``fun(U, columns) -> R`` with U of shape (n, k) and R of shape
-        (m, k); ``columns`` (length k) says which start each column of U
-        belongs to, for functions that hold per-start data.
-    U0 : ndarray, shape (n, batch)
-    low, high : ndarray, shape (n,)
-        Bounds; steps are projected onto the box.
-
-    cost_tol : float
-        A start stops once its sum of squared residuals is below this.
-    prune_after, prune_cost : int and float, optional
-        After `prune_after` iterations, stop working on starts whose cost
-        is still above `prune_cost` (hopeless ones, in a discrete search).
-
-    Returns
-    -------
-    ndarray, shape (n, batch)
-        The improved points (each no worse than its start).
-    """
-    U = np.array(U0, dtype=float)
-    n, batch = U.shape
-    low = np.asarray(low, float)[:, None]
-    high = np.asarray(high, float)[:, None]
-    R = fun(U, np.arange(batch))
-    cost = np.sum(R**2, axis=0)
-    damping = np.full(batch, 1e-3)
-    active = np.arange(batch)
-    eye = np.eye(n)
-    for iteration in range(iterations):
-        keep = (cost[active] > cost_tol) & (damping[active] < 1e8)
-        if prune_after is not None and iteration >= prune_after:
-            keep &= cost[active] < prune_cost
-        active = active[keep]
-        if active.size == 0:
-            break
-        Ua, Ra, k = U[:, active], R[:, active], active.size
-        # forward-difference Jacobian, every column of every start in one call
-        shifted = Ua[:, None, :] + step * eye[:, :, None]
-        Rs = fun(shifted.reshape(n, n * k), np.tile(active, n)).reshape(Ra.shape[0], n, k)
-        J = (Rs - Ra[:, None, :]) / step                       # (m, n, k)
-        JtJ = np.einsum("mik,mjk->kij", J, J)
-        g = np.einsum("mik,mk->ki", J, Ra)
-        diagonal = np.maximum(np.einsum("kii->ki", JtJ), 1e-12)
-        A = JtJ + (damping[active, None] * diagonal)[:, :, None] * eye[None]
-        try:
-            delta = -np.linalg.solve(A, g[..., None])[..., 0].T  # (n, k)
-        except np.linalg.LinAlgError:
-            delta = -(np.linalg.pinv(A) @ g[..., None])[..., 0].T
-        trial = np.clip(Ua + delta, low, high)
-        Rt = fun(trial, active)
-        trial_cost = np.sum(Rt**2, axis=0)
-        better = trial_cost < cost[active]
-        chosen = active[better]
-        U[:, chosen] = trial[:, better]
-        R[:, chosen] = Rt[:, better]
-        cost[chosen] = trial_cost[better]
-        damping[active] = np.clip(np.where(better, damping[active] * 0.3, damping[active] * 10.0), 1e-12, 1e8)
-    return U
 
 
 def _floats(values):
