@@ -55,7 +55,7 @@ from placer.errors import SpecError, UnreachableTarget  # noqa: E402
 from placer.place.gbw import required_gbw  # noqa: E402
 from placer.circuit.library import get_topology  # noqa: E402
 from placer.analysis.network import network_function  # noqa: E402
-from placer.place.placement import place_ideal, worst_error_pct  # noqa: E402
+from placer.place.placement import place_ideal  # noqa: E402
 from placer.place.solve import root_errors  # noqa: E402
 from placer.target.targets import make_section  # noqa: E402
 
@@ -82,7 +82,7 @@ def old_required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_
         ideal = place_ideal(section, topology, parts=parts, seed=seed)
     except UnreachableTarget:
         return math.inf, math.inf, ()
-    if worst_error_pct(ideal.errors) > error_pct:
+    if ideal.errors.worst_error_with_gain_pct > error_pct:
         return math.inf, math.inf, ()
     if topology.circuit.opamp_count == 0:
         return 0.0, 0.0, ()
@@ -94,7 +94,7 @@ def old_required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_
     def worst_at(gbw, values):
         dominant = DominantFunction.for_goal(
             network_function(apply_amplifier(topology.circuit, model(gbw))), ideal.goal)
-        return worst_error_pct(root_errors(dominant, values, ideal.goal))
+        return root_errors(dominant, values, ideal.goal).worst_error_with_gain_pct
 
     def corrected(gbw):
         if gbw not in corrected_at:

@@ -591,8 +591,8 @@ def _cmd_topologies(args):
     errors = {}
     if args.folder:
         loaded = load_folder(args.folder)
-        pool.update(loaded["topologies"])
-        errors = loaded["errors"]
+        pool.update(loaded.topologies)
+        errors = loaded.errors
     if args.schematic and not args.id:
         raise SpecError("--schematic: name a topology, for example "
                         "`placer topologies mfb-lowpass --schematic mfb.svg`")

@@ -46,7 +46,7 @@ from .design import candidate_topologies, check_part_names, place_candidate, rea
 from .errors import PlacerError, SpecError
 from .place.gbw import as_built_gbw, required_gbw, search_top_hz
 from .place.opamp import AmplifierSpec, check_amplifier
-from .place.placement import (Candidate, candidate_seeds, value_spread, worst_error_pct,
+from .place.placement import (PART_KINDS, Candidate, candidate_seeds, value_spread,
                               worst_error_quantity)
 from .analysis.noise import analyse_noise
 from .evidence.prelayout import checked_circuit, level_rules_for, settings_for
@@ -65,6 +65,7 @@ if TYPE_CHECKING:
 __all__ = [
     "RANK_KEYS", "GBW_METHODS", "CandidateResult", "SectionComparison", "Comparison",
     "candidate_seeds", "rank_candidates", "compare", "comparison_to_dict",
+    "GBW_SOURCES", "GBW_SOURCES_SHORT",
 ]
 
 #: Ranking keys and what each orders by; unreachable candidates always come last.
@@ -86,9 +87,8 @@ GBW_ERROR_PCT = 1.0
 #: The rule-of-thumb factor: GBW >= GBW_FACTOR · f0 · Q.
 GBW_FACTOR = 100.0
 
-_PART_KINDS = ("resistor", "capacitor", "inductor")
-_RULE_FAMILIES = ("sallen-key", "mfb-")
-_SOURCES = {
+#: Where each GBW figure comes from, in words (the comparison report shows them).
+GBW_SOURCES = {
     "practice": "common practice (no source): GBW >= 100·f0·Q for Sallen–Key and "
                 "multiple-feedback stages",
     "thumb": "common practice for Sallen–Key and multiple-feedback stages, GBW >= 100·f0·Q, "
@@ -99,7 +99,8 @@ _SOURCES = {
              f"within "
              f"{GBW_ERROR_PCT:g} % of the target",
 }
-_SHORT = {"practice": "100·f0·Q (common practice)", "thumb": "100·f0·Q (by extension)",
+#: The same, short, for the comparison table.
+GBW_SOURCES_SHORT = {"practice": "100·f0·Q (common practice)", "thumb": "100·f0·Q (by extension)",
           "passive": "-", "built": "op-amp model", "model": "op-amp model"}
 
 
@@ -360,7 +361,7 @@ def _ideal_design(candidate: Candidate) -> tuple[dict, float]:
     and without ``[amplifier]``.
     """
     if isinstance(candidate, AmplifiedCandidate):
-        return candidate.ideal_snapped.values, worst_error_pct(candidate.ideal_errors)
+        return candidate.ideal_snapped.values, candidate.ideal_errors.worst_error_with_gain_pct
     return candidate.snapped.values, candidate.error_pct
 
 
@@ -368,10 +369,10 @@ def _gbw_needed(section: Section, topology: Topology, spec: Spec, method: str,
                 candidate: Candidate, seed: int) -> _GBWFigure:
     """The :class:`_GBWFigure` of one reachable candidate (`seed`: its solver's)."""
     if topology.opamp_count == 0:
-        return _GBWFigure(None, _SOURCES["passive"])
+        return _GBWFigure(None, GBW_SOURCES["passive"])
     if method in ("built", "model"):
         # The ideal-op-amp design as snapped: what it needs as built.
-        source = _SOURCES["built"]
+        source = GBW_SOURCES["built"]
         values, error_pct = _ideal_design(candidate)
         if error_pct > GBW_ERROR_PCT:
             return _GBWFigure(None, source + f"; its error with ideal op-amps, {error_pct:.3g} %, "
@@ -393,8 +394,8 @@ def _gbw_needed(section: Section, topology: Topology, spec: Spec, method: str,
             elif need.note:
                 source += f"; re-solved for the op-amp: {need.note}"
         return _GBWFigure(figure if math.isfinite(figure) else None, source, resolved)
-    kind = "practice" if topology.id.startswith(_RULE_FAMILIES) else "thumb"
-    source = _SOURCES[kind]
+    kind = "practice" if topology.gbw_rule else "thumb"   # the topology file's gbw_rule
+    source = GBW_SOURCES[kind]
     if section.q is None:
         source += "; Q taken as 1 for a first-order stage"
     return _GBWFigure(_rule_gbw(section), source)
@@ -455,7 +456,7 @@ def _evaluate(task):
         target_yield = _target_yield(task.section, result, spec.tolerance.windows)
         # monte_carlo's sensitivities are sensitivities(nf, values) at these nominal values
         sens = result.sensitivities
-        parts = [s for s, k in kinds.items() if k in _PART_KINDS]
+        parts = [s for s, k in kinds.items() if k in PART_KINDS]
         gbw = _gbw_needed(task.section, topology, spec, task.gbw, candidate, solver_seed)
         rule_hz = _rule_gbw(task.section) if topology.opamp_count else None
         drift = _drift_at(topology, _ideal_design(candidate)[0], candidate.problem.goal, rule_hz,
@@ -593,13 +594,13 @@ def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, pro
     tasks, failed = [], []
     levels = level_rules_for(spec, sections)
     plans = [candidate_topologies(section, spec) for section in sections]
-    check_part_names(spec, [t for topologies, _ in plans for t in topologies])
-    for index, (section, (topologies, load_errors)) in enumerate(zip(sections, plans), start=1):
-        for topology in sorted(topologies, key=lambda t: t.id):
+    check_part_names(spec, [t for plan in plans for t in plan.topologies])
+    for index, (section, plan) in enumerate(zip(sections, plans), start=1):
+        for topology in sorted(plan.topologies, key=lambda t: t.id):
             tasks.append(_Task(spec, index, section, topology, samples, seed, gbw,
                                levels[index - 1]))
         failed.append([CandidateResult(index, path, reason=message)
-                       for path, message in sorted(load_errors.items())])
+                       for path, message in sorted(plan.load_errors.items())])
     results = _run(tasks, workers, progress)
     ranked = []
     for index, section in enumerate(sections, start=1):

@@ -61,6 +61,7 @@ __all__ = [
     "Design",
     "PartChoice",
     "candidate_topologies",
+    "CandidatePlan",
     "place_section",
     "place_candidate",
     "real_amplifier",
@@ -161,13 +162,19 @@ class Design:
         return design_figure(self, **options)
 
 
-def candidate_topologies(section: Section, spec: Spec | None = None
-                         ) -> tuple[list[Topology], dict[str, str]]:
+class CandidatePlan(NamedTuple):
+    """The topologies to try for a section, and the user's files that failed to load."""
+
+    topologies: list[Topology]
+    load_errors: dict[str, str]     # path -> message
+
+
+def candidate_topologies(section: Section, spec: Spec | None = None) -> CandidatePlan:
     """Topologies to try for a section, and files that failed to load.
 
     Returns
     -------
-    (list of Topology, dict path → error message)
+    CandidatePlan
     """
     errors: dict[str, str] = {}
     pool: dict[str, Topology] = {}
@@ -178,8 +185,8 @@ def candidate_topologies(section: Section, spec: Spec | None = None
             pool[topology.id] = topology
     if spec is not None and spec.folder:
         loaded = load_folder(spec.folder)
-        pool.update(loaded["topologies"])
-        errors.update(loaded["errors"])
+        pool.update(loaded.topologies)
+        errors.update(loaded.errors)
     if not names:
         for topology in find_topologies(response=section.kind, order=section.order):
             if topology.family != "ladder":  # a whole-filter ladder, with its -6 dB ends
@@ -187,7 +194,7 @@ def candidate_topologies(section: Section, spec: Spec | None = None
     fitting = [t for t in pool.values() if realises(t, section.kind) and t.order == section.order]
     if names and not fitting:
         fitting = list(pool.values())  # let each say why it cannot
-    return fitting, errors
+    return CandidatePlan(topologies=fitting, load_errors=errors)
 
 
 def place_section(section: Section, topology: Topology, *, parts: PartsSpec | None = None,
@@ -340,21 +347,21 @@ def design(spec: Spec, *, seed: int | None = None, progress: Progress | None = N
     if amplifier is not None:
         for index, section in enumerate(sections, start=1):
             check_amplifier(amplifier, section, index=index)
-    plans = [(section, *candidate_topologies(section, spec)) for section in sections]
+    plans = [candidate_topologies(section, spec) for section in sections]
     levels = level_rules_for(spec, sections)      # the impedance level of each section
-    check_part_names(spec, [t for p in plans for t in p[1]])
-    total = sum(len(p[1]) for p in plans)
+    check_part_names(spec, [t for p in plans for t in p.topologies])
+    total = sum(len(p.topologies) for p in plans)
     done = 0
     built: list[tuple[int, Section, list[Candidate]]] = []
-    for index, (section, topologies, load_errors) in enumerate(plans, start=1):
+    for index, (section, plan) in enumerate(zip(sections, plans), start=1):
         candidates: list[Candidate] = []
-        for topology in topologies:
+        for topology in plan.topologies:
             candidates.append(place(section, topology, index=index, parts=spec.parts,
                                     amplifier=amplifier, seed=seed, level=levels[index - 1]))
             done += 1
             if progress:
                 progress(done, total, topology.id)
-        for path, message in load_errors.items():
+        for path, message in plan.load_errors.items():
             candidates.append(Candidate(topology=_FailedFile(path), reachable=False, reason=message))
         reachable = [c for c in candidates if c.reachable]
         if not reachable:

@@ -260,6 +260,10 @@ TOPOLOGY_KEYS: dict[str, Key] = {
     "drawing": Key("table", "how the schematic is laid out (see the drawing description)"),
     "notch_kinds": Key("strings", "the notch sections a notch topology realises: notch, "
                                   "lowpass-notch, highpass-notch"),
+    "capacitor_ratio_per_q2": Key("number", "k of the capacitor ratio C1/C2 >= k*Q^2 the stage "
+                                            "needs (4 for a unity-gain Sallen-Key)"),
+    "gbw_rule": Key("boolean", "true when GBW >= 100*f0*Q is stated for this stage "
+                               "(Sallen-Key, multiple feedback)"),
 }
 
 #: Top-level keys of a circuit file (``placer analyze FILE``).

@@ -17,7 +17,7 @@ from placer.analysis.dominant import DominantFunction
 from placer.place.gbw import _bisect, _guided_bisect, required_gbw
 from placer.circuit.library import get_topology
 from placer.analysis.network import circuit_poles, network_function
-from placer.place.placement import place_ideal, worst_error_pct
+from placer.place.placement import place_ideal
 from placer.place.solve import goal_from_section, root_errors
 from placer.target.targets import make_section
 
@@ -96,7 +96,7 @@ def test_scaled_function_is_the_derivation_at_that_gbw(topology_id, gain):
         goal = goal_from_section(section())
         mine = root_errors(DominantFunction.for_goal(scaled, goal), ideal.snapped.values, goal)
         theirs = root_errors(DominantFunction.for_goal(direct, goal), ideal.snapped.values, goal)
-        assert worst_error_pct(mine) == pytest.approx(worst_error_pct(theirs), rel=1e-9, abs=1e-12)
+        assert mine.worst_error_with_gain_pct == pytest.approx(theirs.worst_error_with_gain_pct, rel=1e-9, abs=1e-12)
 
 
 def test_a_fixed_capacitor_falls_back_to_one_derivation_per_gbw():
@@ -210,7 +210,7 @@ def test_uncorrected_need_goes_as_one_over_the_error():
     # the ideal design's own error, needs about half the GBW
     topology = get_topology("sallen-key-lowpass-unity")
     ideal = place_ideal(section(), topology)
-    floor = worst_error_pct(ideal.errors)
+    floor = ideal.errors.worst_error_with_gain_pct
     tight = required_gbw(section(), topology, error_pct=1.0, rtol=0.01, gbw_spread=0.0)
     loose = required_gbw(section(), topology, error_pct=2.0, rtol=0.01, gbw_spread=0.0)
     ratio = tight.uncorrected_gbw_hz / loose.uncorrected_gbw_hz

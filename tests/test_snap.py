@@ -262,6 +262,6 @@ def test_spread_is_not_bought_with_a_gain_the_objective_leaves_out():
 
     def with_gain(result):
         values = np.log([result.values[name] for name in problem.independent])
-        return float(problem.worst_error(values, with_gain=True))
+        return float(problem.worst_error_with_gain(values))
 
     assert with_gain(traded) <= with_gain(least) + SPREAD_SLACK + 1e-7

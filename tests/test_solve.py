@@ -22,7 +22,7 @@ from numpy.testing import assert_allclose
 from scipy import signal
 
 from placer.errors import SpecError, UnreachableTarget
-from placer.circuit.library import get_topology
+from placer.circuit.library import LIBRARY_DIR, get_topology
 from placer.analysis.network import circuit_poles
 from placer.place.solve import goal_from_roots, goal_from_section, make_problem, solve
 from placer.target.targets import make_section
@@ -259,6 +259,27 @@ def test_unity_gain_sallen_key_needs_a_wide_enough_capacitor_range():
         solve(problem)
     assert "C1/C2 >= 4Q^2" in caught.value.reason
     assert "16" in caught.value.reason
+
+
+def test_the_capacitor_ratio_check_comes_from_the_topology_file():
+    # the same circuit under another id keeps the check (the file says
+    # capacitor_ratio_per_q2 = 4); with the key removed the check is gone and
+    # the solver says why it misses instead
+    text = (LIBRARY_DIR / "sallen-key-lowpass-unity.toml").read_text()
+    renamed = topology_from_text(text.replace('id = "sallen-key-lowpass-unity"', 'id = "my-follower-lp"'),
+                                 source="test")
+    assert renamed.capacitor_ratio_per_q2 == 4.0
+    section = make_section("lowpass", TWO_PI * 1e3, 2.0)
+    problem = make_problem(renamed, goal_from_section(section), ranges={"capacitor": (1e-9, 10e-9)})
+    with pytest.raises(UnreachableTarget, match=r"'my-follower-lp' needs C1/C2 >= 4Q\^2 = 16"):
+        solve(problem)
+    bare = topology_from_text("\n".join(line for line in text.splitlines()
+                                        if not line.startswith("capacitor_ratio_per_q2")), source="test")
+    assert bare.capacitor_ratio_per_q2 is None
+    problem = make_problem(bare, goal_from_section(section), ranges={"capacitor": (1e-9, 10e-9)})
+    with pytest.raises(UnreachableTarget) as caught:
+        solve(problem)
+    assert "4Q^2" not in caught.value.reason and "misses the goal" in caught.value.reason
 
 
 def test_unity_gain_sallen_key_capacitor_ratio_control():

@@ -317,10 +317,10 @@ def test_load_folder_lists_the_bad_file_and_loads_the_others(tmp_path):
     bad = write(tmp_path, "b-bad.toml", HEADER.replace('"lowpass"', '"bandstop"') + ELEMENTS)
     write(tmp_path, "notes.txt", "not a topology")
     result = load_folder(tmp_path)
-    assert sorted(result["topologies"]) == ["demo-lowpass", "demo-two"]
-    assert list(result["errors"]) == [str(bad)]
-    assert "bandstop" in result["errors"][str(bad)]
-    assert str(bad) in result["errors"][str(bad)]
+    assert sorted(result.topologies) == ["demo-lowpass", "demo-two"]
+    assert list(result.errors) == [str(bad)]
+    assert "bandstop" in result.errors[str(bad)]
+    assert str(bad) in result.errors[str(bad)]
 
 
 def test_load_folder_that_does_not_exist(tmp_path):
@@ -332,3 +332,24 @@ def test_load_folder_given_a_file(tmp_path):
     path = write(tmp_path, "a.toml", HEADER + ELEMENTS)
     with pytest.raises(SpecError, match="is a file, not a folder"):
         load_folder(path)
+
+
+@pytest.mark.parametrize("line, message", [
+    ("capacitor_ratio_per_q2 = -4", "capacitor_ratio_per_q2 = -4 must be a positive number"),
+    ("capacitor_ratio_per_q2 = true", "capacitor_ratio_per_q2"),
+    ('gbw_rule = "yes"', "gbw_rule"),
+])
+def test_bad_stage_metadata_is_refused(tmp_path, line, message):
+    path = write(tmp_path, "a.toml", HEADER + line + "\n" + ELEMENTS)
+    with pytest.raises(TopologyError, match=message):
+        load_topology(path)
+
+
+def test_stage_metadata_of_the_library():
+    # GBW >= 100·f0·Q is stated for Sallen–Key and multiple-feedback stages
+    # (common practice): their files say so, the other biquads' do not
+    rule = {t for t in ("sallen-key-lowpass-unity", "sallen-key-highpass-gain", "mfb-bandpass",
+                        "tow-thomas-lowpass", "khn-lowpass") if get_topology(t).gbw_rule}
+    assert rule == {"sallen-key-lowpass-unity", "sallen-key-highpass-gain", "mfb-bandpass"}
+    assert get_topology("sallen-key-lowpass-unity").capacitor_ratio_per_q2 == 4.0
+    assert get_topology("sallen-key-lowpass-equal").capacitor_ratio_per_q2 is None

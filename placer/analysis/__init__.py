@@ -28,7 +28,6 @@ if TYPE_CHECKING:
         S,
         NetworkFunction,
         network_function,
-        SecondOrderFigures,
         circuit_poles,
         circuit_zeros,
         circuit_gain,
@@ -82,9 +81,24 @@ if TYPE_CHECKING:
         opamp_loop,
         opamp_loops,
     )
+    from .second_order import (
+        SecondOrderFigures,
+        omega0_q,
+        first_order_omega,
+        zero_pair_omega,
+        passband_gain,
+        pair_figures,
+        dominant_pair,
+    )
     from .sensitivity import (
         Sensitivities,
         sensitivities,
+        FigureReference,
+        figure_reference,
+        coefficient_figures,
+        check_has_poles,
+        nominal_values,
+        is_real_number,
     )
 
 #: Public name -> the module of this folder that defines it.
@@ -102,7 +116,6 @@ _EXPORTS = {
     "S": "network",
     "NetworkFunction": "network",
     "network_function": "network",
-    "SecondOrderFigures": "network",
     "circuit_poles": "pencil",
     "circuit_zeros": "pencil",
     "circuit_gain": "pencil",
@@ -139,8 +152,21 @@ _EXPORTS = {
     "return_ratio": "return_ratio",
     "opamp_loop": "return_ratio",
     "opamp_loops": "return_ratio",
+    "SecondOrderFigures": "second_order",
+    "omega0_q": "second_order",
+    "first_order_omega": "second_order",
+    "zero_pair_omega": "second_order",
+    "passband_gain": "second_order",
+    "pair_figures": "second_order",
+    "dominant_pair": "second_order",
     "Sensitivities": "sensitivity",
     "sensitivities": "sensitivity",
+    "FigureReference": "sensitivity",
+    "figure_reference": "sensitivity",
+    "coefficient_figures": "sensitivity",
+    "check_has_poles": "sensitivity",
+    "nominal_values": "sensitivity",
+    "is_real_number": "sensitivity",
 }
 
 __all__ = sorted(_EXPORTS)

@@ -46,6 +46,7 @@ from sympy.polys.domains.domain import Domain
 
 from ..errors import TopologyError
 from .mna import layout, minor_expansion_det, stamps
+from .second_order import SecondOrderFigures, omega0_q, passband_gain
 from .pencil import (
     CircuitRoots,
     circuit_gain,
@@ -63,7 +64,6 @@ __all__ = [
     "S",
     "NetworkFunction",
     "network_function",
-    "SecondOrderFigures",
     "circuit_poles",
     "circuit_zeros",
     "circuit_gain",
@@ -76,15 +76,6 @@ __all__ = [
 
 #: The Laplace variable, rad/s.
 S = sympy.Symbol("s")
-
-
-@dataclass(frozen=True)
-class SecondOrderFigures:
-    """ω0 (rad/s), Q and pass-band gain as arrays (one per sample)."""
-
-    omega0: np.ndarray
-    q: np.ndarray
-    gain: np.ndarray
 
 
 @dataclass(frozen=True)
@@ -253,11 +244,8 @@ class NetworkFunction:
                 f"second_order_figures needs a second-order function, not order {self.order}"
             )
         numerator, denominator = self.coefficients(values)
-        a2, a1, a0 = denominator
-        with np.errstate(divide="ignore", invalid="ignore"):
-            omega0 = np.sqrt(a0 / a2)
-            q = np.sqrt(a0 * a2) / a1
-            gain = _gain_from(numerator, denominator, self.gain_kind)
+        omega0, q = omega0_q(*denominator)
+        gain = passband_gain(numerator, denominator, self.gain_kind)
         return SecondOrderFigures(omega0=omega0, q=q, gain=gain)
 
     def poles(self, values: PartValues) -> ComplexArray:
@@ -286,17 +274,6 @@ class NetworkFunction:
     def latex(self) -> str:
         """H(s) in LaTeX, in the part symbols."""
         return sympy.latex(self.numerator.as_expr() / self.denominator.as_expr())
-
-
-def _gain_from(numerator: FloatArray, denominator: FloatArray, kind: str) -> FloatArray:
-    if kind == "dc":
-        return numerator[-1] / denominator[-1]
-    if kind == "center":
-        return numerator[-2] / denominator[-2] if numerator.shape[0] >= 2 else 0 * denominator[0]
-    top = numerator.shape[0] - 1
-    if top < denominator.shape[0] - 1:
-        return 0 * denominator[0]
-    return numerator[0] / denominator[0]
 
 
 def _roots(coefficients: ArrayLike) -> ComplexArray:

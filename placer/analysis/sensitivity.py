@@ -44,10 +44,20 @@ import sympy
 from numpy.typing import NDArray
 
 from ..errors import SpecError, TopologyError
-from .network import NetworkFunction, batched_roots, polynomial_values
+from .network import NetworkFunction, polynomial_values
 from .protocols import PartFunction
+from .second_order import dominant_pair, omega0_q, passband_gain
 
-__all__ = ["Sensitivities", "sensitivities"]
+__all__ = [
+    "Sensitivities",
+    "sensitivities",
+    "FigureReference",
+    "figure_reference",
+    "coefficient_figures",
+    "check_has_poles",
+    "nominal_values",
+    "is_real_number",
+]
 
 #: Log-space step of the numeric sensitivities.
 _LOG_STEP = 1e-4
@@ -79,23 +89,26 @@ class Sensitivities:
 
 # -- validation -------------------------------------------------------------
 
-def _check_order(nf: PartFunction) -> None:
+def check_has_poles(nf: PartFunction) -> None:
+    """Raise TopologyError for a network of order 0 (no ω0, Q or sensitivities to read)."""
     if nf.order < 1:
         raise TopologyError("the network has no poles (order 0): no ω0, Q or sensitivities")
 
 
-def _is_number(x: object) -> bool:
+def is_real_number(x: object) -> bool:
+    """True for a real number that is not a bool."""
     return isinstance(x, numbers.Real) and not isinstance(x, bool)
 
 
-def _nominal_values(nf: PartFunction, values: Mapping[str, Any]) -> dict[str, float]:
+def nominal_values(nf: PartFunction, values: Mapping[str, Any]) -> dict[str, float]:
+    """Every part symbol → its value as a float; SpecError for a missing or non-finite one."""
     out = {}
     for name in nf.symbols:
         if name not in values:
             raise SpecError(
                 f"no value for part {name!r}; every part needs one (parts: {', '.join(nf.symbols)})"
             )
-        if not (_is_number(values[name]) and math.isfinite(values[name])):
+        if not (is_real_number(values[name]) and math.isfinite(values[name])):
             raise SpecError(f"value of {name!r} must be a finite number in SI units, "
                             f"not {values[name]!r}")
         out[name] = float(values[name])
@@ -105,7 +118,7 @@ def _nominal_values(nf: PartFunction, values: Mapping[str, Any]) -> dict[str, fl
 # -- figures from coefficient arrays ----------------------------------------
 
 @dataclass(frozen=True)
-class _Reference:
+class FigureReference:
     """How figures are read for one network (fixed at the nominal values)."""
 
     order: int
@@ -114,7 +127,8 @@ class _Reference:
     gain_label: str
 
 
-def _reference(nf: PartFunction, nominal: Mapping[str, float]) -> _Reference:
+def figure_reference(nf: PartFunction, nominal: Mapping[str, float]) -> FigureReference:
+    """How the figures of `nf` are read (order, gain kind, reference frequency) at `nominal`."""
     numerator, denominator = nf.coefficients(nominal)
     order = denominator.shape[0] - 1
     omega_ref = float(abs(denominator[-1] / denominator[0]) ** (1.0 / order))
@@ -125,59 +139,28 @@ def _reference(nf: PartFunction, nominal: Mapping[str, float]) -> _Reference:
     if kind == "hf" and numerator.shape[0] - 1 < order:
         kind = "reference"
         label = f"|H| at {omega_ref / (2 * math.pi):.6g} Hz"
-    return _Reference(order, kind, omega_ref, label)
+    return FigureReference(order, kind, omega_ref, label)
 
 
-def _figures(numerator: NDArray[Any], denominator: NDArray[Any],
-             ref: _Reference) -> tuple[NDArray[Any], NDArray[Any] | None, NDArray[Any]]:
+def coefficient_figures(numerator: NDArray[Any], denominator: NDArray[Any],
+                        ref: FigureReference) -> tuple[NDArray[Any], NDArray[Any] | None, NDArray[Any]]:
     """(ω0 rad/s, Q or None, gain) arrays from coefficient arrays (..., N)."""
     with np.errstate(divide="ignore", invalid="ignore"):
         if ref.order == 1:
             omega0, q = denominator[1] / denominator[0], None
         elif ref.order == 2:
-            # The same expressions as NetworkFunction.omega0 and .q.
-            omega0 = np.sqrt(denominator[2] / denominator[0])
-            q = np.sqrt(denominator[0] * denominator[2]) / denominator[1]
+            omega0, q = omega0_q(*denominator)
         else:
-            omega0, q = _dominant_pair(denominator, ref.omega_ref)
+            omega0, q = dominant_pair(denominator, ref.omega_ref)
         gain = _gain(numerator, denominator, ref)
     return omega0, q, gain
 
 
-def _gain(numerator: NDArray[Any], denominator: NDArray[Any], ref: _Reference) -> NDArray[Any]:
-    if ref.gain_kind == "dc":
-        return numerator[-1] / denominator[-1]
-    if ref.gain_kind == "center":
-        return numerator[-2] / denominator[-2]
-    if ref.gain_kind == "hf":
-        return numerator[0] / denominator[0]
+def _gain(numerator: NDArray[Any], denominator: NDArray[Any], ref: FigureReference) -> NDArray[Any]:
+    if ref.gain_kind in ("dc", "center", "hf"):
+        return passband_gain(numerator, denominator, ref.gain_kind)
     s = 1j * ref.omega_ref
     return np.abs(polynomial_values(numerator, s) / polynomial_values(denominator, s))
-
-
-def _dominant_pair(denominator: NDArray[Any],
-                   omega_ref: float) -> tuple[NDArray[Any], NDArray[Any]]:
-    """ω0 and Q of the complex pair with the highest Q, per column.
-
-    With no complex pair, the two real poles nearest the origin are taken
-    as a pair (ω0 = √(p1 p2), Q = ω0 / −(p1 + p2)).
-    """
-    roots = batched_roots(denominator, scale=omega_ref)
-    magnitude = np.abs(roots)
-    upper = roots.imag > 1e-9 * magnitude
-    damping = np.where(upper, np.abs(roots.real) / np.where(magnitude > 0, magnitude, 1.0), np.inf)
-    rows = np.arange(roots.shape[0])
-    pole = roots[rows, np.argmin(damping, axis=1)]
-    omega_complex = np.abs(pole)
-    q_complex = omega_complex / (-2.0 * pole.real)
-    real_magnitude = np.where(upper | (roots.imag < -1e-9 * magnitude), np.inf, magnitude)
-    nearest = np.argsort(real_magnitude, axis=1)[:, :2]
-    p1 = roots[rows, nearest[:, 0]].real
-    p2 = roots[rows, nearest[:, 1]].real
-    omega_real = np.sqrt(p1 * p2)
-    q_real = omega_real / -(p1 + p2)
-    has_pair = upper.any(axis=1)
-    return np.where(has_pair, omega_complex, omega_real), np.where(has_pair, q_complex, q_real)
 
 
 # -- sensitivities ----------------------------------------------------------
@@ -212,13 +195,13 @@ def sensitivities(nf: PartFunction, values: Mapping[str, Any]) -> Sensitivities:
     >>> s.omega0["R1"], s.gain["R1"], s.q
     (-1.0, 0.0, None)
     """
-    _check_order(nf)
-    nominal = _nominal_values(nf, values)
+    check_has_poles(nf)
+    nominal = nominal_values(nf, values)
     if nf.order <= 2 and isinstance(nf, NetworkFunction):
         return _symbolic_sensitivities(nf, nominal)
     # a function with no symbolic figures (the dominant part of a circuit
     # whose op-amps are modelled) is read numerically, at its own order
-    return _numeric_sensitivities(nf, nominal, _reference(nf, nominal))
+    return _numeric_sensitivities(nf, nominal, figure_reference(nf, nominal))
 
 
 def _symbolic_sensitivities(nf: NetworkFunction, nominal: Mapping[str, float]) -> Sensitivities:
@@ -248,7 +231,7 @@ def _symbolic_sensitivities(nf: NetworkFunction, nominal: Mapping[str, float]) -
 
 
 def _numeric_sensitivities(nf: PartFunction, nominal: Mapping[str, float],
-                           ref: _Reference) -> Sensitivities:
+                           ref: FigureReference) -> Sensitivities:
     names = list(nf.symbols)
     # Columns: x·e^{+h} and x·e^{-h} for each part in turn.
     factors = np.ones((len(names), 2 * len(names)))
@@ -256,7 +239,7 @@ def _numeric_sensitivities(nf: PartFunction, nominal: Mapping[str, float],
         factors[i, 2 * i] = math.exp(_LOG_STEP)
         factors[i, 2 * i + 1] = math.exp(-_LOG_STEP)
     columns = {name: nominal[name] * factors[i] for i, name in enumerate(names)}
-    omega0, q, gain = _figures(*nf.coefficients(columns), ref)
+    omega0, q, gain = coefficient_figures(*nf.coefficients(columns), ref)
     out: dict[str, Any] = {}
     out["q"] = None
     for key, figure in (("omega0", omega0), ("q", q), ("gain", gain)):

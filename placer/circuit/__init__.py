@@ -11,6 +11,9 @@ from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
     from .drawing import (
+        PlanBuilder,
+        spans_cross,
+        leg_point,
         DRAWING_KEYS,
         DrawingSpec,
         Point,
@@ -55,6 +58,7 @@ if TYPE_CHECKING:
         get_topology,
         resolve_topology,
         load_folder,
+        LoadedFolder,
         find_topologies,
         realises,
         Analysable,
@@ -74,6 +78,9 @@ if TYPE_CHECKING:
 
 #: Public name -> the module of this folder that defines it.
 _EXPORTS = {
+    "PlanBuilder": "drawing",
+    "spans_cross": "drawing",
+    "leg_point": "drawing",
     "DRAWING_KEYS": "drawing",
     "DrawingSpec": "drawing",
     "Point": "drawing",
@@ -110,6 +117,7 @@ _EXPORTS = {
     "get_topology": "library",
     "resolve_topology": "library",
     "load_folder": "library",
+    "LoadedFolder": "library",
     "find_topologies": "library",
     "realises": "library",
     "Analysable": "library",

@@ -20,6 +20,9 @@ from .elements import Circuit, Element
 from ..errors import SpecError
 
 __all__ = [
+    "PlanBuilder",
+    "spans_cross",
+    "leg_point",
     "DRAWING_KEYS",
     "DrawingSpec",
     "Point",
@@ -206,7 +209,7 @@ def resolve_plan(circuit: Circuit, spec: DrawingSpec, *, source: str = "topology
     where = f"{source}: drawing"
     parts = circuit_parts(circuit)
     _check_names(circuit, spec, parts, where)
-    builder = _Builder(circuit, parts)
+    builder = PlanBuilder(circuit, parts)
     _walk_path(builder, spec, where)
     hosted = _place_other_inputs(builder, spec, where)
     for side, names in ((ABOVE, spec.above), (BELOW, spec.below)):
@@ -243,7 +246,7 @@ def _check_names(circuit: Circuit, spec: DrawingSpec, parts: dict, where: str) -
             raise SpecError(f"{where}.above_inputs: {name!r} is not an op-amp on the path")
 
 
-def _walk_path(builder: _Builder, spec: DrawingSpec, where: str) -> None:
+def _walk_path(builder: PlanBuilder, spec: DrawingSpec, where: str) -> None:
     circuit = builder.circuit
     current = circuit.input
     builder.add_node(current)
@@ -276,7 +279,7 @@ def _walk_path(builder: _Builder, spec: DrawingSpec, where: str) -> None:
         current = following
 
 
-def _pin_side(element: Element, pin: int, spec: DrawingSpec, builder: _Builder) -> int:
+def _pin_side(element: Element, pin: int, spec: DrawingSpec, builder: PlanBuilder) -> int:
     """Below, unless the other input's parts are listed above."""
     other = element.nodes[1 - pin]
     for name in spec.above:
@@ -285,7 +288,7 @@ def _pin_side(element: Element, pin: int, spec: DrawingSpec, builder: _Builder) 
     return BELOW
 
 
-def _place_other_inputs(builder: _Builder, spec: DrawingSpec, where: str) -> dict:
+def _place_other_inputs(builder: PlanBuilder, spec: DrawingSpec, where: str) -> dict:
     hosted = {}
     for step in [s for s in builder.steps if s.opamp]:
         element = builder.parts[step.part]
@@ -310,7 +313,7 @@ def _place_other_inputs(builder: _Builder, spec: DrawingSpec, where: str) -> dic
     return hosted
 
 
-def _chains(builder: _Builder, names: Sequence[str], where: str) -> list:
+def _chains(builder: PlanBuilder, names: Sequence[str], where: str) -> list:
     """Group parts into rows between two drawn points (or a point and the reference)."""
     degree: dict = {}
     for name in names:
@@ -346,7 +349,7 @@ def _chains(builder: _Builder, names: Sequence[str], where: str) -> list:
     return chains
 
 
-def _add_branches(builder: _Builder, names: Sequence[str], side: int, where: str) -> None:
+def _add_branches(builder: PlanBuilder, names: Sequence[str], side: int, where: str) -> None:
     key = "above" if side == ABOVE else "below"
     reference = builder.circuit.reference
     for chain, nodes in _chains(builder, names, f"{where}.{key}"):
@@ -361,7 +364,7 @@ def _add_branches(builder: _Builder, names: Sequence[str], side: int, where: str
         builder.add_branch(chain, nodes, start, end, side)
 
 
-def _side_point(builder: _Builder, node: str, side: int) -> str | None:
+def _side_point(builder: PlanBuilder, node: str, side: int) -> str | None:
     for key in builder.node_points[node]:
         point = builder.point(key)
         if point.side in (0, side):
@@ -369,7 +372,7 @@ def _side_point(builder: _Builder, node: str, side: int) -> str | None:
     return None
 
 
-def _add_legs(builder: _Builder, names: Sequence[str], where: str) -> None:
+def _add_legs(builder: PlanBuilder, names: Sequence[str], where: str) -> None:
     reference = builder.circuit.reference
     inner = builder.inner_nodes()
     for node in inner:
@@ -394,10 +397,11 @@ def _add_legs(builder: _Builder, names: Sequence[str], where: str) -> None:
                                 "branch drawn above the path; draw that branch below")
             builder.legs.append(Leg(chain, nodes, "", branch=branch, index=index))
         else:
-            builder.add_leg(chain, nodes, _leg_point(builder, nodes[0]))
+            builder.add_leg(chain, nodes, leg_point(builder, nodes[0]))
 
 
-def _leg_point(builder: _Builder, node: str) -> str:
+def leg_point(builder: PlanBuilder, node: str) -> str:
+    """The point on `node` a leg to the reference hangs from."""
     keys = builder.node_points[node]
     below = [k for k in keys if builder.point(k).side == BELOW]
     return below[0] if below else keys[0]
@@ -405,7 +409,7 @@ def _leg_point(builder: _Builder, node: str) -> str:
 
 # -- the builder both kinds of plan use ---------------------------------------------------
 
-class _Builder:
+class PlanBuilder:
     """Collects points, steps, branches and legs, then orders them into a Plan."""
 
     def __init__(self, circuit: Circuit, parts: dict) -> None:
@@ -487,16 +491,17 @@ class _Builder:
                     tuple(self.legs), out_key)
 
 
-def _free_side(builder: _Builder, key: str) -> int:
+def _free_side(builder: PlanBuilder, key: str) -> int:
     point = builder.point(key)
     return point.side if point.side else BELOW
 
 
-def _crosses(a: tuple, b: tuple) -> bool:
+def spans_cross(a: tuple, b: tuple) -> bool:
+    """True when two (start, end) spans overlap without one holding the other."""
     return a[0] < b[0] < a[1] < b[1] or b[0] < a[0] < b[1] < a[1]
 
 
-def _wire_output_out(builder: _Builder, key: str | None) -> str:
+def _wire_output_out(builder: PlanBuilder, key: str | None) -> str:
     """Wire an output inside the path out to the right, on a side it crosses nothing."""
     if key is None:  # pragma: no cover - the output always has a point
         raise SpecError(f"the output node {builder.circuit.output!r} is not drawn")
@@ -507,7 +512,7 @@ def _wire_output_out(builder: _Builder, key: str | None) -> str:
     sides = [point.side] if point.side else [ABOVE, BELOW]
     for side in sides:
         spans = [(order[b.start], order[b.end]) for b in builder.branches if b.side == side]
-        if not any(_crosses(span, s) for s in spans):
+        if not any(spans_cross(span, s) for s in spans):
             terminal = Point(f"{builder.circuit.output}#out", builder.circuit.output,
                              terminal=True)
             builder.points.append(terminal)

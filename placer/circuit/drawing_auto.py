@@ -24,8 +24,8 @@ from __future__ import annotations
 from dataclasses import replace
 
 from .elements import Circuit, Element
-from .drawing import (ABOVE, BELOW, DrawingSpec, Leg, Plan, Point, Step, _Builder,
-                      _crosses, _leg_point, circuit_parts, part_nodes, resolve_plan)
+from .drawing import (ABOVE, BELOW, DrawingSpec, Leg, Plan, Point, Step, PlanBuilder,
+                      spans_cross, leg_point, circuit_parts, part_nodes, resolve_plan)
 from ..errors import SpecError
 
 __all__ = ["automatic_plan", "plan_for"]
@@ -46,7 +46,7 @@ def automatic_plan(circuit: Circuit) -> Plan:
     joined to many parts) is drawn to the right and wired to its nodes.
     """
     parts = circuit_parts(circuit)
-    builder = _Builder(circuit, parts)
+    builder = PlanBuilder(circuit, parts)
     path = _longest_path(circuit, parts)
     builder.add_node(circuit.input)
     used = set()
@@ -106,7 +106,7 @@ def _longest_path(circuit: Circuit, parts: dict) -> list:
     return best
 
 
-def _place_remaining(builder: _Builder, used: set) -> None:
+def _place_remaining(builder: PlanBuilder, used: set) -> None:
     circuit, parts = builder.circuit, builder.parts
     reference = circuit.reference
     _place_opamp_inputs(builder)
@@ -136,7 +136,7 @@ def _place_remaining(builder: _Builder, used: set) -> None:
     _assign_sides(builder)
 
 
-def _place_opamp_inputs(builder: _Builder) -> None:
+def _place_opamp_inputs(builder: PlanBuilder) -> None:
     reference = builder.circuit.reference
     for step in [s for s in builder.steps if s.opamp]:
         element = builder.parts[step.part]
@@ -149,7 +149,7 @@ def _place_opamp_inputs(builder: _Builder) -> None:
             builder.host(node, step.pin_point)
 
 
-def _add_loose_opamp(builder: _Builder, key: str, element: Element) -> None:
+def _add_loose_opamp(builder: PlanBuilder, key: str, element: Element) -> None:
     """An op-amp off the path: its own short path to the right, wired to its nodes."""
     reference = builder.circuit.reference
     pin = 0 if element.nodes[0] != reference else 1
@@ -175,7 +175,7 @@ def _add_loose_opamp(builder: _Builder, key: str, element: Element) -> None:
         builder.host(other, pin_key)
 
 
-def _auto_chains(builder: _Builder, left: list, drawn: set) -> list:
+def _auto_chains(builder: PlanBuilder, left: list, drawn: set) -> list:
     """Rows of parts from a drawn node through undrawn nodes of two parts each."""
     parts = builder.parts
     degree: dict = {}
@@ -208,7 +208,7 @@ def _auto_chains(builder: _Builder, left: list, drawn: set) -> list:
     return chains
 
 
-def _walk_out(builder: _Builder, left: list, hub: str, first: str, drawn: set) -> tuple:
+def _walk_out(builder: PlanBuilder, left: list, hub: str, first: str, drawn: set) -> tuple:
     """The row of parts from `hub` through `first` to a drawn node (or a dead end)."""
     parts = builder.parts
     name: str | None
@@ -225,7 +225,7 @@ def _walk_out(builder: _Builder, left: list, hub: str, first: str, drawn: set) -
     return tuple(chain), tuple(nodes)
 
 
-def _add_tee(builder: _Builder, left: list) -> bool:
+def _add_tee(builder: PlanBuilder, left: list) -> bool:
     """A node whose rows reach two drawn nodes, and the reference: one branch with legs.
 
     The lower half of a twin-T is the example: C1 and C2 in a row between the
@@ -264,7 +264,7 @@ def _add_tee(builder: _Builder, left: list) -> bool:
     return False
 
 
-def _add_auto_chain(builder: _Builder, chain: tuple, nodes: tuple) -> None:
+def _add_auto_chain(builder: PlanBuilder, chain: tuple, nodes: tuple) -> None:
     reference = builder.circuit.reference
     if nodes[0] == reference and nodes[-1] == reference:
         anchor = builder.add_node(reference)
@@ -272,7 +272,7 @@ def _add_auto_chain(builder: _Builder, chain: tuple, nodes: tuple) -> None:
     elif reference in (nodes[0], nodes[-1]):
         if nodes[0] == reference:
             chain, nodes = chain[::-1], nodes[::-1]
-        builder.add_leg(chain, nodes, _leg_point(builder, nodes[0]))
+        builder.add_leg(chain, nodes, leg_point(builder, nodes[0]))
     else:
         start = builder.node_points[nodes[0]][0]
         end = builder.node_points[nodes[-1]][0]
@@ -281,7 +281,7 @@ def _add_auto_chain(builder: _Builder, chain: tuple, nodes: tuple) -> None:
         builder.add_branch(chain, nodes, start, end, 0)
 
 
-def _assign_sides(builder: _Builder) -> None:
+def _assign_sides(builder: PlanBuilder) -> None:
     """Put each branch above or below so that none cross, where that can be done.
 
     Branches at one op-amp input share its side; an input with a leg is
@@ -308,7 +308,7 @@ def _assign_sides(builder: _Builder) -> None:
         if leg.branch >= 0:
             fixed[union.find(leg.branch)] = BELOW
     clashes = [(i, j) for i in range(len(branches)) for j in range(i + 1, len(branches))
-               if _crosses(spans[i], spans[j])]
+               if spans_cross(spans[i], spans[j])]
     sides = _two_colour(len(branches), union, clashes, fixed)
     if sides is None:
         sides = {}
@@ -318,7 +318,7 @@ def _assign_sides(builder: _Builder) -> None:
                 sides[i] = fixed[root]
                 continue
             cost = {side: sum(1 for j, s in sides.items() if s == side and
-                              _crosses(spans[i], spans[j])) for side in (ABOVE, BELOW)}
+                              spans_cross(spans[i], spans[j])) for side in (ABOVE, BELOW)}
             sides[i] = ABOVE if cost[ABOVE] <= cost[BELOW] else BELOW
             fixed[root] = sides[i]
     builder.branches = [replace(b, side=sides[i]) for i, b in enumerate(branches)]

@@ -19,7 +19,7 @@ from dataclasses import dataclass, replace
 from functools import lru_cache
 from collections.abc import Mapping
 from pathlib import Path
-from typing import Any
+from typing import NamedTuple
 
 from .elements import Circuit, circuit_from_dict
 from ..errors import SpecError, brief, brief_path
@@ -34,6 +34,7 @@ __all__ = [
     "get_topology",
     "resolve_topology",
     "load_folder",
+    "LoadedFolder",
     "find_topologies",
     "realises",
     "Analysable",
@@ -134,14 +135,21 @@ def load_analysable(name: str) -> Analysable:
     return Analysable(None, replace(circuit, name=source))
 
 
-def load_folder(folder: str | Path) -> dict[str, dict[str, Any]]:
+class LoadedFolder(NamedTuple):
+    """A user's topology folder: what loaded, and why the rest did not."""
+
+    topologies: dict[str, Topology]   # id -> Topology
+    errors: dict[str, str]            # path -> message
+
+
+def load_folder(folder: str | Path) -> LoadedFolder:
     """Load every ``*.toml`` in a folder of the user's.
 
     Returns
     -------
-    dict
-        ``{"topologies": {id: Topology}, "errors": {path: message}}`` — one bad
-        file does not stop the others.
+    LoadedFolder
+        ``topologies`` (id → Topology) and ``errors`` (path → message): one
+        bad file does not stop the others.
     """
     folder = check_path(folder, what="topology folder", folder=True)
     topologies: dict[str, Topology] = {}
@@ -153,7 +161,7 @@ def load_folder(folder: str | Path) -> dict[str, dict[str, Any]]:
             errors[str(path)] = str(error)
             continue
         topologies[topology.id] = topology
-    return {"topologies": topologies, "errors": errors}
+    return LoadedFolder(topologies=topologies, errors=errors)
 
 
 def realises(topology: Topology, kind: str) -> bool:

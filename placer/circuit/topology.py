@@ -146,6 +146,13 @@ class Topology:
         For a notch topology, the notch sections it can realise (of
         :data:`NOTCH_KINDS`): ``("notch",)`` when its zeros can only sit at
         its pole frequency; empty for the other responses.
+    capacitor_ratio_per_q2 : float or None
+        k when the stage needs its two free capacitors k·Q² apart
+        (C1/C2 ≥ 4Q² for a unity-gain Sallen–Key); None: no such need.
+    gbw_rule : bool
+        True when the rule GBW ≥ 100·f0·Q is stated for this kind of stage
+        (Sallen–Key, multiple feedback): the comparison calls it common
+        practice there, a rule of thumb elsewhere.
     """
 
     id: str
@@ -164,6 +171,8 @@ class Topology:
     path: str = ""
     drawing: DrawingSpec | None = None   # from the file's [drawing] table
     notch_kinds: tuple[str, ...] = ()
+    capacitor_ratio_per_q2: float | None = None
+    gbw_rule: bool = False
 
     @property
     def symbols(self) -> tuple[str, ...]:
@@ -304,6 +313,11 @@ def topology_from_dict(data: Any, *, source: str = "topology") -> Topology:
         drawing = drawing_from_table(data["drawing"], circuit, source=source)
         circuit = replace(circuit, drawing=drawing)
     notch_kinds = _notch_kinds(data, response, source)
+    ratio = data.get("capacitor_ratio_per_q2")
+    if ratio is not None and not (isinstance(ratio, (int, float)) and not isinstance(ratio, bool)
+                                  and math.isfinite(ratio) and ratio > 0):
+        raise TopologyError(f"{source}: capacitor_ratio_per_q2 = {brief(ratio)} must be a "
+                            f"positive number (4 for C1/C2 >= 4Q^2)")
     return Topology(
         id=topology_id,
         title=data["title"],
@@ -321,6 +335,8 @@ def topology_from_dict(data: Any, *, source: str = "topology") -> Topology:
         path="",
         drawing=drawing,
         notch_kinds=notch_kinds,
+        capacitor_ratio_per_q2=None if ratio is None else float(ratio),
+        gbw_rule=data.get("gbw_rule", False),
     )
 
 

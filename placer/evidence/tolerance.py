@@ -46,11 +46,11 @@ from .tolerance_results import CascadeMonteCarloResult, MonteCarloResult, Statis
 from .workers import (PARALLEL_MIN_SAMPLES, check_workers, results_in_order, worker_pool,
                       worker_ranges)
 from ..analysis.sensitivity import (
-    _check_order,
-    _figures,
-    _is_number,
-    _nominal_values,
-    _reference,
+    check_has_poles,
+    coefficient_figures,
+    is_real_number,
+    nominal_values,
+    figure_reference,
     sensitivities,
 )
 
@@ -98,7 +98,7 @@ def _percent(fraction):
 
 
 def _check_tolerances(tolerances, names, allow_zero):
-    if _is_number(tolerances):
+    if is_real_number(tolerances):
         tolerances = {name: tolerances for name in names}
     if not isinstance(tolerances, Mapping):
         raise SpecError(
@@ -111,7 +111,7 @@ def _check_tolerances(tolerances, names, allow_zero):
                 f"tolerance given for {name!r}, which is not a part of this network "
                 f"(parts: {', '.join(names)})"
             )
-        if not _is_number(tolerance):
+        if not is_real_number(tolerance):
             raise SpecError(f"tolerance of {name!r} must be a number (0.01 = 1 %), not {tolerance!r}")
         tolerance = float(tolerance)
         low_ok = tolerance >= 0 if allow_zero else tolerance > 0
@@ -123,7 +123,7 @@ def _check_tolerances(tolerances, names, allow_zero):
 
 
 def _check_samples(samples):
-    if not (_is_number(samples) and isinstance(samples, numbers.Integral)):
+    if not (is_real_number(samples) and isinstance(samples, numbers.Integral)):
         raise SpecError(f"samples must be a whole number of at least 1, not {samples!r}")
     if samples < 1:
         raise SpecError(f"samples must be at least 1, not {samples}")
@@ -153,7 +153,7 @@ def _check_windows(windows, order, reject_hz):
             raise SpecError("window 'q' given, but a first-order network has no Q")
         if key == "rejection_db" and reject_hz is None:
             raise SpecError("window 'rejection_db' needs the frequency to read it at (reject_hz)")
-        if not (_is_number(width) and math.isfinite(width) and width > 0):
+        if not (is_real_number(width) and math.isfinite(width) and width > 0):
             raise SpecError(f"window {key!r} must be a positive number, not {width!r}")
         out[key] = float(width)
     return out
@@ -195,7 +195,7 @@ def _window_masks(windows, f0, q, gain_db, nominal_f0, nominal_q, nominal_gain_d
 def _check_reject_hz(reject_hz):
     if reject_hz is None:
         return None
-    if not (_is_number(reject_hz) and math.isfinite(reject_hz) and reject_hz > 0):
+    if not (is_real_number(reject_hz) and math.isfinite(reject_hz) and reject_hz > 0):
         raise SpecError(f"reject_hz must be a positive frequency in Hz, not {reject_hz!r}")
     return float(reject_hz)
 
@@ -248,7 +248,7 @@ def _evaluate_block(nf, nominal, multipliers, index, ref, reject_hz):
             for name in nf.symbols
         }
         numerator, denominator = nf.coefficients(columns)
-        omega0, q, gain = _figures(numerator, denominator, ref)
+        omega0, q, gain = coefficient_figures(numerator, denominator, ref)
         rejection = None
         if reject_hz is not None:
             rejection = _rejection_db(numerator, denominator, gain, 2 * math.pi * reject_hz)
@@ -340,8 +340,8 @@ def monte_carlo(nf: NetworkFunction | PartFunction, values: Mapping[str, float],
     >>> round(r.yield_fraction, 2), r.contributions["f0"]["C1"] > 0.9
     (0.95, True)
     """
-    _check_order(nf)
-    nominal = _nominal_values(nf, values)
+    check_has_poles(nf)
+    nominal = nominal_values(nf, values)
     checked: dict = _check_tolerances(tolerances, list(nf.symbols), allow_zero)
     samples = _check_samples(samples)
     if distribution not in DISTRIBUTIONS:
@@ -351,7 +351,7 @@ def monte_carlo(nf: NetworkFunction | PartFunction, values: Mapping[str, float],
     shape: dict | None = _check_windows(windows, nf.order, reject_hz)
     workers = check_workers(workers)
     workers = workers if samples >= PARALLEL_MIN_SAMPLES else 1
-    ref = _reference(nf, nominal)
+    ref = figure_reference(nf, nominal)
     multipliers = _draw(np.random.default_rng(seed), checked, samples, distribution)
     # Column 0 is the nominal itself, so nominal and samples share one code path.
     multipliers = np.concatenate([np.ones((len(checked), 1)), multipliers], axis=1)
@@ -568,7 +568,7 @@ def cascade_magnitude_blocks(sections: Sequence, omega: Sequence[float], *, samp
     streams = np.random.default_rng(seed).spawn(len(sections))
     drawn = []
     for (nf, values, tolerances), stream in zip(sections, streams):
-        nominal = _nominal_values(nf, values)
+        nominal = nominal_values(nf, values)
         tolerances = _check_tolerances(tolerances, list(nf.symbols), False)
         drawn.append((nf, nominal, tolerances,
                       _draw(stream, tolerances, samples, distribution)))

@@ -17,6 +17,7 @@ if TYPE_CHECKING:
         amplifier_summary,
         built_drift,
         correct_placement,
+        CorrectedPlacement,
         gbw_spread_error,
         robust_first,
         ROBUST_STARTS,
@@ -28,6 +29,9 @@ if TYPE_CHECKING:
         as_built_gbw,
         AS_BUILT_FLOOR,
         search_top_hz,
+    )
+    from .least_squares import (
+        batched_least_squares,
     )
     from .level import (
         LOAD_HEADROOM,
@@ -64,9 +68,9 @@ if TYPE_CHECKING:
         require_stable,
         IdealPlacement,
         problem_options,
+        ProblemOptions,
         place_ideal,
         value_spread,
-        worst_error_pct,
         worst_error_quantity,
         snap_weighs_gain,
         GAIN_WITHIN_REACH,
@@ -91,8 +95,6 @@ if TYPE_CHECKING:
         RootErrors,
         root_errors,
         structural_reason,
-        passband_gain,
-        batched_least_squares,
         figure_error,
     )
     from .ties import (
@@ -108,6 +110,7 @@ _EXPORTS = {
     "amplifier_summary": "amplifier",
     "built_drift": "amplifier",
     "correct_placement": "amplifier",
+    "CorrectedPlacement": "amplifier",
     "gbw_spread_error": "amplifier",
     "robust_first": "amplifier",
     "ROBUST_STARTS": "amplifier",
@@ -117,6 +120,7 @@ _EXPORTS = {
     "as_built_gbw": "gbw",
     "AS_BUILT_FLOOR": "gbw",
     "search_top_hz": "gbw",
+    "batched_least_squares": "least_squares",
     "LOAD_HEADROOM": "level",
     "DEFAULT_MIN_LOAD": "level",
     "LevelRule": "level",
@@ -147,9 +151,9 @@ _EXPORTS = {
     "require_stable": "placement",
     "IdealPlacement": "placement",
     "problem_options": "placement",
+    "ProblemOptions": "placement",
     "place_ideal": "placement",
     "value_spread": "placement",
-    "worst_error_pct": "placement",
     "worst_error_quantity": "placement",
     "snap_weighs_gain": "placement",
     "GAIN_WITHIN_REACH": "placement",
@@ -170,8 +174,6 @@ _EXPORTS = {
     "RootErrors": "solve",
     "root_errors": "solve",
     "structural_reason": "solve",
-    "passband_gain": "solve",
-    "batched_least_squares": "solve",
     "figure_error": "solve",
     "Ties": "ties",
     "tie_parts": "ties",

@@ -30,7 +30,9 @@ on the effect of finite op-amp bandwidth (from memory).
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING, Any, NamedTuple
 
 import numpy as np
 
@@ -38,6 +40,7 @@ from ..analysis.dominant import DominantFunction, nearest_root_set
 from ..errors import UnreachableTarget
 from .level import within
 from ..analysis.network import network_function
+from ..analysis.second_order import pair_figures
 from .opamp import (
     GBW_SPREAD,
     apply_amplifier,
@@ -46,9 +49,16 @@ from .opamp import (
     function_at_gbw,
 )
 from ..analysis.pencil import circuit_poles
-from .placement import Candidate, place_ideal, problem_options, snap_weighs_gain
-from .snap import COARSE_BUDGET, snap
-from .solve import make_problem, root_errors, solve
+from .placement import Candidate, IdealPlacement, place_ideal, problem_options, snap_weighs_gain
+from .snap import COARSE_BUDGET, SnapResult, snap
+from .solve import Goal, Problem, Solution, make_problem, root_errors, solve
+
+if TYPE_CHECKING:
+    from ..circuit.elements import Circuit
+    from ..circuit.topology import Topology
+    from .opamp import AmplifierSpec
+    from ..spec.reader import PartsSpec
+    from ..target.targets import Section
 
 __all__ = [
     "Drift",
@@ -57,6 +67,7 @@ __all__ = [
     "amplifier_summary",
     "built_drift",
     "correct_placement",
+    "CorrectedPlacement",
     "gbw_spread_error",
     "robust_first",
     "ROBUST_STARTS",
@@ -88,7 +99,8 @@ class Drift:
     q_shift_pct: float | None
 
     @property
-    def worst_pct(self):
+    def worst_root_error_pct(self) -> float:
+        """Worst of the f0 and Q drifts, percent (no gain in a drift)."""
         return max(abs(x) for x in (self.f0_pct, self.q_pct) if x is not None)
 
 
@@ -158,7 +170,7 @@ def _drift(ideal_nf, modelled_nf, values, goal):
     )
 
 
-def _pair_figures(poles, goal):
+def _pair_figures(poles: Sequence[complex], goal: Goal) -> tuple[float, float | None]:
     """ω0 (rad/s) and Q (None for one pole) of the poles nearest the goal's."""
     x = np.asarray(poles, dtype=complex)[None, :] / goal.omega_ref
     mask = nearest_root_set(x, np.asarray(goal.poles, dtype=complex) / goal.omega_ref)[0]
@@ -167,8 +179,7 @@ def _pair_figures(poles, goal):
         return abs(chosen[0]), None
     if len(chosen) != 2:
         return math.nan, math.nan
-    omega0 = math.sqrt(abs(chosen[0] * chosen[1]))
-    return omega0, omega0 / -float((chosen[0] + chosen[1]).real)
+    return pair_figures(chosen[0], chosen[1])
 
 
 def built_drift(topology, values, goal, amplifier):
@@ -297,7 +308,9 @@ def place_section_with_amplifier(section, topology, amplifier, *, parts=None, se
     return _correct(section, topology, amplifier, modelled, ideal, parts, seed, coarse_budget)
 
 
-def _correct(section, topology, amplifier, modelled, ideal, parts, seed, coarse_budget):
+def _correct(section: Section, topology: Topology, amplifier: AmplifierSpec, modelled: Circuit,
+             ideal: IdealPlacement, parts: PartsSpec | None, seed: int,
+             coarse_budget: int) -> AmplifiedCandidate:
     goal = ideal.goal
     full = network_function(modelled)
     dominant = DominantFunction.for_goal(full, goal)
@@ -310,20 +323,23 @@ def _correct(section, topology, amplifier, modelled, ideal, parts, seed, coarse_
             errors=ideal.errors, continuous_errors=ideal.continuous_errors,
             drift=ideal_drift, note="the topology has no op-amp: nothing to model", **common,
         )
-    ranges, series, fixed, constraints = problem_options(topology, parts)
+    options = problem_options(topology, parts)
     prefer = None
     if amplifier.gbw is not None:
         prefer = gbw_spread_error(topology, goal, function_at_gbw(topology.circuit, amplifier),
-                                  amplifier.gbw, ranges=ranges, fixed=fixed, constraints=constraints)
+                                  amplifier.gbw, ranges=options.ranges, fixed=options.fixed,
+                                  constraints=options.constraints)
     try:
-        problem, solution, snapped = correct_placement(
-            ideal, topology, dominant, ranges=ranges, fixed=fixed, constraints=constraints,
-            series=series, seed=seed, coarse_budget=coarse_budget, prefer=prefer)
+        corrected = correct_placement(
+            ideal, topology, dominant, ranges=options.ranges, fixed=options.fixed,
+            constraints=options.constraints, series=options.series, seed=seed,
+            coarse_budget=coarse_budget, prefer=prefer)
     except UnreachableTarget as reason:
         return AmplifiedCandidate(
             reachable=False,
             reason=f"with the op-amp model ({describe_amplifier(amplifier)}): {reason.reason}", **common,
         )
+    problem, solution, snapped = corrected.problem, corrected.solution, corrected.snapped
     return AmplifiedCandidate(
         reachable=True, problem=problem, solution=solution, snapped=snapped,
         errors=root_errors(dominant, snapped.values, goal),
@@ -335,8 +351,21 @@ def _correct(section, topology, amplifier, modelled, ideal, parts, seed, coarse_
     )
 
 
-def correct_placement(ideal, topology, dominant, *, ranges=None, fixed=None, constraints=None,
-                      series=None, seed=0, coarse_budget=COARSE_BUDGET, prefer=None):
+class CorrectedPlacement(NamedTuple):
+    """A section re-solved and snapped with its op-amps modelled."""
+
+    problem: Problem
+    solution: Solution
+    snapped: SnapResult
+
+
+def correct_placement(ideal: IdealPlacement, topology: Topology, dominant: DominantFunction, *,
+                      ranges: Mapping[str, tuple[float, float]] | None = None,
+                      fixed: Mapping[str, float] | None = None, constraints: Sequence = (),
+                      series: Mapping[str, str] | None = None, seed: int = 0,
+                      coarse_budget: int = COARSE_BUDGET,
+                      prefer: Callable[[np.ndarray], np.ndarray] | None = None,
+                      ) -> CorrectedPlacement:
     """Re-solve and snap a section's dominant roots, starting from its ideal placement.
 
     Parameters
@@ -357,7 +386,8 @@ def correct_placement(ideal, topology, dominant, *, ranges=None, fixed=None, con
 
     Returns
     -------
-    (Problem, Solution, SnapResult)
+    CorrectedPlacement
+        ``problem``, ``solution`` and ``snapped``.
 
     Raises
     ------
@@ -371,16 +401,19 @@ def correct_placement(ideal, topology, dominant, *, ranges=None, fixed=None, con
     solution = solve(problem, seed=seed, initial=[ideal.solution.u, *ideal.solution.alternatives],
                      starts=ROBUST_STARTS)
     if prefer is None:
-        return problem, solution, snap(problem, solution, series=series, coarse_budget=coarse_budget,
-                                       with_gain=snap_weighs_gain(problem, solution))
+        return CorrectedPlacement(problem, solution, snap(
+            problem, solution, series=series, coarse_budget=coarse_budget,
+            with_gain=snap_weighs_gain(problem, solution)))
     solution = robust_first(problem, solution, prefer)
     snapped = snap(problem, solution, series=series, coarse_budget=coarse_budget, prefer=prefer,
                    spread_slack=ROBUST_SLACK, with_gain=snap_weighs_gain(problem, solution))
-    return problem, solution, snapped
+    return CorrectedPlacement(problem, solution, snapped)
 
 
-def gbw_spread_error(topology, goal, family, gbw, *, ranges=None, fixed=None, constraints=None,
-                     spread=GBW_SPREAD):
+def gbw_spread_error(topology: Topology, goal: Goal, family: Callable[[float], Any], gbw: float, *,
+                     ranges: Mapping[str, tuple[float, float]] | None = None,
+                     fixed: Mapping[str, float] | None = None, constraints: Sequence = (),
+                     spread: float = GBW_SPREAD) -> Callable[[np.ndarray], np.ndarray]:
     """A score for :func:`placer.place.snap.snap`'s `prefer`: the error at GBW·(1 ± spread).
 
     Designs corrected for an op-amp differ a great deal in how far they move
@@ -413,13 +446,14 @@ def gbw_spread_error(topology, goal, family, gbw, *, ranges=None, fixed=None, co
         for edge in (gbw * (1 - spread), gbw * (1 + spread))
     ]
 
-    def score(U):
+    def score(U: np.ndarray) -> np.ndarray:
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-            return np.maximum(*(p.worst_error(U) for p in problems))
+            return np.maximum(*(p.worst_error_matched(U) for p in problems))
     return score
 
 
-def robust_first(problem, solution, prefer):
+def robust_first(problem: Problem, solution: Solution,
+                 prefer: Callable[[np.ndarray], np.ndarray]) -> Solution:
     """The solution with the best-scoring of its on-target alternatives first.
 
     The snapper starts from ``solution.u``; starting it from the most
@@ -434,7 +468,7 @@ def robust_first(problem, solution, prefer):
     rest = tuple(u for u in options if u is not best)
     values = {k: float(np.asarray(v)) for k, v in problem.values(best).items()}
     return replace(solution, u=best, values=values, alternatives=(best,) + rest,
-                   error=float(problem.worst_error(best, with_gain=False)))
+                   error=float(problem.worst_root_error(best)))
 
 
 def amplifier_summary(candidate):

@@ -20,7 +20,9 @@ University Press, 2001, the chapters on active-filter non-idealities
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any, cast
 
 import numpy as np
 
@@ -28,9 +30,14 @@ from .amplifier import correct_placement, gbw_spread_error
 from ..analysis.dominant import DominantFunction
 from ..errors import SpecError, UnreachableTarget
 from .opamp import GBW_SPREAD, AmplifierSpec, check_amplifier, function_at_gbw
-from .placement import place_ideal, problem_options, worst_error_pct
-from .solve import root_errors
+from .placement import IdealPlacement, ProblemOptions, place_ideal, problem_options
+from .solve import Goal, root_errors
 from ..units import format_value
+
+if TYPE_CHECKING:
+    from ..circuit.topology import Topology
+    from ..spec.reader import PartsSpec
+    from ..target.targets import Section
 
 __all__ = [
     "GBWRequirement",
@@ -79,8 +86,10 @@ class GBWRequirement:
     note: str = ""
 
 
-def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain=None,
-                 gbw_spread=GBW_SPREAD, seed=0, rtol=0.02, coarse_budget=400):
+def required_gbw(section: Section, topology: Topology, *, error_pct: float = 1.0,
+                 parts: PartsSpec | None = None, amplifier_gain: float | None = None,
+                 gbw_spread: float = GBW_SPREAD, seed: int = 0, rtol: float = 0.02,
+                 coarse_budget: int = 400) -> GBWRequirement:
     """Smallest GBW (Hz) for which a corrected design meets `error_pct`.
 
     Bisection in log GBW over [2·f0, 1e4·f0·max(Q, 1)] (Hz): at each GBW the
@@ -92,17 +101,10 @@ def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain
     is found the same way on the ideal design's snapped values. Both
     searches assume the error falls as GBW rises.
 
-    The modelled circuit is derived once, at ωt = 1 rad/s, and scaled to
-    each GBW (s·C and s/ωt are all that the GBW enters; exact, see
-    :class:`placer.place.amplifier.ScaledFunction`). The corrected search, where every step
-    costs a re-solve and a re-snap, visits the midpoints plain bisection
-    would, but decides one without a re-solve when a GBW already tried
-    decides it (met at g: met above g; missed at g: missed below), and
-    tries first the points a guess of the answer puts on either side of
-    it (:func:`_guided_bisect`). Where the error does fall with the GBW
-    this returns what plain bisection returns, with fewer re-solves; the
-    answer is always a GBW tried and met, with a GBW tried and missed at
-    most a factor 1 + `rtol` below it (or the bracket's bottom).
+    The steps: the ideal placement and its checks (:func:`_unmet_before_search`),
+    the uncorrected figure (:func:`as_built_gbw`), the corrected search
+    (:class:`_CorrectedSearch`, guided by :func:`_corrected_hint`) and the
+    notes (:func:`_requirement_notes`).
 
     Parameters
     ----------
@@ -153,48 +155,94 @@ def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain
     except UnreachableTarget as reason:
         return GBWRequirement(math.inf, math.inf, (), error_pct, gbw_spread,
                               note=f"the topology cannot reach the section: {reason.reason}")
-    if worst_error_pct(ideal.errors) > error_pct:
-        return GBWRequirement(
-            math.inf, math.inf, (), error_pct, gbw_spread,
-            note=f"even with ideal op-amps the snapped design misses by "
-                 f"{worst_error_pct(ideal.errors):.3g} %, more than the bound",
-        )
-    if topology.circuit.opamp_count == 0:
-        return GBWRequirement(0.0, 0.0, (), error_pct, gbw_spread, note="the topology has no op-amp")
-    corrected_at = {}
+    unmet = _unmet_before_search(ideal, topology, error_pct, gbw_spread)
+    if unmet is not None:
+        return unmet
     function_at = function_at_gbw(topology.circuit, AmplifierSpec(gain=amplifier_gain))
-    ranges, series, fixed, constraints = problem_options(topology, parts)
-
-    def worst_at(gbw, values):
-        dominant = DominantFunction.for_goal(function_at(gbw), ideal.goal)
-        return worst_error_pct(root_errors(dominant, values, ideal.goal))
-
-    def corrected(gbw):
-        if gbw not in corrected_at:
-            prefer = None
-            if gbw_spread:
-                prefer = gbw_spread_error(topology, ideal.goal, function_at, gbw, ranges=ranges,
-                                          fixed=fixed, constraints=constraints, spread=gbw_spread)
-            corrected_at[gbw] = _correct(ideal, topology, function_at(gbw), ranges, series,
-                                         fixed, constraints, seed, coarse_budget, prefer)
-        return corrected_at[gbw]
-
-    def corrected_worst(gbw):
-        """Worst error (percent) of the design corrected at `gbw`, at it and its spread."""
-        design = corrected(gbw)
-        if design is None:
-            return math.inf
-        edges = (gbw * (1 - gbw_spread), gbw * (1 + gbw_spread)) if gbw_spread else ()
-        return max([design.error_pct] + [worst_at(edge, design.values) for edge in edges])
-
-    notes = []
+    search = _CorrectedSearch(ideal, topology, function_at, problem_options(topology, parts),
+                              gbw_spread, seed, coarse_budget)
     uncorrected = as_built_gbw(topology, ideal.snapped.values, ideal.goal, error_pct=error_pct,
                                amplifier_gain=amplifier_gain, rtol=rtol)
     hint = _corrected_hint(function_at, ideal, error_pct, gbw_spread, low, high)
-    gbw = _guided_bisect(corrected_worst, error_pct, low, high, rtol, hint)
-    parasitic = ()
+    gbw = _guided_bisect(search.worst, error_pct, low, high, rtol, hint)
+    corrected = search.corrected(gbw) if math.isfinite(gbw) else None
+    parasitic = corrected.parasitic_poles_hz if corrected is not None else ()
+    return GBWRequirement(gbw, uncorrected, tuple(parasitic), error_pct, gbw_spread,
+                          note=_requirement_notes(gbw, uncorrected, low, high, gbw_spread))
+
+
+def _unmet_before_search(ideal: IdealPlacement, topology: Topology, error_pct: float,
+                         gbw_spread: float) -> GBWRequirement | None:
+    """The requirement when no search is needed: the ideal design already misses
+    the bound (no GBW helps), or there is no op-amp (none is needed); else None."""
+    if ideal.errors.worst_error_with_gain_pct > error_pct:
+        return GBWRequirement(
+            math.inf, math.inf, (), error_pct, gbw_spread,
+            note=f"even with ideal op-amps the snapped design misses by "
+                 f"{ideal.errors.worst_error_with_gain_pct:.3g} %, more than the bound",
+        )
+    if topology.circuit.opamp_count == 0:
+        return GBWRequirement(0.0, 0.0, (), error_pct, gbw_spread, note="the topology has no op-amp")
+    return None
+
+
+class _CorrectedSearch:
+    """The corrected design at each GBW the search tries, re-solved once per GBW.
+
+    The modelled circuit is derived once, at ωt = 1 rad/s, and scaled to
+    each GBW (s·C and s/ωt are all that the GBW enters; exact, see
+    :class:`placer.place.amplifier.ScaledFunction`). The search, where every
+    step costs a re-solve and a re-snap, visits the midpoints plain
+    bisection would, but decides one without a re-solve when a GBW already
+    tried decides it (met at g: met above g; missed at g: missed below),
+    and tries first the points a guess of the answer puts on either side of
+    it (:func:`_guided_bisect`). Where the error does fall with the GBW this
+    returns what plain bisection returns, with fewer re-solves; the answer
+    is always a GBW tried and met, with a GBW tried and missed at most a
+    factor 1 + `rtol` below it (or the bracket's bottom).
+    """
+
+    def __init__(self, ideal: IdealPlacement, topology: Topology,
+                 function_at: Callable[[float], Any], options: ProblemOptions, gbw_spread: float,
+                 seed: int, coarse_budget: int) -> None:
+        self.ideal, self.topology, self.function_at = ideal, topology, function_at
+        self.options, self.gbw_spread = options, gbw_spread
+        self.seed, self.coarse_budget = seed, coarse_budget
+        self._done: dict[float, _Corrected | None] = {}
+
+    def worst_at(self, gbw: float, values: Mapping[str, float]) -> float:
+        """Worst error (percent, the gain's included) of `values` built with op-amps of `gbw`."""
+        dominant = DominantFunction.for_goal(self.function_at(gbw), self.ideal.goal)
+        return root_errors(dominant, values, self.ideal.goal).worst_error_with_gain_pct
+
+    def corrected(self, gbw: float) -> _Corrected | None:
+        """The design re-solved and snapped for `gbw` (None: unreachable there)."""
+        if gbw not in self._done:
+            options, prefer = self.options, None
+            if self.gbw_spread:
+                prefer = gbw_spread_error(self.topology, self.ideal.goal, self.function_at, gbw,
+                                          ranges=options.ranges, fixed=options.fixed,
+                                          constraints=options.constraints, spread=self.gbw_spread)
+            self._done[gbw] = _correct(self.ideal, self.topology, self.function_at(gbw),
+                                       options.ranges, options.series, options.fixed,
+                                       options.constraints, self.seed, self.coarse_budget, prefer)
+        return self._done[gbw]
+
+    def worst(self, gbw: float) -> float:
+        """Worst error (percent) of the design corrected at `gbw`, at it and its spread."""
+        design = self.corrected(gbw)
+        if design is None:
+            return math.inf
+        spread = self.gbw_spread
+        edges = (gbw * (1 - spread), gbw * (1 + spread)) if spread else ()
+        return max([design.error_pct] + [self.worst_at(edge, design.values) for edge in edges])
+
+
+def _requirement_notes(gbw: float, uncorrected: float, low: float, high: float,
+                       gbw_spread: float) -> str:
+    """What the search found, in words."""
+    notes = []
     if math.isfinite(gbw):
-        parasitic = corrected(gbw).parasitic_poles_hz
         if gbw == low:
             notes.append(f"met already at the search's lowest GBW, 2·f0 = {format_value(low, 'Hz')}")
         if gbw_spread:
@@ -203,11 +251,12 @@ def required_gbw(section, topology, *, error_pct=1.0, parts=None, amplifier_gain
         notes.append(f"not met up to {format_value(high, 'Hz')}")
     if math.isfinite(gbw) and math.isfinite(uncorrected):
         notes.append(f"correcting for the op-amp lowers the GBW needed {uncorrected / gbw:.3g}-fold")
-    return GBWRequirement(gbw, uncorrected, tuple(parasitic), error_pct, gbw_spread,
-                          note="; ".join(notes))
+    return "; ".join(notes)
 
 
-def as_built_gbw(topology, values, goal, *, error_pct=1.0, amplifier_gain=None, rtol=0.02):
+def as_built_gbw(topology: Topology, values: Mapping[str, float], goal: Goal, *,
+                 error_pct: float = 1.0, amplifier_gain: float | None = None,
+                 rtol: float = 0.02) -> float:
     """Smallest GBW (Hz) at which a design, built as it is, meets `error_pct`.
 
     Bisection in log GBW over [10·f0, 1e4·f0·max(Q, 1)] (f0 of the goal,
@@ -256,13 +305,13 @@ def as_built_gbw(topology, values, goal, *, error_pct=1.0, amplifier_gain=None, 
         raise SpecError(f"error_pct = {error_pct!r} must be a positive percentage")
     if topology.circuit.opamp_count == 0:
         return 0.0
-    f0 = goal.omega0 / (2 * math.pi)
+    f0 = cast(float, goal.omega0) / (2 * math.pi)   # every section's goal has an ω0
     low, high = AS_BUILT_FLOOR * f0, search_top_hz(f0, goal.q)
     function_at = function_at_gbw(topology.circuit, AmplifierSpec(gain=amplifier_gain))
 
     def ok(gbw):
         dominant = DominantFunction.for_goal(function_at(gbw), goal)
-        return worst_error_pct(root_errors(dominant, values, goal)) <= error_pct
+        return root_errors(dominant, values, goal).worst_error_with_gain_pct <= error_pct
 
     return _bisect(ok, low, high, rtol)
 
@@ -393,7 +442,8 @@ def _guided_bisect(worst, bound, low, high, rtol, hint):
     return min(met) if met else hi
 
 
-def _corrected_hint(function_at, ideal, error_pct, gbw_spread, low, high):
+def _corrected_hint(function_at: Callable[[float], Any], ideal: IdealPlacement, error_pct: float,
+                    gbw_spread: float, low: float, high: float) -> float:
     """A guess (Hz) of the corrected search's answer, from the ideal design alone.
 
     A design corrected at a GBW g sits on target there (up to its snapping
@@ -404,7 +454,7 @@ def _corrected_hint(function_at, ideal, error_pct, gbw_spread, low, high):
     checks every decision on corrected designs.
     """
     goal, values = ideal.goal, ideal.snapped.values
-    floor = worst_error_pct(ideal.errors)
+    floor = ideal.errors.worst_error_with_gain_pct
     if not gbw_spread:
         return low
 
@@ -436,8 +486,10 @@ class _Corrected:
     parasitic_poles_hz: tuple
 
 
-def _correct(ideal, topology, function, ranges, series, fixed, constraints, seed, coarse_budget,
-             prefer=None):
+def _correct(ideal: IdealPlacement, topology: Topology, function: Any,
+             ranges: Mapping[str, tuple[float, float]] | None, series: Mapping[str, str] | None,
+             fixed: Mapping[str, float], constraints: tuple, seed: int, coarse_budget: int,
+             prefer: Callable[[np.ndarray], np.ndarray] | None = None) -> _Corrected | None:
     """The corrected design for one modelled function (None: unreachable).
 
     The steps of :func:`placer.place.amplifier.place_section_with_amplifier`
@@ -449,14 +501,14 @@ def _correct(ideal, topology, function, ranges, series, fixed, constraints, seed
     goal = ideal.goal
     dominant = DominantFunction.for_goal(function, goal)
     try:
-        _, _, snapped = correct_placement(ideal, topology, dominant, ranges=ranges, fixed=fixed,
-                                          constraints=constraints, series=series, seed=seed,
-                                          coarse_budget=coarse_budget, prefer=prefer)
+        snapped = correct_placement(ideal, topology, dominant, ranges=ranges, fixed=fixed,
+                                    constraints=constraints, series=series, seed=seed,
+                                    coarse_budget=coarse_budget, prefer=prefer).snapped
     except UnreachableTarget:
         return None
     parasitic = dominant.parasitic_poles(snapped.values)
     return _Corrected(
         values=snapped.values,
-        error_pct=worst_error_pct(root_errors(dominant, snapped.values, goal)),
+        error_pct=root_errors(dominant, snapped.values, goal).worst_error_with_gain_pct,
         parasitic_poles_hz=tuple(sorted(float(abs(p)) / (2 * math.pi) for p in parasitic)),
     )

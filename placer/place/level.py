@@ -41,16 +41,20 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING
 
 import numpy as np
 from numpy.typing import NDArray
 
-from ..circuit.elements import Circuit
+from ..circuit.elements import KIND_UNITS, Circuit
 from ..errors import UnreachableTarget
 from ..analysis.mna import layout, stamps
 from ..analysis.network import network_function
 from ..analysis.noise import noise_grid, noise_sources, transfers_to_output
 from ..units import format_value
+
+if TYPE_CHECKING:
+    from .solve import Problem
 
 __all__ = [
     "LOAD_HEADROOM",
@@ -248,13 +252,13 @@ def _grid(band: tuple, points_per_decade: int) -> NDArray[np.float64]:
     return np.geomspace(band[0], band[1], count)
 
 
-def _range_failure(problem, values: dict, scaled: dict) -> str:
+def _range_failure(problem: Problem, values: dict, scaled: dict) -> str:
     for symbol in scaled:
         if symbol not in problem.topology.ranges:
             continue
         low, high = problem.topology.ranges[symbol]
         value = float(values[symbol])
-        unit = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}[problem.topology.kind_of(symbol)]
+        unit = KIND_UNITS[problem.topology.kind_of(symbol)]
         if value < low * (1 - 1e-9) or value > high * (1 + 1e-9):
             side = "below" if value < low else "above"
             return (f"{symbol} would be {format_value(value, unit)}, {side} its range "

@@ -7,7 +7,7 @@ and constraints of a spec's ``[parts]`` table that apply to the topology.
 :func:`placer.design.place_section` ranks such placements;
 :func:`placer.place.amplifier.place_section_with_amplifier` starts its
 op-amp-corrected placement from one. Both rank candidates by the figures
-here: the worst error (:func:`worst_error_pct`) and the spread of the part
+here: the worst error (:attr:`~placer.place.solve.RootErrors.worst_error_with_gain_pct`) and the spread of the part
 values (:func:`value_spread`).
 
 Both commands seed a candidate's solver and Monte Carlo from its identity
@@ -29,13 +29,16 @@ import numpy as np
 
 from ..analysis.pencil import natural_frequencies
 from .level import choose_level, within
-from .snap import snap
-from .solve import Problem, Solution, goal_from_section, make_problem, root_errors, solve
+from .snap import SnapResult, snap
+from .solve import (Goal, Problem, RootErrors, Solution, goal_from_section, make_problem,
+                    root_errors, solve)
 
 if TYPE_CHECKING:
     from ..circuit.elements import Circuit
     from ..spec.reader import PartsSpec
     from ..circuit.topology import Topology
+    from ..target.targets import Section
+    from .level import LevelRule
 
 __all__ = [
     "PART_KINDS",
@@ -48,9 +51,9 @@ __all__ = [
     "require_stable",
     "IdealPlacement",
     "problem_options",
+    "ProblemOptions",
     "place_ideal",
     "value_spread",
-    "worst_error_pct",
     "worst_error_quantity",
     "snap_weighs_gain",
     "GAIN_WITHIN_REACH",
@@ -83,16 +86,26 @@ class IdealPlacement:
         The snapped and the continuous values' errors against the goal.
     """
 
-    goal: object
-    problem: object
-    solution: object
-    snapped: object
-    errors: object
-    continuous_errors: object
+    goal: Goal
+    problem: Problem
+    solution: Solution
+    snapped: SnapResult
+    errors: RootErrors
+    continuous_errors: RootErrors
     window: tuple | None = None     # the impedance level's snapping bounds (placer.place.level)
 
 
-def problem_options(topology, parts):
+class ProblemOptions(NamedTuple):
+    """The ``[parts]`` options that apply to one topology, as
+    :func:`placer.place.solve.make_problem` and :func:`placer.place.snap.snap` take them."""
+
+    ranges: dict[str, tuple[float, float]] | None   # kind -> (low, high)
+    series: dict[str, str] | None                   # kind -> series name
+    fixed: dict[str, float]                         # part -> value (SI)
+    constraints: tuple                              # of placer.spec.reader.Constraint
+
+
+def problem_options(topology: Topology, parts: PartsSpec | None) -> ProblemOptions:
     """The parts options that apply to one topology (see :func:`parts_notes`).
 
     Parameters
@@ -102,19 +115,19 @@ def problem_options(topology, parts):
 
     Returns
     -------
-    tuple
-        ``(ranges, series, fixed, constraints)`` as :func:`placer.place.solve.make_problem`
-        and :func:`placer.place.snap.snap` take them: fixed parts and constraints
-        naming a symbol the topology does not have are left out. Without
-        `parts`: ``(None, None, {}, ())``.
+    ProblemOptions
+        Fixed parts and constraints naming a symbol the topology does not
+        have are left out. Without `parts`: ranges and series None, no
+        fixed parts, no constraints.
     """
     if parts is None:
-        return None, None, {}, ()
+        return ProblemOptions(ranges=None, series=None, fixed={}, constraints=())
     fixed = {k: v for k, v in parts.fixed.items() if k in topology.symbols}
     constraints = tuple(
         c for c in parts.constraints if c.part in topology.symbols and c.source in topology.symbols
     )
-    return dict(parts.ranges), dict(parts.series), fixed, constraints
+    return ProblemOptions(ranges=dict(parts.ranges), series=dict(parts.series), fixed=fixed,
+                          constraints=constraints)
 
 
 def parts_notes(topology: Topology, parts: PartsSpec | None) -> tuple[str, ...]:
@@ -156,7 +169,8 @@ def parts_notes(topology: Topology, parts: PartsSpec | None) -> tuple[str, ...]:
     return tuple(notes)
 
 
-def place_ideal(section, topology, *, parts=None, seed=0, level=None):
+def place_ideal(section: Section, topology: Topology, *, parts: PartsSpec | None = None,
+                seed: int = 0, level: LevelRule | None = None) -> IdealPlacement:
     """Solve and snap one topology for one section with ideal op-amps.
 
     Parameters
@@ -187,18 +201,19 @@ def place_ideal(section, topology, *, parts=None, seed=0, level=None):
     >>> from placer.target.targets import make_section
     >>> placed = place_ideal(make_section("lowpass", 2 * math.pi * 10e3, 0.7071),
     ...                      get_topology("sallen-key-lowpass-unity"))
-    >>> bool(worst_error_pct(placed.errors) < 1)
+    >>> bool(placed.errors.worst_error_with_gain_pct < 1)
     True
     """
     goal = goal_from_section(section)
-    ranges, series, fixed, constraints = problem_options(topology, parts)
-    problem = make_problem(topology, goal, ranges=ranges, fixed=fixed, constraints=constraints)
+    options = problem_options(topology, parts)
+    problem = make_problem(topology, goal, ranges=options.ranges, fixed=options.fixed,
+                           constraints=options.constraints)
     solution = solve(problem, seed=seed)
     window = prefer = None
     if level is not None:   # impedance level: a separate step that moves no root
         leveled = choose_level(problem, solution, level)
         solution, window, prefer = leveled.solution, leveled.window, leveled.prefer
-    snapped = snap(within(problem, window), solution, series=series, prefer=prefer,
+    snapped = snap(within(problem, window), solution, series=options.series, prefer=prefer,
                    with_gain=snap_weighs_gain(problem, solution))
     return IdealPlacement(
         goal=goal, problem=problem, solution=solution, snapped=snapped,
@@ -218,7 +233,7 @@ def snap_weighs_gain(problem: Problem, solution: Solution) -> bool:
     When the continuous solution meets the gain too (or misses it only by
     what the value ranges allow, within :data:`GAIN_WITHIN_REACH`: a
     gain-setting divider at the end of its range), the figure reported,
-    :func:`worst_error_pct`, includes the gain, so the snap must weigh it:
+    :attr:`~placer.place.solve.RootErrors.worst_error_with_gain_pct`, includes the gain, so the snap must weigh it:
     otherwise preferred values whose poles are a little closer but whose
     gain is percents off win, and the result rests on which starts the
     solver drew. A gain the poles set (equal-component Sallen–Key) misses
@@ -226,30 +241,11 @@ def snap_weighs_gain(problem: Problem, solution: Solution) -> bool:
     """
     if solution.gain_matched or not problem.gain_adjustable:
         return bool(solution.gain_matched)
-    return float(problem.worst_error(solution.u, with_gain=True)) <= GAIN_WITHIN_REACH
-
-
-def worst_error_pct(errors):
-    """Worst root or figure error, percent, the gain's included.
-
-    Parameters
-    ----------
-    errors : placer.place.solve.RootErrors
-
-    Returns
-    -------
-    float
-        The worst of :attr:`~placer.place.solve.RootErrors.worst_pct` and, when
-        the gain is set, the gain error as a percentage of the magnitude.
-    """
-    worst = errors.worst_pct
-    if errors.gain_db is not None:
-        worst = max(worst, 100 * abs(10 ** (errors.gain_db / 20) - 1))
-    return worst
+    return float(problem.worst_error_with_gain(solution.u)) <= GAIN_WITHIN_REACH
 
 
 def worst_error_quantity(errors):
-    """What sets :func:`worst_error_pct`: "f0", "Q", "zero f0", "roots" or "gain".
+    """What sets the worst error with gain (:attr:`RootErrors.worst_error_with_gain_pct`): "f0", "Q", "zero f0", "roots" or "gain".
 
     Parameters
     ----------
@@ -319,9 +315,9 @@ class Candidate:
     notes: tuple = ()
 
     @property
-    def error_pct(self):
+    def error_pct(self) -> float:
         """Worst root/figure error after snapping, percent, gain included."""
-        return worst_error_pct(self.errors) if self.reachable else math.inf
+        return self.errors.worst_error_with_gain_pct if self.reachable else math.inf
 
     @property
     def spread(self):

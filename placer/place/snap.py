@@ -32,13 +32,15 @@ from __future__ import annotations
 
 import itertools
 import math
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 
 import numpy as np
 
 from ..errors import SpecError
 from ..eseries import check_series, nearest, series_values
-from .solve import batched_least_squares, figure_error
+from .least_squares import batched_least_squares
+from .solve import Problem, Solution, figure_error
 
 __all__ = ["SnapResult", "snap", "round_each", "default_series", "COARSE_BUDGET",
            "SPREAD_SLACK", "ERROR_CEILING"]
@@ -113,8 +115,10 @@ def _per_decade(series_name):
     return len(series_values(series_name, 1.0, 9.999))
 
 
-def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE_BUDGET,
-         spread_slack=SPREAD_SLACK, prefer=None):
+def snap(problem: Problem, solution: Solution, *, series: Mapping[str, str] | None = None,
+         with_gain: bool | None = None, coarse_budget: int = COARSE_BUDGET,
+         spread_slack: float = SPREAD_SLACK,
+         prefer: Callable[[np.ndarray], np.ndarray] | None = None) -> SnapResult:
     """Choose series values for the free parts of a solved problem.
 
     Parameters
@@ -159,49 +163,13 @@ def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE
     coarse = _coarse_parts(kinds, snapped, density)
     fine = [i for i in range(n) if i not in coarse]
 
-    def error_of(U):
-        return problem.worst_error(U, with_gain=with_gain)
+    def error_of(U: np.ndarray) -> np.ndarray:
+        return problem.worst_error_matched(U, with_gain=with_gain)
 
     starts = [solution.u] + [u for u in solution.alternatives if u is not solution.u]
-    coarse_sets = _coarse_candidates(grids, coarse, starts, coarse_budget)
     if coarse:
-        Uc = coarse_sets                                  # (len(coarse), B)
-        bases = [(solution.u, Uc)]
-        other_index = None
-        if fine and len(starts) > 1:
-            # a second branch: the continuous solution whose fine parts differ most
-            other_index = 1 + max(range(len(starts) - 1), key=lambda k: float(
-                np.max(np.abs(starts[k + 1][fine] - solution.u[fine]))))
-            other = starts[other_index]
-            if np.max(np.abs(other[fine] - solution.u[fine])) > 0.05:
-                bases.append((other, Uc))
-            else:
-                other_index = None
-            # and per combination, the continuous solution whose coarse parts
-            # are in the most similar ratios (impedance scaling leaves the
-            # roots alone, so only the ratios matter): its fine parts start
-            # near the combination's own answer, where the first two bases
-            # may be too far off for the few iterations _solve_fine allows
-            S = np.array(starts).T                                  # (n, k)
-            shape_c = Uc - np.mean(Uc, axis=0)
-            shape_s = S[coarse] - np.mean(S[coarse], axis=0)
-            distance = np.sum((shape_c[:, :, None] - shape_s[:, None, :]) ** 2, axis=0)
-            nearest_start = np.argmin(distance, axis=1)
-            fresh = (nearest_start != 0) & (nearest_start != other_index)
-            if np.any(fresh):
-                bases.append((S[:, nearest_start[fresh]], Uc[:, fresh]))
-        blocks = []
-        for base, combos in bases:
-            base = base if base.ndim == 2 else np.repeat(base[:, None], combos.shape[1], axis=1)
-            shift = np.mean(combos - base[coarse], axis=0)
-            block = base.copy()
-            block[coarse] = combos
-            # impedance scaling: capacitors up by e^c, resistors down by e^c
-            for i in fine:
-                sign = -1.0 if kinds[i] == "resistor" else (1.0 if kinds[i] == "inductor" else 0.0)
-                block[i] = np.clip(base[i] + sign * shift, problem.low[i], problem.high[i])
-            blocks.append(block)
-        U = np.concatenate(blocks, axis=1)
+        combos = _coarse_candidates(grids, coarse, starts, coarse_budget)   # (len(coarse), B)
+        U = _scaled_blocks(problem, _bases(starts, combos, coarse, fine), coarse, fine, kinds)
         if fine:
             U = _solve_fine(problem, U, coarse, fine, with_gain)
     else:
@@ -211,41 +179,106 @@ def snap(problem, solution, *, series=None, with_gain=None, coarse_budget=COARSE
     errors = error_of(candidates)
     keep = _pool(candidates, errors, kinds, spread_slack, prefer)
     pool, trials = _local_search(candidates[:, keep], grids, error_of)
-    count = candidates.shape[1] + trials
     errors = error_of(pool)
     spreads = _spreads(pool, kinds)
     # without the gain in the objective (a gain tied to the poles), the spread
     # must not be bought with gain either
-    gain_errors = None if with_gain else problem.worst_error(pool, with_gain=True)
+    gain_errors = None if with_gain else problem.worst_error_with_gain(pool)
     scores = None if prefer is None else _scores(prefer, pool)
     best = pool[:, _choose(errors, spreads, spread_slack, gain_errors, scores)]
+    values = _series_values(problem, best, grids, series, kinds)
+    numerator, denominator = problem.nf.coefficients(values)
+    return SnapResult(
+        values=values, continuous=_nearest_continuous(problem, solution, best, with_gain),
+        series=_part_series(problem, grids, series),
+        error=float(figure_error(numerator, denominator, problem.goal, with_gain=with_gain)),
+        candidates=int(candidates.shape[1] + trials),
+    )
+
+
+def _bases(starts: list[np.ndarray], combos: np.ndarray, coarse: list[int],
+           fine: list[int]) -> list[tuple[np.ndarray, np.ndarray]]:
+    """The continuous solutions each coarse combination's fine parts start from.
+
+    ``(base, combos)`` pairs: the best solution for every combination; a
+    second branch, the solution whose fine parts differ most; and per
+    combination the solution whose coarse parts are in the most similar
+    ratios (impedance scaling leaves the roots alone, so only the ratios
+    matter): its fine parts start near the combination's own answer, where
+    the first two may be too far off for the few iterations
+    :func:`_solve_fine` allows.
+    """
+    solution_u = starts[0]
+    bases = [(solution_u, combos)]
+    if not (fine and len(starts) > 1):
+        return bases
+    other_index = 1 + max(range(len(starts) - 1), key=lambda k: float(
+        np.max(np.abs(starts[k + 1][fine] - solution_u[fine]))))
+    if np.max(np.abs(starts[other_index][fine] - solution_u[fine])) > 0.05:
+        bases.append((starts[other_index], combos))
+    else:
+        other_index = None
+    S = np.array(starts).T                                  # (n, k)
+    shape_c = combos - np.mean(combos, axis=0)
+    shape_s = S[coarse] - np.mean(S[coarse], axis=0)
+    distance = np.sum((shape_c[:, :, None] - shape_s[:, None, :]) ** 2, axis=0)
+    nearest_start = np.argmin(distance, axis=1)
+    fresh = (nearest_start != 0) & (nearest_start != other_index)
+    if np.any(fresh):
+        bases.append((S[:, nearest_start[fresh]], combos[:, fresh]))
+    return bases
+
+
+def _scaled_blocks(problem: Problem, bases: list[tuple[np.ndarray, np.ndarray]], coarse: list[int],
+                   fine: list[int], kinds: list[str]) -> np.ndarray:
+    """Start points: each base with its coarse parts set to the combinations and its
+    fine parts moved by the same impedance scaling (capacitors up by e^c, resistors down)."""
+    blocks = []
+    for base, combos in bases:
+        base = base if base.ndim == 2 else np.repeat(base[:, None], combos.shape[1], axis=1)
+        shift = np.mean(combos - base[coarse], axis=0)
+        block = base.copy()
+        block[coarse] = combos
+        for i in fine:
+            sign = -1.0 if kinds[i] == "resistor" else (1.0 if kinds[i] == "inductor" else 0.0)
+            block[i] = np.clip(base[i] + sign * shift, problem.low[i], problem.high[i])
+        blocks.append(block)
+    return np.concatenate(blocks, axis=1)
+
+
+def _series_values(problem: Problem, best: np.ndarray, grids: list, series: dict[str, str],
+                   kinds: list[str]) -> dict[str, float]:
+    """Every part's value for the chosen point: exact series values, ties applied."""
     values = {k: float(np.asarray(v)) for k, v in problem.values(best).items()}
     for i, name in enumerate(problem.independent):
         if grids[i] is not None:
             values[name] = float(nearest(values[name], series[kinds[i]]))  # exact series value
     for part, (source, factor) in problem.tied.items():
         values[part] = values[source] * factor
-    values = _snap_tied(problem, values, series)
-    # the continuous solution nearest the chosen values shows what snapping cost
+    return _snap_tied(problem, values, series)
+
+
+def _nearest_continuous(problem: Problem, solution: Solution, best: np.ndarray,
+                        with_gain: bool) -> dict[str, float]:
+    """The continuous solution nearest the chosen values: it shows what snapping cost."""
     near = batched_least_squares(
         lambda V, _: problem.residuals(V, with_gain=with_gain), best[:, None],
         problem.low, problem.high, iterations=40,
     )[:, 0]
-    continuous = {k: float(np.asarray(v)) for k, v in problem.values(near).items()}
-    if float(problem.worst_error(near, with_gain=with_gain)) > max(solution.error, 1e-9) * 10:
-        continuous = dict(solution.values)
-    numerator, denominator = problem.nf.coefficients(values)
-    error = float(figure_error(numerator, denominator, problem.goal, with_gain=with_gain))
+    if float(problem.worst_error_matched(near, with_gain=with_gain)) > max(solution.error, 1e-9) * 10:
+        return dict(solution.values)
+    return {k: float(np.asarray(v)) for k, v in problem.values(near).items()}
+
+
+def _part_series(problem: Problem, grids: list, series: dict[str, str]) -> dict[str, str]:
+    """Part symbol → the series it was snapped to ("" for gains and fixed parts)."""
     part_series = {}
     for name in problem.topology.symbols:
         kind = problem.topology.kind_of(name)
         in_search = name in problem.independent and grids[problem.independent.index(name)] is not None
         tied = name in problem.tied and kind in series and kind in _SERIES_KIND
         part_series[name] = check_series(series[kind]) if (in_search or tied) else ""
-    return SnapResult(
-        values=values, continuous=continuous, series=part_series,
-        error=error, candidates=int(count),
-    )
+    return part_series
 
 
 def _coarse_parts(kinds, snapped, density):
@@ -313,7 +346,7 @@ def _neighbours(grid, u):
     return np.where(np.abs(above - u) < 1e-9, above, below), above
 
 
-def _rounded(U, grids, parts, problem):
+def _rounded(U: np.ndarray, grids: list, parts: list[int], problem: Problem) -> np.ndarray:
     """Every floor/ceil choice of the snapped `parts` for every column of U."""
     active = [i for i in parts if grids[i] is not None]
     if not active:
@@ -323,7 +356,7 @@ def _rounded(U, grids, parts, problem):
     budget = max(1, CANDIDATE_BUDGET // len(choices))
     if U.shape[1] > budget:
         # keep the columns whose continuous fine solution is best
-        errors = problem.worst_error(U)
+        errors = problem.worst_error_matched(U)
         U = U[:, np.argsort(errors)[:budget]]
     lower, upper = {}, {}
     for i in active:

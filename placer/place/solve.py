@@ -22,7 +22,9 @@ fixed parts keep their values. A target a topology cannot reach raises
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field, replace
+from typing import Any
 
 import numpy as np
 from scipy.optimize import least_squares
@@ -30,7 +32,10 @@ from scipy.stats import qmc
 
 from ..errors import SpecError, UnreachableTarget
 from ..circuit.library import realises
+from ..circuit.topology import Topology
 from ..analysis.network import network_function
+from ..analysis.second_order import first_order_omega, omega0_q, passband_gain, zero_pair_omega
+from .least_squares import batched_least_squares
 from .ties import tie_parts
 
 __all__ = [
@@ -44,8 +49,6 @@ __all__ = [
     "RootErrors",
     "root_errors",
     "structural_reason",
-    "passband_gain",
-    "batched_least_squares",
     "figure_error",
 ]
 
@@ -153,8 +156,8 @@ class Problem:
     (source part, factor); ``fixed`` holds numbers for the other parts.
     """
 
-    topology: object
-    nf: object
+    topology: Topology
+    nf: Any               # NetworkFunction or DominantFunction: coefficients, poles, zeros
     goal: Goal
     independent: tuple
     tied: dict
@@ -179,19 +182,26 @@ class Problem:
         numerator, denominator = self.nf.coefficients(self.values(u))
         return residuals_from(numerator, denominator, self.goal, with_gain=with_gain and self.gain_adjustable)
 
-    def worst_error(self, u, *, with_gain=None):
-        """Worst relative error of the matched figures at `u` (per sample).
+    def worst_root_error(self, u: np.ndarray) -> np.ndarray:
+        """Worst relative error of the roots' figures at `u` (per sample); the gain does not count."""
+        numerator, denominator = self.nf.coefficients(self.values(u))
+        return figure_error(numerator, denominator, self.goal, with_gain=False)
 
-        `with_gain` (default: when the gain is adjustable) adds the gain's
-        relative error to the roots' figures.
-        """
+    def worst_error_with_gain(self, u: np.ndarray) -> np.ndarray:
+        """:meth:`worst_root_error` with the gain's relative error too (when the goal sets a gain)."""
+        numerator, denominator = self.nf.coefficients(self.values(u))
+        return figure_error(numerator, denominator, self.goal, with_gain=True)
+
+    def worst_error_matched(self, u: np.ndarray, *, with_gain: bool | None = None) -> np.ndarray:
+        """The worst error the solver matches: with the gain when `with_gain`
+        (default: when the gain is adjustable), else the roots' alone."""
         if with_gain is None:
             with_gain = self.gain_adjustable
-        numerator, denominator = self.nf.coefficients(self.values(u))
-        return figure_error(numerator, denominator, self.goal, with_gain=with_gain)
+        return self.worst_error_with_gain(u) if with_gain else self.worst_root_error(u)
 
 
-def residuals_from(numerator, denominator, goal, *, with_gain=True):
+def residuals_from(numerator: np.ndarray, denominator: np.ndarray, goal: Goal, *,
+                   with_gain: bool = True) -> np.ndarray:
     """Residuals of numeric coefficients against a goal (vectorised)."""
     n = denominator.shape[0] - 1
     scale = goal.omega_ref ** np.arange(n, -1, -1).reshape((-1,) + (1,) * (denominator.ndim - 1))
@@ -251,40 +261,8 @@ def _coefficient_residual(achieved: np.ndarray, wanted: float) -> np.ndarray:
     return np.where(ratio > 0, right, wrong)
 
 
-def _omega0_q(a2: np.ndarray, a1: np.ndarray, a0: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """ω0 and Q of a2·s² + a1·s + a0, Q signed (negative: poles in the right half-plane).
-
-    NaN for a pair of real poles on either side of the origin (a0/a2 < 0).
-    Works on numbers and arrays.
-    """
-    with np.errstate(divide="ignore", invalid="ignore"):
-        omega0 = np.sqrt(np.where(a0 / a2 >= 0, a0 / a2, np.nan))
-        q = np.sqrt(np.where(a0 * a2 >= 0, a0 * a2, np.nan)) / (a1 * np.sign(a2))
-    return omega0, q
-
-
-def passband_gain(numerator, denominator, kind):
-    """Signed pass-band gain from coefficient arrays (highest power first).
-
-    `kind` says where it is read: "dc" (N(0)/D(0)), "center" (b1/a1 of a
-    second-order band-pass, the gain at ω0) or "hf" (the leading
-    coefficients' ratio; 0 when N has lower degree than D). Vectorised
-    over trailing sample axes.
-    """
-    if kind == "dc":
-        return numerator[-1] / denominator[-1]
-    if kind == "center" and denominator.shape[0] == 3:
-        return (numerator[-2] if numerator.shape[0] >= 2 else 0 * numerator[0]) / denominator[-2]
-    if numerator.shape[0] == denominator.shape[0]:
-        return numerator[0] / denominator[0]
-    if kind == "center" and numerator.shape[0] >= 2 and denominator.shape[0] >= 2:
-        return numerator[-2] / denominator[-2]
-    # a numerator of lower degree (or a first-order denominator asked for a
-    # centre gain, a topology that cannot fit the section) has no such gain
-    return 0 * denominator[0]
-
-
-def figure_error(numerator, denominator, goal, *, with_gain=True):
+def figure_error(numerator: np.ndarray, denominator: np.ndarray, goal: Goal, *,
+                 with_gain: bool = True) -> np.ndarray:
     """Worst relative error of ω0, Q (and zero ω0, gain) — vectorised.
 
     For first- and second-order goals these are the section figures; for
@@ -294,15 +272,15 @@ def figure_error(numerator, denominator, goal, *, with_gain=True):
     n = denominator.shape[0] - 1
     with np.errstate(divide="ignore", invalid="ignore"):
         if n == 2 and goal.q is not None:
-            omega0, q = _omega0_q(*denominator)
+            omega0, q = omega0_q(*denominator)
             errors = [np.abs(omega0 / goal.omega0 - 1), np.abs(q / goal.q - 1)]
         elif n == 1 and goal.omega0 is not None:
-            errors = [np.abs(denominator[1] / denominator[0] / goal.omega0 - 1)]
+            errors = [np.abs(first_order_omega(*denominator) / goal.omega0 - 1)]
         else:
             errors = list(np.abs(np.expm1(residuals_from(numerator, denominator, goal, with_gain=False)[:n])))
         if goal.zero_omega and numerator.shape[0] == 3:
             b2, _, b0 = numerator
-            errors.append(np.abs(np.sqrt(np.abs(b0 / b2)) / goal.zero_omega - 1))
+            errors.append(np.abs(zero_pair_omega(b2, b0) / goal.zero_omega - 1))
         if len(goal.numerator_shape) > 1 and not goal.zero_omega:
             shape_rows = residuals_from(numerator, denominator, goal, with_gain=False)[n:]
             errors.extend(list(np.abs(shape_rows)))
@@ -388,7 +366,7 @@ def make_problem(topology, goal, *, ranges=None, fixed=None, constraints=None, n
     return replace(problem, gain_adjustable=_gain_is_adjustable(problem))
 
 
-def _gain_is_adjustable(problem):
+def _gain_is_adjustable(problem: Problem) -> bool:
     """True when the pass-band gain moves with some independent part."""
     if problem.goal.gain is None or not problem.independent:
         return False
@@ -417,7 +395,8 @@ class Solution:
     gain_matched: bool = False  # the pass-band gain is on target too
 
 
-def solve(problem, *, starts=12, seed=0, tolerance=1e-6, initial=()):
+def solve(problem: Problem, *, starts: int = 12, seed: int = 0, tolerance: float = 1e-6,
+          initial: Sequence[np.ndarray] = ()) -> Solution:
     """Continuous part values meeting the goal, multi-start in log space.
 
     Parameters
@@ -449,13 +428,13 @@ def solve(problem, *, starts=12, seed=0, tolerance=1e-6, initial=()):
     n = len(problem.independent)
     if n == 0:
         u = np.zeros(0)
-        error = float(problem.worst_error(u, with_gain=False))
+        error = float(problem.worst_root_error(u))
         if error > tolerance:
             raise UnreachableTarget(
                 f"topology {problem.topology.id!r} has no free part and misses the goal by {100 * error:.3g} %"
             )
         return Solution(values=_floats(problem.values(u)), error=error, u=u,
-                        gain_matched=float(problem.worst_error(u, with_gain=True)) <= tolerance)
+                        gain_matched=float(problem.worst_error_with_gain(u)) <= tolerance)
     sampler = qmc.Sobol(d=n, scramble=True, seed=seed)
     points = sampler.random(1 << max(1, math.ceil(math.log2(max(starts, 2)))))[:starts]
     margin = 1e-6 * (problem.high - problem.low)
@@ -466,7 +445,7 @@ def solve(problem, *, starts=12, seed=0, tolerance=1e-6, initial=()):
                         problem.low + margin, problem.high - margin)
         starts_u = np.vstack([given, starts_u])
     U = batched_least_squares(lambda V, _: problem.residuals(V), starts_u.T, problem.low, problem.high)
-    gain_errors = problem.worst_error(U)
+    gain_errors = problem.worst_error_matched(U)
     use_gain = problem.gain_adjustable and float(np.min(gain_errors)) <= max(tolerance, 1e-6)
     if not use_gain and problem.gain_adjustable:
         # the gain is tied to the poles here: place the poles exactly, report the gain
@@ -476,7 +455,7 @@ def solve(problem, *, starts=12, seed=0, tolerance=1e-6, initial=()):
     else:
         def fun(V):
             return problem.residuals(V, with_gain=use_gain)
-    errors = problem.worst_error(U, with_gain=use_gain)
+    errors = problem.worst_error_matched(U, with_gain=use_gain)
     order = np.argsort(errors)
     if float(errors[order[0]]) > 1e-12:
         best = U[:, order[0]]
@@ -485,10 +464,10 @@ def solve(problem, *, starts=12, seed=0, tolerance=1e-6, initial=()):
             bounds=(problem.low, problem.high), method="trf", x_scale=np.ones(n),
             xtol=1e-14, ftol=1e-14, gtol=1e-14, max_nfev=50 * (n + 1),
         )
-        if float(problem.worst_error(result.x, with_gain=use_gain)) <= float(errors[order[0]]):
+        if float(problem.worst_error_matched(result.x, with_gain=use_gain)) <= float(errors[order[0]]):
             U[:, order[0]] = result.x
-    errors = problem.worst_error(U, with_gain=False)
-    gain_errors = problem.worst_error(U)
+    errors = problem.worst_root_error(U)
+    gain_errors = problem.worst_error_matched(U)
     found = sorted(
         ((float(errors[i]), float(gain_errors[i]), _spread(problem, U[:, i]), U[:, i])
          for i in range(U.shape[1])),
@@ -509,72 +488,6 @@ def solve(problem, *, starts=12, seed=0, tolerance=1e-6, initial=()):
     )
 
 
-def batched_least_squares(fun, U0, low, high, *, iterations=60, step=1e-6, cost_tol=1e-26,
-                          prune_after=None, prune_cost=None):
-    """Levenberg–Marquardt on many starting points at once, within a box.
-
-    Parameters
-    ----------
-    fun : callable
-        ``fun(U, columns) -> R`` with U of shape (n, k) and R of shape
-        (m, k); ``columns`` (length k) says which start each column of U
-        belongs to, for functions that hold per-start data.
-    U0 : ndarray, shape (n, batch)
-    low, high : ndarray, shape (n,)
-        Bounds; steps are projected onto the box.
-
-    cost_tol : float
-        A start stops once its sum of squared residuals is below this.
-    prune_after, prune_cost : int and float, optional
-        After `prune_after` iterations, stop working on starts whose cost
-        is still above `prune_cost` (hopeless ones, in a discrete search).
-
-    Returns
-    -------
-    ndarray, shape (n, batch)
-        The improved points (each no worse than its start).
-    """
-    U = np.array(U0, dtype=float)
-    n, batch = U.shape
-    low = np.asarray(low, float)[:, None]
-    high = np.asarray(high, float)[:, None]
-    R = fun(U, np.arange(batch))
-    cost = np.sum(R**2, axis=0)
-    damping = np.full(batch, 1e-3)
-    active = np.arange(batch)
-    eye = np.eye(n)
-    for iteration in range(iterations):
-        keep = (cost[active] > cost_tol) & (damping[active] < 1e8)
-        if prune_after is not None and iteration >= prune_after:
-            keep &= cost[active] < prune_cost
-        active = active[keep]
-        if active.size == 0:
-            break
-        Ua, Ra, k = U[:, active], R[:, active], active.size
-        # forward-difference Jacobian, every column of every start in one call
-        shifted = Ua[:, None, :] + step * eye[:, :, None]
-        Rs = fun(shifted.reshape(n, n * k), np.tile(active, n)).reshape(Ra.shape[0], n, k)
-        J = (Rs - Ra[:, None, :]) / step                       # (m, n, k)
-        JtJ = np.einsum("mik,mjk->kij", J, J)
-        g = np.einsum("mik,mk->ki", J, Ra)
-        diagonal = np.maximum(np.einsum("kii->ki", JtJ), 1e-12)
-        A = JtJ + (damping[active, None] * diagonal)[:, :, None] * eye[None]
-        try:
-            delta = -np.linalg.solve(A, g[..., None])[..., 0].T  # (n, k)
-        except np.linalg.LinAlgError:
-            delta = -(np.linalg.pinv(A) @ g[..., None])[..., 0].T
-        trial = np.clip(Ua + delta, low, high)
-        Rt = fun(trial, active)
-        trial_cost = np.sum(Rt**2, axis=0)
-        better = trial_cost < cost[active]
-        chosen = active[better]
-        U[:, chosen] = trial[:, better]
-        R[:, chosen] = Rt[:, better]
-        cost[chosen] = trial_cost[better]
-        damping[active] = np.clip(np.where(better, damping[active] * 0.3, damping[active] * 10.0), 1e-12, 1e8)
-    return U
-
-
 def _floats(values):
     return {k: float(np.asarray(v)) for k, v in values.items()}
 
@@ -591,12 +504,12 @@ def _spread(problem, u):
     return total
 
 
-def _miss_reason(problem, u, error):
+def _miss_reason(problem: Problem, u: np.ndarray, error: float) -> str:
     values = _floats(problem.values(u))
     numerator, denominator = problem.nf.coefficients(values)
     achieved = ""
     if denominator.shape[0] == 3:
-        omega0, q = (float(x) for x in _omega0_q(*denominator))
+        omega0, q = (float(x) for x in omega0_q(*denominator))
         if math.isfinite(omega0) and math.isfinite(q):
             achieved = f" (best reached: f0 {omega0 / (2 * math.pi):.4g} Hz, Q {q:.4g})"
     monic = np.asarray(denominator, float) / float(denominator[0])
@@ -610,7 +523,7 @@ def _miss_reason(problem, u, error):
     )
 
 
-def structural_reason(topology, goal, problem=None):
+def structural_reason(topology: Topology, goal: Goal, problem: Problem | None = None) -> str:
     """Why a topology cannot realise a goal, in words; "" when it might.
 
     Examples
@@ -640,24 +553,41 @@ def structural_reason(topology, goal, problem=None):
         )
     if goal.zeros and topology.response == "lowpass":
         return "a low-pass topology has no finite zeros; the section needs zeros"
-    if problem is not None and goal.q is not None and "sallen-key-lowpass-unity" in topology.id:
-        c_parts = [p for p in problem.independent if topology.kind_of(p) == "capacitor"]
-        if len(c_parts) == 2:
-            ratio = math.exp(problem.high[problem.independent.index(c_parts[0])]
-                             - problem.low[problem.independent.index(c_parts[1])])
-            ratio = max(ratio, math.exp(problem.high[problem.independent.index(c_parts[1])]
-                                        - problem.low[problem.independent.index(c_parts[0])]))
-            if ratio < 4 * goal.q**2:
-                return (
-                    f"the unity-gain Sallen–Key needs C1/C2 >= 4Q^2 = {4 * goal.q**2:.3g}, "
-                    f"but the capacitor range allows at most {ratio:.3g}"
-                )
+    if problem is not None and goal.q is not None and topology.capacitor_ratio_per_q2:
+        return _capacitor_ratio_reason(topology, problem, goal.q)
     return ""
+
+
+def _capacitor_ratio_reason(topology: Topology, problem: Problem, q: float) -> str:
+    """Why the capacitor ranges cannot give the ratio k·Q² the topology needs; "" when they can.
+
+    `k` is the topology file's ``capacitor_ratio_per_q2`` (4 for the
+    unity-gain Sallen–Key's C1/C2 >= 4Q^2).
+    """
+    c_parts = [p for p in problem.independent if topology.kind_of(p) == "capacitor"]
+    if len(c_parts) != 2:
+        return ""
+    first, second = (problem.independent.index(p) for p in c_parts)
+    ratio = max(math.exp(problem.high[first] - problem.low[second]),
+                math.exp(problem.high[second] - problem.low[first]))
+    need = topology.capacitor_ratio_per_q2 * q**2
+    if ratio >= need:
+        return ""
+    return (
+        f"topology {topology.id!r} needs {c_parts[0]}/{c_parts[1]} >= "
+        f"{topology.capacitor_ratio_per_q2:g}Q^2 = {need:.3g}, "
+        f"but the capacitor range allows at most {ratio:.3g}"
+    )
 
 
 @dataclass(frozen=True)
 class RootErrors:
-    """How far achieved roots and figures landed from the goal."""
+    """How far achieved roots and figures landed from the goal.
+
+    ``omega0``, ``q`` and ``zero_omega`` are the achieved figures (rad/s;
+    None where the function's order does not define them), read once here
+    so that reports show them rather than compute them again.
+    """
 
     f0_pct: float | None
     q_pct: float | None
@@ -667,15 +597,26 @@ class RootErrors:
     poles: tuple
     zeros: tuple
     gain: float
+    omega0: float | None = None
+    q: float | None = None
+    zero_omega: float | None = None
 
     @property
-    def worst_pct(self):
-        """Worst of the f0, Q, zero-f0 and root errors, percent."""
+    def worst_root_error_pct(self) -> float:
+        """Worst of the f0, Q, zero-f0 and root errors, percent; the gain does not count."""
         figures = [abs(x) for x in (self.f0_pct, self.q_pct, self.zero_f0_pct) if x is not None]
         return max(figures) if figures else self.worst_root_pct
 
+    @property
+    def worst_error_with_gain_pct(self) -> float:
+        """:attr:`worst_root_error_pct` and, when the gain is set, its error as a percentage of the magnitude."""
+        worst = self.worst_root_error_pct
+        if self.gain_db is not None:
+            worst = max(worst, 100 * abs(10 ** (self.gain_db / 20) - 1))
+        return worst
 
-def root_errors(nf, values, goal):
+
+def root_errors(nf: Any, values: Mapping[str, Any], goal: Goal) -> RootErrors:
     """Achieved roots and their errors against the goal (percent, dB)."""
     numerator, denominator = nf.coefficients(values)
     numerator = np.asarray(numerator, float)
@@ -684,18 +625,22 @@ def root_errors(nf, values, goal):
     zeros = nf.zeros(values)
     gain = float(passband_gain(numerator, denominator, goal.gain_kind))
     f0_pct = q_pct = zero_pct = None
+    omega0 = q = zero_omega = None
     if denominator.shape[0] == 3:
-        omega0, q = (float(x) for x in _omega0_q(*denominator))
+        omega0, q = (float(x) for x in omega0_q(*denominator))
         # a figure the roots do not define (real poles either side of the
         # origin) is an infinite error, never a NaN that max() would skip
         if goal.omega0:
             f0_pct = 100 * (omega0 / goal.omega0 - 1) if math.isfinite(omega0) else math.inf
         if goal.q:
             q_pct = 100 * (q / goal.q - 1) if math.isfinite(q) else math.inf
-    elif denominator.shape[0] == 2 and goal.omega0:
-        f0_pct = 100 * (denominator[1] / denominator[0] / goal.omega0 - 1)
+    elif denominator.shape[0] == 2:
+        omega0 = float(first_order_omega(*denominator))
+        if goal.omega0:
+            f0_pct = 100 * (omega0 / goal.omega0 - 1)
     if goal.zero_omega and numerator.shape[0] == 3 and numerator[0] != 0:
-        zero_pct = 100 * (math.sqrt(abs(numerator[2] / numerator[0])) / goal.zero_omega - 1)
+        zero_omega = float(zero_pair_omega(numerator[0], numerator[2]))
+        zero_pct = 100 * (zero_omega / goal.zero_omega - 1)
     gain_db = None
     if goal.gain:
         gain_db = 20 * math.log10(abs(gain) / goal.gain) if gain else -math.inf
@@ -705,6 +650,7 @@ def root_errors(nf, values, goal):
     return RootErrors(
         f0_pct=f0_pct, q_pct=q_pct, zero_f0_pct=zero_pct, gain_db=gain_db,
         worst_root_pct=worst, poles=tuple(poles), zeros=tuple(zeros), gain=gain,
+        omega0=omega0, q=q, zero_omega=zero_omega,
     )
 
 

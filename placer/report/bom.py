@@ -7,6 +7,7 @@ import io
 import math
 
 from ..eseries import usual_tolerance
+from ..circuit.elements import KIND_UNITS
 from ..units import format_value
 
 __all__ = ["bom_rows", "bom_csv", "opamp_model_text", "BOM_FIELDS"]
@@ -15,7 +16,6 @@ __all__ = ["bom_rows", "bom_csv", "opamp_model_text", "BOM_FIELDS"]
 BOM_FIELDS = ["references", "value", "value_si", "series", "tolerance", "kind", "quantity",
               "opamp_model"]
 
-_UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 
 
 def opamp_model_text(amplifier) -> str:
@@ -65,7 +65,7 @@ def bom_rows(parts, *, tolerances=None, opamps=(), amplifier=None):
             tolerance = usual_tolerance(series)
         rows.append({
             "references": " ".join(p.name for p in members),
-            "value": format_value(members[0].value, _UNIT[kind]),
+            "value": format_value(members[0].value, KIND_UNITS[kind]),
             "value_si": float(members[0].value),
             "series": series or "-",
             "tolerance": f"{100 * tolerance:g}%" if tolerance else "-",

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 
 from .. import __version__
-from ..compare import _SHORT, _SOURCES, DEFAULT_GAIN_WINDOW_DB, RANK_KEYS, SectionComparison
+from ..compare import GBW_SOURCES_SHORT, GBW_SOURCES, DEFAULT_GAIN_WINDOW_DB, RANK_KEYS, SectionComparison
 from ..design import candidate_topologies
 from ..units import format_value
 from .console import WIDTH, fmt_error, fmt_rejection, table, windows_text, wrap_text
@@ -61,10 +61,10 @@ def _number(x, digits=3):
 
 
 def _short_source(source):
-    for key, text in _SOURCES.items():
+    for key, text in GBW_SOURCES.items():
         if source.startswith(text):
-            return _SHORT[key]
-    return _SHORT["model"] if source else "-"
+            return GBW_SOURCES_SHORT[key]
+    return GBW_SOURCES_SHORT["model"] if source else "-"
 
 
 def _heading(comparison):
@@ -129,7 +129,7 @@ def _notes(comparison):
         legend.append(_REJECTION_LEGEND)
     # one line per method; a candidate's own detail (why "-") is in the JSON
     sources = {c.gbw_source for s in comparison.sections for c in s.candidates if c.reachable}
-    methods = sorted({x.split("; ")[0] for x in sources if x and x != _SOURCES["passive"]})
+    methods = sorted({x.split("; ")[0] for x in sources if x and x != GBW_SOURCES["passive"]})
     return legend, methods
 
 
@@ -222,7 +222,7 @@ def comparison_text(comparison, *, wide=False):
 
 def _candidate_schematics(comparison, s, resistor_style):
     """Each reachable candidate of a section drawn with its preferred values."""
-    pool = {t.id: t for t in candidate_topologies(s.section, comparison.spec)[0]}
+    pool = {t.id: t for t in candidate_topologies(s.section, comparison.spec).topologies}
     out = []
     for rank, c in enumerate((c for c in s.candidates if c.reachable), start=1):
         if c.topology in pool:

@@ -8,6 +8,7 @@ import textwrap
 
 from ..design import ERROR_TIE_PCT
 from ..evidence.tolerance import MAX_REJECTION_DB
+from ..circuit.elements import KIND_UNITS
 from ..units import format_value
 from .prelayout import cascade_lines, section_lines
 
@@ -18,7 +19,6 @@ __all__ = ["table", "design_text", "target_text", "evidence_text", "Progress", "
 #: Console width the text is laid out for (``compare --wide`` goes past it).
 WIDTH = 100
 
-_UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 
 
 def windows_text(windows):
@@ -214,8 +214,8 @@ def design_text(data):
                             "continuous"], rows))
         rows = []
         for p in s["parts"]:
-            rows.append([p["name"], p["kind"], format_value(p["value"], _UNIT[p["kind"]]),
-                         p["series"] or "fixed", format_value(p["continuous"], _UNIT[p["kind"]], digits=4)])
+            rows.append([p["name"], p["kind"], format_value(p["value"], KIND_UNITS[p["kind"]]),
+                         p["series"] or "fixed", format_value(p["continuous"], KIND_UNITS[p["kind"]], digits=4)])
         lines.append("")
         lines.append(table(["part", "kind", "value", "series", "continuous value"], rows))
         lines.extend(f"  note: {note}" for note in s.get("notes", ()))

@@ -8,11 +8,8 @@ from __future__ import annotations
 
 import math
 
-import numpy as np
-
 from ..place.amplifier import amplifier_summary
 from ..place.placement import worst_error_quantity
-from ..place.solve import passband_gain
 from ..spec.target_table import target_to_dict
 from ..units import finite_or_none
 
@@ -25,26 +22,24 @@ def roots_to_list(roots):
     return [[float(r.real), float(r.imag)] for r in items]
 
 
-def section_figures(nf, values, goal):
-    """f0 (Hz), Q, gain (dB) and notch zero f0 of one section's function."""
-    numerator, denominator = nf.coefficients(values)
-    numerator = np.asarray(numerator, float)
-    denominator = np.asarray(denominator, float)
+def section_figures(errors, goal=None):
+    """f0 (Hz), Q, gain (dB) and notch zero f0 of one section, from its RootErrors.
+
+    The figures are the ones :func:`placer.place.solve.root_errors` read
+    off the section's function (the same gain reading the solver matched).
+    """
     out = {"f0_hz": None, "q": None, "gain_db": None, "zero_f0_hz": None}
-    if denominator.shape[0] == 3:
-        a2, a1, a0 = denominator
-        out["f0_hz"] = math.sqrt(a0 / a2) / (2 * math.pi)
-        out["q"] = math.sqrt(a0 * a2) / abs(a1)
-    elif denominator.shape[0] == 2:
-        out["f0_hz"] = denominator[1] / denominator[0] / (2 * math.pi)
+    if errors.omega0 is not None:
+        out["f0_hz"] = errors.omega0 / (2 * math.pi)
     elif goal is not None and goal.omega0:
         out["f0_hz"] = goal.omega0 / (2 * math.pi)
-    # the same gain reading the solver matched
-    gain = float(passband_gain(numerator, denominator, goal.gain_kind if goal else "dc"))
+    if errors.q is not None:
+        out["q"] = abs(errors.q)
+    gain = errors.gain
     out["gain_db"] = 20 * math.log10(abs(gain)) if gain else None
     out["inverting"] = gain < 0
-    if goal is not None and goal.zero_omega and numerator.shape[0] == 3 and numerator[0]:
-        out["zero_f0_hz"] = math.sqrt(abs(numerator[2] / numerator[0])) / (2 * math.pi)
+    if errors.zero_omega is not None:
+        out["zero_f0_hz"] = errors.zero_omega / (2 * math.pi)
     return out
 
 
@@ -55,7 +50,7 @@ def _errors(errors):
         "zero_f0_pct": finite_or_none(errors.zero_f0_pct),
         "gain_db": finite_or_none(errors.gain_db),
         "worst_root_pct": finite_or_none(errors.worst_root_pct),
-        "worst_pct": finite_or_none(errors.worst_pct),
+        "worst_pct": finite_or_none(errors.worst_root_error_pct),
     }
 
 
@@ -96,8 +91,8 @@ def design_to_dict(design, *, evidence=None, prelayout=None):
     sections = []
     for s in design.sections:
         c = s.candidate
-        achieved = section_figures(c.problem.nf, c.snapped.values, s.goal)
-        continuous = section_figures(c.problem.nf, c.solution.values, s.goal)
+        achieved = section_figures(c.errors, s.goal)
+        continuous = section_figures(c.continuous_errors, s.goal)
         achieved["poles"] = roots_to_list(c.errors.poles)
         achieved["zeros"] = roots_to_list(c.errors.zeros)
         entry = {

@@ -21,6 +21,7 @@ import numpy as np
 
 from .. import __version__
 from ..evidence.tolerance import MAX_REJECTION_DB
+from ..circuit.elements import KIND_UNITS
 from ..units import format_value
 from .console import (fmt_db, fmt_edges, fmt_gain, fmt_hz, fmt_pct, fmt_peak_at, fmt_q,
                       fmt_error, fmt_rejection, fmt_where, mask_lines, why_chosen, windows_text)
@@ -45,7 +46,6 @@ if TYPE_CHECKING:
 
 __all__ = ["write_design_report", "write_loop_report"]
 
-_UNIT = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 
 
 def _on_grid(grid: np.ndarray, frequency: Any, values: Any) -> np.ndarray:
@@ -353,7 +353,7 @@ def _parts_list(data: dict[str, Any], design: Design) -> list[str]:
     rows = []
     for s in data["sections"]:
         for p in s["parts"]:
-            unit = _UNIT.get(p["kind"], "")
+            unit = KIND_UNITS.get(p["kind"], "")
             tol = tolerances.get(p["kind"])
             rows.append([p["name"], s["index"], p["kind"], format_value(p["value"], unit),
                          p["series"] or "fixed", format_value(p["continuous"], unit, digits=4),
@@ -541,9 +541,9 @@ def write_loop_report(result: LoopResult, data: dict[str, Any], *, html_path: Pa
         parts += _loop_monte_carlo_parts(result, data, mc, plots)
     parts += compensator_html(data, opamp_loops, plots)
     tolerances = mc["tolerances"] if mc else {}
-    rows = [[p["name"], p["kind"], format_value(p["value"], _UNIT.get(p["kind"], "")),
+    rows = [[p["name"], p["kind"], format_value(p["value"], KIND_UNITS.get(p["kind"], "")),
              p["series"] or "fixed",
-             format_value(p["continuous"], _UNIT.get(p["kind"], ""), digits=4),
+             format_value(p["continuous"], KIND_UNITS.get(p["kind"], ""), digits=4),
              f"±{100 * tolerances[p['name']]:g} %" if p["name"] in tolerances else "-"]
             for p in data["parts"]]
     parts += ["<h2>Parts list</h2>",

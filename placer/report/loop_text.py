@@ -12,6 +12,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from ..circuit.elements import KIND_UNITS
 from ..units import format_value
 from .console import table
 from .prelayout import compensator_lines
@@ -23,7 +24,6 @@ LOOP_CAUTION = ("Caution: power converters and anything connected to mains can h
                 "These values are a starting point: confirm the loop by simulation and on the bench,\n"
                 "and follow the applicable safety standards and licensed practice.")
 
-_UNITS = {"resistor": "ohm", "capacitor": "F", "inductor": "H"}
 _MONTE_CARLO = {"samples": ("builds", ""), "phase_margin_worst_deg": ("worst phase margin", "°"),
                 "phase_margin_median_deg": ("median phase margin", "°"),
                 "gain_margin_worst_db": ("worst gain margin", " dB"),
@@ -133,8 +133,8 @@ def loop_text(data: dict) -> str:
     lines.append(table(["loop", "crossover", "phase margin", "gain margin", "phase crossover"],
                        [_margin_row("continuous", data["continuous"]),
                         _margin_row("preferred values", data)]))
-    rows = [[p["name"], p["kind"], format_value(p["value"], _UNITS.get(p["kind"], "")),
-             p["series"], format_value(p["continuous"], _UNITS.get(p["kind"], ""), digits=4)]
+    rows = [[p["name"], p["kind"], format_value(p["value"], KIND_UNITS.get(p["kind"], "")),
+             p["series"], format_value(p["continuous"], KIND_UNITS.get(p["kind"], ""), digits=4)]
             for p in data["parts"]]
     lines += ["", table(["part", "kind", "value", "series", "continuous value"], rows)]
     if data.get("monte_carlo"):

@@ -35,7 +35,7 @@ from typing import TYPE_CHECKING, Any, Literal
 import schemdraw
 import schemdraw.elements as elm
 
-from ..circuit.elements import Circuit, Element
+from ..circuit.elements import KIND_UNITS, Circuit, Element
 from ..circuit.drawing import BELOW, Branch, Plan, Point, Step
 from ..circuit.drawing_auto import plan_for
 from ..errors import SpecError
@@ -57,7 +57,6 @@ __all__ = ["RESISTOR_STYLES", "Schematic", "circuit_svg", "circuit_schematic",
 
 #: Resistor symbols: IEC 60617 (rectangle, the default) and IEEE 315 (zig-zag).
 RESISTOR_STYLES = ("iec", "ieee")
-_UNITS = {"resistor": "ohm", "capacitor": "F", "inductor": "H", "vsource": "V", "isource": "A"}
 _GAIN_WORDS = {"vcvs": "A", "vccs": "gm", "cccs": "β", "ccvs": "rm"}
 _GAIN_UNITS = {"vcvs": "", "vccs": "S", "cccs": "", "ccvs": "ohm"}
 _LINE_WIDTH = 1.5
@@ -92,7 +91,7 @@ def _value_text(element: Element) -> str:
         return f"{_GAIN_WORDS[element.kind]} = {format_value(gain, _GAIN_UNITS[element.kind])}"
     if element.value is None:
         return element.symbol or ""
-    return format_value(element.value, _UNITS.get(element.kind, ""))
+    return format_value(element.value, KIND_UNITS.get(element.kind, ""))
 
 
 def opamp_model_text(element: Element) -> tuple[str, ...]:
@@ -126,9 +125,9 @@ def _labeller(elements: Sequence[Element], show_values: bool,
         if element.symbol and element.symbol != name:
             words.append(f"({element.symbol})")
         if element.symbol is not None and element.symbol in fixed:
-            words.append(format_value(fixed[element.symbol], _UNITS.get(element.kind, "")))
-        elif element.value is not None and element.kind in _UNITS:
-            words.append(format_value(element.value, _UNITS[element.kind]))
+            words.append(format_value(fixed[element.symbol], KIND_UNITS.get(element.kind, "")))
+        elif element.value is not None and element.kind in KIND_UNITS:
+            words.append(format_value(element.value, KIND_UNITS[element.kind]))
         return (" ".join(words),)
 
     return lines

@@ -269,7 +269,7 @@ def _candidates(table: dict, source: str) -> tuple:
     if folder is not None:
         folder = _folder(folder, source)
         loaded = load_folder(folder)
-        own, failed = loaded["topologies"], loaded["errors"]
+        own, failed = loaded.topologies, loaded.errors
     topologies = table.get("topologies")
     if topologies is not None:
         if not topologies:
@@ -300,7 +300,7 @@ def _check_named_parts(parts: PartsSpec, candidates: tuple, folder: str | None,
     """Constraints and fixed parts must name parts of some named candidate."""
     topologies = [resolve_topology(item) for item in candidates]
     if folder is not None:
-        topologies += list(load_folder(folder)["topologies"].values())
+        topologies += list(load_folder(folder).topologies.values())
     where = ", ".join(f"{t.id} ({', '.join(t.symbols)})" for t in topologies)
     for constraint in parts.constraints:
         for name in (constraint.part, constraint.source):
