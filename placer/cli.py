@@ -23,14 +23,15 @@ from __future__ import annotations
 
 import argparse
 import json
+import re
 import sys
 import traceback
 import warnings
 from pathlib import Path
 
 from . import __version__
-from .errors import (NumericalWarning, PlacerError, SpecError, SymbolicSizeError,
-                     UnreachableTarget, brief)
+from .errors import (BRIEF_LENGTH, NumericalWarning, PlacerError, SpecError,
+                     SymbolicSizeError, UnreachableTarget, brief, brief_path)
 from .report.files import check_output_folder, check_output_path, write_text
 from .units import format_value
 
@@ -47,7 +48,9 @@ class _Parser(argparse.ArgumentParser):
     """argparse with one-line errors and exit status 2."""
 
     def error(self, message):
-        raise SpecError(message)
+        # argparse quotes the user's value ('...'): a long one is cut, the rest kept.
+        raise SpecError(re.sub(r"'([^']{%d,})'" % BRIEF_LENGTH,
+                               lambda m: brief(m.group(1)), message))
 
 
 def build_parser():
@@ -360,7 +363,7 @@ def _cmd_target(args):
     inputs = _spec_inputs(spec)
     _check_outputs(args, inputs)
     if spec.target is None:
-        raise SpecError(f"{args.spec}: the spec has no [target] table")
+        raise SpecError(f"{brief_path(args.spec)}: the spec has no [target] table")
     sections = split_sections(spec.target, ordering=spec.ordering, gain=spec.gain_distribution)
     if args.json:
         _emit_json(target_to_dict(spec.target, sections), args.json, inputs=inputs)
@@ -475,7 +478,7 @@ def _cmd_loop(args):
 
     spec = load_spec(args.spec)
     if spec.loop is None:
-        raise SpecError(f"{args.spec}: the spec has no [loop] table")
+        raise SpecError(f"{brief_path(args.spec)}: the spec has no [loop] table")
     inputs = _spec_inputs(spec)
     _check_outputs(args, inputs)
     console = _console(args)

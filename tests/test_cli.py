@@ -444,3 +444,10 @@ def test_a_real_design_text_has_no_plural_of_one(spec, capsys):
     out = capsys.readouterr().out
     assert status == 0
     assert "1 pole," in out and "1 poles" not in out and "1 zeros" not in out
+
+
+def test_a_long_argument_value_is_cut_in_the_error(capsys):
+    assert main(["compare", "s.toml", "--rank-by", "z" * 500]) == 2
+    err = capsys.readouterr().err
+    assert len(_lines(err)) == 1 and "z" * 60 not in err
+    assert "'yield', 'error', 'parts', 'sensitivity'" in err  # what is accepted stays
