@@ -451,3 +451,14 @@ def test_a_long_argument_value_is_cut_in_the_error(capsys):
     err = capsys.readouterr().err
     assert len(_lines(err)) == 1 and "z" * 60 not in err
     assert "'yield', 'error', 'parts', 'sensitivity'" in err  # what is accepted stays
+
+
+def test_an_input_folder_is_refused_as_an_output_folder(tmp_path, capsys, no_compute):
+    lib = tmp_path / "lib"
+    lib.mkdir()
+    spec = tmp_path / "spec.toml"
+    spec.write_text(SPEC.replace('topologies = ["sallen-key-lowpass-unity"]', 'folder = "lib"'))
+    for option in ("--plots", "--schematic"):
+        assert main(["design", str(spec), option, str(tmp_path / "lib" / ".")]) == 2
+        err = capsys.readouterr().err
+        assert "is an input folder" in err and len(_lines(err)) == 1, err

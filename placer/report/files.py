@@ -106,10 +106,11 @@ def check_output_path(path, *, inputs=(), option="output"):
 
 
 def check_output_folder(path, *, inputs=(), option="output"):
-    """Refuse an output folder that is missing, not a folder or read-only.
+    """Refuse an output folder that is missing, not a folder, read-only or an input.
 
-    The files written into it are checked against `inputs` one by one
-    when they are written.
+    An input folder (a folder of topology files) is refused as a whole;
+    the files written into any other are checked against `inputs` one by
+    one when they are written.
 
     Raises
     ------
@@ -121,6 +122,10 @@ def check_output_folder(path, *, inputs=(), option="output"):
     if folder.exists() and not folder.is_dir():
         raise OutputError(f"{option}: {_shown(path)} is a file, not a folder")
     _check_folder(folder, option, path)
+    for item in inputs:
+        if item and Path(item).is_dir() and _same_file(folder, Path(item)):
+            raise OutputError(f"{option}: {_shown(path)} is an input folder (its files are "
+                              "read by this run); give another folder")
     return folder
 
 
