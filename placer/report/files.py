@@ -65,13 +65,13 @@ def _check_not_empty(path, option):
 
 
 def _check_folder(folder: Path, option: str, path) -> None:
-    shown = _shown(path)
+    of = "" if str(folder) == str(path) else f" of {_shown(path)}"
     if not folder.exists():
-        raise OutputError(f"{option}: folder {_shown(folder)} of {shown} does not exist")
+        raise OutputError(f"{option}: folder {_shown(folder)}{of} does not exist")
     if not folder.is_dir():
-        raise OutputError(f"{option}: {_shown(folder)} in {shown} is not a folder")
+        raise OutputError(f"{option}: {_shown(folder)}{of} is not a folder")
     if not os.access(folder, os.W_OK | os.X_OK):
-        raise OutputError(f"{option}: folder {_shown(folder)} of {shown} is read-only "
+        raise OutputError(f"{option}: folder {_shown(folder)}{of} is read-only "
                           f"(no permission to write in it)")
 
 
