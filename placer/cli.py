@@ -5,39 +5,53 @@ Subcommands: ``analyze`` (H(s) of a topology or circuit file), ``target``
 and evidence), ``compare`` (rank candidate topologies), ``loop``
 (compensator and margins), ``topologies`` (the library).
 
-Bad input prints one line ``error: …`` and exits 2; a target that cannot
-be reached prints the reasons and exits 1.
+Exit status: 0 done; 1 a target that cannot be reached (the reasons are
+printed); 2 bad input or an output that cannot be written (one line
+``error: …``); 3 an internal error (one line ``internal error: …``; the
+global ``--debug`` prints the traceback); 130 interrupted (Ctrl-C). No
+traceback reaches the user without ``--debug``. Warnings print as one line
+``warning: …`` each.
+
+``--json`` alone (or ``--json -``) writes the JSON alone to standard
+output and the console text to standard error; ``--json FILE`` writes the
+file and prints the text as usual. Every output is checked before the
+computation starts (its folder exists and can be written, it is not one of
+the run's inputs).
 """
 
 from __future__ import annotations
 
 import argparse
 import json
-import math
 import os
+import re
 import sys
+import traceback
+import warnings
 from pathlib import Path
-from typing import TYPE_CHECKING
 
 from . import __version__
-from .errors import PlacerError, SpecError, SymbolicSizeError, UnreachableTarget
-from .report.files import check_output_path, write_text
-from .units import finite_or_none, format_value
-
-if TYPE_CHECKING:
-    from .circuit.elements import Circuit
+from .errors import (BRIEF_LENGTH, NumericalWarning, PlacerError, SpecError,
+                     SymbolicSizeError, UnreachableTarget, brief, brief_path)
+from .report.files import check_output_folder, check_output_path, write_text
+from .units import format_value
 
 # The analysis stack (sympy, scipy, python-control) loads inside the
 # commands, so `placer --help` answers at once.
 
-__all__ = ["main", "build_parser"]
+__all__ = ["main", "run", "build_parser"]
+
+#: Exit statuses (see the module docstring).
+EXIT_UNREACHABLE, EXIT_BAD_INPUT, EXIT_INTERNAL, EXIT_INTERRUPTED = 1, 2, 3, 130
 
 
 class _Parser(argparse.ArgumentParser):
     """argparse with one-line errors and exit status 2."""
 
     def error(self, message):
-        raise SpecError(message)
+        # argparse quotes the user's value ('...'): a long one is cut, the rest kept.
+        raise SpecError(re.sub(r"'([^']{%d,})'" % BRIEF_LENGTH,
+                               lambda m: brief(m.group(1)), message))
 
 
 def build_parser():
@@ -47,7 +61,19 @@ def build_parser():
                     "analog filter or compensator with preferred-value parts, with evidence.",
     )
     parser.add_argument("--version", action="version", version=f"placer {__version__}")
+    parser.add_argument("--debug", action="store_true",
+                        help="on an error, print the traceback (also after the command)")
+    # --debug after the command too; SUPPRESS keeps the top-level value when not given there.
+    common = argparse.ArgumentParser(add_help=False)
+    common.add_argument("--debug", action="store_true", default=argparse.SUPPRESS,
+                        help="on an error, print the traceback")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    _add = sub.add_parser
+
+    def add_parser(name, **kwargs):
+        return _add(name, parents=[common], **kwargs)
+
+    sub.add_parser = add_parser
 
     p = sub.add_parser("analyze", help="symbolic and numeric H(s) of a topology or circuit file")
     p.add_argument("topology", metavar="TOPOLOGY_OR_FILE", help="a library id or a .toml file")
@@ -57,16 +83,15 @@ def build_parser():
     p.add_argument("--symbolic", action="store_true",
                    help=f"derive and print H(s) even past {ANALYZE_MAX_TERMS} terms (up to "
                         f"{SYMBOLIC_MAX_TERMS:,}); otherwise a larger one is analysed numerically")
-    p.add_argument("--json", nargs="?", const="-", metavar="OUT",
-                   help="write the result as JSON to OUT (or stdout)")
+    _add_json(p, "the result")
 
     p = sub.add_parser("target", help="poles, zeros and sections of a spec's target")
     p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
-    p.add_argument("--json", nargs="?", const="-", metavar="OUT", help="write JSON to OUT (or stdout)")
+    _add_json(p, "the target")
 
     p = sub.add_parser("design", help="solve and snap part values for a spec's target")
     p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
-    p.add_argument("--json", metavar="OUT", help="write the design as JSON")
+    _add_json(p, "the design")
     p.add_argument("--bom", metavar="OUT.csv", help="write a bill of materials (CSV)")
     p.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report")
     p.add_argument("--plots", metavar="DIR", help="write each plot as PNG and SVG into DIR")
@@ -84,7 +109,7 @@ def build_parser():
     p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
     p.add_argument("--rank-by", choices=("yield", "error", "parts", "sensitivity"), default="yield",
                    help="ranking key (default: yield)")
-    p.add_argument("--json", metavar="OUT", help="write the ranking as JSON")
+    _add_json(p, "the ranking")
     p.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report")
     p.add_argument("--plots", metavar="DIR", help="write each chart as PNG and SVG into DIR")
     _add_resistor_style(p)
@@ -100,7 +125,7 @@ def build_parser():
 
     p = sub.add_parser("loop", help="design a loop compensator and check its margins")
     p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
-    p.add_argument("--json", metavar="OUT", help="write the result as JSON")
+    _add_json(p, "the result")
     p.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report")
     p.add_argument("--plots", metavar="DIR", help="write each plot as PNG and SVG into DIR")
     p.add_argument("--schematic", metavar="DIR",
@@ -118,11 +143,17 @@ def build_parser():
     p = sub.add_parser("topologies", help="list the topology library, or show one")
     p.add_argument("id", nargs="?", metavar="ID", help="show one topology with its functions")
     p.add_argument("--folder", metavar="DIR", help="also list the topology files in DIR")
-    p.add_argument("--json", nargs="?", const="-", metavar="OUT", help="write JSON to OUT (or stdout)")
+    _add_json(p, "the list or the topology")
     p.add_argument("--schematic", metavar="OUT.svg",
                    help="with ID: write the topology's schematic (part symbols) as SVG")
     _add_resistor_style(p)
     return parser
+
+
+def _add_json(parser, what):
+    parser.add_argument("--json", nargs="?", const="-", metavar="OUT",
+                        help=f"write {what} as JSON to OUT; alone or with '-', the JSON alone "
+                             "to standard output (the console text then goes to standard error)")
 
 
 def _add_resistor_style(parser):
@@ -131,38 +162,90 @@ def _add_resistor_style(parser):
                              "IEEE 315 zig-zag")
 
 
-def _check_schematic_folder(folder):
-    if folder is not None and not Path(folder).is_dir():
-        raise SpecError(f"--schematic: folder {folder!r} does not exist")
+# -- running -------------------------------------------------------------------
+
+#: The longest a warning's or an internal error's message is shown, in characters.
+MESSAGE_LENGTH = 300
+
+
+def _one_line(text, limit=MESSAGE_LENGTH) -> str:
+    return brief(" ".join(str(text).split()), limit, quote=False)
+
+
+def _warning_hook(debug: bool):
+    """A ``warnings.showwarning`` that prints each warning as one line.
+
+    The project's own warnings (their classes live in ``placer``) print as
+    ``warning: message``; any other (numpy's RuntimeWarning, say: numerical
+    trouble the project did not foresee) is named as numerical trouble,
+    with its class, and ``--debug`` adds where it was raised.
+    """
+    def show(message, category, filename, lineno, file=None, line=None):
+        stream = file or sys.stderr
+        text = _one_line(message)
+        own = getattr(category, "__module__", "").split(".")[0] == "placer"
+        if not own:
+            text = (f"numerical trouble ({category.__name__}, as a "
+                    f"{NumericalWarning.__name__}): {text}")
+        if debug:
+            text += f" [{filename}:{lineno}]"
+        try:
+            stream.write(f"warning: {text}\n")
+        except (OSError, ValueError):  # stderr closed
+            pass
+
+    return show
+
+
+def run():
+    """The console entry point: :func:`main`, then exit with its status."""
+    sys.exit(main())
 
 
 def main(argv: list[str] | None = None) -> int:
-    """Run the command; returns the exit status."""
+    """Run the command; returns the exit status (see the module docstring)."""
+    from_command = argv is None
+    argv = sys.argv[1:] if argv is None else list(argv)
+    debug = "--debug" in argv
     parser = build_parser()
-    try:
-        args = parser.parse_args(argv)
-        if not args.command:
-            parser.print_help()
-            return 2
-        _check_early(args)
-        return _COMMANDS[args.command](args)
-    except UnreachableTarget as error:
-        print(f"cannot reach the target: {error}", file=sys.stderr)
-        return 1
-    except SpecError as error:
-        print(f"error: {error}", file=sys.stderr)
-        return 2
-    except PlacerError as error:
-        print(f"error: {error}", file=sys.stderr)
-        return 1
-    except BrokenPipeError:  # output piped into a pager or head that closed early
-        sys.stderr.close()
-        return 0
-    except KeyboardInterrupt:
-        print("error: interrupted", file=sys.stderr)
-        if argv is None:  # the command itself: worker pools are ended, skip the slow teardown
-            _exit_now(130)
-        return 130
+    with warnings.catch_warnings():
+        warnings.showwarning = _warning_hook(debug)
+        try:
+            args = parser.parse_args(argv)
+            if not args.command:
+                parser.print_help()
+                return EXIT_BAD_INPUT
+            _check_early(args)
+            return _COMMANDS[args.command](args)
+        except UnreachableTarget as error:
+            _traceback(debug)
+            print(f"cannot reach the target: {error}", file=sys.stderr)
+            return EXIT_UNREACHABLE
+        except PlacerError as error:  # bad input, an output that cannot be written
+            _traceback(debug)
+            print(f"error: {error}", file=sys.stderr)
+            return EXIT_BAD_INPUT
+        except BrokenPipeError:  # output piped into a pager or head that closed early
+            sys.stderr.close()
+            return 0
+        except KeyboardInterrupt:
+            _traceback(debug)
+            print("error: interrupted", file=sys.stderr)
+            if from_command:  # worker pools are ended: skip the interpreter's slow teardown
+                _exit_now(EXIT_INTERRUPTED)
+            return EXIT_INTERRUPTED
+        except Exception as error:  # a defect: one line, the traceback with --debug
+            _traceback(debug)
+            message = _one_line(f"{type(error).__name__}: {error}" if str(error)
+                                else type(error).__name__)
+            hint = "" if debug else "; run with --debug for the traceback"
+            print(f"internal error: {message}{hint}", file=sys.stderr)
+            return EXIT_INTERNAL
+
+
+def _traceback(debug):
+    if debug:
+        traceback.print_exc(file=sys.stderr)
 
 
 def _exit_now(status: int) -> None:
@@ -200,29 +283,70 @@ def _check_early(args):
     for name in _EARLY_TABLES:
         if name in data:
             check_table(data[name], name, source=str(spec))
-    for option in ("json", "bom", "report"):
+    for option in _FILE_OUTPUTS:
         path = getattr(args, option, None)
-        if path and path != "-":
+        if path is not None and path != "-":
             check_output_path(path, inputs=(spec,), option=f"--{option}")
-    plots = getattr(args, "plots", None)
-    if plots and not Path(plots).is_dir():
-        raise SpecError(f"--plots: folder {plots!r} does not exist")
-    _check_schematic_folder(getattr(args, "schematic", None))
+    for option in _FOLDER_OUTPUTS:
+        folder = getattr(args, option, None)
+        if folder is not None:
+            check_output_folder(folder, inputs=(spec,), option=f"--{option}")
     if args.command in ("design", "loop"):  # compare leaves its counts to compare()
         _check_counts(("--samples", args.samples if args.command == "design" else None, 1),
                       ("--seed", args.seed, 0), ("--workers", args.workers, 1))
+
+
+#: Output options that name a file, and those that name a folder.
+_FILE_OUTPUTS = ("json", "bom", "report")
+_FOLDER_OUTPUTS = ("plots", "schematic")
+
+
+def _json_to_stdout(args) -> bool:
+    return getattr(args, "json", None) == "-"
+
+
+def _console(args):
+    """Where the console text goes: standard error when the JSON takes standard output."""
+    return sys.stderr if _json_to_stdout(args) else sys.stdout
+
+
+def _check_outputs(args, inputs=(), *, file_options=_FILE_OUTPUTS,
+                   folder_options=_FOLDER_OUTPUTS):
+    """Check every output the command will write, before it computes anything."""
+    files = {}
+    for name in file_options:
+        path = getattr(args, name, None)
+        option = "--" + name
+        if path is None or (name == "json" and path == "-"):
+            continue
+        target = check_output_path(path, inputs=inputs, option=option)
+        key = str(target.resolve())
+        if key in files:
+            raise SpecError(f"{option}: {brief(path)} is also the {files[key]} output; "
+                            "give each output its own file")
+        files[key] = option
+    for name in folder_options:
+        path = getattr(args, name, None)
+        if path is not None:
+            check_output_folder(path, inputs=inputs, option="--" + name)
+
+
+def _spec_inputs(spec) -> list[str]:
+    """Every file a spec run reads: the spec, its candidate topology files and folder."""
+    inputs = [spec.path]
+    inputs += [c for c in (spec.candidates or ()) if Path(c).is_file()]
+    if spec.folder:
+        inputs.append(spec.folder)  # a folder stands for every entry in it
+    return inputs
 
 
 def _emit_json(data, destination, *, inputs=(), option="--json"):
     text = json.dumps(data, indent=2, allow_nan=False) + "\n"
     if destination in (None, "-"):
         sys.stdout.write(text)
+        sys.stdout.flush()
     else:
         write_text(destination, text, inputs=inputs, option=option)
-
-
-def _pairs(roots):
-    return [[float(r.real), float(r.imag)] for r in sorted(roots, key=lambda r: (abs(r), r.imag))]
 
 
 # -- analyze -------------------------------------------------------------------
@@ -240,10 +364,13 @@ def _cmd_analyze(args):
     from .circuit.library import load_analysable
     from .analysis.network import network_function
     from .analysis.pencil import circuit_poles, circuit_zeros
-    from .report.console import table, wrap_text
+    from .report.commands import analyze_numeric_report, analyze_report
+    from .report.console import wrap_text
 
     loaded = load_analysable(args.topology)
     topology, circuit = loaded.topology, loaded.circuit
+    inputs = (args.topology,)
+    _check_outputs(args, inputs)
     settings = read_settings(circuit, args.set)
     symbols = circuit.symbols
     values = dict(topology.values) if topology is not None else {}
@@ -253,135 +380,27 @@ def _cmd_analyze(args):
     try:
         nf = network_function(circuit, max_terms=limit)
     except SymbolicSizeError as error:
-        return _analyze_numerically(args, circuit, values, label, error)
-    lines = [f"H(s) of {label}" + (f" — {topology.title}" if topology is not None else "") + ":"]
-    from .report.polynomial import polynomial_text
-
-    numerator_text, denominator_text = polynomial_text(nf.numerator), polynomial_text(nf.denominator)
-    lines.append(f"  N(s) = {numerator_text}")
-    lines.append(f"  D(s) = {denominator_text}")
-    lines.append(f"  order {nf.order}")
-    data = {"id": label, "numerator": numerator_text,
-            "denominator": denominator_text, "order": nf.order}
-    if nf.order in (1, 2):
-        lines.append(f"  w0 = {nf.omega0}   (rad/s)")
-        if nf.q is not None:
-            lines.append(f"  Q  = {nf.q}")
-        lines.append(f"  gain ({nf.gain_kind}) = {nf.gain}")
-        data.update({"omega0": str(nf.omega0), "q_expression": None if nf.q is None else str(nf.q),
-                     "gain_expression": str(nf.gain)})
-    if args.latex:
-        lines.append(f"  LaTeX: H(s) = {nf.latex()}")
-        data["latex"] = nf.latex()
-    missing = [s for s in symbols if s not in values]
-    if not missing:
+        hint = "" if args.symbolic else " (--symbolic to derive it anyway)"
+        reason = (f"H(s) of {label} is too large to read: its derivation passed "
+                  f"{error.limit:,} terms{hint}")
+        missing = [s for s in symbols if s not in values]
+        if missing:
+            raise SpecError(f"{reason}; numeric poles, zeros and response need a value for "
+                            f"every part: give {', '.join(missing)} with --set NAME=VALUE or "
+                            f"[values] in the topology file") from None
+        data, text = analyze_numeric_report(circuit, values, label=label, reason=reason)
+    else:
         # A function past the readable size (--symbolic) is too long to compile
         # into an evaluator: its numbers come from the pencil.
         numeric = not symbols or nf.term_count > ANALYZE_MAX_TERMS
-        poles = circuit_poles(circuit, values) if numeric else nf.poles(values)
-        zeros = circuit_zeros(circuit, values) if numeric else nf.zeros(values)
-        data["poles"] = _pairs(poles)
-        data["zeros"] = _pairs(zeros)
-        lines.append("")
-        lines.append("With values: " + (", ".join(f"{k} = {format_value(v)}" for k, v in values.items()) or "all given in the file"))
-        def row(kind, r):
-            # + 0.0 turns a negative zero into a plain 0
-            return [kind, f"{r.real + 0.0:.6g}", f"{r.imag + 0.0:+.6g}",
-                    format_value(abs(r) / (2 * math.pi), "Hz", digits=4)]
-
-        rows = [row("pole", p) for p in sorted(poles, key=lambda r: (abs(r), r.imag))]
-        rows += [row("zero", z) for z in sorted(zeros, key=lambda r: (abs(r), r.imag))]
-        lines.append(table(["root", "re (rad/s)", "im (rad/s)", "|root| (Hz)"], rows))
-        if nf.order == 2:
-            figures = nf.second_order_figures(values)
-            # No f0 or Q when D(s)'s coefficients differ in sign; no DC gain with a pole at 0.
-            f0 = finite_or_none(float(figures.omega0) / (2 * math.pi))
-            q = finite_or_none(float(figures.q))
-            gain = finite_or_none(float(figures.gain))
-            gain_db = 20 * math.log10(abs(gain)) if gain else None
-            data.update({"f0_hz": f0, "q": q, "gain_db": gain_db})
-            shown = ("0" if gain == 0 else "none (a pole at s = 0)" if gain is None
-                     else f"{gain_db:+.3f} dB" + (" (inverting)" if gain < 0 else ""))
-            lines.append((f"  f0 = {format_value(f0, 'Hz', digits=4)}   Q = {q:.4f}"
-                          if f0 is not None and q is not None else
-                          "  f0, Q: none (D(s) has coefficients of both signs: real poles, "
-                          "one in the right half-plane)") + f"   gain = {shown}")
-        elif nf.order == 1:
-            numerator, denominator = nf.coefficients(values)
-            f0 = finite_or_none(float(denominator[1]) / float(denominator[0])
-                                / (2 * math.pi)) if float(denominator[0]) else None
-            data["f0_hz"] = f0
-            lines.append(f"  f0 = {format_value(f0, 'Hz', digits=4)}" if f0 is not None
-                         else "  f0: none")
-    elif settings:
-        lines.append("")
-        lines.append(f"  (give every part a value for numbers; still missing: {', '.join(missing)})")
+        data, text = analyze_report(
+            nf, label=label, title=topology.title if topology is not None else None,
+            values=values, settings=settings, symbols=symbols, latex=args.latex,
+            numeric_roots=((lambda: (circuit_poles(circuit, values), circuit_zeros(circuit, values)))
+                           if numeric else None))
     if args.json:
-        _emit_json(data, args.json, inputs=(args.topology,))
-        if args.json == "-":
-            return 0
-    print(wrap_text("\n".join(lines)))
-    return 0
-
-
-def _analyze_numerically(args: argparse.Namespace, circuit: Circuit, values: dict, label: str,
-                         error: SymbolicSizeError) -> int:
-    """``analyze`` past the term limit: poles, zeros and response from the pencil."""
-    import numpy as np
-
-    from .analysis.pencil import circuit_response, circuit_roots
-    from .report.console import table
-
-    hint = "" if args.symbolic else " (--symbolic to derive it anyway)"
-    reason = (f"H(s) of {label} is too large to read: its derivation passed {error.limit:,} "
-              f"terms{hint}")
-    missing = [s for s in circuit.symbols if s not in values]
-    if missing:
-        raise PlacerError(f"{reason}; numeric poles, zeros and response need a value for every "
-                          f"part: give {', '.join(missing)} with --set NAME=VALUE or [values] "
-                          f"in the topology file")
-    roots = circuit_roots(circuit, values)
-    # A decade below the lowest root to a decade above the highest, in 1-2-5
-    # steps; the phase is unwrapped on a grid of 40 points a decade.
-    magnitudes = np.abs(np.concatenate([roots.poles, roots.zeros])) / (2 * math.pi)
-    magnitudes = magnitudes[magnitudes > 0]
-    low, high = (magnitudes.min() / 10, magnitudes.max() * 10) if magnitudes.size else (0.1, 10.0)
-    decades = range(math.floor(math.log10(low)), math.ceil(math.log10(high)) + 1)
-    steps = (1.0, 2.0, 5.0) if len(decades) <= 8 else (1.0,)
-    f_hz = np.array([m * 10.0 ** d for d in decades for m in steps
-                     if low <= m * 10.0 ** d <= high] or [low, high])
-    dense = np.unique(np.concatenate([f_hz, np.geomspace(f_hz[0], f_hz[-1], 40 * len(decades))]))
-    h = circuit_response(circuit, 2 * np.pi * dense, values)
-    shown = np.searchsorted(dense, f_hz)
-    with np.errstate(divide="ignore"):
-        db = 20 * np.log10(np.abs(h[shown]))
-    phase = np.degrees(np.unwrap(np.angle(h)))[shown]
-    data = {"id": label, "symbolic": False, "reason": reason, "order": int(roots.poles.size),
-            "poles": _pairs(roots.poles), "zeros": _pairs(roots.zeros),
-            "gain_constant": roots.gain,
-            "response": [{"f_hz": float(f), "magnitude_db": float(m) if np.isfinite(m) else None,
-                          "phase_deg": float(p)} for f, m, p in zip(f_hz, db, phase)]}
-    if args.json:
-        _emit_json(data, args.json, inputs=(args.topology,))
-        if args.json == "-":
-            return 0
-
-    def row(kind, r):
-        return [kind, f"{r.real + 0.0:.6g}", f"{r.imag + 0.0:+.6g}",
-                format_value(abs(r) / (2 * math.pi), "Hz", digits=4)]
-
-    lines = [f"{reason}; numeric analysis instead.", f"  order {roots.poles.size}", "",
-             "With values: " + (", ".join(f"{k} = {format_value(v)}" for k, v in values.items())
-                                or "all given in the file")]
-    rows = [row("pole", p) for p in sorted(roots.poles, key=lambda r: (abs(r), r.imag))]
-    rows += [row("zero", z) for z in sorted(roots.zeros, key=lambda r: (abs(r), r.imag))]
-    lines.append(table(["root", "re (rad/s)", "im (rad/s)", "|root| (Hz)"], rows))
-    lines.append(f"  H(s) = k·Π(s − z)/Π(s − p), k = {roots.gain:.6g}")
-    lines.append("")
-    lines.append(table(["f", "|H| (dB)", "phase (deg)"],
-                       [[format_value(f, "Hz", digits=3), f"{m:+.2f}", f"{p:+.1f}"]
-                        for f, m, p in zip(f_hz, db, phase)]))
-    print("\n".join(lines))
+        _emit_json(data, args.json, inputs=inputs)
+    print(wrap_text(text), file=_console(args))
     return 0
 
 
@@ -394,14 +413,14 @@ def _cmd_target(args):
     from .spec.target_table import target_to_dict
 
     spec = load_spec(args.spec)
+    inputs = _spec_inputs(spec)
+    _check_outputs(args, inputs)
     if spec.target is None:
-        raise SpecError(f"{args.spec}: the spec has no [target] table")
+        raise SpecError(f"{brief_path(args.spec)}: the spec has no [target] table")
     sections = split_sections(spec.target, ordering=spec.ordering, gain=spec.gain_distribution)
     if args.json:
-        _emit_json(target_to_dict(spec.target, sections), args.json, inputs=(args.spec,))
-        if args.json == "-":
-            return 0
-    print(target_text(spec.target, sections))
+        _emit_json(target_to_dict(spec.target, sections), args.json, inputs=inputs)
+    print(target_text(spec.target, sections), file=_console(args))
     return 0
 
 
@@ -423,15 +442,11 @@ def _cmd_design(args):
     from .spec.reader import load_spec
 
     spec = load_spec(args.spec)
-    inputs = (args.spec,)
-    for option, path in (("--json", args.json), ("--bom", args.bom), ("--report", args.report)):
-        if path:
-            check_output_path(path, inputs=inputs, option=option)
-    if args.plots and not Path(args.plots).is_dir():
-        raise SpecError(f"--plots: folder {args.plots!r} does not exist")
-    _check_schematic_folder(args.schematic)
+    inputs = _spec_inputs(spec)
+    _check_outputs(args, inputs)
     _check_counts(("--samples", args.samples, 1), ("--seed", args.seed, 0),
                   ("--workers", args.workers, 1))
+    console = _console(args)
     progress = Progress("designing", quiet=args.quiet)
     try:
         result = design(spec, seed=args.seed, progress=progress)
@@ -447,9 +462,9 @@ def _cmd_design(args):
 
     prelayout = check_design(result)
     data = design_to_dict(result, evidence=evidence.to_dict(), prelayout=prelayout.to_dict())
-    print(design_text(data))
-    print()
-    print(evidence_text(evidence))
+    print(design_text(data), file=console)
+    print(file=console)
+    print(evidence_text(evidence), file=console)
     if args.json:
         _emit_json(data, args.json, inputs=inputs)
     if args.bom:
@@ -468,10 +483,10 @@ def _cmd_design(args):
 
         write_schematic_files(design_schematics(result), args.schematic,
                               resistor_style=args.resistor_style, inputs=inputs)
-    print()
+    print(file=console)
     print("Caution: these values are a starting point; confirm the design by simulation and on the "
           "bench.\nEquipment connected to mains, or used where a failure can hurt someone, must follow\n"
-          "its applicable safety standards and licensed practice.")
+          "its applicable safety standards and licensed practice.", file=console)
     return 0
 
 
@@ -484,21 +499,16 @@ def _cmd_compare(args):
     from .spec.reader import load_spec
 
     spec = load_spec(args.spec)
-    inputs = [spec.path] + [c for c in (spec.candidates or ()) if c.endswith(".toml")]
-    if spec.folder:
-        inputs += [str(p) for p in Path(spec.folder).glob("*.toml")]
-    for option, path in (("--json", args.json), ("--report", args.report)):
-        if path:
-            check_output_path(path, inputs=inputs, option=option)
-    if args.plots and not Path(args.plots).is_dir():
-        raise SpecError(f"--plots: folder {args.plots!r} does not exist")
+    inputs = _spec_inputs(spec)
+    _check_outputs(args, inputs)
+    console = _console(args)
     progress = Progress("compare", quiet=args.quiet)
     try:
         comparison = compare(spec, rank_by=args.rank_by, samples=args.samples,
                              workers=args.workers, seed=args.seed, progress=progress, gbw=args.gbw)
     finally:
         progress.close()
-    print(comparison_text(comparison, wide=args.wide))
+    print(comparison_text(comparison, wide=args.wide), file=console)
     if args.json:
         _emit_json(comparison_to_dict(comparison), args.json, inputs=inputs)
     if args.report or args.plots:
@@ -511,8 +521,7 @@ def _cmd_compare(args):
         reasons = "; ".join(f"{c.topology}: {c.reason}" for c in s.candidates) or "no candidate topology"
         print(f"cannot reach section {s.index} ({s.section.kind}, f0 "
               f"{format_value(s.section.f0_hz, 'Hz', digits=4)}): {reasons}", file=sys.stderr)
-    return 1 if missed else 0
-
+    return EXIT_UNREACHABLE if missed else 0
 
 # -- loop ----------------------------------------------------------------------
 
@@ -524,14 +533,10 @@ def _cmd_loop(args: argparse.Namespace) -> int:
 
     spec = load_spec(args.spec)
     if spec.loop is None:
-        raise SpecError(f"{args.spec}: the spec has no [loop] table")
-    inputs = (args.spec,)
-    for option, path in (("--json", args.json), ("--report", args.report)):
-        if path:
-            check_output_path(path, inputs=inputs, option=option)
-    if args.plots and not Path(args.plots).is_dir():
-        raise SpecError(f"--plots: folder {args.plots!r} does not exist")
-    _check_schematic_folder(args.schematic)
+        raise SpecError(f"{brief_path(args.spec)}: the spec has no [loop] table")
+    inputs = _spec_inputs(spec)
+    _check_outputs(args, inputs)
+    console = _console(args)
     samples = spec.tolerance.samples if args.samples is None else args.samples
     if samples < 0:
         raise SpecError(f"--samples {samples}: give a whole number >= 0 (0 skips the Monte Carlo)")
@@ -549,7 +554,7 @@ def _cmd_loop(args: argparse.Namespace) -> int:
     finally:
         progress.close()
     data, loops = loop_data(result, spec.amplifier)
-    print(wrap_text(loop_text(data)))
+    print(wrap_text(loop_text(data)), file=console)
     if args.json:
         _emit_json(data, args.json, inputs=inputs)
     if args.report or args.plots:
@@ -562,8 +567,8 @@ def _cmd_loop(args: argparse.Namespace) -> int:
 
         write_schematic_files({"compensator": compensator_schematic(result.design)},
                               args.schematic, resistor_style=args.resistor_style, inputs=inputs)
-    print()
-    print(LOOP_CAUTION)
+    print(file=console)
+    print(LOOP_CAUTION, file=console)
     return 0
 
 
@@ -575,95 +580,42 @@ def _plain(value):
 
 # -- topologies ----------------------------------------------------------------
 
-def _solved_for(topology):
-    """Free parts the solver moves: those no constraint ties to another."""
-    tied = {c.part for c in topology.constraints}
-    return [name for name in topology.free if name not in tied]
-
-
 def _cmd_topologies(args):
     from .circuit.library import library_topologies, load_folder, resolve_topology
     from .analysis.network import network_function
-    from .report.console import WIDTH, table, wrap_text
-    from .report.polynomial import polynomial_text
+    from .report.commands import library_report, topology_report
+    from .report.console import wrap_text
 
+    if args.schematic is not None and not args.id:
+        raise SpecError("--schematic: name a topology, for example "
+                        "`placer topologies mfb-lowpass --schematic mfb.svg`")
     pool = dict(library_topologies())
     errors = {}
-    if args.folder:
+    inputs = []
+    if args.folder is not None:
         loaded = load_folder(args.folder)
         pool.update(loaded.topologies)
         errors = loaded.errors
-    if args.schematic and not args.id:
-        raise SpecError("--schematic: name a topology, for example "
-                        "`placer topologies mfb-lowpass --schematic mfb.svg`")
+        inputs.append(args.folder)  # a folder stands for every entry in it
+    topology = None
     if args.id:
         topology = resolve_topology(args.id) if args.id not in pool else pool[args.id]
+        if topology.path:
+            inputs.append(topology.path)
+    _check_outputs(args, inputs, file_options=("json", "schematic"), folder_options=())
+    if topology is None:
+        data, text = library_report(pool, errors)
+    else:
         if args.schematic:
             from .report.schematic import render_svg, topology_schematic
 
-            inputs = tuple(p for p in (topology.path,) if p)
-            check_output_path(args.schematic, inputs=inputs, option="--schematic")
             write_text(args.schematic, render_svg(topology_schematic(topology),
                                                   resistor_style=args.resistor_style),
                        inputs=inputs, option="--schematic")
-        nf = network_function(topology.circuit)
-        data = {
-            "id": topology.id, "title": topology.title, "response": topology.response,
-            "family": topology.family, "order": topology.order, "inverting": topology.inverting,
-            "parts": list(topology.symbols), "free": list(topology.free),
-            "opamps": topology.opamp_count, "constraints": [str(c) for c in topology.constraints],
-            "ranges": {k: list(v) for k, v in topology.ranges.items()},
-            "numerator": polynomial_text(nf.numerator), "denominator": polynomial_text(nf.denominator),
-            "formula": topology.formula, "description": topology.description,
-            "circuit": topology.circuit.to_dict(),
-        }
-        if nf.order in (1, 2):
-            data["omega0"] = str(nf.omega0)
-            data["q"] = None if nf.q is None else str(nf.q)
-            data["gain"] = str(nf.gain)
-        if args.json:
-            _emit_json(data, args.json)
-            if args.json == "-":
-                return 0
-        lines = [f"{topology.id}: {topology.title}",
-                 f"  response {topology.response}" + (f" ({topology.family})" if topology.family else "")
-                 + f", order {topology.order}, {topology.part_count} parts, {topology.opamp_count} op-amps"
-                 + (", inverting" if topology.inverting else ""),
-                 f"  free parts: {', '.join(_solved_for(topology))}"
-                 + (" (the rest follow the constraints)" if topology.constraints else "")]
-        if topology.constraints:
-            lines.append(f"  constraints: {', '.join(str(c) for c in topology.constraints)}")
-        if topology.description:
-            lines.append(f"  {topology.description}")
-        lines.append(f"  N(s) = {data['numerator']}")
-        lines.append(f"  D(s) = {data['denominator']}")
-        if nf.order in (1, 2):
-            lines.append(f"  w0 = {data['omega0']}   (rad/s)")
-            if data["q"]:
-                lines.append(f"  Q  = {data['q']}")
-            lines.append(f"  gain = {data['gain']}")
-        if topology.formula:
-            lines.append(f"  published: {topology.formula}")
-        print(wrap_text("\n".join(lines)))
-        return 0
-    rows = []
-    listing = []
-    for topology in sorted(pool.values(), key=lambda t: (t.response, t.order, t.id)):
-        rows.append([topology.id, topology.title, topology.response
-                     + (f"/{topology.family}" if topology.family else ""), topology.order,
-                     topology.part_count, topology.opamp_count])
-        listing.append({"id": topology.id, "title": topology.title, "response": topology.response,
-                        "family": topology.family, "order": topology.order,
-                        "parts": topology.part_count, "opamps": topology.opamp_count})
-    for path, message in errors.items():
-        listing.append({"id": path, "error": message})
+        data, text = topology_report(topology, network_function(topology.circuit))
     if args.json:
-        _emit_json(listing, args.json)
-        if args.json == "-":
-            return 0
-    print(table(["id", "title", "response", "order", "parts", "op-amps"], rows, width=WIDTH, wrap=1))
-    for path, message in errors.items():
-        print(f"  could not load {path}: {message}")
+        _emit_json(data, args.json, inputs=inputs)
+    print(wrap_text(text), file=_console(args))
     return 0
 
 
@@ -696,4 +648,4 @@ _COMMANDS = {
 
 
 if __name__ == "__main__":  # pragma: no cover
-    sys.exit(main())
+    run()

@@ -1,6 +1,7 @@
 """Exception and warning types used across placer.
 
-Bad input is a :class:`SpecError` (a ``ValueError``); a target that a
+Bad input is a :class:`SpecError` (a ``ValueError``), an output that
+cannot be written an :class:`OutputError`; a target that a
 topology cannot reach is an :class:`UnreachableTarget`, which carries the
 reason in words and the library topologies that could reach it.
 :func:`brief` shows a user's value in a message, cut to a readable length.
@@ -14,6 +15,7 @@ __all__ = [
     "brief_path",
     "PlacerError",
     "SpecError",
+    "OutputError",
     "TopologyError",
     "UnreachableTarget",
     "SymbolicSizeError",
@@ -57,6 +59,15 @@ def brief(value: Any, limit: int = BRIEF_LENGTH, *, quote: bool = True) -> str:
     except RecursionError:
         return "<a value nested too deeply to show>"
     return text if len(text) <= limit else text[:limit - 3] + "..."
+
+
+class OutputError(SpecError):
+    """An output that cannot be written: a missing or read-only folder, a
+    full disk, a path that names a folder or one of the run's inputs.
+
+    The message names the option, the path and the reason, on one line;
+    the command exits 2 as for bad input.
+    """
 
 
 class TopologyError(SpecError):

@@ -41,6 +41,7 @@ __all__ = [
     "format_percent",
     "format_db",
     "finite_or_none",
+    "plural",
 ]
 
 #: The normalised unit names that :func:`parse_quantity` returns.
@@ -410,3 +411,16 @@ def finite_or_none(x: SupportsFloat | None) -> float | None:
         return None
     x = float(x)
     return x if math.isfinite(x) else None
+
+
+def plural(count: int, noun: str, plural_form: str | None = None) -> str:
+    """A count with its noun, singular for one: "1 pole", "2 poles", "0 zeros".
+
+    Examples
+    --------
+    >>> plural(1, "zero"), plural(3, "pole"), plural(0, "op-amp")
+    ('1 zero', '3 poles', '0 op-amps')
+    >>> plural(2, "section", "sections in cascade")
+    '2 sections in cascade'
+    """
+    return f"{count} {noun if count == 1 else (plural_form or noun + 's')}"

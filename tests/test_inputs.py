@@ -132,6 +132,24 @@ def test_topologies_json_lists_a_bad_range_as_a_load_error(tmp_path, capsys):
     assert "mine" not in {item.get("id") for item in listing}
 
 
+def test_a_drawn_shunt_part_off_the_path_is_a_load_error(tmp_path):
+    # found by the fuzz test: a shunt leg whose node is not on the drawn path
+    # (here R1 from gnd to gnd) ended in an internal error
+    text = textwrap.dedent("""\
+        id = "mine"
+        title = "RLC with R1 shorted"
+        response = "bandpass"
+        order = 2
+        elements = [{name = "L1", kind = "inductor", nodes = ["vin", "n1"], symbol = "L1"},
+                    {name = "C1", kind = "capacitor", nodes = ["n1", "vout"], symbol = "C1"},
+                    {name = "R1", kind = "resistor", nodes = ["gnd", "gnd"], symbol = "R1"}]
+        drawing = {path = ["L1", "C1"], shunt = ["R1"]}
+        """)
+    path = write(tmp_path, text, "mine.toml")
+    with pytest.raises(SpecError, match=r"drawing\.shunt: 'R1' hangs from node 'gnd'"):
+        load_topology(path)
+
+
 def test_analyze_refuses_huge_element_values(tmp_path, capsys):
     path = write(tmp_path, RC.format(r="value = 1e300", c="value = 1e300"), "big.toml")
     status, err = run(["analyze", path], capsys)

@@ -834,7 +834,7 @@ def test_analyze_past_the_limit_gives_numeric_poles_and_response(tmp_path, capsy
 
 def test_analyze_past_the_limit_without_values_names_the_parts(tmp_path, capsys):
     path = _ladder_file(tmp_path, 12, values=False)
-    assert main(["analyze", str(path), "--set", "R1=1k"]) == 1
+    assert main(["analyze", str(path), "--set", "R1=1k"]) == 2  # missing values: bad input
     message = capsys.readouterr().err
     assert message.startswith("error: H(s) of rc-ladder-12 is too large to read")
     assert "give C1, R2, C2," in message and "--set NAME=VALUE" in message

@@ -41,7 +41,7 @@ def _real_poly(roots: Sequence[complex]) -> FloatArray:
 def _pair_roots(roots: ArrayLike, what: str) -> list[list[complex]]:
     """Split roots into conjugate pairs and real roots (rad/s)."""
     roots = np.asarray(roots, dtype=complex).ravel()
-    scale = np.maximum(np.abs(roots), 1e-300)
+    scale = np.maximum(np.abs(roots), 1e-290)  # 1e-9 of it stays a normal float (no underflow)
     complex_mask = np.abs(roots.imag) > 1e-9 * scale
     real = list(roots[~complex_mask].real)
     upper = list(roots[complex_mask & (roots.imag > 0)])

@@ -396,6 +396,10 @@ def _add_legs(builder: PlanBuilder, names: Sequence[str], where: str) -> None:
                 raise SpecError(f"{where}.shunt: {chain[0]!r} hangs from node {nodes[0]!r} of a "
                                 "branch drawn above the path; draw that branch below")
             builder.legs.append(Leg(chain, nodes, "", branch=branch, index=index))
+        elif not builder.node_points.get(nodes[0]):
+            raise SpecError(f"{where}.shunt: {chain[0]!r} hangs from node {nodes[0]!r}, which is "
+                            "not on the drawn path; a shunt part connects a path node to the "
+                            f"reference {reference!r}")
         else:
             builder.add_leg(chain, nodes, leg_point(builder, nodes[0]))
 

@@ -9,10 +9,10 @@ import textwrap
 from ..design import ERROR_TIE_PCT
 from ..evidence.tolerance import MAX_REJECTION_DB
 from ..circuit.elements import KIND_UNITS
-from ..units import format_value
+from ..units import format_value, plural
 from .prelayout import cascade_lines, section_lines
 
-__all__ = ["table", "design_text", "target_text", "evidence_text", "Progress", "fmt_pct", "fmt_db",
+__all__ = ["inverting_note", "table", "design_text", "target_text", "evidence_text", "Progress", "fmt_pct", "fmt_db",
            "mask_lines", "fmt_hz", "fmt_where", "fmt_edges", "fmt_peak_at", "fmt_gain", "fmt_seconds", "fmt_rejection", "windows_text",
            "WIDTH", "wrap_text", "why_chosen", "fmt_error"]
 
@@ -191,16 +191,21 @@ def target_text(target, sections):
     return "\n".join(lines)
 
 
+def inverting_note(title: str, inverting) -> str:
+    """", inverting" after a section's title, unless the title already says so."""
+    return ", inverting" if inverting and "inverting" not in str(title).lower() else ""
+
+
 def design_text(data):
     """A design (as its JSON dict) as console text."""
     lines = [f"Design: {data['title']}"]
     target = data["target"]
-    lines.append(f"  target gain {target['gain_db']:+.3f} dB; {len(data['sections'])} section(s)")
+    lines.append(f"  target gain {target['gain_db']:+.3f} dB; {plural(len(data['sections']), 'section')}")
     for s in data["sections"]:
         t, a, e = s["target"], s["achieved"], s["error"]
         lines.append("")
         lines.append(f"Section {s['index']}: {t['kind']} order {t['order']} — topology {s['topology']}"
-                     f" ({s['title']}){', inverting' if a.get('inverting') else ''}")
+                     f" ({s['title']}){inverting_note(s['title'], a.get('inverting'))}")
         rows = [["f0", fmt_hz(t["f0_hz"]), fmt_hz(a["f0_hz"]), fmt_pct(e["f0_pct"]),
                  fmt_hz(s["continuous"]["f0_hz"])]]
         if t["q"] is not None:
@@ -236,10 +241,10 @@ def design_text(data):
     achieved = data["achieved"]
     lines.append("")
     parasitic = len(achieved.get("parasitic_poles", ()))
-    lines.append(f"Whole cascade: {len(achieved['poles'])} poles"
+    lines.append(f"Whole cascade: {plural(len(achieved['poles']), 'pole')}"
                  + (f" (+{parasitic} op-amp parasitic pole{'s' if parasitic > 1 else ''})"
                     if parasitic else "")
-                 + f", {len(achieved['zeros'])} zeros"
+                 + f", {plural(len(achieved['zeros']), 'zero')}"
                  + (f" (+{len(achieved['parasitic_zeros'])} op-amp parasitic)"
                     if achieved.get("parasitic_zeros") else "") + ", "
                  f"gain {fmt_gain(achieved['gain_db'])} {fmt_where(achieved.get('gain_at_hz'))}"

@@ -22,9 +22,9 @@ import numpy as np
 from .. import __version__
 from ..evidence.tolerance import MAX_REJECTION_DB
 from ..circuit.elements import KIND_UNITS
-from ..units import format_value
+from ..units import format_value, plural
 from .console import (fmt_db, fmt_edges, fmt_gain, fmt_hz, fmt_pct, fmt_peak_at, fmt_q,
-                      fmt_error, fmt_rejection, fmt_where, mask_lines, why_chosen, windows_text)
+                      fmt_error, fmt_rejection, fmt_where, inverting_note, mask_lines, why_chosen, windows_text)
 from .page import (POWER_CAUTION, Plots, caution_block, escape, finish_report, number_or_dash,
                    paragraph, prepare_outputs, spec_block, table)
 from .plots import bode_figure, histogram_figure, loop_bode_figure, pole_zero_figure, step_figure
@@ -118,8 +118,8 @@ def write_design_report(design: Design, data: dict[str, Any], evidence: Evidence
     parts_count = sum(len(s["parts"]) for s in data["sections"])
     opamps = [e for e in data["circuit"]["elements"] if e["kind"] == "opamp"]
     parts: list[str] = [f"<h1>Design report: {escape(title)}</h1>",
-             paragraph(f"{len(data['sections'])} filter section(s) in cascade, {parts_count} passive "
-                f"parts and {len(opamps)} op-amp(s). Made by placer {__version__}. Frequencies "
+             paragraph(f"{plural(len(data['sections']), 'filter section')} in cascade, "
+                f"{plural(parts_count, 'passive part')} and {plural(len(opamps), 'op-amp')}. Made by placer {__version__}. Frequencies "
                 "are in hertz; roots of the transfer function in rad/s."),
              "<h2>What was asked for</h2>", spec_block(spec_path, spec_text)]
     parts += _section_tables(data)
@@ -156,7 +156,7 @@ def _section_tables(data: dict[str, Any]) -> list[str]:
         t, a, c, e = s["target"], s["achieved"], s["continuous"], s["error"]
         out.append(f"<h3>Section {s['index']}: {escape(t['kind'])}, order {t['order']} — "
                    f"{escape(s['title'])} (<code>{escape(s['topology'])}</code>)"
-                   f"{', inverting' if a.get('inverting') else ''}</h3>")
+                   f"{inverting_note(s['title'], a.get('inverting'))}</h3>")
         rows = [["f0 (Hz)", fmt_hz(t["f0_hz"]), fmt_hz(c["f0_hz"]), fmt_hz(a["f0_hz"]),
                  fmt_pct(e["f0_pct"])]]
         if t["q"] is not None:
@@ -172,10 +172,10 @@ def _section_tables(data: dict[str, Any]) -> list[str]:
     out.append(paragraph(f"Whole cascade: target gain {fmt_gain(data['target']['gain_db'])}, achieved "
                   f"{fmt_gain(achieved['gain_db'])} {fmt_where(achieved.get('gain_at_hz'))}"
                   f"{' (inverting)' if achieved.get('inverting') else ''}; "
-                  f"{len(achieved['poles'])} poles"
+                  f"{plural(len(achieved['poles']), 'pole')}"
                   + (f" (+{len(achieved['parasitic_poles'])} op-amp parasitic)"
                      if achieved.get("parasitic_poles") else "")
-                  + f", {len(achieved['zeros'])} finite zeros"
+                  + f", {plural(len(achieved['zeros']), 'finite zero')}"
                   + (f" (+{len(achieved['parasitic_zeros'])} op-amp parasitic)"
                      if achieved.get("parasitic_zeros") else "") + "."))
     return out
