@@ -98,8 +98,8 @@ def test_negative_load_capacitance():
         with_load_capacitance(buffer(), -1e-12)
 
 
-def control_margin(numerator, denominator):
-    """python-control's phase margin and crossover (Hz) of T = numerator/denominator.
+def control_margins(numerator, denominator):
+    """python-control's phase margins and crossovers (Hz) of T = numerator/denominator.
 
     s = scale·x, the scale the roots' geometric mean, so the polynomial crossing search of
     ``stability_margins`` stays well conditioned; a phase margin does not change with the
@@ -113,9 +113,14 @@ def control_margin(numerator, denominator):
     top = np.max(np.abs(den))
     loop = control.tf(num / top, den / top)
     _, pm, _, _, wc, _ = control.stability_margins(loop, returnall=True)
-    assert len(pm) >= 1
-    i = int(np.argmin(pm))
-    return float(pm[i]), float(wc[i]) * scale / (2 * math.pi)
+    return np.asarray(pm, float), np.asarray(wc, float) * scale / (2 * math.pi)
+
+
+def control_margin(numerator, denominator):
+    """python-control's (margin, crossover Hz) at the one crossover of T."""
+    pm, crossover = control_margins(numerator, denominator)
+    assert len(pm) == 1
+    return float(pm[0]), float(crossover[0])
 
 
 @pytest.fixture(scope="module")
@@ -209,3 +214,32 @@ def test_phase_margin_range():
     for angle in (-90.0, -179.0, -181.0, 269.8, -450.2, 10.0, 179.0):
         assert phase_margin_of(angle) == pytest.approx(np.remainder(angle, 360.0) - 180.0, abs=1e-9)
     assert phase_margin_of(0.0) == 180.0 and phase_margin_of(360.0) == 180.0
+
+
+def test_integrator_loop_ignores_the_rising_crossover():
+    # An inverting integrator (R in, C feedback) of a one-pole op-amp: with the input grounded
+    # β(s) = sτ/(1 + sτ), τ = RC, so T(s) = ωt/(s + ωt/A0)·sτ/(1 + sτ) vanishes at DC and
+    # passes |T| = 1 twice (derivation as in the buffer test above; the formula built by hand
+    # here, not by the module). python-control lists both crossovers: the rising one near
+    # 1/(A0·τ) at ∠T = +90° (−90° in its range) and the falling one near ωt at about 90°; the
+    # op-amp's own margin is the falling one's.
+    r, c, gbw, a0 = 10e3, 10e-9, 1e6, 1e5
+    circuit = apply_amplifier(
+        Circuit((Element("U1", "opamp", ("gnd", "n1", "vout")),
+                 Element("R1", "resistor", ("vin", "n1"), value=r),
+                 Element("C1", "capacitor", ("n1", "vout"), value=c))),
+        AmplifierSpec(gbw=gbw, gain=a0))
+    omega_t, tau = 2 * math.pi * gbw, r * c
+    numerator = np.array([omega_t * tau, 0.0])
+    denominator = np.polymul([1.0, omega_t / a0], [tau, 1.0])
+    pm, crossover = control_margins(numerator, denominator)
+    assert len(pm) == 2
+    low, high = np.argsort(crossover)
+    assert crossover[low] == pytest.approx(1 / (a0 * tau) / (2 * math.pi), rel=1e-3)
+    assert pm[low] == pytest.approx(-90.0, abs=0.1)
+    loop = opamp_loop(circuit, "U1")
+    assert loop.crossover_hz == pytest.approx(crossover[high], rel=1e-6)
+    assert loop.phase_margin_deg == pytest.approx(pm[high], abs=0.1)
+    assert 89.0 < loop.phase_margin_deg < 91.0 and not loop.low_margin
+    module_pm, module_crossover = control_margins(*return_ratio_coefficients(circuit, "U1"))
+    np.testing.assert_allclose(np.sort(module_crossover), np.sort(crossover), rtol=1e-6)

@@ -72,10 +72,11 @@ class OpampLoop:
     ----------
     opamp : str
     crossover_hz : float or None
-        Where |T| = 1 (the lowest-margin one when several); None when |T|
-        never reaches 1.
+        Where |T| falls through 1 (the lowest-margin one when several; a
+        crossover where |T| rises through 1 counts only when none falls);
+        None when |T| never reaches 1.
     phase_margin_deg : float or None
-        180° + ∠T at the crossover, the smallest over crossovers, in
+        180° + ∠T at that crossover, in
         (−180°, 180°] (:func:`phase_margin_of`).
     gain_margin_db : float or None
         −20·log10|T| where ∠T crosses −180° beyond the crossover (the
@@ -352,12 +353,19 @@ def opamp_loop(circuit: Circuit, name: str, *,
 
     with np.errstate(divide="ignore"):
         level = np.log(np.maximum(magnitude, 1e-300))
-    crossings = []
+    crossings: list[tuple[float, float]] = []
+    falling: list[tuple[float, float]] = []
     above = level > 0
     for i in np.nonzero(above[:-1] != above[1:])[0]:
         f = _refine(lambda x: math.log(abs(at(x))), grid[i], grid[i + 1])
         crossings.append((phase_margin_of(math.degrees(np.angle(at(f)))), f))
-    margin, crossover = min(crossings) if crossings else (None, None)
+        if above[i]:
+            falling.append(crossings[-1])
+    # A crossover where |T| rises through 1 is not the loop's own: an integrator's op-amp, fed
+    # back through capacitors only, has T(0) = 0 and passes |T| = 1 on the way up at ∠T ≈ +90°
+    # (−90° of "margin", a mHz artefact); with T(∞) = 0 a falling crossover always follows.
+    pool = falling or crossings
+    margin, crossover = min(pool) if pool else (None, None)
     turns = np.floor((phase + 180.0) / 360.0)
     gains = []
     for i in np.nonzero(np.diff(turns) != 0)[0]:
