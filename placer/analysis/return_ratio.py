@@ -272,8 +272,8 @@ def return_ratio_coefficients(circuit: Circuit, name: str) -> tuple[NDArray[np.f
         omega_t = 2 * math.pi * element.gbw
         numerator = omega_t * numerator
         denominator = np.polymul(denominator, [1.0, omega_t / element.gain if element.gain else 0.0])
-    else:
-        numerator = float(element.gain) * numerator   # _broken checked that an ideal op-amp has one
+    elif element.gain is not None:                    # _broken refused an ideal op-amp
+        numerator = float(element.gain) * numerator
     return np.real(numerator).astype(float), np.real(denominator).astype(float)
 
 
