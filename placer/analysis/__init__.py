@@ -60,6 +60,7 @@ if TYPE_CHECKING:
         circuit_zeros,
         circuit_gain,
         circuit_response,
+        pencil_eigenvalues,
     )
     from .protocols import (
         ComplexArray,
@@ -78,6 +79,8 @@ if TYPE_CHECKING:
         output_pin,
         with_load_capacitance,
         return_ratio,
+        return_ratio_coefficients,
+        phase_margin_of,
         opamp_loop,
         opamp_loops,
     )
@@ -138,6 +141,7 @@ _EXPORTS = {
     "is_model_resistor": "noise",
     "opamp_input_coefficient": "noise",
     "natural_frequencies": "pencil",
+    "pencil_eigenvalues": "pencil",
     "ComplexArray": "protocols",
     "FloatArray": "protocols",
     "PartFunction": "protocols",
@@ -150,6 +154,8 @@ _EXPORTS = {
     "output_pin": "return_ratio",
     "with_load_capacitance": "return_ratio",
     "return_ratio": "return_ratio",
+    "return_ratio_coefficients": "return_ratio",
+    "phase_margin_of": "return_ratio",
     "opamp_loop": "return_ratio",
     "opamp_loops": "return_ratio",
     "SecondOrderFigures": "second_order",

@@ -42,6 +42,7 @@ __all__ = [
     "circuit_zeros",
     "circuit_gain",
     "circuit_response",
+    "pencil_eigenvalues",
 ]
 
 def _finite_eigenvalues(A: NDArray[np.float64], B: NDArray[np.float64]) -> NDArray[np.complex128]:
@@ -62,6 +63,15 @@ def _finite_eigenvalues(A: NDArray[np.float64], B: NDArray[np.float64]) -> NDArr
     finite = np.abs(beta) > 1e-11 * np.maximum(np.abs(alpha), np.abs(beta))
     values = alpha[finite] / beta[finite] * scale
     return values[np.abs(values) < 1e12 * scale]
+
+
+def pencil_eigenvalues(A: ArrayLike, B: ArrayLike) -> NDArray[np.complex128]:
+    """The finite λ with A x = λ B x, scaled as for a circuit's poles and zeros.
+
+    For an MNA pencil (−G, C) these are the natural frequencies (rad/s);
+    for a bordered (system) pencil, the transmission zeros.
+    """
+    return _finite_eigenvalues(np.asarray(A, float), np.asarray(B, float))
 
 
 @dataclass(frozen=True)

@@ -8,9 +8,10 @@ input is grounded, every other op-amp keeps its model, and the voltage
 the source would then see between its inputs, v_d, comes back as
 ``T = −A(s)·v_d``. For an op-amp in negative feedback T ≈ A·β > 0 at low
 frequency, 1 + T is the return difference, and the crossover (|T| = 1),
-phase margin (180° + ∠T there) and gain margin (−20·log|T| where ∠T
-crosses −180°) are those of the op-amp's own loop, with every other loop
-of the circuit closed. A capacitive load at the op-amp's output pin
+phase margin (180° + ∠T there, read in (−180°, 180°]) and gain margin
+(−20·log|T| where ∠T crosses −180°) are those of the op-amp's own loop,
+with every other loop of the circuit closed. :func:`return_ratio_coefficients`
+gives T as a ratio of polynomials in s, for python-control or a root plot. A capacitive load at the op-amp's output pin
 (:func:`with_load_capacitance`) with the model's output resistance adds
 the pole that erodes the margin.
 
@@ -44,7 +45,7 @@ from scipy.optimize import brentq
 from ..circuit.elements import Circuit, Element
 from ..errors import SpecError, TopologyError
 from .mna import NumericSystem, numeric_system
-from .pencil import circuit_poles
+from .pencil import circuit_poles, pencil_eigenvalues
 
 __all__ = [
     "PHASE_MARGIN_FLOOR_DEG",
@@ -52,6 +53,8 @@ __all__ = [
     "output_pin",
     "with_load_capacitance",
     "return_ratio",
+    "return_ratio_coefficients",
+    "phase_margin_of",
     "opamp_loop",
     "opamp_loops",
 ]
@@ -69,10 +72,12 @@ class OpampLoop:
     ----------
     opamp : str
     crossover_hz : float or None
-        Where |T| = 1 (the lowest-margin one when several); None when |T|
-        never reaches 1.
+        Where |T| falls through 1 (the lowest-margin one when several; a
+        crossover where |T| rises through 1 counts only when none falls);
+        None when |T| never reaches 1.
     phase_margin_deg : float or None
-        180° + ∠T at the crossover, the smallest over crossovers.
+        180° + ∠T at that crossover, in
+        (−180°, 180°] (:func:`phase_margin_of`).
     gain_margin_db : float or None
         −20·log10|T| where ∠T crosses −180° beyond the crossover (the
         smallest); None: no such crossing (unbounded).
@@ -211,6 +216,87 @@ def return_ratio(circuit: Circuit, name: str, frequency_hz: ArrayLike) -> NDArra
     return _returned(_broken(numeric_system(circuit), circuit, name), omega)
 
 
+def return_ratio_coefficients(circuit: Circuit, name: str) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """T(s) of op-amp `name` as numerator and denominator coefficients.
+
+    The broken loop's v_d(s) = k·Π(s − z)/Π(s − p): its poles are the
+    finite eigenvalues of the broken MNA pencil, its zeros those of the
+    pencil bordered by the excitation (the row of the op-amp's output) and
+    the differential read-out v+ − v−; k from one solve at a probe on the
+    roots' own frequency scale. Times −A(s) of the op-amp model. Common
+    factors (a mode the loop does not see) are not cancelled.
+
+    Parameters
+    ----------
+    circuit : Circuit
+        Numeric, op-amps modelled.
+    name : str
+
+    Returns
+    -------
+    numerator, denominator : ndarray
+        Real coefficients in descending powers of s (s in rad/s), the
+        order of ``control.tf(numerator, denominator)``.
+
+    Raises
+    ------
+    SpecError
+        When the op-amp is ideal (no GBW and no gain).
+    """
+    broken = _broken(numeric_system(circuit), circuit, name)
+    size = broken.G.shape[0]
+    poles = pencil_eigenvalues(-broken.G, broken.C)
+    bordered_g = np.zeros((size + 1, size + 1))
+    bordered_c = np.zeros((size + 1, size + 1))
+    bordered_g[:size, :size], bordered_c[:size, :size] = broken.G, broken.C
+    bordered_g[broken.row, size] = 1.0
+    if broken.plus is not None:
+        bordered_g[size, broken.plus] += 1.0
+    if broken.minus is not None:
+        bordered_g[size, broken.minus] -= 1.0
+    zeros = pencil_eigenvalues(-bordered_g, bordered_c)
+    magnitudes = np.abs(np.concatenate([poles, zeros]))
+    magnitudes = magnitudes[magnitudes > 0]
+    scale = float(np.exp(np.mean(np.log(magnitudes)))) if magnitudes.size else 1.0
+    probe = scale * (0.3 + 1.1j)
+    excitation = np.zeros(size, dtype=complex)
+    excitation[broken.row] = 1.0
+    x = np.linalg.solve(broken.G + probe * broken.C, excitation)
+    v_d = ((x[broken.plus] if broken.plus is not None else 0.0)
+           - (x[broken.minus] if broken.minus is not None else 0.0))
+    k = v_d * np.prod(probe - poles) / np.prod(probe - zeros)
+    element = broken.element
+    numerator = -k * np.poly(zeros) if zeros.size else np.array([-k])
+    denominator = np.poly(poles) if poles.size else np.array([1.0 + 0j])
+    if element.gbw is not None:
+        omega_t = 2 * math.pi * element.gbw
+        numerator = omega_t * numerator
+        denominator = np.polymul(denominator, [1.0, omega_t / element.gain if element.gain else 0.0])
+    elif element.gain is not None:                    # _broken refused an ideal op-amp
+        numerator = float(element.gain) * numerator
+    return np.real(numerator).astype(float), np.real(denominator).astype(float)
+
+
+def phase_margin_of(phase_deg: float) -> float:
+    """180° + ∠T for ∠T in degrees, read in (−180°, 180°].
+
+    A phase margin is the angle from −180° to T(jω_c) at a crossover, so it
+    is defined up to whole turns; a loop's phase unwrapped on a grid can
+    sit turns away (a return ratio that starts at 180° and gains 90° through
+    a right-half-plane pole of the loop reads 449.8° where the margin is
+    89.8°). python-control's ``stability_margins`` reads the same angle in
+    [−180°, 180°); the two differ only at T(jω_c) = +1, read here as 180°
+    (no phase lag at all), not −180°.
+
+    Examples
+    --------
+    >>> phase_margin_of(-90.0), phase_margin_of(269.5), phase_margin_of(0.0), phase_margin_of(-200.0)
+    (90.0, 89.5, 180.0, -20.0)
+    """
+    margin = (180.0 + float(phase_deg)) % 360.0
+    return margin - 360.0 if margin > 180.0 else margin
+
+
 def _grid(circuit: Circuit, element: Element) -> NDArray[np.float64]:
     marks = [abs(p) / (2 * math.pi) for p in circuit_poles(circuit) if abs(p) > 0]
     if element.gbw is not None:
@@ -267,12 +353,19 @@ def opamp_loop(circuit: Circuit, name: str, *,
 
     with np.errstate(divide="ignore"):
         level = np.log(np.maximum(magnitude, 1e-300))
-    crossings = []
+    crossings: list[tuple[float, float]] = []
+    falling: list[tuple[float, float]] = []
     above = level > 0
     for i in np.nonzero(above[:-1] != above[1:])[0]:
         f = _refine(lambda x: math.log(abs(at(x))), grid[i], grid[i + 1])
-        crossings.append((180.0 + unwrapped(f), f))
-    margin, crossover = min(crossings) if crossings else (None, None)
+        crossings.append((phase_margin_of(math.degrees(np.angle(at(f)))), f))
+        if above[i]:
+            falling.append(crossings[-1])
+    # A crossover where |T| rises through 1 is not the loop's own: an integrator's op-amp, fed
+    # back through capacitors only, has T(0) = 0 and passes |T| = 1 on the way up at ∠T ≈ +90°
+    # (−90° of "margin", a mHz artefact); with T(∞) = 0 a falling crossover always follows.
+    pool = falling or crossings
+    margin, crossover = min(pool) if pool else (None, None)
     turns = np.floor((phase + 180.0) / 360.0)
     gains = []
     for i in np.nonzero(np.diff(turns) != 0)[0]:
