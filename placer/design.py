@@ -437,7 +437,7 @@ def _assemble(spec: Spec, built: Sequence[tuple[int, Section, Sequence[Candidate
         unmodelled.append(circuit)
         if isinstance(best, AmplifiedCandidate) and best.amplifier is not None:
             # placed with a real op-amp model: the built circuit carries it
-            circuit = apply_amplifier(circuit, cast("AmplifierSpec", best.amplifier))
+            circuit = apply_amplifier(circuit, best.amplifier)
         section_designs.append(SectionDesign(
             index=index, section=section, goal=cast("Problem", best.problem).goal, candidate=best,
             candidates=tuple(ranked), parts=tuple(parts), circuit=circuit,
