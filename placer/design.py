@@ -115,7 +115,7 @@ class SectionDesign:
 
     @property
     def topology(self) -> Topology:
-        return cast("Topology", self.candidate.topology)
+        return self.candidate.topology
 
 
 @dataclass(frozen=True)
@@ -289,7 +289,7 @@ def rank_placements(candidates: Sequence[Candidate]) -> list[Candidate]:
     best = min(c.error_pct for c in candidates)
 
     def key(candidate: Candidate) -> tuple[int, float, float, float, str]:
-        topology = cast("Topology", candidate.topology)
+        topology = candidate.topology
         spread = sum(math.log(v) for v in candidate.spread.values())
         size = topology.part_count + topology.opamp_count
         if candidate.error_pct <= best + ERROR_TIE_PCT:
@@ -362,7 +362,9 @@ def design(spec: Spec, *, seed: int | None = None, progress: Progress | None = N
             if progress:
                 progress(done, total, topology.id)
         for path, message in plan.load_errors.items():
-            candidates.append(Candidate(topology=_FailedFile(path), reachable=False, reason=message))
+            # an unreachable candidate: only its id and counts are read (_tried_id)
+            candidates.append(Candidate(topology=cast("Topology", _FailedFile(path)), reachable=False,
+                                        reason=message))
         reachable = [c for c in candidates if c.reachable]
         if not reachable:
             reasons = "; ".join(f"{_tried_id(c)}: {c.reason}" for c in candidates) or "no candidate topology"
@@ -435,7 +437,7 @@ def _assemble(spec: Spec, built: Sequence[tuple[int, Section, Sequence[Candidate
         unmodelled.append(circuit)
         if isinstance(best, AmplifiedCandidate) and best.amplifier is not None:
             # placed with a real op-amp model: the built circuit carries it
-            circuit = apply_amplifier(circuit, cast("AmplifierSpec", best.amplifier))
+            circuit = apply_amplifier(circuit, best.amplifier)
         section_designs.append(SectionDesign(
             index=index, section=section, goal=cast("Problem", best.problem).goal, candidate=best,
             candidates=tuple(ranked), parts=tuple(parts), circuit=circuit,
@@ -542,7 +544,7 @@ _PREFIX = {"resistor": "R", "capacitor": "C", "inductor": "L", "opamp": "U",
 def _build_section(candidate: Candidate, index: int,
                    counters: dict[str, int]) -> tuple[Circuit, list[PartChoice]]:
     """The section's circuit with values and board designators."""
-    topology = cast("Topology", candidate.topology)
+    topology = candidate.topology
     snapped = cast("SnapResult", candidate.snapped)
     values = snapped.values
     renamed: dict[str, str] = {}

@@ -191,7 +191,7 @@ def _snapped(candidate: Candidate) -> SnapResult:
 
 
 def _topology(candidate: Candidate) -> Topology:
-    return cast("Topology", candidate.topology)
+    return candidate.topology
 
 
 def gather_evidence(design: Design, *, samples: int | None = None, seed: int | None = None,

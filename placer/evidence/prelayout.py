@@ -48,6 +48,7 @@ if TYPE_CHECKING:
     from ..design import Design
     from ..place.level import LevelRule
     from ..place.snap import SnapResult
+    from ..place.solve import Problem
     from ..spec.reader import Spec
     from ..target.targets import Section, Target
 
@@ -332,7 +333,7 @@ def check_design(design: Design) -> Prelayout:
     rules = level_rules_for(spec, [s.section for s in design.sections])
     sections = []
     for s, rule in zip(design.sections, rules):
-        problem = s.candidate.problem
+        problem = cast("Problem", s.candidate.problem)   # a design's candidates are reachable
         level = describe_level(problem, cast("SnapResult", s.candidate.snapped).values, rule,
                                mode=rule.mode)
         sections.append(SectionChecks(

@@ -32,7 +32,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, replace
-from typing import TYPE_CHECKING, Any, NamedTuple
+from typing import TYPE_CHECKING, Any, NamedTuple, cast
 
 import numpy as np
 
@@ -51,11 +51,13 @@ from .opamp import (
 from ..analysis.pencil import circuit_poles
 from .placement import Candidate, IdealPlacement, place_ideal, problem_options, snap_weighs_gain
 from .snap import COARSE_BUDGET, SnapResult, snap
-from .solve import Goal, Problem, Solution, make_problem, root_errors, solve
+from .solve import Goal, Problem, RootErrors, Solution, make_problem, root_errors, solve
 
 if TYPE_CHECKING:
+    from ..analysis.protocols import PartFunction
     from ..circuit.elements import Circuit
-    from ..circuit.topology import Topology
+    from ..circuit.topology import Constraint, Topology
+    from .level import LevelRule
     from .opamp import AmplifierSpec
     from ..spec.reader import PartsSpec
     from ..target.targets import Section
@@ -134,33 +136,35 @@ class AmplifiedCandidate(Candidate):
         Why nothing was modelled, when so (no op-amp in the topology).
     """
 
-    amplifier: object = None
-    circuit: object = None
-    ideal_snapped: object = None
-    ideal_errors: object = None
+    # None only as the dataclass default: every AmplifiedCandidate is made with both
+    amplifier: AmplifierSpec | None = None
+    circuit: Circuit | None = None
+    ideal_snapped: SnapResult | None = None   # None when the ideal placement failed (as ideal_errors)
+    ideal_errors: RootErrors | None = None
     ideal_drift: Drift | None = None
     drift: Drift | None = None
     low_gbw_drift: Drift | None = None
-    parasitic_poles: tuple = ()
+    parasitic_poles: tuple[complex, ...] = ()
     note: str = ""
 
     @property
-    def parasitic_poles_hz(self):
+    def parasitic_poles_hz(self) -> tuple[float, ...]:
         """|p|/2π of each parasitic pole, Hz, smallest first."""
         return tuple(sorted(abs(p) / (2 * math.pi) for p in self.parasitic_poles))
 
 
 
-def _drift(ideal_nf, modelled_nf, values, goal):
+def _drift(ideal_nf: PartFunction, modelled_nf: PartFunction, values: Mapping[str, float],
+           goal: Goal) -> Drift:
     modelled = root_errors(modelled_nf, values, goal)
     ideal = root_errors(ideal_nf, values, goal)
 
-    def shift(a, b):
+    def shift(a: float | None, b: float | None) -> float | None:
         if a is None or b is None:
             return None
         return float(100 * ((1 + a / 100) / (1 + b / 100) - 1))
 
-    def number(x):
+    def number(x: float | None) -> float | None:
         return None if x is None else float(x)
 
     return Drift(
@@ -170,7 +174,7 @@ def _drift(ideal_nf, modelled_nf, values, goal):
     )
 
 
-def _pair_figures(poles: Sequence[complex], goal: Goal) -> tuple[float, float | None]:
+def _pair_figures(poles: Sequence[complex] | np.ndarray, goal: Goal) -> tuple[float, float | None]:
     """ω0 (rad/s) and Q (None for one pole) of the poles nearest the goal's."""
     x = np.asarray(poles, dtype=complex)[None, :] / goal.omega_ref
     mask = nearest_root_set(x, np.asarray(goal.poles, dtype=complex) / goal.omega_ref)[0]
@@ -182,7 +186,8 @@ def _pair_figures(poles: Sequence[complex], goal: Goal) -> tuple[float, float | 
     return pair_figures(chosen[0], chosen[1])
 
 
-def built_drift(topology, values, goal, amplifier):
+def built_drift(topology: Topology, values: Mapping[str, float], goal: Goal,
+                amplifier: AmplifierSpec) -> Drift:
     """Drift of a design built with a real op-amp, from numeric MNA poles.
 
     Parameters
@@ -221,7 +226,8 @@ def built_drift(topology, values, goal, amplifier):
     return _drift_between(topology, values, goal, None, amplifier)
 
 
-def _low_gbw_drift(topology, amplifier, values, goal):
+def _low_gbw_drift(topology: Topology, amplifier: AmplifierSpec, values: Mapping[str, float],
+                   goal: Goal) -> Drift | None:
     """Drift of a design when the GBW is GBW_SPREAD low, from numeric MNA poles."""
     if amplifier.gbw is None:
         return None
@@ -229,23 +235,27 @@ def _low_gbw_drift(topology, amplifier, values, goal):
     return _drift_between(topology, values, goal, amplifier, low)
 
 
-def _drift_between(topology, values, goal, reference, amplifier):
+def _drift_between(topology: Topology, values: Mapping[str, float], goal: Goal,
+                   reference: AmplifierSpec | None, amplifier: AmplifierSpec) -> Drift:
     """Drift with `amplifier` against the goal and against `reference` (None: ideal op-amps)."""
-    def figures(model):
+    def figures(model: AmplifierSpec | None) -> tuple[float, float | None]:
         circuit = topology.circuit if model is None else apply_amplifier(topology.circuit, model)
         return _pair_figures(circuit_poles(circuit.with_values(values)), goal)
 
     (omega_base, q_base), (omega, q) = figures(reference), figures(amplifier)
 
-    def pct(a, b):
+    def pct(a: float | None, b: float | None) -> float | None:
         return None if a is None or b is None else float(100 * (a / b - 1))
 
     return Drift(f0_pct=pct(omega, goal.omega0), q_pct=pct(q, goal.q),
                  f0_shift_pct=pct(omega, omega_base), q_shift_pct=pct(q, q_base))
 
 
-def place_section_with_amplifier(section, topology, amplifier, *, parts=None, seed=0,
-                                 coarse_budget=COARSE_BUDGET, ideal=None, level=None):
+def place_section_with_amplifier(section: Section, topology: Topology, amplifier: AmplifierSpec, *,
+                                 parts: PartsSpec | None = None, seed: int = 0,
+                                 coarse_budget: int = COARSE_BUDGET,
+                                 ideal: IdealPlacement | None = None,
+                                 level: LevelRule | None = None) -> AmplifiedCandidate:
     """Solve and snap one topology for one section with real op-amps.
 
     The section is first placed with ideal op-amps (as
@@ -315,7 +325,7 @@ def _correct(section: Section, topology: Topology, amplifier: AmplifierSpec, mod
     full = network_function(modelled)
     dominant = DominantFunction.for_goal(full, goal)
     ideal_drift = _drift(ideal.problem.nf, dominant, ideal.snapped.values, goal)
-    common = dict(topology=topology, amplifier=amplifier, circuit=modelled,
+    common: dict[str, Any] = dict(topology=topology, amplifier=amplifier, circuit=modelled,
                   ideal_snapped=ideal.snapped, ideal_errors=ideal.errors, ideal_drift=ideal_drift)
     if modelled is topology.circuit:
         return AmplifiedCandidate(
@@ -361,7 +371,8 @@ class CorrectedPlacement(NamedTuple):
 
 def correct_placement(ideal: IdealPlacement, topology: Topology, dominant: DominantFunction, *,
                       ranges: Mapping[str, tuple[float, float]] | None = None,
-                      fixed: Mapping[str, float] | None = None, constraints: Sequence = (),
+                      fixed: Mapping[str, float] | None = None,
+                      constraints: Sequence[Constraint] = (),
                       series: Mapping[str, str] | None = None, seed: int = 0,
                       coarse_budget: int = COARSE_BUDGET,
                       prefer: Callable[[np.ndarray], np.ndarray] | None = None,
@@ -410,9 +421,10 @@ def correct_placement(ideal: IdealPlacement, topology: Topology, dominant: Domin
     return CorrectedPlacement(problem, solution, snapped)
 
 
-def gbw_spread_error(topology: Topology, goal: Goal, family: Callable[[float], Any], gbw: float, *,
+def gbw_spread_error(topology: Topology, goal: Goal, family: Callable[[float], PartFunction], gbw: float, *,
                      ranges: Mapping[str, tuple[float, float]] | None = None,
-                     fixed: Mapping[str, float] | None = None, constraints: Sequence = (),
+                     fixed: Mapping[str, float] | None = None,
+                     constraints: Sequence[Constraint] = (),
                      spread: float = GBW_SPREAD) -> Callable[[np.ndarray], np.ndarray]:
     """A score for :func:`placer.place.snap.snap`'s `prefer`: the error at GBW·(1 ± spread).
 
@@ -471,7 +483,7 @@ def robust_first(problem: Problem, solution: Solution,
                    error=float(problem.worst_root_error(best)))
 
 
-def amplifier_summary(candidate):
+def amplifier_summary(candidate: object) -> dict[str, Any] | None:
     """The op-amp figures of a placed candidate, JSON-ready; None when ideal.
 
     Parameters
@@ -494,9 +506,10 @@ def amplifier_summary(candidate):
     candidate = getattr(candidate, "candidate", candidate)
     if not isinstance(candidate, AmplifiedCandidate) or not candidate.reachable:
         return None
-    amplifier = candidate.amplifier
+    amplifier = cast("AmplifierSpec", candidate.amplifier)   # set on every AmplifiedCandidate
 
-    def figures(drift):
+    def figures(drift: Drift | None) -> dict[str, float | None]:
+        drift = cast(Drift, drift)   # a reachable AmplifiedCandidate has both drifts
         return {"f0_error_pct": drift.f0_pct, "q_error_pct": drift.q_pct,
                 "f0_shift_pct": drift.f0_shift_pct, "q_shift_pct": drift.q_shift_pct}
 
@@ -507,7 +520,8 @@ def amplifier_summary(candidate):
         "ideal_design": figures(candidate.ideal_drift),
         "corrected_design": figures(candidate.drift),
         "corrected_design_at_low_gbw": None if candidate.low_gbw_drift is None else {
-            "gbw_hz": amplifier.gbw * (1 - GBW_SPREAD), **figures(candidate.low_gbw_drift)},
+            # a low-GBW drift exists only for a model with a GBW
+            "gbw_hz": cast(float, amplifier.gbw) * (1 - GBW_SPREAD), **figures(candidate.low_gbw_drift)},
         "parasitic_poles_hz": list(candidate.parasitic_poles_hz),
         "parasitic_poles": [[p.real, p.imag] for p in candidate.parasitic_poles],
         "note": candidate.note,

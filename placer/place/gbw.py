@@ -22,7 +22,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, cast
+from typing import TYPE_CHECKING, cast
 
 import numpy as np
 
@@ -35,7 +35,8 @@ from .solve import Goal, root_errors
 from ..units import format_value
 
 if TYPE_CHECKING:
-    from ..circuit.topology import Topology
+    from ..analysis.protocols import PartFunction
+    from ..circuit.topology import Constraint, Topology
     from ..spec.reader import PartsSpec
     from ..target.targets import Section
 
@@ -51,7 +52,7 @@ __all__ = [
 AS_BUILT_FLOOR = 10.0
 
 
-def search_top_hz(f0_hz, q):
+def search_top_hz(f0_hz: float, q: float | None) -> float:
     """The top of every GBW search, Hz: 1e4·f0·max(Q, 1) (Q None: first order)."""
     return 1e4 * f0_hz * max(q or 1.0, 1.0)
 
@@ -80,7 +81,7 @@ class GBWRequirement:
 
     gbw_hz: float
     uncorrected_gbw_hz: float
-    parasitic_poles_hz: tuple
+    parasitic_poles_hz: tuple[float, ...]
     error_pct: float
     gbw_spread: float = 0.0
     note: str = ""
@@ -203,7 +204,7 @@ class _CorrectedSearch:
     """
 
     def __init__(self, ideal: IdealPlacement, topology: Topology,
-                 function_at: Callable[[float], Any], options: ProblemOptions, gbw_spread: float,
+                 function_at: Callable[[float], PartFunction], options: ProblemOptions, gbw_spread: float,
                  seed: int, coarse_budget: int) -> None:
         self.ideal, self.topology, self.function_at = ideal, topology, function_at
         self.options, self.gbw_spread = options, gbw_spread
@@ -309,7 +310,7 @@ def as_built_gbw(topology: Topology, values: Mapping[str, float], goal: Goal, *,
     low, high = AS_BUILT_FLOOR * f0, search_top_hz(f0, goal.q)
     function_at = function_at_gbw(topology.circuit, AmplifierSpec(gain=amplifier_gain))
 
-    def ok(gbw):
+    def ok(gbw: float) -> bool:
         dominant = DominantFunction.for_goal(function_at(gbw), goal)
         return root_errors(dominant, values, goal).worst_error_with_gain_pct <= error_pct
 
@@ -318,7 +319,7 @@ def as_built_gbw(topology: Topology, values: Mapping[str, float], goal: Goal, *,
 
 # -- the searches ------------------------------------------------------------------
 
-def _bisect(ok, low, high, rtol):
+def _bisect(ok: Callable[[float], bool], low: float, high: float, rtol: float) -> float:
     """Smallest x in [low, high] with ok(x), by bisection in log x (inf: none)."""
     if not ok(high):
         return math.inf
@@ -333,7 +334,7 @@ def _bisect(ok, low, high, rtol):
     return high
 
 
-def _bisection_path(low, high, rtol, threshold):
+def _bisection_path(low: float, high: float, rtol: float, threshold: float) -> list[float]:
     """The midpoints :func:`_bisect` visits when ok(x) is x ≥ `threshold`."""
     points = []
     while high / low > 1 + rtol:
@@ -346,7 +347,8 @@ def _bisection_path(low, high, rtol, threshold):
     return points
 
 
-def _guided_bisect(worst, bound, low, high, rtol, hint):
+def _guided_bisect(worst: Callable[[float], float], bound: float, low: float, high: float,
+                   rtol: float, hint: float) -> float:
     """The bisection of :func:`_bisect` on ``worst(x) <= bound``, with fewer calls.
 
     It walks the same path as :func:`_bisect` (the same endpoint checks,
@@ -366,14 +368,14 @@ def _guided_bisect(worst, bound, low, high, rtol, hint):
     bracket's top, as :func:`_bisect` returns), `low` when met there,
     ``inf`` when not met at `high`.
     """
-    tried = {}
+    tried: dict[float, float] = {}
 
-    def evaluate(x):
+    def evaluate(x: float) -> bool:
         if x not in tried:
             tried[x] = worst(x)
         return tried[x] <= bound
 
-    def known(x):
+    def known(x: float) -> bool | None:
         if x in tried:
             return tried[x] <= bound
         if any(p <= x and w <= bound for p, w in tried.items()):
@@ -382,7 +384,7 @@ def _guided_bisect(worst, bound, low, high, rtol, hint):
             return False
         return None
 
-    def guess():
+    def guess() -> tuple[float, float]:
         met = [p for p, w in tried.items() if w <= bound]
         missed = [p for p, w in tried.items() if w > bound]
         top = min(met) if met else None
@@ -400,8 +402,8 @@ def _guided_bisect(worst, bound, low, high, rtol, hint):
             return bottom * max(tried[bottom] / bound, 1.0), ratio
         return hint, ratio
 
-    def decide(x, lo, hi):
-        while known(x) is None:
+    def decide(x: float, lo: float, hi: float) -> bool:
+        while (verdict := known(x)) is None:
             centre, margin = guess()
             path = [p for p in _bisection_path(lo, hi, rtol, centre)
                     if p not in tried and abs(math.log(p / centre)) >= math.log(margin)]
@@ -414,7 +416,7 @@ def _guided_bisect(worst, bound, low, high, rtol, hint):
             elif x < centre and below:
                 target = below[-1]
             evaluate(target)
-        return known(x)
+        return verdict
 
     if not decide(high, low, high):
         return math.inf
@@ -442,7 +444,7 @@ def _guided_bisect(worst, bound, low, high, rtol, hint):
     return min(met) if met else hi
 
 
-def _corrected_hint(function_at: Callable[[float], Any], ideal: IdealPlacement, error_pct: float,
+def _corrected_hint(function_at: Callable[[float], PartFunction], ideal: IdealPlacement, error_pct: float,
                     gbw_spread: float, low: float, high: float) -> float:
     """A guess (Hz) of the corrected search's answer, from the ideal design alone.
 
@@ -458,7 +460,7 @@ def _corrected_hint(function_at: Callable[[float], Any], ideal: IdealPlacement, 
     if not gbw_spread:
         return low
 
-    def figures(gbw):
+    def figures(gbw: float) -> np.ndarray:
         errors = root_errors(DominantFunction.for_goal(function_at(gbw), goal), values, goal)
         named = [errors.f0_pct, errors.q_pct, errors.zero_f0_pct]
         if all(x is None for x in named):
@@ -467,7 +469,7 @@ def _corrected_hint(function_at: Callable[[float], Any], ideal: IdealPlacement, 
             named.append(100 * (10 ** (errors.gain_db / 20) - 1))
         return np.array([0.0 if x is None else x for x in named], dtype=float)
 
-    def drift_ok(gbw):
+    def drift_ok(gbw: float) -> bool:
         centre = figures(gbw)
         drift = max(float(np.max(np.abs(figures(edge) - centre)))
                     for edge in (gbw * (1 - gbw_spread), gbw * (1 + gbw_spread)))
@@ -481,14 +483,14 @@ def _corrected_hint(function_at: Callable[[float], Any], ideal: IdealPlacement, 
 class _Corrected:
     """A design re-solved and snapped for one GBW: its values and figures."""
 
-    values: dict
+    values: dict[str, float]
     error_pct: float
-    parasitic_poles_hz: tuple
+    parasitic_poles_hz: tuple[float, ...]
 
 
-def _correct(ideal: IdealPlacement, topology: Topology, function: Any,
+def _correct(ideal: IdealPlacement, topology: Topology, function: PartFunction,
              ranges: Mapping[str, tuple[float, float]] | None, series: Mapping[str, str] | None,
-             fixed: Mapping[str, float], constraints: tuple, seed: int, coarse_budget: int,
+             fixed: Mapping[str, float], constraints: tuple[Constraint, ...], seed: int, coarse_budget: int,
              prefer: Callable[[np.ndarray], np.ndarray] | None = None) -> _Corrected | None:
     """The corrected design for one modelled function (None: unreachable).
 

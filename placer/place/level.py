@@ -40,8 +40,9 @@ Winston, 1982, the chapter on frequency and magnitude scaling (from memory).
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, replace
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, cast
 
 import numpy as np
 from numpy.typing import NDArray
@@ -54,7 +55,13 @@ from ..analysis.noise import noise_grid, noise_sources, transfers_to_output
 from ..units import format_value
 
 if TYPE_CHECKING:
-    from .solve import Problem
+    from ..target.targets import Section
+    from .solve import Problem, Solution
+
+#: A later section as (zeros, poles, gain factor k), roots in rad/s.
+_Downstream = tuple[tuple[complex, ...], tuple[complex, ...], float]
+#: Log bounds (low, high) of a problem's independent parts.
+_Window = tuple[NDArray[np.float64], NDArray[np.float64]]
 
 __all__ = [
     "LOAD_HEADROOM",
@@ -110,15 +117,15 @@ class LevelRule:
         A later section loads the section's output.
     """
 
-    band_hz: tuple
-    analysis_hz: tuple
+    band_hz: tuple[float, ...]        # (low, high)
+    analysis_hz: tuple[float, ...]    # (low, high)
     temperature_k: float = 300.0
     noise_voltage: float | None = None
     noise_current: float | None = None
     min_load_ohm: float = DEFAULT_MIN_LOAD
     budget_v: float | None = None
     target_v: float | None = None
-    downstream: tuple = ()
+    downstream: tuple[_Downstream, ...] = ()
     steps_per_decade: int = 12
     section: int = 0
     input_driven: bool = False
@@ -168,15 +175,15 @@ class LevelResult:
     solver's.
     """
 
-    solution: object
+    solution: Solution
     choice: LevelChoice
-    window: tuple | None = None
-    prefer: object = None
+    window: _Window | None = None
+    prefer: LevelScore | None = None
 
 
-def level_exponents(problem) -> dict:
+def level_exponents(problem: Problem) -> dict[str, int]:
     """Independent part → +1 (resistor, inductor), −1 (capacitor); others left out."""
-    out = {}
+    out: dict[str, int] = {}
     for name in problem.independent:
         kind = problem.topology.kind_of(name)
         if kind in _SCALED:
@@ -184,13 +191,13 @@ def level_exponents(problem) -> dict:
     return out
 
 
-def _scaled_u(problem, u: NDArray[np.float64], factor: float) -> NDArray[np.float64]:
+def _scaled_u(problem: Problem, u: NDArray[np.float64], factor: float) -> NDArray[np.float64]:
     exponents = level_exponents(problem)
     shift = np.array([exponents.get(n, 0) for n in problem.independent], float)
     return np.asarray(u, float) + shift * math.log(factor)
 
 
-def _level_free(problem, u: NDArray[np.float64]) -> bool:
+def _level_free(problem: Problem, u: NDArray[np.float64]) -> bool:
     """True when scaling the independent parts leaves the roots where they were."""
     if not level_exponents(problem):
         return False
@@ -221,7 +228,7 @@ class _Split:
         return g[None, :, :] + 1j * omega[:, None, None] * c[None, :, :]
 
 
-def _split(circuit: Circuit, scaled: set) -> _Split:
+def _split(circuit: Circuit, scaled: set[str]) -> _Split:
     lay = layout(circuit)
     by_name = {e.name: e for e in circuit.elements}
     parts = {key: np.zeros((lay.size, lay.size)) for key in ("fg", "sg", "fc", "cc", "lc")}
@@ -230,7 +237,7 @@ def _split(circuit: Circuit, scaled: set) -> _Split:
         if stamp.parameter is not None:
             name, role = stamp.parameter
             element = by_name[name]
-            number = element.parameter
+            number = cast(float, element.parameter)   # the circuit has its values (with_values)
             factor *= 1.0 / number if role == "conductance" else float(number)
             if name in scaled:
                 key = {"conductance": "sg", "capacitance": "cc", "inductance": "lc"}.get(role, key)
@@ -247,12 +254,12 @@ def _downstream_weight(rule: LevelRule, omega: NDArray[np.float64]) -> NDArray[n
     return weight
 
 
-def _grid(band: tuple, points_per_decade: int) -> NDArray[np.float64]:
+def _grid(band: tuple[float, ...], points_per_decade: int) -> NDArray[np.float64]:
     count = max(int(math.ceil(points_per_decade * math.log10(band[1] / band[0]))) + 1, 3)
     return np.geomspace(band[0], band[1], count)
 
 
-def _range_failure(problem: Problem, values: dict, scaled: dict) -> str:
+def _range_failure(problem: Problem, values: Mapping[str, float], scaled: Mapping[str, int]) -> str:
     for symbol in scaled:
         if symbol not in problem.topology.ranges:
             continue
@@ -266,7 +273,8 @@ def _range_failure(problem: Problem, values: dict, scaled: dict) -> str:
     return ""
 
 
-def level_steps(problem, values: dict, rule: LevelRule, factors) -> tuple:
+def level_steps(problem: Problem, values: Mapping[str, float], rule: LevelRule,
+                factors: Iterable[float]) -> tuple[LevelStep, ...]:
     """Noise, least load and failures at impedance levels α·`values`.
 
     Parameters
@@ -311,7 +319,8 @@ def level_steps(problem, values: dict, rule: LevelRule, factors) -> tuple:
         psd = np.where(resistor_columns, sources.psd / factor, sources.psd)
         adjoint_rhs = np.zeros((omega.size, lay.size, 1), dtype=complex)
         adjoint_rhs[:, lay.output_index, 0] = 1.0
-        y = np.linalg.solve(np.swapaxes(split.at(factor, omega), 1, 2), adjoint_rhs)[..., 0]
+        y = cast("NDArray[np.complex128]",   # complex in, complex out
+                 np.linalg.solve(np.swapaxes(split.at(factor, omega), 1, 2), adjoint_rhs)[..., 0])
         output = transfers_to_output(y, replace(sources, psd=psd), len(sources.names)).sum(axis=0)
         noise = float(np.trapezoid(output * weight * frequency, np.log(frequency)))
         loads = []
@@ -327,7 +336,7 @@ def level_steps(problem, values: dict, rule: LevelRule, factors) -> tuple:
     return tuple(steps)
 
 
-def _load_failure(loads: list, rule: LevelRule) -> str:
+def _load_failure(loads: list[tuple[str, float, float]], rule: LevelRule) -> str:
     for name, ohm, share in loads:
         need = share * rule.min_load_ohm
         if ohm < need * LOAD_HEADROOM:
@@ -340,8 +349,9 @@ def _load_failure(loads: list, rule: LevelRule) -> str:
     return ""
 
 
-def _judge(problem, values: dict, scaled: dict, rule: LevelRule, factor: float, noise: float,
-           loads: list) -> LevelStep:
+def _judge(problem: Problem, values: Mapping[str, float], scaled: Mapping[str, int],
+           rule: LevelRule, factor: float, noise: float,
+           loads: list[tuple[str, float, float]]) -> LevelStep:
     moved = {name: (float(values[name]) * factor ** scaled[name] if name in scaled else values[name])
              for name in values}
     load = min((ohm for _, ohm, _ in loads), default=math.inf)
@@ -352,7 +362,7 @@ def _judge(problem, values: dict, scaled: dict, rule: LevelRule, factor: float, 
     return LevelStep(factor=factor, noise_v=noise, load_ohm=load, fails=fails)
 
 
-def _ladder(problem, u: NDArray[np.float64], rule: LevelRule) -> NDArray[np.float64]:
+def _ladder(problem: Problem, u: NDArray[np.float64], rule: LevelRule) -> NDArray[np.float64]:
     """α = 10^(k/N) covering the range-feasible levels, one step past each end."""
     low, high = -math.inf, math.inf     # log10 α bounds from the independent parts' ranges
     for i, name in enumerate(problem.independent):
@@ -385,8 +395,8 @@ class LevelScore:
     lower — the chosen level itself scores 0, the best.
     """
 
-    u: tuple
-    direction: tuple
+    u: tuple[float, ...]
+    direction: tuple[float, ...]
     sign: float
 
     def __call__(self, U: NDArray[np.float64]) -> NDArray[np.float64]:
@@ -396,7 +406,7 @@ class LevelScore:
         return self.sign * shift / float(d @ d)
 
 
-def _window(problem, u: NDArray[np.float64], rule: LevelRule) -> tuple:
+def _window(problem: Problem, u: NDArray[np.float64], rule: LevelRule) -> _Window:
     """Log bounds around `u` on the passing side of the level only.
 
     Lower levels fail without a target (a range or the load), higher ones
@@ -417,7 +427,7 @@ def _window(problem, u: NDArray[np.float64], rule: LevelRule) -> tuple:
     return low, high
 
 
-def within(problem, window: tuple | None) -> object:
+def within(problem: Problem, window: _Window | None) -> Problem:
     """`problem` with its independent parts' log bounds narrowed to `window`."""
     if window is None:
         return problem
@@ -425,7 +435,8 @@ def within(problem, window: tuple | None) -> object:
                    high=np.minimum(problem.high, window[1]))
 
 
-def _scaled_solution(problem, solution, factor: float, rule: LevelRule) -> tuple:
+def _scaled_solution(problem: Problem, solution: Solution, factor: float,
+                     rule: LevelRule) -> tuple[Solution, _Window, LevelScore]:
     u = _scaled_u(problem, solution.u, factor)
     window = _window(problem, u, rule)
     exponents = level_exponents(problem)
@@ -440,7 +451,7 @@ def _scaled_solution(problem, solution, factor: float, rule: LevelRule) -> tuple
     return replace(solution, values=values, u=u, alternatives=tuple(alternatives)), window, score
 
 
-def choose_level(problem, solution, rule: LevelRule) -> LevelResult:
+def choose_level(problem: Problem, solution: Solution, rule: LevelRule) -> LevelResult:
     """Scale a section's continuous solution to the level the rule asks for.
 
     Parameters
@@ -489,10 +500,11 @@ def choose_level(problem, solution, rule: LevelRule) -> LevelResult:
     return LevelResult(scaled, choice, window, score)
 
 
-def _unmet(steps: tuple, rule: LevelRule) -> str:
+def _unmet(steps: Sequence[LevelStep], rule: LevelRule) -> str:
     where = f"section {rule.section}: " if rule.section else ""
-    share = (f"its share {format_value(rule.budget_v, 'V')} rms of the noise target "
-             f"{format_value(rule.target_v or rule.budget_v, 'V')}")
+    budget = cast(float, rule.budget_v)   # a target's rule (choose_level, mode "target")
+    share = (f"its share {format_value(budget, 'V')} rms of the noise target "
+             f"{format_value(rule.target_v or budget, 'V')}")
     allowed = [i for i, s in enumerate(steps) if s.passes or s.fails.startswith("noise")]
     if not allowed:
         reasons = sorted({s.fails for s in steps})
@@ -505,7 +517,7 @@ def _unmet(steps: tuple, rule: LevelRule) -> str:
             f"level is stopped because {below}")
 
 
-def describe_level(problem, values: dict, rule: LevelRule, *, mode: str) -> LevelChoice:
+def describe_level(problem: Problem, values: Mapping[str, float], rule: LevelRule, *, mode: str) -> LevelChoice:
     """The level of built values and the nearest level from it that fails.
 
     Parameters
@@ -536,10 +548,11 @@ def describe_level(problem, values: dict, rule: LevelRule, *, mode: str) -> Leve
     return LevelChoice(mode, steps[0], failing, "")
 
 
-def level_rules(sections, *, band_hz, analysis_hz, temperature_k: float,
+def level_rules(sections: Sequence[Section], *, band_hz: Iterable[float],
+                analysis_hz: Iterable[float], temperature_k: float,
                 noise_voltage: float | None, noise_current: float | None,
                 min_load_ohm: float, target_v: float | None,
-                steps_per_decade: int = 12) -> tuple:
+                steps_per_decade: int = 12) -> tuple[LevelRule, ...]:
     """One :class:`LevelRule` per section of a cascade (equal shares of the target's power).
 
     Parameters

@@ -20,14 +20,22 @@ University Press, 2001, the chapters on active-filter non-idealities
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from ..circuit.elements import Element
+from ..circuit.elements import Circuit, Element
 from ..errors import SpecError
-from ..analysis.network import network_function
+from ..analysis.network import NetworkFunction, network_function
 from ..units import format_value
+
+if TYPE_CHECKING:
+    from numpy.typing import ArrayLike
+
+    from ..analysis.protocols import ComplexArray, FloatArray, PartFunction, PartValues
+    from ..target.targets import Section
 
 __all__ = [
     "AMPLIFIER_PRESETS",
@@ -72,7 +80,7 @@ class AmplifierSpec:
     min_load: float | None = None
 
     @property
-    def is_ideal(self):
+    def is_ideal(self) -> bool:
         return self.gbw is None and self.gain is None
 
 #: Relative spread of an op-amp's GBW around its typical value (process and
@@ -82,7 +90,7 @@ GBW_SPREAD = 0.25
 
 # -- the model ---------------------------------------------------------------
 
-def _check_model(amplifier):
+def _check_model(amplifier: AmplifierSpec) -> tuple[float | None, float | None, float]:
     """Reject model figures no op-amp has; return (gain, gbw, resistance)."""
     gain, gbw = amplifier.gain, amplifier.gbw
     resistance = amplifier.output_resistance
@@ -103,7 +111,7 @@ def _check_model(amplifier):
     return gain, gbw, resistance or 0.0
 
 
-def describe_amplifier(amplifier):
+def describe_amplifier(amplifier: AmplifierSpec) -> str:
     words = []
     if amplifier.gbw is not None:
         words.append(f"gbw {format_value(amplifier.gbw, 'Hz')}")
@@ -114,7 +122,7 @@ def describe_amplifier(amplifier):
     return ", ".join(words) or "ideal"
 
 
-def apply_amplifier(circuit, amplifier):
+def apply_amplifier(circuit: Circuit, amplifier: AmplifierSpec) -> Circuit:
     """Give every op-amp of a circuit the amplifier model.
 
     Parameters
@@ -206,50 +214,50 @@ class ScaledFunction:
     :class:`placer.analysis.dominant.DominantFunction`, the solver and the snapper use.
     """
 
-    reference: object
+    reference: NetworkFunction
     omega_t: float          # rad/s, over the reference's (which is 1 rad/s)
-    reactive: frozenset     # the part symbols of capacitors and inductors
+    reactive: frozenset[str]   # the part symbols of capacitors and inductors
     opamp_count: int
 
     @property
-    def symbols(self):
+    def symbols(self) -> Mapping[str, Any]:
         return self.reference.symbols
 
     @property
-    def gain_kind(self):
+    def gain_kind(self) -> str:
         return self.reference.gain_kind
 
     @property
-    def order(self):
+    def order(self) -> int:
         return self.reference.order
 
-    def _scaled(self, values):
+    def _scaled(self, values: PartValues) -> dict[str, ArrayLike]:
         t = self.omega_t
         return {name: (np.asarray(value, dtype=float) * t if name in self.reactive else value)
                 for name, value in values.items()}
 
-    def coefficients(self, values):
+    def coefficients(self, values: PartValues) -> tuple[FloatArray, FloatArray]:
         """Coefficients of N and D, highest power of s first (as NetworkFunction's)."""
         numerator, denominator = self.reference.coefficients(self._scaled(values))
         # D(s) = ωt^m·D_ref(s/ωt) with m op-amp rows, the size the direct
         # derivation's coefficients have; the common factor cancels in H.
         return self._powers(numerator), self._powers(denominator)
 
-    def _powers(self, rows):
+    def _powers(self, rows: FloatArray) -> FloatArray:
         powers = np.arange(rows.shape[0] - 1, -1, -1, dtype=float)
         factor = self.omega_t ** (self.opamp_count - powers)
         return rows * factor.reshape((-1,) + (1,) * (rows.ndim - 1))
 
-    def poles(self, values):
+    def poles(self, values: PartValues) -> ComplexArray:
         """Poles in rad/s for one set of part values."""
         return self.reference.poles(self._scaled(values)) * self.omega_t
 
-    def zeros(self, values):
+    def zeros(self, values: PartValues) -> ComplexArray:
         """Finite zeros in rad/s for one set of part values."""
         return self.reference.zeros(self._scaled(values)) * self.omega_t
 
 
-def function_at_gbw(circuit, amplifier):
+def function_at_gbw(circuit: Circuit, amplifier: AmplifierSpec) -> Callable[[float], PartFunction]:
     """GBW (Hz) → the network function of `circuit` with that op-amp model.
 
     Parameters
@@ -281,22 +289,24 @@ def function_at_gbw(circuit, amplifier):
     fixed_reactance = any(e.kind in _REACTIVE_KINDS and not e.is_symbolic
                           for e in circuit.elements)
     if fixed_reactance:
-        def direct(gbw):
+        def direct(gbw: float) -> PartFunction:
             return network_function(apply_amplifier(circuit, replace(amplifier, gbw=gbw)))
         return direct
     reference = network_function(
         apply_amplifier(circuit, replace(amplifier, gbw=_REFERENCE_GBW)))
     omega_reference = 2 * math.pi * _REFERENCE_GBW
-    reactive = frozenset(e.symbol for e in circuit.elements if e.kind in _REACTIVE_KINDS)
+    # every capacitor and inductor is symbolic here (no fixed reactance)
+    reactive = frozenset(e.symbol for e in circuit.elements
+                         if e.kind in _REACTIVE_KINDS and e.symbol is not None)
     count = circuit.opamp_count
 
-    def scaled(gbw):
+    def scaled(gbw: float) -> PartFunction:
         return ScaledFunction(reference, 2 * math.pi * gbw / omega_reference, reactive, count)
     return scaled
 
 
 
-def check_amplifier(amplifier, section, *, index=None):
+def check_amplifier(amplifier: AmplifierSpec, section: Section, *, index: int | None = None) -> None:
     """Reject a GBW at or below a section's f0; check the model's figures.
 
     Parameters

@@ -22,8 +22,8 @@ from __future__ import annotations
 import math
 import zlib
 from dataclasses import dataclass, replace
-from collections.abc import Mapping
-from typing import TYPE_CHECKING, NamedTuple
+from collections.abc import Callable, Mapping
+from typing import TYPE_CHECKING, NamedTuple, cast
 
 import numpy as np
 
@@ -36,7 +36,7 @@ from .solve import (Goal, Problem, RootErrors, Solution, goal_from_section, make
 if TYPE_CHECKING:
     from ..circuit.elements import Circuit
     from ..spec.reader import PartsSpec
-    from ..circuit.topology import Topology
+    from ..circuit.topology import Constraint, Topology
     from ..target.targets import Section
     from .level import LevelRule
 
@@ -92,7 +92,7 @@ class IdealPlacement:
     snapped: SnapResult
     errors: RootErrors
     continuous_errors: RootErrors
-    window: tuple | None = None     # the impedance level's snapping bounds (placer.place.level)
+    window: tuple[np.ndarray, np.ndarray] | None = None   # the impedance level's snapping bounds (placer.place.level)
 
 
 class ProblemOptions(NamedTuple):
@@ -102,7 +102,7 @@ class ProblemOptions(NamedTuple):
     ranges: dict[str, tuple[float, float]] | None   # kind -> (low, high)
     series: dict[str, str] | None                   # kind -> series name
     fixed: dict[str, float]                         # part -> value (SI)
-    constraints: tuple                              # of placer.spec.reader.Constraint
+    constraints: tuple[Constraint, ...]
 
 
 def problem_options(topology: Topology, parts: PartsSpec | None) -> ProblemOptions:
@@ -209,7 +209,8 @@ def place_ideal(section: Section, topology: Topology, *, parts: PartsSpec | None
     problem = make_problem(topology, goal, ranges=options.ranges, fixed=options.fixed,
                            constraints=options.constraints)
     solution = solve(problem, seed=seed)
-    window = prefer = None
+    window: tuple[np.ndarray, np.ndarray] | None = None
+    prefer: Callable[[np.ndarray], np.ndarray] | None = None
     if level is not None:   # impedance level: a separate step that moves no root
         leveled = choose_level(problem, solution, level)
         solution, window, prefer = leveled.solution, leveled.window, leveled.prefer
@@ -244,7 +245,7 @@ def snap_weighs_gain(problem: Problem, solution: Solution) -> bool:
     return float(problem.worst_error_with_gain(solution.u)) <= GAIN_WITHIN_REACH
 
 
-def worst_error_quantity(errors):
+def worst_error_quantity(errors: RootErrors) -> str:
     """What sets the worst error with gain (:attr:`RootErrors.worst_error_with_gain_pct`): "f0", "Q", "zero f0", "roots" or "gain".
 
     Parameters
@@ -263,7 +264,7 @@ def worst_error_quantity(errors):
     return name
 
 
-def value_spread(topology, values):
+def value_spread(topology: Topology, values: Mapping[str, float]) -> dict[str, float]:
     """Largest/smallest value ratio among each kind of part.
 
     Parameters
@@ -285,10 +286,10 @@ def value_spread(topology, values):
     ...              {"R1": 10e3, "R2": 20e3, "C1": 1e-9, "C2": 4e-9})
     {'resistor': 2.0, 'capacitor': 4.0}
     """
-    out = {}
+    out: dict[str, float] = {}
     for kind in PART_KINDS:
         numbers = [values[e.symbol] for e in topology.circuit.elements
-                   if e.kind == kind and e.symbol in values]
+                   if e.kind == kind and e.symbol is not None and e.symbol in values]
         numbers += [e.value for e in topology.circuit.elements
                     if e.kind == kind and e.symbol is None and e.value]
         if len(numbers) >= 2:
@@ -304,24 +305,28 @@ class Candidate:
     (:func:`parts_notes`).
     """
 
-    topology: object
+    topology: Topology
     reachable: bool
     reason: str = ""
-    problem: object = None
-    solution: object = None
-    snapped: object = None
-    errors: object = None          # RootErrors of the snapped values
-    continuous_errors: object = None
-    notes: tuple = ()
+    problem: Problem | None = None        # None for an unreachable candidate (as the four below)
+    solution: Solution | None = None
+    snapped: SnapResult | None = None
+    errors: RootErrors | None = None      # RootErrors of the snapped values
+    continuous_errors: RootErrors | None = None
+    notes: tuple[str, ...] = ()
 
     @property
     def error_pct(self) -> float:
         """Worst root/figure error after snapping, percent, gain included."""
-        return self.errors.worst_error_with_gain_pct if self.reachable else math.inf
+        if not self.reachable:
+            return math.inf
+        return cast(RootErrors, self.errors).worst_error_with_gain_pct   # set when reachable
 
     @property
-    def spread(self):
-        return value_spread(self.topology, self.snapped.values) if self.reachable else {}
+    def spread(self) -> dict[str, float]:
+        if not self.reachable:
+            return {}
+        return value_spread(self.topology, cast(SnapResult, self.snapped).values)   # set when reachable
 
 
 class CandidateSeeds(NamedTuple):
@@ -423,7 +428,7 @@ def require_stable(candidate: Candidate, circuit: Circuit) -> Candidate:
     """
     if not candidate.reachable:
         return candidate
-    unstable = right_half_plane_poles(circuit, candidate.snapped.values)
+    unstable = right_half_plane_poles(circuit, cast(SnapResult, candidate.snapped).values)   # reachable
     if not unstable:
         return candidate
     shown = sorted({_pole_text(p) for p in unstable})

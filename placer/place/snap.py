@@ -32,8 +32,9 @@ from __future__ import annotations
 
 import itertools
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
+from typing import cast
 
 import numpy as np
 
@@ -57,10 +58,13 @@ ERROR_CEILING = 1e-3
 #: smallest-spread ones within the slack.
 POOL_BY_ERROR, POOL_BY_SPREAD = 48, 16
 
+#: Log series values inside each independent part's range; None for a part not snapped.
+_Grids = list[np.ndarray | None]
+
 _SERIES_KIND = {"resistor": "resistor", "capacitor": "capacitor", "inductor": "inductor"}
 
 
-def default_series():
+def default_series() -> dict[str, str]:
     """E96 resistors, E12 capacitors and E12 inductors (common practice)."""
     return {"resistor": "E96", "capacitor": "E12", "inductor": "E12"}
 
@@ -83,16 +87,16 @@ class SnapResult:
         How many discrete candidates were evaluated.
     """
 
-    values: dict
-    continuous: dict
-    series: dict
+    values: dict[str, float]
+    continuous: dict[str, float]
+    series: dict[str, str]
     error: float
     candidates: int
 
 
-def _grids(problem, series):
+def _grids(problem: Problem, series: Mapping[str, str]) -> _Grids:
     """Series values inside each independent part's range (None: continuous)."""
-    grids = []
+    grids: _Grids = []
     for i, name in enumerate(problem.independent):
         kind = problem.topology.kind_of(name)
         if kind not in _SERIES_KIND or kind not in series:
@@ -111,7 +115,7 @@ def _grids(problem, series):
     return grids
 
 
-def _per_decade(series_name):
+def _per_decade(series_name: str) -> int:
     return len(series_values(series_name, 1.0, 9.999))
 
 
@@ -214,16 +218,17 @@ def _bases(starts: list[np.ndarray], combos: np.ndarray, coarse: list[int],
         return bases
     other_index = 1 + max(range(len(starts) - 1), key=lambda k: float(
         np.max(np.abs(starts[k + 1][fine] - solution_u[fine]))))
+    other: int | None = other_index
     if np.max(np.abs(starts[other_index][fine] - solution_u[fine])) > 0.05:
         bases.append((starts[other_index], combos))
     else:
-        other_index = None
+        other = None
     S = np.array(starts).T                                  # (n, k)
     shape_c = combos - np.mean(combos, axis=0)
     shape_s = S[coarse] - np.mean(S[coarse], axis=0)
     distance = np.sum((shape_c[:, :, None] - shape_s[:, None, :]) ** 2, axis=0)
     nearest_start = np.argmin(distance, axis=1)
-    fresh = (nearest_start != 0) & (nearest_start != other_index)
+    fresh = (nearest_start != 0) & (nearest_start != other)
     if np.any(fresh):
         bases.append((S[:, nearest_start[fresh]], combos[:, fresh]))
     return bases
@@ -246,7 +251,7 @@ def _scaled_blocks(problem: Problem, bases: list[tuple[np.ndarray, np.ndarray]],
     return np.concatenate(blocks, axis=1)
 
 
-def _series_values(problem: Problem, best: np.ndarray, grids: list, series: dict[str, str],
+def _series_values(problem: Problem, best: np.ndarray, grids: _Grids, series: dict[str, str],
                    kinds: list[str]) -> dict[str, float]:
     """Every part's value for the chosen point: exact series values, ties applied."""
     values = {k: float(np.asarray(v)) for k, v in problem.values(best).items()}
@@ -270,7 +275,7 @@ def _nearest_continuous(problem: Problem, solution: Solution, best: np.ndarray,
     return {k: float(np.asarray(v)) for k, v in problem.values(near).items()}
 
 
-def _part_series(problem: Problem, grids: list, series: dict[str, str]) -> dict[str, str]:
+def _part_series(problem: Problem, grids: _Grids, series: dict[str, str]) -> dict[str, str]:
     """Part symbol → the series it was snapped to ("" for gains and fixed parts)."""
     part_series = {}
     for name in problem.topology.symbols:
@@ -281,7 +286,7 @@ def _part_series(problem: Problem, grids: list, series: dict[str, str]) -> dict[
     return part_series
 
 
-def _coarse_parts(kinds, snapped, density):
+def _coarse_parts(kinds: Sequence[str], snapped: Sequence[bool], density: Mapping[str, int]) -> list[int]:
     """Indices of the parts to enumerate: the sparsest series' kind."""
     eligible = [i for i, ok in enumerate(snapped) if ok]
     if not eligible:
@@ -295,18 +300,19 @@ def _coarse_parts(kinds, snapped, density):
     return chosen
 
 
-def _coarse_candidates(grids, coarse, starts, budget):
+def _coarse_candidates(grids: _Grids, coarse: list[int], starts: Sequence[np.ndarray],
+                       budget: int) -> np.ndarray:
     """Combinations of coarse-part values (log), shape (len(coarse), B)."""
     if not coarse:
         return np.zeros((0, 1))
-    full = [grids[i] for i in coarse]
+    full = [cast(np.ndarray, grids[i]) for i in coarse]   # coarse parts are snapped: a grid each
     total = math.prod(len(g) for g in full)
     if total <= budget:
         mesh = np.meshgrid(*full, indexing="ij")
         return np.array([m.ravel() for m in mesh])
     # a window of series steps around each continuous solution
     steps = max(1, int((budget / max(1, len(starts))) ** (1 / len(coarse)) // 2))
-    combos = set()
+    combos: set[tuple[int, ...]] = set()
     for u in starts:
         ranges = []
         for i, g in zip(coarse, full):
@@ -315,15 +321,16 @@ def _coarse_candidates(grids, coarse, starts, budget):
             ranges.append(range(lo, hi))
         for index in itertools.product(*ranges):
             combos.add(index)
-    combos = sorted(combos)
-    return np.array([[full[k][idx[k]] for idx in combos] for k in range(len(coarse))])
+    ordered = sorted(combos)
+    return np.array([[full[k][idx[k]] for idx in ordered] for k in range(len(coarse))])
 
 
-def _solve_fine(problem, U, coarse, fine, with_gain):
+def _solve_fine(problem: Problem, U: np.ndarray, coarse: list[int], fine: list[int],
+                with_gain: bool) -> np.ndarray:
     """Re-solve the fine parts for every column of U, coarse parts held."""
     Uc = U[coarse]
 
-    def fun(Uf, columns):
+    def fun(Uf: np.ndarray, columns: np.ndarray) -> np.ndarray:
         full = np.empty((U.shape[0], Uf.shape[1]))
         full[coarse] = Uc[:, columns]
         full[fine] = Uf
@@ -338,7 +345,7 @@ def _solve_fine(problem, U, coarse, fine, with_gain):
     return out
 
 
-def _neighbours(grid, u):
+def _neighbours(grid: np.ndarray, u: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Series values (log) just below and at-or-above each of `u`."""
     index = np.clip(np.searchsorted(grid, u - 1e-12), 0, len(grid) - 1)
     above = grid[index]
@@ -346,7 +353,7 @@ def _neighbours(grid, u):
     return np.where(np.abs(above - u) < 1e-9, above, below), above
 
 
-def _rounded(U: np.ndarray, grids: list, parts: list[int], problem: Problem) -> np.ndarray:
+def _rounded(U: np.ndarray, grids: _Grids, parts: list[int], problem: Problem) -> np.ndarray:
     """Every floor/ceil choice of the snapped `parts` for every column of U."""
     active = [i for i in parts if grids[i] is not None]
     if not active:
@@ -358,14 +365,15 @@ def _rounded(U: np.ndarray, grids: list, parts: list[int], problem: Problem) -> 
         # keep the columns whose continuous fine solution is best
         errors = problem.worst_error_matched(U)
         U = U[:, np.argsort(errors)[:budget]]
-    lower, upper = {}, {}
+    lower: dict[int, np.ndarray] = {}
+    upper: dict[int, np.ndarray] = {}
     for i in active:
-        lower[i], upper[i] = _neighbours(grids[i], U[i])
+        lower[i], upper[i] = _neighbours(cast(np.ndarray, grids[i]), U[i])   # active: a grid each
     columns = []
     for choice in choices:
         V = U.copy()
         for flag, i in zip(choice, active):
-            g = grids[i]
+            g = cast(np.ndarray, grids[i])
             if flag in (0, 1):
                 V[i] = upper[i] if flag else lower[i]
             else:
@@ -377,30 +385,33 @@ def _rounded(U: np.ndarray, grids: list, parts: list[int], problem: Problem) -> 
     return np.concatenate(columns, axis=1)
 
 
-def _local_search(pool, grids, error_of, *, rounds=30):
+def _local_search(pool: np.ndarray, grids: _Grids, error_of: Callable[[np.ndarray], np.ndarray], *,
+                  rounds: int = 30) -> tuple[np.ndarray, int]:
     """Move single parts one or two series steps while the error improves.
 
     Returns the improved pool and how many trial candidates were evaluated.
     """
     n = pool.shape[0]
-    indices = []
+    indices: list[np.ndarray | None] = []
     for i in range(n):
-        if grids[i] is None:
+        grid = grids[i]
+        if grid is None:
             indices.append(None)
         else:
-            indices.append(np.clip(np.searchsorted(grids[i], pool[i] - 1e-9), 0, len(grids[i]) - 1))
+            indices.append(np.clip(np.searchsorted(grid, pool[i] - 1e-9), 0, len(grid) - 1))
     current = error_of(pool)
     trials = 0
     for _ in range(rounds):
         improved = False
         for i in range(n):
-            if grids[i] is None:
+            grid = grids[i]
+            if grid is None:
                 continue
             for step in (-1, 1, -2, 2):
-                trial_index = indices[i] + step
-                valid = (trial_index >= 0) & (trial_index < len(grids[i]))
+                trial_index = cast(np.ndarray, indices[i]) + step   # set for every part with a grid
+                valid = (trial_index >= 0) & (trial_index < len(grid))
                 trial = pool.copy()
-                trial[i] = grids[i][np.clip(trial_index, 0, len(grids[i]) - 1)]
+                trial[i] = grid[np.clip(trial_index, 0, len(grid) - 1)]
                 errors = np.where(valid, error_of(trial), np.inf)
                 trials += trial.shape[1]
                 better = errors < current - 1e-12
@@ -408,13 +419,13 @@ def _local_search(pool, grids, error_of, *, rounds=30):
                     improved = True
                     pool = np.where(better[None, :], trial, pool)
                     current = np.where(better, errors, current)
-                    indices[i] = np.where(better, trial_index, indices[i])
+                    indices[i] = np.where(better, trial_index, cast(np.ndarray, indices[i]))
         if not improved:
             break
     return pool, trials
 
 
-def _spreads(U, kinds):
+def _spreads(U: np.ndarray, kinds: Sequence[str]) -> np.ndarray:
     """Sum over part kinds of the log spread (log largest/smallest), per column."""
     total = np.zeros(U.shape[1])
     for kind in set(kinds):
@@ -423,18 +434,19 @@ def _spreads(U, kinds):
     return total
 
 
-def _allowed(best, spread_slack):
+def _allowed(best: float, spread_slack: float) -> float:
     """Largest error the spread (or a preference) may be bought with."""
     return max(best, min(best + spread_slack, max(ERROR_CEILING, spread_slack)))
 
 
-def _scores(prefer, U):
+def _scores(prefer: Callable[[np.ndarray], np.ndarray], U: np.ndarray) -> np.ndarray:
     """prefer(U) as a float array, NaN counted as the worst."""
     scores = np.asarray(prefer(U), dtype=float).reshape(-1)
     return np.where(np.isnan(scores), np.inf, scores)
 
 
-def _pool(candidates, errors, kinds, spread_slack, prefer=None):
+def _pool(candidates: np.ndarray, errors: np.ndarray, kinds: Sequence[str], spread_slack: float,
+          prefer: Callable[[np.ndarray], np.ndarray] | None = None) -> np.ndarray:
     """Columns to polish: the best by error, and the best spreads (or scores) in the slack."""
     count = errors.size
     keep = np.argpartition(errors, POOL_BY_ERROR)[:POOL_BY_ERROR] if count > POOL_BY_ERROR \
@@ -453,7 +465,8 @@ def _pool(candidates, errors, kinds, spread_slack, prefer=None):
     return keep
 
 
-def _choose(errors, spreads, spread_slack, gain_errors=None, scores=None):
+def _choose(errors: np.ndarray, spreads: np.ndarray, spread_slack: float,
+            gain_errors: np.ndarray | None = None, scores: np.ndarray | None = None) -> int:
     """Index of the chosen column: smallest spread (or score) within the slack, then least error.
 
     `gain_errors` (worst error with the gain counted, when the objective
@@ -471,7 +484,8 @@ def _choose(errors, spreads, spread_slack, gain_errors=None, scores=None):
     return int(rank[0])
 
 
-def _snap_tied(problem, values, series):
+def _snap_tied(problem: Problem, values: Mapping[str, float],
+               series: Mapping[str, str]) -> dict[str, float]:
     """Parts tied to another by a ratio other than 1 take their nearest series value."""
     out = dict(values)
     for part, (source, factor) in problem.tied.items():
@@ -481,7 +495,8 @@ def _snap_tied(problem, values, series):
     return out
 
 
-def round_each(problem, solution, *, series=None):
+def round_each(problem: Problem, solution: Solution, *,
+               series: Mapping[str, str] | None = None) -> SnapResult:
     """The naive baseline: every part rounded to its nearest series value alone."""
     series = dict(default_series() if series is None else series)
     values = dict(solution.values)

@@ -22,9 +22,9 @@ fixed parts keep their values. A target a topology cannot reach raises
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field, replace
-from typing import Any
+from typing import TYPE_CHECKING, Any, cast
 
 import numpy as np
 from scipy.optimize import least_squares
@@ -37,6 +37,13 @@ from ..analysis.network import network_function
 from ..analysis.second_order import first_order_omega, omega0_q, passband_gain, zero_pair_omega
 from .least_squares import batched_least_squares
 from .ties import tie_parts
+
+if TYPE_CHECKING:
+    from numpy.typing import ArrayLike
+
+    from ..analysis.protocols import PartFunction
+    from ..circuit.topology import Constraint
+    from ..target.targets import Section
 
 __all__ = [
     "Goal",
@@ -87,19 +94,19 @@ class Goal:
     gain: float | None
     gain_kind: str
     omega_ref: float
-    poles: tuple
-    zeros: tuple
+    poles: tuple[complex, ...]
+    zeros: tuple[complex, ...]
     omega0: float | None = None
     q: float | None = None
     zero_omega: float | None = None
     kind: str = ""
 
     @property
-    def order(self):
+    def order(self) -> int:
         return len(self.denominator) - 1
 
 
-def _gain_kind(kind, zeros):
+def _gain_kind(kind: str, zeros: Sequence[complex]) -> str:
     if kind == "highpass":
         return "hf"
     if kind == "bandpass":
@@ -109,7 +116,9 @@ def _gain_kind(kind, zeros):
     return "dc" if all(abs(z) > 0 for z in zeros) else "hf"
 
 
-def goal_from_roots(poles, zeros=(), gain=None, *, kind="", omega0=None, q=None, zero_omega=None):
+def goal_from_roots(poles: Iterable[complex], zeros: Iterable[complex] = (), gain: float | None = None,
+                    *, kind: str = "", omega0: float | None = None, q: float | None = None,
+                    zero_omega: float | None = None) -> Goal:
     """A goal from target poles and zeros (rad/s) and a gain magnitude."""
     poles = tuple(complex(p) for p in poles)
     zeros = tuple(complex(z) for z in zeros)
@@ -134,7 +143,7 @@ def goal_from_roots(poles, zeros=(), gain=None, *, kind="", omega0=None, q=None,
     )
 
 
-def goal_from_section(section):
+def goal_from_section(section: Section) -> Goal:
     """A goal from a :class:`placer.target.targets.Section` (duck-typed)."""
     return goal_from_roots(
         section.poles,
@@ -157,27 +166,27 @@ class Problem:
     """
 
     topology: Topology
-    nf: Any               # NetworkFunction or DominantFunction: coefficients, poles, zeros
+    nf: PartFunction      # NetworkFunction, ScaledFunction or DominantFunction
     goal: Goal
-    independent: tuple
-    tied: dict
-    fixed: dict
+    independent: tuple[str, ...]
+    tied: dict[str, tuple[str, float]]
+    fixed: dict[str, float]
     low: np.ndarray
     high: np.ndarray
     gain_adjustable: bool = True
-    _scratch: dict = field(default_factory=dict, repr=False, compare=False)
+    _scratch: dict[str, Any] = field(default_factory=dict, repr=False, compare=False)
 
-    def values(self, u):
+    def values(self, u: ArrayLike) -> dict[str, Any]:
         """Part values from log values `u` (shape (n,) or (n, batch))."""
         u = np.asarray(u, dtype=float)
-        out = {name: np.exp(u[i]) for i, name in enumerate(self.independent)}
+        out: dict[str, Any] = {name: np.exp(u[i]) for i, name in enumerate(self.independent)}
         for part, (source, factor) in self.tied.items():
             out[part] = out[source] * factor
         for part, value in self.fixed.items():
             out[part] = value
         return out
 
-    def residuals(self, u, *, with_gain=True):
+    def residuals(self, u: ArrayLike, *, with_gain: bool = True) -> np.ndarray:
         """Residual vector (or matrix, one column per sample) at `u`."""
         numerator, denominator = self.nf.coefficients(self.values(u))
         return residuals_from(numerator, denominator, self.goal, with_gain=with_gain and self.gain_adjustable)
@@ -291,7 +300,11 @@ def figure_error(numerator: np.ndarray, denominator: np.ndarray, goal: Goal, *,
     return np.where(np.isfinite(worst), worst, np.inf)
 
 
-def make_problem(topology, goal, *, ranges=None, fixed=None, constraints=None, nf=None):
+def make_problem(topology: Topology, goal: Goal, *,
+                 ranges: Mapping[str, tuple[float, float]] | None = None,
+                 fixed: Mapping[str, float] | None = None,
+                 constraints: Sequence[Constraint] | None = None,
+                 nf: PartFunction | None = None) -> Problem:
     """Prepare a :class:`Problem`.
 
     Parameters
@@ -332,10 +345,11 @@ def make_problem(topology, goal, *, ranges=None, fixed=None, constraints=None, n
                 f"(parts: {', '.join(topology.symbols)})"
             )
         if part in topology.ranges:
-            low, high = topology.ranges[part]
-            if not (low <= value <= high):
+            part_low, part_high = topology.ranges[part]
+            if not (part_low <= value <= part_high):
                 raise SpecError(
-                    f"fixed part {part!r} = {value:g} lies outside its range [{low:g}, {high:g}]"
+                    f"fixed part {part!r} = {value:g} lies outside its range "
+                    f"[{part_low:g}, {part_high:g}]"
                 )
     for constraint in tuple(constraints or ()):
         for name in (constraint.part, constraint.source):
@@ -372,7 +386,7 @@ def _gain_is_adjustable(problem: Problem) -> bool:
         return False
     centre = (problem.low + problem.high) / 2
     points = [centre, problem.low + 0.3 * (problem.high - problem.low)]
-    gains = []
+    gains: list[float] = []
     for u in points:
         for i in range(len(u) + 1):
             v = u.copy()
@@ -380,18 +394,18 @@ def _gain_is_adjustable(problem: Problem) -> bool:
                 v[i] += 0.1
             numerator, denominator = problem.nf.coefficients(problem.values(v))
             gains.append(abs(float(passband_gain(numerator, denominator, problem.goal.gain_kind))))
-    gains = np.array(gains)
-    return bool(np.ptp(np.log(gains[gains > 0])) > 1e-9) if np.any(gains > 0) else False
+    array = np.array(gains)
+    return bool(np.ptp(np.log(array[array > 0])) > 1e-9) if np.any(array > 0) else False
 
 
 @dataclass(frozen=True)
 class Solution:
     """A continuous solution: part values and how well they meet the goal."""
 
-    values: dict          # every part symbol -> float (SI)
+    values: dict[str, float]   # every part symbol -> float (SI)
     error: float          # worst relative figure error
     u: np.ndarray         # log values of the independent parts
-    alternatives: tuple = ()   # other distinct solutions (u arrays), best first
+    alternatives: tuple[np.ndarray, ...] = ()   # other distinct solutions (u arrays), best first
     gain_matched: bool = False  # the pass-band gain is on target too
 
 
@@ -449,11 +463,11 @@ def solve(problem: Problem, *, starts: int = 12, seed: int = 0, tolerance: float
     use_gain = problem.gain_adjustable and float(np.min(gain_errors)) <= max(tolerance, 1e-6)
     if not use_gain and problem.gain_adjustable:
         # the gain is tied to the poles here: place the poles exactly, report the gain
-        def fun(V):
+        def fun(V: np.ndarray) -> np.ndarray:
             return problem.residuals(V, with_gain=False)
         U = batched_least_squares(lambda V, _: fun(V), U, problem.low, problem.high)
     else:
-        def fun(V):
+        def fun(V: np.ndarray) -> np.ndarray:
             return problem.residuals(V, with_gain=use_gain)
     errors = problem.worst_error_matched(U, with_gain=use_gain)
     order = np.argsort(errors)
@@ -478,7 +492,7 @@ def solve(problem: Problem, *, starts: int = 12, seed: int = 0, tolerance: float
     gain_matched = problem.gain_adjustable and best_with_gain <= max(tolerance, 1e-6)
     if best_error > max(tolerance, 1e-3):
         raise UnreachableTarget(_miss_reason(problem, best_u, best_error))
-    distinct = []
+    distinct: list[np.ndarray] = []
     for error, _, _, u in found:
         if error <= max(tolerance, 10 * best_error, 1e-4) and all(np.max(np.abs(u - d)) > 0.05 for d in distinct):
             distinct.append(u)
@@ -488,15 +502,15 @@ def solve(problem: Problem, *, starts: int = 12, seed: int = 0, tolerance: float
     )
 
 
-def _floats(values):
+def _floats(values: Mapping[str, ArrayLike]) -> dict[str, float]:
     return {k: float(np.asarray(v)) for k, v in values.items()}
 
 
-def _spread(problem, u):
+def _spread(problem: Problem, u: np.ndarray) -> float:
     """Log spread of the values within each part kind (smaller is nicer)."""
     values = problem.values(u)
     total = 0.0
-    by_kind = {}
+    by_kind: dict[str, list[float]] = {}
     for name, value in values.items():
         by_kind.setdefault(problem.topology.kind_of(name), []).append(math.log(float(value)))
     for logs in by_kind.values():
@@ -570,12 +584,14 @@ def _capacitor_ratio_reason(topology: Topology, problem: Problem, q: float) -> s
     first, second = (problem.independent.index(p) for p in c_parts)
     ratio = max(math.exp(problem.high[first] - problem.low[second]),
                 math.exp(problem.high[second] - problem.low[first]))
-    need = topology.capacitor_ratio_per_q2 * q**2
+    # structural_reason calls this only when the topology sets the ratio
+    per_q2 = cast(float, topology.capacitor_ratio_per_q2)
+    need = per_q2 * q**2
     if ratio >= need:
         return ""
     return (
         f"topology {topology.id!r} needs {c_parts[0]}/{c_parts[1]} >= "
-        f"{topology.capacitor_ratio_per_q2:g}Q^2 = {need:.3g}, "
+        f"{per_q2:g}Q^2 = {need:.3g}, "
         f"but the capacitor range allows at most {ratio:.3g}"
     )
 
@@ -594,8 +610,8 @@ class RootErrors:
     zero_f0_pct: float | None
     gain_db: float | None
     worst_root_pct: float
-    poles: tuple
-    zeros: tuple
+    poles: tuple[complex, ...]
+    zeros: tuple[complex, ...]
     gain: float
     omega0: float | None = None
     q: float | None = None
@@ -624,8 +640,12 @@ def root_errors(nf: Any, values: Mapping[str, Any], goal: Goal) -> RootErrors:
     poles = nf.poles(values)
     zeros = nf.zeros(values)
     gain = float(passband_gain(numerator, denominator, goal.gain_kind))
-    f0_pct = q_pct = zero_pct = None
-    omega0 = q = zero_omega = None
+    f0_pct: float | None = None
+    q_pct: float | None = None
+    zero_pct: float | None = None
+    omega0: float | None = None
+    q: float | None = None
+    zero_omega: float | None = None
     if denominator.shape[0] == 3:
         omega0, q = (float(x) for x in omega0_q(*denominator))
         # a figure the roots do not define (real poles either side of the
@@ -641,7 +661,7 @@ def root_errors(nf: Any, values: Mapping[str, Any], goal: Goal) -> RootErrors:
     if goal.zero_omega and numerator.shape[0] == 3 and numerator[0] != 0:
         zero_omega = float(zero_pair_omega(numerator[0], numerator[2]))
         zero_pct = 100 * (zero_omega / goal.zero_omega - 1)
-    gain_db = None
+    gain_db: float | None = None
     if goal.gain:
         gain_db = 20 * math.log10(abs(gain) / goal.gain) if gain else -math.inf
     worst = _worst_root_error(poles, goal.poles)
@@ -654,16 +674,16 @@ def root_errors(nf: Any, values: Mapping[str, Any], goal: Goal) -> RootErrors:
     )
 
 
-def _worst_root_error(achieved, wanted):
+def _worst_root_error(achieved: Iterable[complex], wanted: Iterable[complex]) -> float:
     """Largest |p − p_target| / |p_target| over a nearest-root matching, percent."""
-    achieved = list(achieved)
+    remaining = list(achieved)
     worst = 0.0
     for target in sorted(wanted, key=lambda r: (abs(r), r.imag)):
-        if not achieved:
+        if not remaining:
             return math.inf
-        distances = [abs(a - target) for a in achieved]
+        distances = [abs(a - target) for a in remaining]
         i = int(np.argmin(distances))
         scale = abs(target) if abs(target) > 0 else 1.0
         worst = max(worst, distances[i] / scale)
-        achieved.pop(i)
+        remaining.pop(i)
     return 100 * worst
