@@ -36,8 +36,8 @@ from __future__ import annotations
 import math
 import os
 from dataclasses import asdict, dataclass, field
-from collections.abc import Callable
-from typing import TYPE_CHECKING
+from collections.abc import Callable, Iterable, Mapping, Sequence
+from typing import TYPE_CHECKING, Any, cast
 
 import numpy as np
 
@@ -60,6 +60,10 @@ if TYPE_CHECKING:
     from .spec.reader import Spec
     from .target.targets import Section
     from .circuit.topology import Topology
+    from .evidence.tolerance_results import MonteCarloResult
+    from .place.level import LevelRule
+    from .place.snap import SnapResult
+    from .place.solve import Goal, Problem, RootErrors
 
 
 __all__ = [
@@ -171,22 +175,22 @@ class CandidateResult:
     error_of: str = ""
     gain_error_db: float | None = None
     yield_pct: float | None = None
-    spread: dict = field(default_factory=dict)
+    spread: dict[str, float] = field(default_factory=dict)
     max_sensitivity_w0: float | None = None
     max_sensitivity_q: float | None = None
     gbw_hz: float | None = None
     gbw_source: str = ""
     gain: float | None = None
-    values: dict = field(default_factory=dict)
+    values: dict[str, float] = field(default_factory=dict)
     rejection_db: float | None = None
     gbw_drift_pct: float | None = None
     noise_rms_v: float | None = None
     worst_phase_margin_deg: float | None = None
     gbw_resolved_hz: float | None = None
-    notes: tuple = ()
+    notes: tuple[str, ...] = ()
 
     @property
-    def max_sensitivity(self):
+    def max_sensitivity(self) -> float:
         """The larger of the ω0 and Q figures (inf when unknown)."""
         known = [_finite(x) for x in (self.max_sensitivity_w0, self.max_sensitivity_q)
                  if x is not None]
@@ -198,16 +202,16 @@ class SectionComparison:
     """The ranked candidates of one section."""
 
     index: int
-    section: object
-    candidates: tuple
+    section: Section
+    candidates: tuple      # of CandidateResult, in rank order
 
     @property
-    def reachable(self):
+    def reachable(self) -> bool:
         """True when at least one candidate reaches the section."""
         return any(c.reachable for c in self.candidates)
 
     @property
-    def best(self):
+    def best(self) -> CandidateResult | None:
         """The first-ranked reachable candidate, or None."""
         return self.candidates[0] if self.reachable else None
 
@@ -216,33 +220,33 @@ class SectionComparison:
 class Comparison:
     """Every section's ranking, with the settings that produced it."""
 
-    spec: object
+    spec: Spec
     rank_by: str
     samples: int
     seed: int
     gbw: str
-    sections: tuple
+    sections: tuple[SectionComparison, ...]
 
     # report/ sits above this module in the layering: the notebook view is
     # imported on use (see placer.report.notebook), so no plotting loads before.
-    def _repr_html_(self):
+    def _repr_html_(self) -> str:
         """The notebook view: tables and plots (inline SVG), self-contained."""
         from .report.notebook import comparison_html
 
         return comparison_html(self)
 
-    def plot(self, **options):
+    def plot(self, **options: Any) -> Any:
         """The main figure of one section (``section=``, default 1): yield and error of each candidate, a matplotlib Figure (see :func:`placer.report.notebook.plot`)."""
         from .report.notebook import comparison_figure
 
         return comparison_figure(self, **options)
 
 
-def _finite(x):
+def _finite(x: float | None) -> float:
     return x if x is not None and math.isfinite(x) else math.inf
 
 
-def _rank_key(rank_by):
+def _rank_key(rank_by: str) -> Callable[[CandidateResult], tuple[Any, ...]]:
     if rank_by == "yield":
         return lambda c: (-(c.yield_pct if c.yield_pct is not None else -1.0),
                           _finite(c.error_pct), c.parts, c.topology)
@@ -253,13 +257,14 @@ def _rank_key(rank_by):
     return lambda c: (c.max_sensitivity, _finite(c.error_pct), c.topology)
 
 
-def _check_choice(value, valid, name):
+def _check_choice(value: object, valid: Sequence[str], name: str) -> None:
     if value not in valid:
         raise SpecError(f"{name} must be one of {{{', '.join(repr(v) for v in valid)}}}, "
                         f"not {value!r}")
 
 
-def rank_candidates(candidates, rank_by="yield", *, samples=None):
+def rank_candidates(candidates: Iterable[CandidateResult], rank_by: str = "yield", *,
+                    samples: int | None = None) -> tuple[CandidateResult, ...]:
     """Candidates in rank order; unreachable ones last, in the order given.
 
     Parameters
@@ -291,16 +296,17 @@ def rank_candidates(candidates, rank_by="yield", *, samples=None):
     ['single', 'biquad']
     """
     _check_choice(rank_by, tuple(RANK_KEYS), "rank_by")
-    candidates = list(candidates)
-    reachable = sorted((c for c in candidates if c.reachable), key=_rank_key(rank_by))
+    given = list(candidates)
+    reachable = sorted((c for c in given if c.reachable), key=_rank_key(rank_by))
     if rank_by == "yield" and samples:
         reachable = _yield_ties(reachable, samples)
-    return tuple(reachable) + tuple(c for c in candidates if not c.reachable)
+    return tuple(reachable) + tuple(c for c in given if not c.reachable)
 
 
-def _yield_ties(ranked, samples):
+def _yield_ties(ranked: Sequence[CandidateResult], samples: int) -> list[CandidateResult]:
     """Regroup yield-ranked candidates: statistical ties go to the simpler stage."""
-    out, rest = [], list(ranked)
+    out: list[CandidateResult] = []
+    rest = list(ranked)
     while rest:
         leader = rest[0]
         p = (leader.yield_pct if leader.yield_pct is not None else 0.0) / 100.0
@@ -319,17 +325,18 @@ def _yield_ties(ranked, samples):
 
 @dataclass(frozen=True)
 class _Task:
-    spec: object
+    spec: Spec
     index: int
-    section: object
-    topology: object
+    section: Section
+    topology: Topology
     samples: int
     seed: int
     gbw: str
-    level: object = None        # placer.place.level.LevelRule of the section
+    level: LevelRule | None = None        # the section's
 
 
-def _prelayout_figures(spec, topology, values: dict) -> tuple:
+def _prelayout_figures(spec: Spec, topology: Topology,
+                       values: Mapping[str, float]) -> tuple[float, float | None]:
     """(integrated output noise V rms, least op-amp phase margin °) of one stage as snapped."""
     settings = settings_for(spec)
     circuit = topology.circuit.with_values(values)
@@ -352,7 +359,25 @@ class _GBWFigure:
     resolved_hz: float | None = None
 
 
-def _ideal_design(candidate: Candidate) -> tuple[dict, float]:
+# Candidate's fields problem, snapped and errors (and AmplifiedCandidate's ideal_snapped and
+# ideal_errors) are typed `object` in place/ for now: these read them as what they hold.
+
+def _problem(candidate: Candidate) -> Problem:
+    problem: Any = candidate.problem
+    return problem
+
+
+def _snapped(candidate: Candidate, *, ideal: bool = False) -> SnapResult:
+    snapped: Any = cast(AmplifiedCandidate, candidate).ideal_snapped if ideal else candidate.snapped
+    return snapped
+
+
+def _errors(candidate: Candidate, *, ideal: bool = False) -> RootErrors:
+    errors: Any = cast(AmplifiedCandidate, candidate).ideal_errors if ideal else candidate.errors
+    return errors
+
+
+def _ideal_design(candidate: Candidate) -> tuple[dict[str, float], float]:
     """(values, worst error %) of the candidate's ideal-op-amp design, as snapped.
 
     With a real op-amp model the design compared is corrected for it; the
@@ -361,8 +386,9 @@ def _ideal_design(candidate: Candidate) -> tuple[dict, float]:
     and without ``[amplifier]``.
     """
     if isinstance(candidate, AmplifiedCandidate):
-        return candidate.ideal_snapped.values, candidate.ideal_errors.worst_error_with_gain_pct
-    return candidate.snapped.values, candidate.error_pct
+        return (_snapped(candidate, ideal=True).values,
+                _errors(candidate, ideal=True).worst_error_with_gain_pct)
+    return _snapped(candidate).values, candidate.error_pct
 
 
 def _gbw_needed(section: Section, topology: Topology, spec: Spec, method: str,
@@ -377,10 +403,11 @@ def _gbw_needed(section: Section, topology: Topology, spec: Spec, method: str,
         if error_pct > GBW_ERROR_PCT:
             return _GBWFigure(None, source + f"; its error with ideal op-amps, {error_pct:.3g} %, "
                                              f"is already past the bound")
-        figure = as_built_gbw(topology, values, candidate.problem.goal,
+        figure = as_built_gbw(topology, values, _problem(candidate).goal,
                               error_pct=GBW_ERROR_PCT, amplifier_gain=spec.amplifier.gain)
         if not math.isfinite(figure):
-            goal = candidate.problem.goal
+            goal = _problem(candidate).goal
+            assert goal.omega0 is not None      # a section's goal carries its ω0
             top = search_top_hz(goal.omega0 / (2 * math.pi), goal.q)
             source += f"; not met up to {format_value(top, 'Hz')}"
         resolved = None
@@ -401,12 +428,13 @@ def _gbw_needed(section: Section, topology: Topology, spec: Spec, method: str,
     return _GBWFigure(_rule_gbw(section), source)
 
 
-def _rule_gbw(section):
+def _rule_gbw(section: Section) -> float:
     """The rule of thumb's GBW, Hz: GBW_FACTOR·f0·Q (Q taken as 1 for first order)."""
     return GBW_FACTOR * section.f0_hz * (section.q if section.q is not None else 1.0)
 
 
-def _drift_at(topology, values, goal, gbw_hz, gain):
+def _drift_at(topology: Topology, values: Mapping[str, float], goal: Goal, gbw_hz: float | None,
+              gain: float | None) -> float | None:
     """Larger |f0| or |Q| shift (%) of the design built with op-amps of `gbw_hz`, or None."""
     if gbw_hz is None or not math.isfinite(gbw_hz):
         return None
@@ -419,18 +447,18 @@ def _drift_at(topology, values, goal, gbw_hz, gain):
     return max(shifts) if shifts else None
 
 
-def _largest(per_part, symbols):
+def _largest(per_part: Mapping[str, float] | None, symbols: Iterable[str]) -> float | None:
     if per_part is None:
         return None
     numbers = [abs(per_part[s]) for s in symbols if s in per_part and math.isfinite(per_part[s])]
     return max(numbers) if numbers else None
 
 
-def _evaluate(task):
+def _evaluate(task: _Task) -> CandidateResult:
     """Measure one candidate; a plain :class:`CandidateResult` comes back."""
     topology, spec = task.topology, task.spec
     solver_seed, sampler_seed = candidate_seeds(task.seed, task.index, topology.id)
-    notes = ()
+    notes: tuple[str, ...] = ()
     try:
         candidate = place_candidate(task.section, topology, index=task.index, parts=spec.parts,
                                     amplifier=real_amplifier(spec), seed=task.seed,
@@ -439,8 +467,8 @@ def _evaluate(task):
         if not candidate.reachable:
             return CandidateResult(task.index, topology.id, topology.title, reason=candidate.reason,
                                    notes=notes)
-        nf = candidate.problem.nf
-        values = candidate.snapped.values
+        nf = _problem(candidate).nf
+        values = _snapped(candidate).values
         kinds = {s: topology.kind_of(s) for s in nf.symbols}
         tolerances = {s: spec.tolerance.tolerances[k] for s, k in kinds.items()
                       if k in spec.tolerance.tolerances}
@@ -459,24 +487,24 @@ def _evaluate(task):
         parts = [s for s, k in kinds.items() if k in PART_KINDS]
         gbw = _gbw_needed(task.section, topology, spec, task.gbw, candidate, solver_seed)
         rule_hz = _rule_gbw(task.section) if topology.opamp_count else None
-        drift = _drift_at(topology, _ideal_design(candidate)[0], candidate.problem.goal, rule_hz,
+        drift = _drift_at(topology, _ideal_design(candidate)[0], _problem(candidate).goal, rule_hz,
                           spec.amplifier.gain)
         noise_v, margin = _prelayout_figures(spec, topology, _ideal_design(candidate)[0])
     except SpecError as error:
         return CandidateResult(task.index, topology.id, topology.title, reason=f"bad input: {error}",
                                notes=notes)
+    errors = _errors(candidate)
     return CandidateResult(
         section=task.index, topology=topology.id, title=topology.title, reachable=True,
         parts=topology.part_count, opamps=topology.opamp_count,
         error_pct=float(candidate.error_pct),
-        error_of=worst_error_quantity(candidate.errors),
-        gain_error_db=(None if candidate.errors.gain_db is None
-                       else float(candidate.errors.gain_db)),
+        error_of=worst_error_quantity(errors),
+        gain_error_db=None if errors.gain_db is None else float(errors.gain_db),
         yield_pct=100.0 * target_yield,
         spread=value_spread(topology, values),
         max_sensitivity_w0=_largest(sens.omega0, parts), max_sensitivity_q=_largest(sens.q, parts),
         gbw_hz=gbw.gbw_hz, gbw_source=gbw.source, gbw_resolved_hz=gbw.resolved_hz,
-        gain=float(candidate.errors.gain),
+        gain=float(errors.gain),
         values={k: float(v) for k, v in values.items()},
         rejection_db=(None if result.rejection_db is None
                       else float(result.statistics["rejection_db"].p01)),
@@ -489,7 +517,8 @@ def _evaluate(task):
 DEFAULT_GAIN_WINDOW_DB = DEFAULT_WINDOWS["gain_db"]
 
 
-def _target_yield(section, result, windows):
+def _target_yield(section: Section, result: MonteCarloResult,
+                  windows: Mapping[str, float]) -> float:
     """Fraction of builds whose f0, Q and gain lie within the windows of the target.
 
     A notch's rejection at the target zero frequency counts too when the
@@ -514,16 +543,17 @@ def _target_yield(section, result, windows):
     return float(np.mean(passed))
 
 
-def _run(tasks: list, workers: int, progress: Callable | None) -> list:
+def _run(tasks: list[_Task], workers: int,
+         progress: Callable[[int, int, str], None] | None) -> list[CandidateResult]:
     """Evaluate tasks in-process or in a process pool; results in task order."""
     total = len(tasks)
-    results = [None] * total
+    results: list[CandidateResult | None] = [None] * total
     if workers == 1 or total <= 1:
         for i, task in enumerate(tasks):
             results[i] = _evaluate(task)
             if progress:
                 progress(i + 1, total, task.topology.id)
-        return results
+        return cast("list[CandidateResult]", results)     # every slot is filled
     # A Ctrl-C is seen between candidates (every POLL_SECONDS while waiting)
     # and ends the workers at once (worker_pool terminates them).
     with worker_pool(min(workers, total)) as pool:
@@ -533,11 +563,13 @@ def _run(tasks: list, workers: int, progress: Callable | None) -> list:
             results[i] = future.get()
             if progress:
                 progress(done, total, tasks[i].topology.id)
-    return results
+    return cast("list[CandidateResult]", results)         # every slot is filled
 
 
-def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, progress=None,
-            gbw="built"):
+def compare(spec: Spec, *, rank_by: str = "yield", samples: int | None = None,
+            workers: int | None = None, seed: int | None = None,
+            progress: Callable[[int, int, str], None] | None = None,
+            gbw: str = "built") -> Comparison:
     """Rank every candidate topology for every section of a spec's target.
 
     Parameters
@@ -591,7 +623,8 @@ def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, pro
     if amplifier is not None:
         for index, section in enumerate(sections, start=1):
             check_amplifier(amplifier, section, index=index)
-    tasks, failed = [], []
+    tasks: list[_Task] = []
+    failed: list[list[CandidateResult]] = []
     levels = level_rules_for(spec, sections)
     plans = [candidate_topologies(section, spec) for section in sections]
     check_part_names(spec, [t for plan in plans for t in plan.topologies])
@@ -602,7 +635,7 @@ def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, pro
         failed.append([CandidateResult(index, path, reason=message)
                        for path, message in sorted(plan.load_errors.items())])
     results = _run(tasks, workers, progress)
-    ranked = []
+    ranked: list[SectionComparison] = []
     for index, section in enumerate(sections, start=1):
         own = [r for r in results if r.section == index] + failed[index - 1]
         ranked.append(SectionComparison(index, section, rank_candidates(own, rank_by,
@@ -613,7 +646,7 @@ def compare(spec, *, rank_by="yield", samples=None, workers=None, seed=None, pro
 
 # -- output ------------------------------------------------------------------
 
-def _clean(x):
+def _clean(x: Any) -> Any:
     """JSON-safe: non-finite floats become None."""
     if isinstance(x, float):
         return finite_or_none(x)
@@ -622,7 +655,7 @@ def _clean(x):
     return x
 
 
-def _candidate_dict(candidate, rank):
+def _candidate_dict(candidate: CandidateResult, rank: int | None) -> Any:
     out = {"rank": rank, **asdict(candidate)}
     if candidate.reachable:
         del out["reason"]
@@ -630,7 +663,7 @@ def _candidate_dict(candidate, rank):
     return _clean(out)
 
 
-def comparison_to_dict(comparison):
+def comparison_to_dict(comparison: Comparison) -> dict[str, Any]:
     """A comparison as JSON-ready data (SI units, frequencies in Hz).
 
     Returns
@@ -642,7 +675,8 @@ def comparison_to_dict(comparison):
         with a ``section`` index), ``rank_by``, ``rank_key``, ``samples``,
         ``seed``, ``gbw``, ``windows`` and ``tolerances``.
     """
-    sections, flat = [], []
+    sections: list[dict[str, Any]] = []
+    flat: list[Any] = []
     for s in comparison.sections:
         items = [_candidate_dict(c, rank if c.reachable else None)
                  for rank, c in enumerate(s.candidates, start=1)]

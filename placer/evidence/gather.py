@@ -471,7 +471,8 @@ def check_mask(evaluate: Callable, mask: Mask) -> MaskFigures:
 
 
 def mask_verdict(design: Design, mask: Mask, *, target: Response, snapped: Response,
-                 continuous: Response | None = None, samples: int, seed: object = 0) -> MaskVerdict:
+                 continuous: Response | None = None, samples: int,
+                 seed: int | np.random.SeedSequence = 0) -> MaskVerdict:
     """The mask against the designs and over Monte Carlo builds of the cascade.
 
     Parameters

@@ -32,16 +32,18 @@ from __future__ import annotations
 import math
 import numbers
 import warnings
-from collections.abc import Callable, Iterator, Mapping, Sequence
-from typing import TYPE_CHECKING, Any, NamedTuple
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
+from typing import TYPE_CHECKING, Any, NamedTuple, cast
 
 import numpy as np
+from numpy.typing import NDArray
 
 from ..errors import NumericalWarning, SpecError
 from ..analysis.network import NetworkFunction, polynomial_values
 
 if TYPE_CHECKING:
     from ..analysis.protocols import PartFunction
+    from ..analysis.sensitivity import FigureReference, Sensitivities
 from .tolerance_results import CascadeMonteCarloResult, MonteCarloResult, Statistics
 from .workers import (PARALLEL_MIN_SAMPLES, check_workers, results_in_order, worker_pool,
                       worker_ranges)
@@ -84,36 +86,42 @@ CHUNK = 2_000
 #: Builds per block of :func:`cascade_magnitude_blocks` (bounds its memory).
 MASK_BLOCK = 256
 
+#: What ``seed`` accepts: numpy.random.default_rng's argument.
+_Seed = int | np.random.SeedSequence | np.random.Generator | None
+#: Per block: ω0, Q (None, first order), gain, rejection (None unless asked).
+_BlockFigures = tuple[NDArray[Any], NDArray[Any] | None, NDArray[Any], NDArray[Any] | None]
+
 
 # -- validation -------------------------------------------------------------
 
-def _db(x):
+def _db(x: Any) -> NDArray[np.float64]:
     with np.errstate(divide="ignore"):
         return 20.0 * np.log10(np.abs(x))
 
 
-def _percent(fraction):
+def _percent(fraction: float) -> str:
     return f"{fraction * 100:g} %"
 
 
 
-def _check_tolerances(tolerances, names, allow_zero):
+def _check_tolerances(tolerances: object, names: Sequence[str],
+                      allow_zero: bool) -> dict[str, float]:
     if is_real_number(tolerances):
         tolerances = {name: tolerances for name in names}
     if not isinstance(tolerances, Mapping):
         raise SpecError(
             f"tolerances must map part names to fractions (0.01 = 1 %), not {tolerances!r}"
         )
-    out = {}
-    for name, tolerance in tolerances.items():
+    out: dict[str, float] = {}
+    for name, given in tolerances.items():
         if name not in names:
             raise SpecError(
                 f"tolerance given for {name!r}, which is not a part of this network "
                 f"(parts: {', '.join(names)})"
             )
-        if not is_real_number(tolerance):
-            raise SpecError(f"tolerance of {name!r} must be a number (0.01 = 1 %), not {tolerance!r}")
-        tolerance = float(tolerance)
+        if not is_real_number(given):
+            raise SpecError(f"tolerance of {name!r} must be a number (0.01 = 1 %), not {given!r}")
+        tolerance = float(given)
         low_ok = tolerance >= 0 if allow_zero else tolerance > 0
         if not (math.isfinite(tolerance) and low_ok and tolerance < 1):
             shown = _percent(tolerance) if math.isfinite(tolerance) else repr(tolerance)
@@ -122,12 +130,12 @@ def _check_tolerances(tolerances, names, allow_zero):
     return {name: out[name] for name in names if name in out}
 
 
-def _check_samples(samples):
+def _check_samples(samples: object) -> int:
     if not (is_real_number(samples) and isinstance(samples, numbers.Integral)):
         raise SpecError(f"samples must be a whole number of at least 1, not {samples!r}")
-    if samples < 1:
+    if int(samples) < 1:
         raise SpecError(f"samples must be at least 1, not {samples}")
-    if samples > MAX_SAMPLES:
+    if int(samples) > MAX_SAMPLES:
         warnings.warn(
             f"{samples} Monte Carlo samples requested; capped at {MAX_SAMPLES:,}",
             NumericalWarning, stacklevel=3,
@@ -136,16 +144,17 @@ def _check_samples(samples):
     return int(samples)
 
 
-def _choices(options):
+def _choices(options: Sequence[str]) -> str:
     return "{" + ", ".join(repr(o) for o in options) + "}"
 
 
-def _check_windows(windows, order, reject_hz):
+def _check_windows(windows: object, order: int,
+                   reject_hz: float | None) -> dict[str, float] | None:
     if windows is None:
         return None
     if not isinstance(windows, Mapping):
         raise SpecError(f"windows must map {set(WINDOW_KEYS)} to widths, not {windows!r}")
-    out = {}
+    out: dict[str, float] = {}
     for key, width in windows.items():
         if key not in WINDOW_KEYS:
             raise SpecError(f"window key must be one of {_choices(WINDOW_KEYS)}, not {key!r}")
@@ -161,7 +170,8 @@ def _check_windows(windows, order, reject_hz):
 
 # -- Monte Carlo ------------------------------------------------------------
 
-def _draw(rng, tolerances, samples, distribution):
+def _draw(rng: np.random.Generator, tolerances: Mapping[str, float], samples: int,
+          distribution: str) -> NDArray[np.float64]:
     """Multipliers (parts, samples) around 1."""
     widths = np.array(list(tolerances.values()))[:, None]
     if distribution == "uniform":
@@ -177,22 +187,24 @@ def _draw(rng, tolerances, samples, distribution):
     return multipliers
 
 
-def _window_masks(windows, f0, q, gain_db, nominal_f0, nominal_q, nominal_gain_db,
-                  rejection_db=None):
-    masks = {}
+def _window_masks(windows: Mapping[str, float], f0: NDArray[Any], q: NDArray[Any] | None,
+                  gain_db: NDArray[Any] | None, nominal_f0: float, nominal_q: float | None,
+                  nominal_gain_db: float | None,
+                  rejection_db: NDArray[Any] | None = None) -> dict[str, NDArray[np.bool_]]:
+    masks: dict[str, NDArray[np.bool_]] = {}
     with np.errstate(divide="ignore", invalid="ignore"):
         if "f0" in windows:
             masks["f0"] = np.abs(f0 / nominal_f0 - 1.0) <= windows["f0"]
         if "q" in windows and q is not None:
             masks["q"] = np.abs(q / nominal_q - 1.0) <= windows["q"]
-        if "gain_db" in windows:
+        if "gain_db" in windows and gain_db is not None and nominal_gain_db is not None:
             masks["gain_db"] = np.abs(gain_db - nominal_gain_db) <= windows["gain_db"]
         if "rejection_db" in windows and rejection_db is not None:
             masks["rejection_db"] = rejection_db >= windows["rejection_db"]
     return masks
 
 
-def _check_reject_hz(reject_hz):
+def _check_reject_hz(reject_hz: float | None) -> float | None:
     if reject_hz is None:
         return None
     if not (is_real_number(reject_hz) and math.isfinite(reject_hz) and reject_hz > 0):
@@ -200,7 +212,8 @@ def _check_reject_hz(reject_hz):
     return float(reject_hz)
 
 
-def _rejection_db(numerator, denominator, gain, omega):
+def _rejection_db(numerator: NDArray[Any], denominator: NDArray[Any], gain: NDArray[Any],
+                  omega: float) -> NDArray[np.float64]:
     """|gain| / |H(jω)| in dB per sample, capped at MAX_REJECTION_DB."""
     top = polynomial_values(numerator, 1j * omega)
     bottom = polynomial_values(denominator, 1j * omega)
@@ -210,8 +223,10 @@ def _rejection_db(numerator, denominator, gain, omega):
     return np.minimum(np.where(np.isnan(db), MAX_REJECTION_DB, db), MAX_REJECTION_DB)
 
 
-def _contributions(sens, tolerances):
-    contributions, ranking = {}, {}
+def _contributions(sens: Sensitivities, tolerances: Mapping[str, float]
+                   ) -> tuple[dict[str, dict[str, float]], dict[str, tuple[str, ...]]]:
+    contributions: dict[str, dict[str, float]] = {}
+    ranking: dict[str, tuple[str, ...]] = {}
     for key, per_part in (("f0", sens.omega0), ("q", sens.q), ("gain", sens.gain)):
         if per_part is None:
             continue
@@ -223,13 +238,15 @@ def _contributions(sens, tolerances):
     return contributions, ranking
 
 
-def _readonly(array):
-    array = np.asarray(array)
-    array.flags.writeable = False
-    return array
+def _readonly(array: Any) -> NDArray[Any]:
+    out = np.asarray(array)
+    out.flags.writeable = False
+    return out
 
 
-def _evaluate_block(nf, nominal, multipliers, index, ref, reject_hz):
+def _evaluate_block(nf: PartFunction, nominal: Mapping[str, float],
+                    multipliers: NDArray[np.float64], index: Mapping[str, int],
+                    ref: FigureReference, reject_hz: float | None) -> tuple[NDArray[Any] | None, ...]:
     """(ω0, Q or None, gain, rejection dB or None) for consecutive samples.
 
     The columns are evaluated CHUNK at a time, from the first, so the
@@ -238,7 +255,7 @@ def _evaluate_block(nf, nominal, multipliers, index, ref, reject_hz):
     split between processes, as long as each part starts at a multiple of
     CHUNK.
     """
-    parts = []
+    parts: list[_BlockFigures] = []
     for start in range(0, multipliers.shape[1], CHUNK):
         block = multipliers[:, start:start + CHUNK]
         count = block.shape[1]
@@ -254,10 +271,12 @@ def _evaluate_block(nf, nominal, multipliers, index, ref, reject_hz):
             rejection = _rejection_db(numerator, denominator, gain, 2 * math.pi * reject_hz)
         parts.append((omega0, q, gain, rejection))
 
-    def join(k):
+    def join(k: int) -> NDArray[Any] | None:
         if parts[0][k] is None:
             return None
-        return np.concatenate([np.broadcast_to(p[k], (len(p[0]),)) for p in parts])
+        # A figure is None in every block or in none: the same network throughout.
+        return np.concatenate([np.broadcast_to(cast("NDArray[Any]", p[k]), (len(p[0]),))
+                               for p in parts])
 
     return join(0), join(1), join(2), join(3)
 
@@ -273,7 +292,8 @@ def _blocks(total: int, workers: int) -> list[tuple[int, int]]:
 
 def monte_carlo(nf: NetworkFunction | PartFunction, values: Mapping[str, float],
                 tolerances: Mapping[str, float] | float, *, samples: int = 10_000,
-                distribution: str = "uniform", seed: Any = 0, windows: Mapping | None = None,
+                distribution: str = "uniform", seed: _Seed = 0,
+                windows: Mapping[str, float] | None = None,
                 progress: Callable[[int, int], None] | None = None, allow_zero: bool = False,
                 reject_hz: float | None = None, workers: int | None = 1) -> MonteCarloResult:
     """Tolerance Monte Carlo of f0, Q and gain, vectorised over samples.
@@ -342,13 +362,13 @@ def monte_carlo(nf: NetworkFunction | PartFunction, values: Mapping[str, float],
     """
     check_has_poles(nf)
     nominal = nominal_values(nf, values)
-    checked: dict = _check_tolerances(tolerances, list(nf.symbols), allow_zero)
+    checked = _check_tolerances(tolerances, list(nf.symbols), allow_zero)
     samples = _check_samples(samples)
     if distribution not in DISTRIBUTIONS:
         raise SpecError(f"distribution must be one of {_choices(DISTRIBUTIONS)}, "
                         f"not {distribution!r}")
     reject_hz = _check_reject_hz(reject_hz)
-    shape: dict | None = _check_windows(windows, nf.order, reject_hz)
+    shape = _check_windows(windows, nf.order, reject_hz)
     workers = check_workers(workers)
     workers = workers if samples >= PARALLEL_MIN_SAMPLES else 1
     ref = figure_reference(nf, nominal)
@@ -370,8 +390,8 @@ class _Figures(NamedTuple):
     rejection: np.ndarray | None
 
 
-def _evaluate_samples(nf: NetworkFunction, nominal: dict, multipliers: np.ndarray,
-                      index: dict, ref: Any, reject_hz: float | None, workers: int,
+def _evaluate_samples(nf: PartFunction, nominal: dict[str, float], multipliers: np.ndarray,
+                      index: dict[str, int], ref: FigureReference, reject_hz: float | None, workers: int,
                       progress: Callable[[int, int], None] | None) -> _Figures:
     """Figures of every column of `multipliers`, block by block (in-process or in workers).
 
@@ -383,7 +403,7 @@ def _evaluate_samples(nf: NetworkFunction, nominal: dict, multipliers: np.ndarra
                        np.empty(total), np.empty(total) if reject_hz is not None else None)
     blocks = _blocks(total, workers)
 
-    def store(block: tuple[int, int], found: tuple) -> None:
+    def store(block: tuple[int, int], found: tuple[NDArray[Any] | None, ...]) -> None:
         start, stop = block
         for array, values in zip(figures, found):
             if array is not None:
@@ -408,8 +428,9 @@ def _evaluate_samples(nf: NetworkFunction, nominal: dict, multipliers: np.ndarra
     return figures
 
 
-def _result(nf: NetworkFunction, nominal: dict, tolerances: dict, distribution: str,
-            windows: dict | None, reject_hz: float | None, ref: Any,
+def _result(nf: PartFunction, nominal: dict[str, float], tolerances: dict[str, float],
+            distribution: str, windows: dict[str, float] | None, reject_hz: float | None,
+            ref: FigureReference,
             figures: _Figures) -> MonteCarloResult:
     """Statistics, yield windows and variance shares of the evaluated builds."""
     samples = figures.gain.size - 1
@@ -448,8 +469,11 @@ def _result(nf: NetworkFunction, nominal: dict, tolerances: dict, distribution: 
     )
 
 
-def cascade_monte_carlo(sections, *, samples=10_000, distribution="uniform", seed=0,
-                        windows=None, progress=None, allow_zero=False):
+def cascade_monte_carlo(sections: Iterable[Any], *, samples: int = 10_000,
+                        distribution: str = "uniform", seed: _Seed = 0,
+                        windows: Mapping[str, float] | None = None,
+                        progress: Callable[[int, int], None] | None = None,
+                        allow_zero: bool = False) -> CascadeMonteCarloResult:
     """Monte Carlo of a cascade, each section sampled independently.
 
     Parameters
@@ -494,9 +518,10 @@ def cascade_monte_carlo(sections, *, samples=10_000, distribution="uniform", see
             )
     samples = _check_samples(samples)
     streams = np.random.default_rng(seed).spawn(len(sections))
-    results = []
+    results: list[MonteCarloResult] = []
     for i, ((nf, values, tolerances), stream) in enumerate(zip(sections, streams)):
-        def report(done, total, _offset=i * samples):
+        def report(done: int, total: int, _offset: int = i * samples) -> None:
+            assert progress is not None  # report is passed on only with a progress
             progress(_offset + done, len(sections) * samples)
         results.append(monte_carlo(nf, values, tolerances, samples=samples,
                                    distribution=distribution, seed=stream, windows=windows,
@@ -519,8 +544,8 @@ def cascade_monte_carlo(sections, *, samples=10_000, distribution="uniform", see
                                    yield_fraction, passed)
 
 
-def cascade_magnitude_blocks(sections: Sequence, omega: Sequence[float], *, samples: int,
-                             distribution: str = "uniform", seed: object = 0,
+def cascade_magnitude_blocks(sections: Sequence[Any], omega: Sequence[float], *, samples: int,
+                             distribution: str = "uniform", seed: _Seed = 0,
                              block: int = MASK_BLOCK) -> Iterator[np.ndarray]:
     """|H(jω)| in dB of Monte Carlo builds of a whole cascade, block by block.
 

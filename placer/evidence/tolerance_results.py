@@ -84,7 +84,7 @@ class MonteCarloResult:
 
     samples: int
     distribution: str
-    tolerances: dict
+    tolerances: dict[str, float]
     nominal_f0_hz: float
     nominal_q: float | None
     nominal_gain: float
@@ -92,13 +92,13 @@ class MonteCarloResult:
     f0_hz: np.ndarray
     q: np.ndarray | None
     gain: np.ndarray
-    statistics: dict
-    windows: dict | None
-    window_yield: dict | None
+    statistics: dict[str, Statistics]
+    windows: dict[str, float] | None
+    window_yield: dict[str, float] | None
     yield_fraction: float | None
     passed: np.ndarray | None
-    contributions: dict
-    ranking: dict
+    contributions: dict[str, dict[str, float]]
+    ranking: dict[str, tuple[str, ...]]
     sensitivities: Sensitivities
     reject_hz: float | None = None
     nominal_rejection_db: float | None = None
@@ -147,11 +147,11 @@ class CascadeMonteCarloResult:
     passed : ndarray of bool or None
     """
 
-    sections: tuple
+    sections: tuple[MonteCarloResult, ...]
     gain: np.ndarray
     nominal_gain: float
-    statistics: dict
-    windows: dict | None
+    statistics: dict[str, Statistics]
+    windows: dict[str, float] | None
     yield_fraction: float | None
     passed: np.ndarray | None
 

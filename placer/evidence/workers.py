@@ -26,6 +26,7 @@ import signal
 from collections.abc import Iterable, Iterator
 from contextlib import contextmanager
 from multiprocessing.pool import AsyncResult, Pool
+from typing import TypeVar
 
 from ..errors import SpecError
 
@@ -38,6 +39,8 @@ PARALLEL_MIN_SAMPLES = 50_000
 #: (A wait without a timeout may never see it: the signal can reach another
 #: thread, and the main thread's wait is not interrupted.)
 POLL_SECONDS = 0.1
+
+_T = TypeVar("_T")
 
 
 def worker_ranges(total: int, workers: int, chunk: int) -> list[tuple[int, int]]:
@@ -61,7 +64,9 @@ def check_workers(workers: int | None) -> int:
     """A worker count: None means every core; else a whole number >= 1."""
     if workers is None:
         return os.cpu_count() or 1
-    if not (isinstance(workers, numbers.Integral) and not isinstance(workers, bool) and workers >= 1):
+    # int is named beside numbers.Integral for mypy, which does not count it as one.
+    if not (isinstance(workers, (int, numbers.Integral)) and not isinstance(workers, bool)
+            and workers >= 1):
         raise SpecError(f"workers must be a whole number >= 1, not {workers!r}")
     return int(workers)
 
@@ -91,7 +96,7 @@ def worker_pool(workers: int) -> Iterator[Pool]:
     pool.join()
 
 
-def results_in_order(tasks: Iterable[AsyncResult]) -> Iterator:
+def results_in_order(tasks: Iterable[AsyncResult[_T]]) -> Iterator[_T]:
     """Each task's result in the given order, waiting in short steps.
 
     Every wait has a timeout of :data:`POLL_SECONDS`, so the main thread
@@ -103,7 +108,7 @@ def results_in_order(tasks: Iterable[AsyncResult]) -> Iterator:
         yield task.get()
 
 
-def results_as_completed(tasks: Iterable[AsyncResult]) -> Iterator[AsyncResult]:
+def results_as_completed(tasks: Iterable[AsyncResult[_T]]) -> Iterator[AsyncResult[_T]]:
     """The tasks as they finish, looked at every :data:`POLL_SECONDS`."""
     pending = list(tasks)
     while pending:

@@ -54,13 +54,15 @@ import math
 import numbers
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from ..eseries import check_series, series_values
 from ..errors import SpecError, TopologyError, UnreachableTarget
 from ..circuit.library import find_topologies
-from .tolerance import GridLoop, frequency_grid, grid_margins
+from .tolerance import GridLoop, GridMargins, frequency_grid, grid_margins
 from ..analysis.network import NetworkFunction, network_function
 from .plants import Plant
 from ..circuit.elements import Circuit
@@ -93,7 +95,7 @@ _ROLES = {"type2": ("R1", "R2", "C1", "C2"), "type3": ("R1", "R2", "R3", "C1", "
 _KINDS = {"R": "resistor", "C": "capacitor"}
 
 
-def k_factor(boost_deg, family):
+def k_factor(boost_deg: float, family: str) -> float:
     """Venable's K for a phase boost (degrees) and {"type2", "type3"}.
 
     Examples
@@ -103,7 +105,7 @@ def k_factor(boost_deg, family):
     """
     family = check_compensator(family)
     quarter = 2 if family == "type2" else 4
-    return math.tan(math.radians(boost_deg / quarter + 45.0)) ** (quarter // 2)
+    return float(math.tan(math.radians(boost_deg / quarter + 45.0)) ** (quarter // 2))
 
 
 @dataclass(frozen=True)
@@ -127,18 +129,27 @@ class KFactorPlacement:
     pole: float
     integrator: float
 
-    crossover_hz = property(lambda self: self.crossover / (2 * math.pi))
-    zero_hz = property(lambda self: self.zero / (2 * math.pi))
-    pole_hz = property(lambda self: self.pole / (2 * math.pi))
+    @property
+    def crossover_hz(self) -> float:
+        return self.crossover / (2 * math.pi)
 
-    def response(self, omega):
+    @property
+    def zero_hz(self) -> float:
+        return self.zero / (2 * math.pi)
+
+    @property
+    def pole_hz(self) -> float:
+        return self.pole / (2 * math.pi)
+
+    def response(self, omega: ArrayLike) -> NDArray[np.complex128]:
         """Gc(jω), `omega` in rad/s."""
         s = 1j * np.asarray(omega, dtype=float)
         n = 1 if self.family == "type2" else 2
         return self.integrator / s * ((1 + s / self.zero) / (1 + s / self.pole)) ** n
 
 
-def k_factor_placement(plant, crossover_hz, phase_margin_deg, *, compensator="type2"):
+def k_factor_placement(plant: Plant, crossover_hz: float, phase_margin_deg: float, *,
+                       compensator: str = "type2") -> KFactorPlacement:
     """K-factor placement for a plant, a crossover (Hz) and a PM (degrees).
 
     Parameters
@@ -202,7 +213,7 @@ def k_factor_placement(plant, crossover_hz, phase_margin_deg, *, compensator="ty
                             zero=wc / spread, pole=wc * spread, integrator=wc / (k * gain))
 
 
-def _closed_form(placement, r1):
+def _closed_form(placement: KFactorPlacement, r1: float) -> dict[str, float]:
     """Part values by role (R1, R2, C1, ...) with R1 given, ideal op-amp.
 
     H = −(1 + sR2C1)(1 + s(R1+R3)C3)/(sR1(C1+C2)(1 + sR2·C1C2/(C1+C2))(1 + sR3C3)):
@@ -219,7 +230,9 @@ def _closed_form(placement, r1):
     return values
 
 
-def _fit_ranges(placement, r1, ranges, resistor_series):
+def _fit_ranges(placement: KFactorPlacement, r1: float,
+                ranges: Mapping[str, tuple[float, float]],
+                resistor_series: str) -> tuple[dict[str, float], tuple[str, ...]]:
     """Closed-form values, impedance-scaled (R·a, C/a) into the ranges."""
     values = _closed_form(placement, r1)
     low, high = 0.0, math.inf
@@ -252,7 +265,7 @@ def _fit_ranges(placement, r1, ranges, resistor_series):
                     f"{format_value(new_r1, 'ohm')} so that every part fits its range",)
 
 
-def _span(bounds, unit):
+def _span(bounds: tuple[float, float], unit: str) -> str:
     return f"{format_value(bounds[0], unit)}–{format_value(bounds[1], unit)}"
 
 
@@ -270,19 +283,21 @@ class LoopDesign:
     plant: Plant
     topology: Topology
     placement: KFactorPlacement
-    roles: dict
-    continuous: dict
-    snapped: dict
-    series: dict
+    roles: dict[str, str]
+    continuous: dict[str, float]
+    snapped: dict[str, float]
+    series: dict[str, str]
     sign: float
     continuous_margins: Margins
     snapped_margins: Margins
-    notes: tuple = ()
+    notes: tuple[str, ...] = ()
     network: NetworkFunction | None = field(default=None, repr=False, compare=False)
 
-    def loop_transfer_function(self, *, snapped=True):
+    def loop_transfer_function(self, *, snapped: bool = True) -> Any:
         """L(s) as a python-control TransferFunction."""
         values = self.snapped if snapped else self.continuous
+        if self.network is None:
+            raise ValueError("this LoopDesign carries no network function")
         return _loop_tf(self.network, self.sign, self.plant, values)
 
     def circuit(self, *, snapped: bool = True) -> Circuit:
@@ -298,7 +313,7 @@ class LoopDesign:
         values = self.snapped if snapped else self.continuous
         if self.network is None:
             raise ValueError("this LoopDesign carries no network function")
-        roots = []
+        roots: list[np.ndarray] = []
         for coefficients in self.network.coefficients(values):
             c = np.trim_zeros(np.ravel(coefficients), "f")
             found = np.roots(c) if c.size > 1 else np.array([], complex)
@@ -306,11 +321,11 @@ class LoopDesign:
         return roots[0], roots[1]
 
 
-def _loop_tf(nf, sign, plant, values):
+def _loop_tf(nf: NetworkFunction, sign: float, plant: Plant, values: Mapping[str, float]) -> Any:
     return sign * nf.transfer_function(values) * plant.transfer_function()
 
 
-def check_compensator(compensator):
+def check_compensator(compensator: object) -> str:
     """Return *compensator* if it names a family, {"type2", "type3"}, else raise.
 
     Raises
@@ -323,21 +338,21 @@ def check_compensator(compensator):
     >>> check_compensator("type3")
     'type3'
     """
-    if compensator in COMPENSATOR_FAMILIES:
+    if isinstance(compensator, str) and compensator in COMPENSATOR_FAMILIES:
         return compensator
     close = difflib.get_close_matches(str(compensator), COMPENSATOR_FAMILIES, n=1)
     hint = f"; did you mean {close[0]!r}?" if close else ""
     raise SpecError(f"compensator must be one of {{'type2', 'type3'}}, not {compensator!r}{hint}")
 
 
-def _positive_number(value, name):
+def _positive_number(value: object, name: str) -> float:
     if isinstance(value, bool) or not isinstance(value, numbers.Real) \
-            or not (math.isfinite(value) and value > 0):
+            or not (math.isfinite(value) and float(value) > 0):
         raise SpecError(f"{name} must be a positive finite number, not {value!r}")
     return float(value)
 
 
-def _range(bounds, name):
+def _range(bounds: Any, name: str) -> tuple[float, float]:
     try:
         low, high = (float(x) for x in bounds)
     except (TypeError, ValueError):
@@ -347,9 +362,9 @@ def _range(bounds, name):
     return low, high
 
 
-def _roles_of(topology, family):
+def _roles_of(topology: Topology, family: str) -> dict[str, str]:
     """Role (R1, R2, C1, ...) → symbol, by element name, then by symbol."""
-    roles = {}
+    roles: dict[str, str] = {}
     for role in _ROLES[family]:
         element = next((e for e in topology.circuit.elements if e.name == role and e.symbol), None)
         symbol = element.symbol if element else (role if role in topology.symbols else None)
@@ -366,7 +381,8 @@ def _roles_of(topology, family):
     return roles
 
 
-def _compensator_topology(compensator, topologies):
+def _compensator_topology(compensator: str | Topology,
+                          topologies: Mapping[str, Topology] | None) -> tuple[Topology, str]:
     if isinstance(compensator, Topology):
         return compensator, check_compensator(compensator.family)
     family = check_compensator(compensator)
@@ -377,13 +393,13 @@ def _compensator_topology(compensator, topologies):
     return found[0], family
 
 
-def _sign_of(nf, values):
+def _sign_of(nf: NetworkFunction, values: Mapping[str, float]) -> float:
     """+1 or −1 so that sign·H integrates with a positive constant."""
     numerator, denominator = (np.trim_zeros(np.ravel(c), "b") for c in nf.coefficients(values))
     return 1.0 if numerator[-1] / denominator[-1] > 0 else -1.0
 
 
-def _candidates(table, value, extra):
+def _candidates(table: NDArray[np.float64], value: float, extra: int) -> NDArray[np.float64]:
     """Series values from `extra` steps below the floor to `extra` above the ceiling."""
     below = int(np.searchsorted(table, value * (1 + 1e-9), side="right")) - 1
     above = int(np.searchsorted(table, value * (1 - 1e-9), side="left"))
@@ -391,7 +407,7 @@ def _candidates(table, value, extra):
     return table[low:min(max(below, above) + extra, table.size - 1) + 1]
 
 
-def _choose(found, target_pm, target_wc):
+def _choose(found: GridMargins, target_pm: float, target_wc: float) -> int:
     """Index of the stable candidate meeting the PM with crossover nearest ωc."""
     usable = found.stable & np.isfinite(found.phase_margin)
     with np.errstate(invalid="ignore"):
@@ -402,7 +418,9 @@ def _choose(found, target_pm, target_wc):
     return int(np.argmax(np.where(pool, found.phase_margin, -np.inf)))
 
 
-def _snap(parts, roles, continuous, series, ranges, placement):
+def _snap(parts: GridLoop, roles: Mapping[str, str], continuous: Mapping[str, float],
+          series: Mapping[str, str], ranges: Mapping[str, tuple[float, float]],
+          placement: KFactorPlacement) -> dict[str, float]:
     """Two-stage search over preferred values, judged by the loop itself."""
     tables = {s: series_values(series[s], *ranges[_KINDS[r[0]]]) for r, s in roles.items()}
     r1 = roles["R1"]
@@ -419,7 +437,8 @@ def _snap(parts, roles, continuous, series, ranges, placement):
     return _search(parts, refine, fixed, target)
 
 
-def _search(parts, options, fixed, target):
+def _search(parts: GridLoop, options: Mapping[str, NDArray[np.float64]],
+            fixed: Mapping[str, float], target: tuple[float, float]) -> dict[str, float]:
     names = list(options)
     grid = np.array(list(itertools.product(*(options[n] for n in names))), dtype=float)
     arrays = {n: grid[:, i] for i, n in enumerate(names)}
@@ -433,7 +452,8 @@ def design_compensator(plant: Plant, crossover_hz: float, phase_margin_deg: floa
                        capacitor_series: str = "E12",
                        resistor_range: tuple[float, float] = DEFAULT_RANGES["resistor"],
                        capacitor_range: tuple[float, float] = DEFAULT_RANGES["capacitor"],
-                       r1: float = 10e3, topologies: Mapping | None = None) -> LoopDesign:
+                       r1: float = 10e3,
+                       topologies: Mapping[str, Topology] | None = None) -> LoopDesign:
     """Design a Type II or III error amplifier for a plant.
 
     Parameters
@@ -503,13 +523,14 @@ class _Setup:
 
     topology: Topology
     family: str
-    roles: dict
-    series: dict
-    ranges: dict
+    roles: dict[str, str]
+    series: dict[str, str]
+    ranges: dict[str, tuple[float, float]]
     r1: float
 
 
-def _setup(compensator: str | Topology, topologies: Mapping | None, resistor_series: str,
+def _setup(compensator: str | Topology, topologies: Mapping[str, Topology] | None,
+           resistor_series: str,
            capacitor_series: str, resistor_range: tuple[float, float],
            capacitor_range: tuple[float, float], r1: float) -> _Setup:
     """Check the arguments: topology and roles, series, ranges, R1 inside its range."""
@@ -536,7 +557,7 @@ def _boost_notes(placement: KFactorPlacement) -> list[str]:
 
 
 def _continuous_design(plant: Plant, placement: KFactorPlacement,
-                       setup: _Setup) -> tuple[dict, NetworkFunction, float, list[str]]:
+                       setup: _Setup) -> tuple[dict[str, float], NetworkFunction, float, list[str]]:
     """Closed-form parts fitted into the ranges, the network, its sign, and notes.
 
     With an ideal op-amp the network must respond as the placement's Gc.
@@ -560,7 +581,8 @@ def _continuous_design(plant: Plant, placement: KFactorPlacement,
     return continuous, nf, sign, notes
 
 
-def _continuous_margins(nf: NetworkFunction, sign: float, plant: Plant, continuous: dict,
+def _continuous_margins(nf: NetworkFunction, sign: float, plant: Plant,
+                        continuous: Mapping[str, float],
                         placement: KFactorPlacement) -> Margins:
     """Margins of the continuous loop; UnreachableTarget when it misses its own target."""
     cont = margins(_loop_tf(nf, sign, plant, continuous))
@@ -579,7 +601,7 @@ def _continuous_margins(nf: NetworkFunction, sign: float, plant: Plant, continuo
 
 def _snapped_notes(after: Margins, placement: KFactorPlacement, plant: Plant) -> list[str]:
     """Notes on the snapped loop: missed margin, instability, RHP zero, low gain margin."""
-    notes = []
+    notes: list[str] = []
     pm = placement.phase_margin_deg
     if after.phase_margin_deg is None or after.phase_margin_deg < pm:
         best = "no crossover" if after.phase_margin_deg is None else \
@@ -590,7 +612,9 @@ def _snapped_notes(after: Margins, placement: KFactorPlacement, plant: Plant) ->
     rhp = rhp_zero_note(plant, placement.crossover_hz)
     if rhp:
         notes.append(rhp + "; expect little gain margin")
-    if after.gain_margin_db is not None and after.gain_margin_db < LOW_GAIN_MARGIN_DB:
+    # The gain margin and its phase crossover are found together (both or neither).
+    if after.gain_margin_db is not None and after.phase_crossover_hz is not None \
+            and after.gain_margin_db < LOW_GAIN_MARGIN_DB:
         notes.append(f"the gain margin is only {after.gain_margin_db:.1f} dB "
                      f"(at {format_value(after.phase_crossover_hz, 'Hz')})")
     return notes

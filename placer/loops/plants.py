@@ -30,10 +30,13 @@ from __future__ import annotations
 import difflib
 import math
 import warnings
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import control
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from ..circuit.elements import check_part_value
 from ..errors import NumericalWarning, SpecError, brief
@@ -71,18 +74,18 @@ class Plant:
         One line for people, for example "buck 12 V, 10 µH, 100 µF".
     """
 
-    poles: tuple
-    zeros: tuple
+    poles: tuple[complex, ...]
+    zeros: tuple[complex, ...]
     gain: float
     description: str = ""
 
     @property
-    def order(self):
+    def order(self) -> int:
         """Number of poles."""
         return len(self.poles)
 
     @property
-    def low_frequency_gain(self):
+    def low_frequency_gain(self) -> float:
         """Gain with roots at the origin left out: k·Π(−z)/Π(−p), signed."""
         value = complex(self.gain)
         for z in self.zeros:
@@ -93,7 +96,7 @@ class Plant:
                 value /= -p
         return float(value.real)
 
-    def response(self, omega):
+    def response(self, omega: ArrayLike) -> NDArray[np.complex128]:
         """G(jω) as a complex array; `omega` in rad/s."""
         s = 1j * np.asarray(omega, dtype=float)
         value = np.full(s.shape, complex(self.gain))
@@ -103,7 +106,7 @@ class Plant:
             value = value / (s - p)
         return value
 
-    def phase_deg(self, omega):
+    def phase_deg(self, omega: ArrayLike) -> NDArray[np.float64]:
         """Phase of G(jω) in degrees, continuous from DC (not wrapped).
 
         Each factor is written as (1 − s/r), whose phase starts at 0 and
@@ -111,19 +114,19 @@ class Plant:
         unwrapping; a root at the origin adds ±90°, a negative
         :attr:`low_frequency_gain` −180°.
         """
-        omega = np.asarray(omega, dtype=float)
-        phase = np.zeros(omega.shape)
+        w = np.asarray(omega, dtype=float)
+        phase = np.zeros(w.shape)
         for roots, sign in ((self.zeros, 1.0), (self.poles, -1.0)):
             for r in roots:
                 if r == 0:
                     phase = phase + sign * 90.0
                 else:
-                    phase = phase + sign * np.degrees(np.angle(1 - 1j * omega / r))
+                    phase = phase + sign * np.degrees(np.angle(1 - 1j * w / r))
         if self.low_frequency_gain < 0:
             phase = phase - 180.0
         return phase
 
-    def sections(self):
+    def sections(self) -> list[tuple[NDArray[np.float64], NDArray[np.float64]]]:
         """First- and second-order factors ``(numerator, denominator)``.
 
         Returns
@@ -139,7 +142,7 @@ class Plant:
         denominators += [np.array([1.0])] * (count - len(denominators))
         return list(zip(numerators, denominators))
 
-    def transfer_function(self):
+    def transfer_function(self) -> Any:
         """The plant as a python-control TransferFunction.
 
         Built as the series connection of the sections of :meth:`sections`,
@@ -150,7 +153,7 @@ class Plant:
             system = system * control.tf(numerator, denominator)
         return system
 
-    def to_dict(self):
+    def to_dict(self) -> dict[str, Any]:
         """JSON-ready: poles and zeros as [re, im] pairs in rad/s, gain k."""
         return {
             "poles": [[float(r.real), float(r.imag)] for r in self.poles],
@@ -160,9 +163,9 @@ class Plant:
         }
 
 
-def _factor_polynomials(roots):
+def _factor_polynomials(roots: Iterable[complex]) -> list[NDArray[np.float64]]:
     """Monic real polynomials of degree 1 (real roots) or 2 (pairs)."""
-    out = []
+    out: list[NDArray[np.float64]] = []
     for r in roots:
         if r.imag > 0:
             out.append(np.array([1.0, -2.0 * r.real, abs(r) ** 2]))
@@ -171,16 +174,16 @@ def _factor_polynomials(roots):
     return out
 
 
-def _clean_roots(roots, what):
+def _clean_roots(roots: Iterable[complex], what: str) -> tuple[complex, ...]:
     """Complex tuple with conjugate pairs made exact; SpecError if unpaired."""
-    values = []
-    for r in roots:
-        r = complex(r)
+    values: list[complex] = []
+    for item in roots:
+        r = complex(item)
         if not (math.isfinite(r.real) and math.isfinite(r.imag)):
             raise SpecError(f"{what}: {r!r} is not a finite number")
         values.append(r)
     unmatched = [r for r in values if r.imag != 0]
-    paired = []
+    paired: list[complex] = []
     while unmatched:
         r = unmatched.pop(0)
         scale = max(abs(r), 1e-300)
@@ -198,7 +201,8 @@ def _clean_roots(roots, what):
     return tuple(complex(x) for x in real) + tuple(paired)
 
 
-def plant_from_roots(poles, zeros, gain, *, description=""):
+def plant_from_roots(poles: Iterable[complex], zeros: Iterable[complex], gain: float, *,
+                     description: str = "") -> Plant:
     """A plant from its poles, zeros (rad/s) and the constant k.
 
     Parameters
@@ -220,20 +224,21 @@ def plant_from_roots(poles, zeros, gain, *, description=""):
     >>> plant.low_frequency_gain
     1.0
     """
-    poles = _clean_roots(poles, "plant poles")
-    zeros = _clean_roots(zeros, "plant zeros")
-    gain = float(gain)
-    if not math.isfinite(gain) or gain == 0:
-        raise SpecError(f"plant gain must be a nonzero finite number, not {gain!r}")
-    if len(zeros) > len(poles):
+    clean_poles = _clean_roots(poles, "plant poles")
+    clean_zeros = _clean_roots(zeros, "plant zeros")
+    k = float(gain)
+    if not math.isfinite(k) or k == 0:
+        raise SpecError(f"plant gain must be a nonzero finite number, not {k!r}")
+    if len(clean_zeros) > len(clean_poles):
         raise SpecError(
-            f"the plant has {len(zeros)} zeros but only {len(poles)} poles; "
+            f"the plant has {len(clean_zeros)} zeros but only {len(clean_poles)} poles; "
             "a physical plant has no more zeros than poles"
         )
-    return Plant(poles=poles, zeros=zeros, gain=gain, description=description)
+    return Plant(poles=clean_poles, zeros=clean_zeros, gain=k, description=description)
 
 
-def plant_from_coefficients(numerator, denominator, *, description=""):
+def plant_from_coefficients(numerator: ArrayLike, denominator: ArrayLike, *,
+                            description: str = "") -> Plant:
     """A plant from N(s) and D(s) coefficients, highest power first.
 
     Orders above 8 lose accuracy in the root finder and warn
@@ -245,28 +250,28 @@ def plant_from_coefficients(numerator, denominator, *, description=""):
     >>> sorted(p.real for p in plant.poles), plant.gain
     ([-2.0, -1.0], 2.0)
     """
-    arrays = []
+    arrays: list[NDArray[np.float64]] = []
     for label, coefficients in (("numerator", numerator), ("denominator", denominator)):
         array = np.trim_zeros(np.asarray(coefficients, dtype=float), "f")
         if array.size == 0 or not np.all(np.isfinite(array)):
             raise SpecError(f"plant {label} must be a list of finite numbers, not all zero")
         arrays.append(array)
-    numerator, denominator = arrays
-    if denominator.size > 9:
+    num, den = arrays
+    if den.size > 9:
         warnings.warn(
-            f"a plant denominator of order {denominator.size - 1} in polynomial form "
+            f"a plant denominator of order {den.size - 1} in polynomial form "
             "loses accuracy in the root finder; give poles and zeros instead",
             NumericalWarning, stacklevel=2,
         )
-    zeros = _real_pairs(np.roots(numerator))
-    poles = _real_pairs(np.roots(denominator))
-    return plant_from_roots(poles, zeros, numerator[0] / denominator[0],
+    zeros = _real_pairs(np.roots(num))
+    poles = _real_pairs(np.roots(den))
+    return plant_from_roots(poles, zeros, float(num[0] / den[0]),
                             description=description)
 
 
-def _real_pairs(roots):
+def _real_pairs(roots: Iterable[complex]) -> list[complex]:
     """Roots of a real polynomial with their conjugate pairs made exact."""
-    out = []
+    out: list[complex] = []
     for r in roots:
         if abs(r.imag) <= 1e-10 * max(abs(r), 1e-300):
             out.append(complex(r.real))
@@ -275,15 +280,15 @@ def _real_pairs(roots):
     return out
 
 
-def _positive(value, name, *, allow_zero=False):
-    value = float(value)
-    if not math.isfinite(value) or value < 0 or (value == 0 and not allow_zero):
+def _positive(value: float, name: str, *, allow_zero: bool = False) -> float:
+    x = float(value)
+    if not math.isfinite(x) or x < 0 or (x == 0 and not allow_zero):
         accepted = "zero or positive" if allow_zero else "positive"
-        raise SpecError(f"{name} must be a {accepted} finite number, not {value!r}")
-    return value
+        raise SpecError(f"{name} must be a {accepted} finite number, not {x!r}")
+    return x
 
 
-def _second_order(a2, a1, a0):
+def _second_order(a2: float, a1: float, a0: float) -> tuple[complex, complex]:
     """Roots of a2·s² + a1·s + a0 (a2, a1, a0 > 0), stable either way."""
     disc = a1 * a1 - 4 * a2 * a0
     if disc >= 0:
@@ -293,7 +298,8 @@ def _second_order(a2, a1, a0):
     return (root, root.conjugate())
 
 
-def buck_plant(vin, inductance, capacitance, esr, load, ramp):
+def buck_plant(vin: float, inductance: float, capacitance: float, esr: float, load: float,
+               ramp: float) -> Plant:
     """Voltage-mode buck control-to-output, CCM, averaged model.
 
     ``Gvd(s) = (Vin/Vramp)·(1 + s·r·C) / (1 + s(L/R + r·C) + s²·L·C·(1 + r/R))``
@@ -330,7 +336,8 @@ def buck_plant(vin, inductance, capacitance, esr, load, ramp):
     ramp = _positive(ramp, "ramp")
     a2, a1 = L * C * (1 + r / R), L / R + r * C
     poles = _second_order(a2, a1, 1.0)
-    zeros, k = (), vin / ramp / a2
+    zeros: tuple[complex, ...] = ()
+    k = vin / ramp / a2
     if r > 0:
         zeros, k = (complex(-1.0 / (r * C)),), k * r * C
     description = (f"buck {format_value(vin, 'V')} in, L {format_value(L, 'H')}, "
@@ -339,7 +346,9 @@ def buck_plant(vin, inductance, capacitance, esr, load, ramp):
     return plant_from_roots(poles, zeros, k, description=description)
 
 
-def boost_plant(vin, *, duty=None, vout=None, inductance, capacitance, esr, load, ramp):
+def boost_plant(vin: float, *, duty: float | None = None, vout: float | None = None,
+                inductance: float, capacitance: float, esr: float, load: float,
+                ramp: float) -> Plant:
     """Voltage-mode boost control-to-output, CCM, with its RHP zero.
 
     ``Gvd(s) = Vin/((1−D)²·Vramp) · (1 − s/ωz)(1 + s·r·C) / (1 + s/(Q·ω0) + s²/ω0²)``
@@ -378,6 +387,7 @@ def boost_plant(vin, *, duty=None, vout=None, inductance, capacitance, esr, load
         if vout <= vin:
             raise SpecError(f"a boost steps up: vout ({vout:g} V) must exceed vin ({vin:g} V)")
         duty = 1.0 - vin / vout
+    assert duty is not None  # exactly one of duty, vout: checked above
     duty = float(duty)
     if not 0 < duty < 1:
         raise SpecError(f"duty must lie strictly between 0 and 1, not {duty!r}")
@@ -414,14 +424,14 @@ _CONVERTER_BOUNDS = {"vin": "voltage", "vout": "voltage", "inductance": "inducto
 _ROOT_LIMIT = 2 * math.pi * LIMITS["frequency"].high
 
 
-def check_keys(table: dict, accepted: set, where: str) -> None:
+def check_keys(table: dict[str, Any], accepted: set[str], where: str) -> None:
     """SpecError for the first key of `table` not in `accepted`, with the nearest."""
     for key in table:
         if key not in accepted:
             raise unknown_key(key, tuple(sorted(accepted)), where)
 
 
-def _read(table, key, where, unit=None):
+def _read(table: dict[str, Any], key: str, where: str, unit: str | None = None) -> float:
     if key not in table:
         raise SpecError(f"{where}: missing key {key!r}")
     return parse_value(table[key], unit=unit, field=f"{where}.{key}")
@@ -437,8 +447,8 @@ def _bounded(key: str, value: float, where: str) -> float:
     return check_part_value(bound, value, f"{where}.{key}")
 
 
-def _roots_of(raw: list, where: str, scale: float) -> list:
-    roots = []
+def _roots_of(raw: Sequence[Any], where: str, scale: float) -> list[complex]:
+    roots: list[complex] = []
     for item in raw:
         if isinstance(item, list):
             re_, im_ = (parse_value(x, field=where) for x in item)
@@ -453,7 +463,7 @@ def _roots_of(raw: list, where: str, scale: float) -> list:
     return [r * scale for r in _clean_roots(roots, where)]
 
 
-def plant_from_table(table, *, source="plant"):
+def plant_from_table(table: Any, *, source: str = "plant") -> Plant:
     """Read a plant table of a spec file.
 
     Parameters

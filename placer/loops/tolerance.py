@@ -28,9 +28,10 @@ import math
 import numbers
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
-from typing import Any, NamedTuple
+from typing import TYPE_CHECKING, Any, NamedTuple, cast
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from ..eseries import usual_tolerance
 from ..errors import SpecError
@@ -39,6 +40,9 @@ from .plants import Plant
 from ..evidence.tolerance import DISTRIBUTIONS
 from ..evidence.workers import (PARALLEL_MIN_SAMPLES, check_workers, results_in_order,
                                 worker_pool, worker_ranges)
+
+if TYPE_CHECKING:
+    from .compensator import LoopDesign
 
 __all__ = [
     "BLOCK", "GridLoop", "GridMargins", "LoopMonteCarlo", "frequency_grid", "grid_margins",
@@ -50,7 +54,7 @@ _DECADES, _PER_DECADE, _CHUNK = 3, 200, 512
 BLOCK = 16 * _CHUNK
 
 
-def _wrap(degrees):
+def _wrap(degrees: ArrayLike) -> NDArray[np.float64]:
     """Angles into [−180°, 180°), the convention of python-control's PM."""
     return np.remainder(np.asarray(degrees) + 180.0, 360.0) - 180.0
 
@@ -80,7 +84,7 @@ class GridMargins:
     stable: np.ndarray
 
 
-def frequency_grid(crossover):
+def frequency_grid(crossover: float) -> NDArray[np.float64]:
     """The grid the margins are read on: crossover/1000 to 1000·crossover, rad/s.
 
     200 points a decade, log-spaced, *crossover* in rad/s.
@@ -88,25 +92,26 @@ def frequency_grid(crossover):
     return crossover * np.logspace(-_DECADES, _DECADES, 2 * _DECADES * _PER_DECADE + 1)
 
 
-def _polyval(coefficients, s):
+def _polyval(coefficients: ArrayLike, s: ArrayLike) -> NDArray[np.complex128]:
     """Horner on (degree+1, n) coefficients and (m,) points: (n, m)."""
     return polynomial_values(np.asarray(coefficients)[:, :, None], np.asarray(s)[None, :])
 
 
-def _scaled(coefficients, scale):
+def _scaled(coefficients: NDArray[np.float64], scale: float) -> NDArray[np.float64]:
     """p(scale·x) from p(s): coefficient of s^j times scale^j."""
     powers = np.arange(coefficients.shape[0] - 1, -1, -1, dtype=float)
     return coefficients * (scale ** powers).reshape((-1,) + (1,) * (coefficients.ndim - 1))
 
 
-def _polymul(batched, fixed):
+def _polymul(batched: NDArray[np.float64], fixed: NDArray[np.float64]) -> NDArray[np.float64]:
     out = np.zeros((batched.shape[0] + fixed.size - 1, batched.shape[1]))
     for j, b in enumerate(fixed):
         out[j:j + batched.shape[0]] += b * batched
     return out
 
 
-def _margins_on_grid(omega, loop):
+def _margins_on_grid(omega: NDArray[np.float64], loop: NDArray[np.complex128]
+                     ) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
     """Crossover (rad/s), PM and GM of each row of `loop` (n, m), interpolated.
 
     Crossings are located between grid points (log-linear interpolation);
@@ -134,7 +139,8 @@ def _margins_on_grid(omega, loop):
     return crossover, phase_margin, gain_margin
 
 
-def _pick(count, rows, rank, key, other):
+def _pick(count: int, rows: NDArray[np.intp], rank: NDArray[np.float64], key: NDArray[np.float64],
+          other: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """Per row, (other, key) at the entry of lowest `rank`; NaN for rows with none."""
     out_other, out_key = np.full(count, np.nan), np.full(count, np.nan)
     if rows.size:
@@ -144,7 +150,7 @@ def _pick(count, rows, rank, key, other):
     return out_other, out_key
 
 
-def _evaluate(grid_loop, values):
+def _evaluate(grid_loop: GridLoop, values: Mapping[str, np.ndarray]) -> GridMargins:
     """GridMargins of a GridLoop for part values given as (n,) arrays."""
     nf, sign, plant, omega = grid_loop
     numerator, denominator = nf.coefficients(values)
@@ -215,7 +221,7 @@ def grid_margins(loop: GridLoop, arrays: Mapping[str, np.ndarray], *, workers: i
     if progress is not None:
         progress(0, count)
     pieces = [{k: v[a:b] for k, v in arrays.items()} for a, b in ranges]
-    results = []
+    results: list[GridMargins] = []
     if not parallel:
         for (_, stop), piece in zip(ranges, pieces):
             results.append(_evaluate_chunks(loop, piece))
@@ -244,7 +250,7 @@ class LoopMonteCarlo:
     samples: int
     seed: int
     distribution: str
-    tolerances: dict
+    tolerances: dict[str, float]
     margin_floor_deg: float
     crossover_hz: np.ndarray = field(repr=False, compare=False)
     phase_margin_deg: np.ndarray = field(repr=False, compare=False)
@@ -252,18 +258,18 @@ class LoopMonteCarlo:
     stable: np.ndarray = field(repr=False, compare=False)
 
     @property
-    def passed(self):
+    def passed(self) -> NDArray[np.bool_]:
         """Samples that are stable with PM at or above the floor."""
         with np.errstate(invalid="ignore"):
             return self.stable & (self.phase_margin_deg >= self.margin_floor_deg)
 
     @property
-    def yield_fraction(self):
+    def yield_fraction(self) -> float:
         return float(np.mean(self.passed))
 
-    def summary(self):
+    def summary(self) -> dict[str, Any]:
         """Worst cases, spreads and yield, JSON-ready (None for no data)."""
-        def stat(function, array):
+        def stat(function: Callable[[np.ndarray], Any], array: np.ndarray) -> float | None:
             finite = array[np.isfinite(array)]
             return float(function(finite)) if finite.size else None
         return {
@@ -279,7 +285,7 @@ class LoopMonteCarlo:
         }
 
 
-def loop_monte_carlo(design: Any, tolerances: Mapping | float | None = None, *,
+def loop_monte_carlo(design: LoopDesign, tolerances: Mapping[str, float] | float | None = None, *,
                      samples: int = 1000, seed: int = 0, distribution: str = "uniform",
                      margin_floor_deg: float | None = None, workers: int | None = 1,
                      progress: Callable[[int, int], None] | None = None) -> LoopMonteCarlo:
@@ -311,18 +317,22 @@ def loop_monte_carlo(design: Any, tolerances: Mapping | float | None = None, *,
     """
     if distribution not in DISTRIBUTIONS:
         raise SpecError(f"distribution must be one of {{'uniform', 'gaussian'}}, not {distribution!r}")
-    if isinstance(samples, bool) or not isinstance(samples, numbers.Integral) or samples < 1:
+    # int and float are named beside the numbers ABCs for mypy, which does not count them.
+    if isinstance(samples, bool) or not isinstance(samples, (int, numbers.Integral)) \
+            or samples < 1:
         raise SpecError(f"samples must be a whole number of at least 1, not {samples!r}")
     kinds = {s: design.topology.kind_of(s) for s in design.roles.values()}
     chosen = {s: usual_tolerance(design.series[s]) for s in kinds}
-    if isinstance(tolerances, numbers.Real) and not isinstance(tolerances, bool):
+    if isinstance(tolerances, (int, float, numbers.Real)) and not isinstance(tolerances, bool):
         tolerances = dict.fromkeys(kinds, tolerances)
-    for key, value in dict(tolerances or {}).items():
+    given: Mapping[str, Any] = dict(cast("Mapping[str, Any]", tolerances or {}))
+    for key, value in given.items():
         targets = [s for s, k in kinds.items() if key in (s, k)]
         if not targets and key not in ("resistor", "capacitor", "inductor"):
             raise SpecError(f"tolerance given for {key!r}, which is neither a part nor a kind "
                             f"of this compensator (parts: {', '.join(kinds)})")
-        if isinstance(value, bool) or not isinstance(value, numbers.Real) or not 0 <= value < 1:
+        if isinstance(value, bool) or not isinstance(value, numbers.Real) \
+                or not 0 <= float(value) < 1:
             raise SpecError(f"tolerance of {key!r} must be a fraction from 0 to 1, not {value!r}")
         chosen.update({s: float(value) for s in targets})
     rng = np.random.default_rng(seed)
@@ -333,6 +343,8 @@ def loop_monte_carlo(design: Any, tolerances: Mapping | float | None = None, *,
         else:
             factor = np.maximum(1.0 + width / 3.0 * rng.standard_normal(samples), 1e-6)
         arrays[symbol] = design.snapped[symbol] * factor
+    if design.network is None:
+        raise ValueError("this LoopDesign carries no network function")
     loop = GridLoop(design.network, design.sign, design.plant,
                     frequency_grid(design.placement.crossover))
     margins = grid_margins(loop, arrays, workers=workers, progress=progress)
