@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 import random
-from collections.abc import Callable, Iterable, Mapping, Sequence
+from collections.abc import Callable, Collection, Iterable, Mapping
 from fractions import Fraction
 from typing import TYPE_CHECKING, Any
 
@@ -23,7 +23,7 @@ if TYPE_CHECKING:
     from ..circuit.topology import Topology
 
 #: Roots as (poles, zeros).
-Roots = tuple[Sequence[complex], Sequence[complex]]
+Roots = tuple[Collection[complex], Collection[complex]]
 
 __all__ = ["analyze_report", "analyze_numeric_report", "topology_report", "library_report",
            "root_pairs", "solved_for", "readable_figures"]
@@ -88,12 +88,12 @@ def analyze_report(nf: NetworkFunction, *, label: str, title: str | None,
         data["latex"] = nf.latex()
     missing = [s for s in symbols if s not in values]
     if not missing:
-        poles: Sequence[complex]
-        zeros: Sequence[complex]
+        poles: Collection[complex]
+        zeros: Collection[complex]
         if numeric_roots is not None:
             poles, zeros = numeric_roots()
         else:
-            poles, zeros = list(nf.poles(values)), list(nf.zeros(values))
+            poles, zeros = nf.poles(values), nf.zeros(values)
         data["poles"] = root_pairs(poles)
         data["zeros"] = root_pairs(zeros)
         lines.append("")

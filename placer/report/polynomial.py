@@ -21,7 +21,7 @@ __all__ = ["polynomial_text", "symbol_order"]
 _KIND_ORDER = {"R": 0, "G": 1, "C": 2, "L": 3}
 
 
-def symbol_order(name: str) -> tuple:
+def symbol_order(name: str) -> tuple[int, int, str, int, str]:
     """Sort key of a part symbol: R, G, C, L, then the rest; numbers in numeric order."""
     match = re.fullmatch(r"([A-Za-z_]+?)(\d*)(.*)", name)
     letters, digits, rest = match.groups() if match else (name, "", "")
