@@ -28,13 +28,24 @@ import re
 import sys
 import traceback
 import warnings
+from collections.abc import Callable, Iterable, Sequence
 from pathlib import Path
+from typing import IO, TYPE_CHECKING, Any, TextIO
+
 
 from . import __version__
 from .errors import (BRIEF_LENGTH, NumericalWarning, PlacerError, SpecError,
                      SymbolicSizeError, UnreachableTarget, brief, brief_path)
 from .report.files import check_output_folder, check_output_path, write_text
 from .units import format_value
+
+if TYPE_CHECKING:
+    from .spec.reader import Spec
+
+#: One subcommand: its parsed arguments to an exit status.
+Command = Callable[[argparse.Namespace], int]
+#: Adds one subcommand's parser: ``add(name, help=...)``.
+AddParser = Callable[..., argparse.ArgumentParser]
 
 # The analysis stack (sympy, scipy, python-control) loads inside the
 # commands, so `placer --help` answers at once.
@@ -48,13 +59,14 @@ EXIT_UNREACHABLE, EXIT_BAD_INPUT, EXIT_INTERNAL, EXIT_INTERRUPTED = 1, 2, 3, 130
 class _Parser(argparse.ArgumentParser):
     """argparse with one-line errors and exit status 2."""
 
-    def error(self, message):
+    def error(self, message: str) -> Any:  # never returns: raises SpecError
         # argparse quotes the user's value ('...'): a long one is cut, the rest kept.
         raise SpecError(re.sub(r"'([^']{%d,})'" % BRIEF_LENGTH,
                                lambda m: brief(m.group(1)), message))
 
 
-def build_parser():
+def build_parser() -> argparse.ArgumentParser:
+    """The ``placer`` argument parser, every subcommand with its options."""
     parser = _Parser(
         prog="placer",
         description="From pole-zero targets to a bill of materials: place the roots of an "
@@ -64,18 +76,15 @@ def build_parser():
     parser.add_argument("--debug", action="store_true",
                         help="on an error, print the traceback (also after the command)")
     # --debug after the command too; SUPPRESS keeps the top-level value when not given there.
-    common = argparse.ArgumentParser(add_help=False)
+    common = _Parser(add_help=False)
     common.add_argument("--debug", action="store_true", default=argparse.SUPPRESS,
                         help="on an error, print the traceback")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
-    _add = sub.add_parser
 
-    def add_parser(name, **kwargs):
-        return _add(name, parents=[common], **kwargs)
+    def add_parser(name: str, **kwargs: Any) -> argparse.ArgumentParser:
+        return sub.add_parser(name, parents=[common], **kwargs)
 
-    sub.add_parser = add_parser
-
-    p = sub.add_parser("analyze", help="symbolic and numeric H(s) of a topology or circuit file")
+    p = add_parser("analyze", help="symbolic and numeric H(s) of a topology or circuit file")
     p.add_argument("topology", metavar="TOPOLOGY_OR_FILE", help="a library id or a .toml file")
     p.add_argument("--set", action="append", default=[], metavar="PART=VALUE",
                    help="give a part a value, e.g. --set R1=10k (repeatable)")
@@ -85,11 +94,11 @@ def build_parser():
                         f"{SYMBOLIC_MAX_TERMS:,}); otherwise a larger one is analysed numerically")
     _add_json(p, "the result")
 
-    p = sub.add_parser("target", help="poles, zeros and sections of a spec's target")
+    p = add_parser("target", help="poles, zeros and sections of a spec's target")
     p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
     _add_json(p, "the target")
 
-    p = sub.add_parser("design", help="solve and snap part values for a spec's target")
+    p = add_parser("design", help="solve and snap part values for a spec's target")
     p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
     _add_json(p, "the design")
     p.add_argument("--bom", metavar="OUT.csv", help="write a bill of materials (CSV)")
@@ -105,7 +114,7 @@ def build_parser():
                         "(default: all cores; the result does not depend on it)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
 
-    p = sub.add_parser("compare", help="rank every candidate topology for a spec's target")
+    p = add_parser("compare", help="rank every candidate topology for a spec's target")
     p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
     p.add_argument("--rank-by", choices=("yield", "error", "parts", "sensitivity"), default="yield",
                    help="ranking key (default: yield)")
@@ -123,7 +132,7 @@ def build_parser():
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.add_argument("--wide", action="store_true", help="one line per candidate, past 100 columns")
 
-    p = sub.add_parser("loop", help="design a loop compensator and check its margins")
+    p = add_parser("loop", help="design a loop compensator and check its margins")
     p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
     _add_json(p, "the result")
     p.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report")
@@ -138,9 +147,9 @@ def build_parser():
                         "(default: all cores; the result does not depend on it)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
 
-    _add_explore_parser(sub)
+    _add_explore_parser(add_parser)
 
-    p = sub.add_parser("topologies", help="list the topology library, or show one")
+    p = add_parser("topologies", help="list the topology library, or show one")
     p.add_argument("id", nargs="?", metavar="ID", help="show one topology with its functions")
     p.add_argument("--folder", metavar="DIR", help="also list the topology files in DIR")
     _add_json(p, "the list or the topology")
@@ -150,13 +159,13 @@ def build_parser():
     return parser
 
 
-def _add_json(parser, what):
+def _add_json(parser: argparse.ArgumentParser, what: str) -> None:
     parser.add_argument("--json", nargs="?", const="-", metavar="OUT",
                         help=f"write {what} as JSON to OUT; alone or with '-', the JSON alone "
                              "to standard output (the console text then goes to standard error)")
 
 
-def _add_resistor_style(parser):
+def _add_resistor_style(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--resistor-style", choices=("iec", "ieee"), default="iec",
                         help="resistor symbol in schematics: IEC 60617 rectangle (default) or "
                              "IEEE 315 zig-zag")
@@ -168,11 +177,11 @@ def _add_resistor_style(parser):
 MESSAGE_LENGTH = 300
 
 
-def _one_line(text, limit=MESSAGE_LENGTH) -> str:
+def _one_line(text: object, limit: int = MESSAGE_LENGTH) -> str:
     return brief(" ".join(str(text).split()), limit, quote=False)
 
 
-def _warning_hook(debug: bool):
+def _warning_hook(debug: bool) -> Callable[..., None]:
     """A ``warnings.showwarning`` that prints each warning as one line.
 
     The project's own warnings (their classes live in ``placer``) print as
@@ -180,7 +189,8 @@ def _warning_hook(debug: bool):
     trouble the project did not foresee) is named as numerical trouble,
     with its class, and ``--debug`` adds where it was raised.
     """
-    def show(message, category, filename, lineno, file=None, line=None):
+    def show(message: Warning | str, category: type[Warning], filename: str, lineno: int,
+             file: TextIO | None = None, line: str | None = None) -> None:
         stream = file or sys.stderr
         text = _one_line(message)
         own = getattr(category, "__module__", "").split(".")[0] == "placer"
@@ -197,7 +207,7 @@ def _warning_hook(debug: bool):
     return show
 
 
-def run():
+def run() -> None:
     """The console entry point: :func:`main`, then exit with its status."""
     sys.exit(main())
 
@@ -243,7 +253,7 @@ def main(argv: list[str] | None = None) -> int:
             return EXIT_INTERNAL
 
 
-def _traceback(debug):
+def _traceback(debug: bool) -> None:
     if debug:
         traceback.print_exc(file=sys.stderr)
 
@@ -264,7 +274,7 @@ def _exit_now(status: int) -> None:
 _EARLY_TABLES = ("cascade", "parts", "candidates", "tolerance", "amplifier", "noise", "signal")
 
 
-def _check_early(args):
+def _check_early(args: argparse.Namespace) -> None:
     """Fail on a bad spec file or option before the numerical stack loads.
 
     The commands import sympy, scipy, python-control and matplotlib (about
@@ -301,19 +311,21 @@ _FILE_OUTPUTS = ("json", "bom", "report")
 _FOLDER_OUTPUTS = ("plots", "schematic")
 
 
-def _json_to_stdout(args) -> bool:
+def _json_to_stdout(args: argparse.Namespace) -> bool:
     return getattr(args, "json", None) == "-"
 
 
-def _console(args):
+def _console(args: argparse.Namespace) -> IO[str]:
     """Where the console text goes: standard error when the JSON takes standard output."""
     return sys.stderr if _json_to_stdout(args) else sys.stdout
 
 
-def _check_outputs(args, inputs=(), *, file_options=_FILE_OUTPUTS,
-                   folder_options=_FOLDER_OUTPUTS):
+def _check_outputs(args: argparse.Namespace, inputs: Iterable[str | None] = (), *,
+                   file_options: Sequence[str] = _FILE_OUTPUTS,
+                   folder_options: Sequence[str] = _FOLDER_OUTPUTS) -> None:
     """Check every output the command will write, before it computes anything."""
-    files = {}
+    inputs = tuple(inputs)  # read once per output
+    files: dict[str, str] = {}
     for name in file_options:
         path = getattr(args, name, None)
         option = "--" + name
@@ -331,7 +343,7 @@ def _check_outputs(args, inputs=(), *, file_options=_FILE_OUTPUTS,
             check_output_folder(path, inputs=inputs, option="--" + name)
 
 
-def _spec_inputs(spec) -> list[str]:
+def _spec_inputs(spec: Spec) -> list[str]:
     """Every file a spec run reads: the spec, its candidate topology files and folder."""
     inputs = [spec.path]
     inputs += [c for c in (spec.candidates or ()) if Path(c).is_file()]
@@ -340,7 +352,8 @@ def _spec_inputs(spec) -> list[str]:
     return inputs
 
 
-def _emit_json(data, destination, *, inputs=(), option="--json"):
+def _emit_json(data: Any, destination: str | None, *, inputs: Iterable[str | None] = (),
+               option: str = "--json") -> None:
     text = json.dumps(data, indent=2, allow_nan=False) + "\n"
     if destination in (None, "-"):
         sys.stdout.write(text)
@@ -359,7 +372,7 @@ ANALYZE_MAX_TERMS = 2000
 SYMBOLIC_MAX_TERMS = 1_000_000
 
 
-def _cmd_analyze(args):
+def _cmd_analyze(args: argparse.Namespace) -> int:
     from .circuit.elements import read_settings
     from .circuit.library import load_analysable
     from .analysis.network import network_function
@@ -406,7 +419,7 @@ def _cmd_analyze(args):
 
 # -- target --------------------------------------------------------------------
 
-def _cmd_target(args):
+def _cmd_target(args: argparse.Namespace) -> int:
     from .report.console import target_text
     from .spec.reader import load_spec
     from .target.sections import split_sections
@@ -426,14 +439,14 @@ def _cmd_target(args):
 
 # -- design --------------------------------------------------------------------
 
-def _check_counts(*options):
+def _check_counts(*options: tuple[str, int | None, int]) -> None:
     """(option, value, least) triples: a value given below its least is bad input."""
     for option, value, low in options:
         if value is not None and value < low:
             raise SpecError(f"{option} {value}: give a whole number >= {low}")
 
 
-def _cmd_design(args):
+def _cmd_design(args: argparse.Namespace) -> int:
     from .design import design
     from .evidence.gather import gather_evidence
     from .report.console import Progress, design_text, evidence_text
@@ -492,7 +505,7 @@ def _cmd_design(args):
 
 # -- compare -------------------------------------------------------------------
 
-def _cmd_compare(args):
+def _cmd_compare(args: argparse.Namespace) -> int:
     from .compare import compare, comparison_to_dict
     from .report.comparison import comparison_text
     from .report.console import Progress
@@ -572,7 +585,7 @@ def _cmd_loop(args: argparse.Namespace) -> int:
     return 0
 
 
-def _plain(value):
+def _plain(value: object) -> str:
     if isinstance(value, float):
         return f"{value:.4g}"
     return str(value)
@@ -580,7 +593,7 @@ def _plain(value):
 
 # -- topologies ----------------------------------------------------------------
 
-def _cmd_topologies(args):
+def _cmd_topologies(args: argparse.Namespace) -> int:
     from .circuit.library import library_topologies, load_folder, resolve_topology
     from .analysis.network import network_function
     from .report.commands import library_report, topology_report
@@ -603,6 +616,7 @@ def _cmd_topologies(args):
         if topology.path:
             inputs.append(topology.path)
     _check_outputs(args, inputs, file_options=("json", "schematic"), folder_options=())
+    data: Any  # the library's list, or one topology's dict
     if topology is None:
         data, text = library_report(pool, errors)
     else:
@@ -621,8 +635,8 @@ def _cmd_topologies(args):
 
 # -- explore -------------------------------------------------------------------
 
-def _add_explore_parser(sub):
-    p = sub.add_parser("explore", help="place a spec's roots by hand on a local web page")
+def _add_explore_parser(add_parser: AddParser) -> None:
+    p = add_parser("explore", help="place a spec's roots by hand on a local web page")
     p.add_argument("spec", metavar="SPEC", help="the spec file (TOML; see the README)")
     p.add_argument("--host", default="127.0.0.1",
                    help="address to listen on (default 127.0.0.1; another one prints a warning)")
@@ -630,13 +644,13 @@ def _add_explore_parser(sub):
     p.add_argument("--no-browser", action="store_true", help="print the address only")
 
 
-def _cmd_explore(args):
+def _cmd_explore(args: argparse.Namespace) -> int:
     from .explore.server import serve
 
     return serve(args.spec, host=args.host, port=args.port, open_browser=not args.no_browser)
 
 
-_COMMANDS = {
+_COMMANDS: dict[str, Command] = {
     "analyze": _cmd_analyze,
     "target": _cmd_target,
     "design": _cmd_design,

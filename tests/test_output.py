@@ -287,3 +287,95 @@ def test_bom_records_the_op_amp_model(outputs):
                                        "output resistance 50 Ω")
     text = bom_csv(bom_rows([], opamps=[("U1", "op-amp")], amplifier=model))
     assert "GBW 1 MHz" in text.splitlines()[1]
+
+
+# -- readable w0 and Q; the tolerances of the kinds present ----------------------
+
+def _figure_line(text, name):
+    line = next(line for line in text.splitlines() if line.strip().startswith(f"{name} "))
+    return line.split("=", 1)[1].split("(rad/s)")[0].strip()
+
+
+def test_analyze_prints_w0_and_q_under_one_square_root():
+    """Unity-gain Sallen–Key low-pass: ω0 = 1/√(R1·R2·C1·C2), Q = √(R1·R2·C1·C2)/(C2·(R1 + R2))
+    (textbook, e.g. Horowitz & Hill, from memory); the Q text is that one with C2 moved under the root."""
+    status, text = _run("analyze", "sallen-key-lowpass-unity")
+    assert status == 0
+    assert "w0 = 1/sqrt(R1*R2*C1*C2)   (rad/s)" in text
+    assert "Q  = sqrt(R1*R2*C1/C2)/(R1 + R2)" in text
+    assert "sqrt(C1)*" not in text
+    R1, R2, C1, C2 = sympy.symbols("R1 R2 C1 C2", positive=True)
+    names = {"R1": R1, "R2": R2, "C1": C1, "C2": C2, "sqrt": sympy.sqrt}
+    omega0 = sympy.sympify(_figure_line(text, "w0"), locals=names)
+    q = sympy.sympify(_figure_line(text, "Q"), locals=names)
+    assert sympy.simplify(omega0 - 1 / sympy.sqrt(R1 * R2 * C1 * C2)) == 0
+    assert sympy.simplify(q - sympy.sqrt(R1 * R2 * C1 * C2) / (C2 * (R1 + R2))) == 0
+
+
+def test_readable_w0_and_q_equal_sympy_for_every_library_function():
+    """The text of ω0 and Q reads back (sympy) as the function's own ω0 = √(a0/a2), Q = √(a0·a2)/a1."""
+    from placer.report.commands import readable_figures
+
+    checked = 0
+    for topology in library_topologies().values():
+        nf = network_function(topology.circuit)
+        if nf.order not in (1, 2):
+            continue
+        omega0_text, q_text = readable_figures(nf)
+        names = {n: sympy.Symbol(n, positive=True) for n in nf.symbols}
+        positive = {sympy.Symbol(n): names[n] for n in nf.symbols}
+        for shown, exact in ((omega0_text, nf.omega0), (q_text, nf.q)):
+            if exact is None:
+                assert shown is None
+                continue
+            assert "sqrt(" not in shown or shown.count("sqrt(") == 1, (topology.id, shown)
+            value = sympy.sympify(shown, locals={**names, "sqrt": sympy.sqrt})
+            assert sympy.simplify(value - exact.subs(positive)) == 0, (topology.id, shown)
+            checked += 1
+    assert checked > 40
+
+
+_BANDPASS = """
+title = "kinds"
+[target]
+response = "bandpass"
+approximation = "butterworth"
+order = 1
+low_edge = "1 kHz"
+high_edge = "2 kHz"
+[candidates]
+topologies = ["series-rlc-bandpass", "mfb-bandpass"]
+"""
+
+
+def test_compare_tolerance_line_lists_only_the_kinds_present(tmp_path, outputs):
+    """No "inductor 10 %" for RC candidates (the spec's default inductor tolerance, E12's 10 %
+    per IEC 60063), and the inductor's once a candidate has one."""
+    from placer.compare import Comparison
+    from placer.report.comparison import comparison_text
+    from placer.target.sections import split_sections
+
+    folder, runs = outputs
+    text = " ".join(runs[("compare", "crossover-lowpass")][1].split())
+    assert "(uniform; resistor 1 %, capacitor 2 %) within" in text
+    assert "inductor" not in text
+    page = (folder / "compare-crossover-lowpass.html").read_text()
+    assert "resistor 1 %, capacitor 2 %)" in page and "inductor" not in page
+
+    path = tmp_path / "kinds.toml"
+    path.write_text(_BANDPASS)
+    spec = load_spec(str(path))
+    assert spec.tolerance.tolerances["inductor"] == pytest.approx(0.10)
+    section = split_sections(spec.target)[0]
+
+    def heading(*topologies):
+        sections = (SectionComparison(index=1, section=section, candidates=tuple(
+            CandidateResult(section=1, topology=t, reason="not run") for t in topologies)),)
+        comparison = Comparison(spec=spec, rank_by="yield", samples=20, seed=0, gbw="built",
+                                sections=sections)
+        return " ".join(comparison_text(comparison).split())
+
+    rc = heading("mfb-bandpass")
+    assert "(uniform; resistor 1 %, capacitor 10 %) within" in rc and "inductor" not in rc
+    rlc = heading("mfb-bandpass", "series-rlc-bandpass")
+    assert "(uniform; resistor 1 %, capacitor 10 %, inductor 10 %) within" in rlc

@@ -5,24 +5,30 @@ from __future__ import annotations
 import csv
 import io
 import math
+from collections.abc import Iterable, Mapping
+from typing import TYPE_CHECKING, Any
 
 from ..eseries import usual_tolerance
 from ..circuit.elements import KIND_UNITS
 from ..units import format_value
 
+if TYPE_CHECKING:
+    from ..design import PartChoice
+    from ..place.opamp import AmplifierSpec
+
 __all__ = ["bom_rows", "bom_csv", "opamp_model_text", "BOM_FIELDS"]
 
 #: The CSV columns, in order.
-BOM_FIELDS = ["references", "value", "value_si", "series", "tolerance", "kind", "quantity",
+BOM_FIELDS: list[str] = ["references", "value", "value_si", "series", "tolerance", "kind", "quantity",
               "opamp_model"]
 
 
 
-def opamp_model_text(amplifier) -> str:
+def opamp_model_text(amplifier: AmplifierSpec | None) -> str:
     """The op-amp model a design assumed, in words: "GBW 10 MHz, gain 110 dB, ..." or "ideal"."""
     if amplifier is None or (amplifier.gbw is None and amplifier.gain is None):
         return "ideal (infinite gain and GBW)"
-    words = []
+    words: list[str] = []
     if amplifier.gbw is not None:
         words.append(f"GBW {format_value(amplifier.gbw, 'Hz')}")
     if amplifier.gain is not None:
@@ -32,7 +38,9 @@ def opamp_model_text(amplifier) -> str:
     return "single-pole model: " + ", ".join(words)
 
 
-def bom_rows(parts, *, tolerances=None, opamps=(), amplifier=None):
+def bom_rows(parts: Iterable[PartChoice], *, tolerances: Mapping[str, float] | None = None,
+             opamps: Iterable[tuple[str, str]] = (),
+             amplifier: AmplifierSpec | None = None) -> list[dict[str, Any]]:
     """Rows of a bill of materials, one per (kind, value, series).
 
     Parameters
@@ -54,11 +62,11 @@ def bom_rows(parts, *, tolerances=None, opamps=(), amplifier=None):
         model assumed, on op-amp rows; empty on the others).
     """
     tolerances = dict(tolerances or {})
-    groups = {}
+    groups: dict[tuple[str, float, str], list[PartChoice]] = {}
     for part in parts:
         key = (part.kind, round(part.value, 15), part.series)
         groups.setdefault(key, []).append(part)
-    rows = []
+    rows: list[dict[str, Any]] = []
     for (kind, value, series), members in sorted(groups.items(), key=lambda item: (item[0][0], item[0][1])):
         tolerance = tolerances.get(kind)
         if tolerance is None and series:
@@ -88,7 +96,7 @@ def bom_rows(parts, *, tolerances=None, opamps=(), amplifier=None):
     return rows
 
 
-def bom_csv(rows):
+def bom_csv(rows: Iterable[Mapping[str, Any]]) -> str:
     """The rows as CSV text with a header line."""
     buffer = io.StringIO()
     writer = csv.DictWriter(buffer, fieldnames=BOM_FIELDS, lineterminator="\n")

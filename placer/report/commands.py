@@ -8,22 +8,34 @@ parses its arguments, calls these and writes the results.
 from __future__ import annotations
 
 import math
+import random
+from collections.abc import Callable, Collection, Iterable, Mapping
+from fractions import Fraction
+from typing import TYPE_CHECKING, Any
 
 from ..units import finite_or_none, format_value, plural
 from .console import WIDTH, table
-from .polynomial import polynomial_text
+from .polynomial import polynomial_text, root_product_text
+
+if TYPE_CHECKING:
+    from ..analysis.network import NetworkFunction
+    from ..circuit.elements import Circuit
+    from ..circuit.topology import Topology
+
+#: Roots as (poles, zeros).
+Roots = tuple[Collection[complex], Collection[complex]]
 
 __all__ = ["analyze_report", "analyze_numeric_report", "topology_report", "library_report",
-           "root_pairs", "solved_for"]
+           "root_pairs", "solved_for", "readable_figures"]
 
 
-def root_pairs(roots) -> list[list[float]]:
+def root_pairs(roots: Iterable[complex]) -> list[list[float]]:
     """Roots as ``[re, im]`` pairs, by magnitude then imaginary part."""
     return [[float(r.real), float(r.imag)] for r in sorted(roots, key=lambda r: (abs(r), r.imag))]
 
 
-def _root_rows(poles, zeros) -> list[list[str]]:
-    def row(kind, r):
+def _root_rows(poles: Iterable[complex], zeros: Iterable[complex]) -> list[list[str]]:
+    def row(kind: str, r: complex) -> list[str]:
         # + 0.0 turns a negative zero into a plain 0
         return [kind, f"{r.real + 0.0:.6g}", f"{r.imag + 0.0:+.6g}",
                 format_value(abs(r) / (2 * math.pi), "Hz", digits=4)]
@@ -36,13 +48,15 @@ def _root_rows(poles, zeros) -> list[list[str]]:
 _ROOT_HEADERS = ["root", "re (rad/s)", "im (rad/s)", "|root| (Hz)"]
 
 
-def _values_line(values: dict) -> str:
+def _values_line(values: Mapping[str, float]) -> str:
     return "With values: " + (", ".join(f"{k} = {format_value(v)}" for k, v in values.items())
                               or "all given in the file")
 
 
-def analyze_report(nf, *, label: str, title: str | None, values: dict, settings: dict,
-                   symbols, latex: bool = False, numeric_roots=None) -> tuple[dict, str]:
+def analyze_report(nf: NetworkFunction, *, label: str, title: str | None,
+                   values: Mapping[str, float], settings: Mapping[str, float],
+                   symbols: Iterable[str], latex: bool = False,
+                   numeric_roots: Callable[[], Roots] | None = None) -> tuple[dict[str, Any], str]:
     """``placer analyze`` of a function derived symbolically.
 
     Parameters
@@ -62,12 +76,10 @@ def analyze_report(nf, *, label: str, title: str | None, values: dict, settings:
     lines.append(f"  N(s) = {numerator_text}")
     lines.append(f"  D(s) = {denominator_text}")
     lines.append(f"  order {nf.order}")
-    data = {"id": label, "numerator": numerator_text,
+    data: dict[str, Any] = {"id": label, "numerator": numerator_text,
             "denominator": denominator_text, "order": nf.order}
     if nf.order in (1, 2):
-        lines.append(f"  w0 = {nf.omega0}   (rad/s)")
-        if nf.q is not None:
-            lines.append(f"  Q  = {nf.q}")
+        lines += _figure_lines(nf)
         lines.append(f"  gain ({nf.gain_kind}) = {nf.gain}")
         data.update({"omega0": str(nf.omega0), "q_expression": None if nf.q is None else str(nf.q),
                      "gain_expression": str(nf.gain)})
@@ -76,6 +88,8 @@ def analyze_report(nf, *, label: str, title: str | None, values: dict, settings:
         data["latex"] = nf.latex()
     missing = [s for s in symbols if s not in values]
     if not missing:
+        poles: Collection[complex]
+        zeros: Collection[complex]
         if numeric_roots is not None:
             poles, zeros = numeric_roots()
         else:
@@ -100,7 +114,59 @@ def analyze_report(nf, *, label: str, title: str | None, values: dict, settings:
     return data, "\n".join(lines)
 
 
-def _second_order_line(nf, values: dict, data: dict) -> str:
+def readable_figures(nf: NetworkFunction) -> tuple[str | None, str | None]:
+    """ω0 (rad/s) and Q of a first- or second-order function as a designer writes them.
+
+    Built from D(s)'s coefficients: ω0 = a0/a1 (first order), ω0 = √(a0/a2)
+    and Q = √(a0·a2)/a1 (second order), under one square root each, e.g.
+    ``1/sqrt(R1*R2*C1*C2)`` and ``sqrt(R1*R2*C1/C2)/(R1 + R2)`` for a
+    unity-gain Sallen-Key low-pass. Each text is checked against the
+    function's own :attr:`~placer.analysis.network.NetworkFunction.omega0`
+    and ``q`` at random positive part values; where they disagree (or for
+    another order) it is sympy's text of those, or None when not defined.
+    """
+    coefficients = nf.denominator_coefficients
+    half = Fraction(1, 2)
+    if nf.order == 1:
+        a1, a0 = coefficients
+        return _checked(root_product_text([(a0, Fraction(1)), (a1, Fraction(-1))]), nf.omega0), None
+    if nf.order == 2:
+        a2, a1, a0 = coefficients
+        omega0 = _checked(root_product_text([(a0, half), (a2, -half)]), nf.omega0)
+        q = _checked(root_product_text([(a0, half), (a2, half), (a1, Fraction(-1))]), nf.q)
+        return omega0, q
+    return (None if nf.omega0 is None else str(nf.omega0)), (None if nf.q is None else str(nf.q))
+
+
+def _checked(built: tuple[str, Any], reference: Any) -> str | None:
+    """The built text when its expression equals `reference` at three random positive points."""
+    if reference is None:
+        return None
+    text, expr = built
+    symbols = sorted(expr.free_symbols | reference.free_symbols, key=str)
+    rng = random.Random(1)
+    try:
+        for _ in range(3):
+            point = {x: rng.uniform(0.5, 2.0) for x in symbols}
+            a, b = complex(expr.subs(point)), complex(reference.subs(point))
+            if not (abs(a - b) <= 1e-9 * max(abs(a), abs(b)) or a == b):
+                return str(reference)
+    except (TypeError, ValueError, ZeroDivisionError, OverflowError):
+        return str(reference)
+    return text
+
+
+def _figure_lines(nf: NetworkFunction) -> list[str]:
+    """The ``w0 = …   (rad/s)`` and ``Q  = …`` lines of a first- or second-order function."""
+    omega0, q = readable_figures(nf)
+    lines = [f"  w0 = {omega0}   (rad/s)"]
+    if q is not None:
+        lines.append(f"  Q  = {q}")
+    return lines
+
+
+def _second_order_line(nf: NetworkFunction, values: Mapping[str, float],
+                       data: dict[str, Any]) -> str:
     figures = nf.second_order_figures(values)
     # No f0 or Q when D(s)'s coefficients differ in sign; no DC gain with a pole at 0.
     f0 = finite_or_none(float(figures.omega0) / (2 * math.pi))
@@ -116,7 +182,8 @@ def _second_order_line(nf, values: dict, data: dict) -> str:
              "one in the right half-plane)") + f"   gain = {shown}")
 
 
-def analyze_numeric_report(circuit, values: dict, *, label: str, reason: str) -> tuple[dict, str]:
+def analyze_numeric_report(circuit: Circuit, values: Mapping[str, float], *, label: str,
+                           reason: str) -> tuple[dict[str, Any], str]:
     """``placer analyze`` past the term limit: poles, zeros and response from the pencil."""
     import numpy as np
 
@@ -155,15 +222,15 @@ def analyze_numeric_report(circuit, values: dict, *, label: str, reason: str) ->
     return data, "\n".join(lines)
 
 
-def solved_for(topology) -> list[str]:
+def solved_for(topology: Topology) -> list[str]:
     """Free parts the solver moves: those no constraint ties to another."""
     tied = {c.part for c in topology.constraints}
     return [name for name in topology.free if name not in tied]
 
 
-def topology_report(topology, nf) -> tuple[dict, str]:
+def topology_report(topology: Topology, nf: NetworkFunction) -> tuple[dict[str, Any], str]:
     """``placer topologies ID``: one topology with its functions."""
-    data = {
+    data: dict[str, Any] = {
         "id": topology.id, "title": topology.title, "response": topology.response,
         "family": topology.family, "order": topology.order, "inverting": topology.inverting,
         "parts": list(topology.symbols), "free": list(topology.free),
@@ -192,18 +259,18 @@ def topology_report(topology, nf) -> tuple[dict, str]:
     lines.append(f"  N(s) = {data['numerator']}")
     lines.append(f"  D(s) = {data['denominator']}")
     if nf.order in (1, 2):
-        lines.append(f"  w0 = {data['omega0']}   (rad/s)")
-        if data["q"]:
-            lines.append(f"  Q  = {data['q']}")
+        lines += _figure_lines(nf)
         lines.append(f"  gain = {data['gain']}")
     if topology.formula:
         lines.append(f"  published: {topology.formula}")
     return data, "\n".join(lines)
 
 
-def library_report(pool: dict, errors: dict) -> tuple[list, str]:
+def library_report(pool: Mapping[str, Topology],
+                   errors: Mapping[str, str]) -> tuple[list[dict[str, Any]], str]:
     """``placer topologies``: the library (and a folder's files) as a list and a table."""
-    rows, listing = [], []
+    rows: list[list[Any]] = []
+    listing: list[dict[str, Any]] = []
     for topology in sorted(pool.values(), key=lambda t: (t.response, t.order, t.id)):
         rows.append([topology.id, topology.title, topology.response
                      + (f"/{topology.family}" if topology.family else ""), topology.order,

@@ -3,17 +3,25 @@
 from __future__ import annotations
 
 import math
+import os
+from collections.abc import Iterable, Sequence
+from typing import TYPE_CHECKING, cast
 
 from .. import __version__
-from ..compare import GBW_SOURCES_SHORT, GBW_SOURCES, DEFAULT_GAIN_WINDOW_DB, RANK_KEYS, SectionComparison
+from ..compare import (GBW_SOURCES_SHORT, GBW_SOURCES, DEFAULT_GAIN_WINDOW_DB, RANK_KEYS,
+                       CandidateResult, Comparison, SectionComparison)
 from ..design import candidate_topologies
 from ..units import format_value
 from .console import WIDTH, fmt_error, fmt_rejection, table, windows_text, wrap_text
-from .page import (Plots, caution_block, escape, finish_report, paragraph, prepare_outputs,
-                   spec_block)
+from .page import (Plots, ReportFiles, caution_block, escape, finish_report, paragraph,
+                   prepare_outputs, spec_block)
 from .page import table as html_table
 from .plots import ranking_figure
 from .schematic import candidate_schematic_html
+
+if TYPE_CHECKING:
+    from ..spec.reader import Spec
+    from ..target.targets import Section
 
 __all__ = ["comparison_text", "write_comparison_report", "why_first"]
 
@@ -56,22 +64,55 @@ _REJECTION_LEGEND = ("rejection: what 99 % of the builds still take off the targ
                      "frequency (pass-band gain over |H| there)")
 
 
-def _number(x, digits=3):
+def _number(x: float | None, digits: int = 3) -> str:
     return "-" if x is None or not math.isfinite(x) else f"{x:.{digits}g}"
 
 
-def _short_source(source):
+def _short_source(source: str) -> str:
     for key, text in GBW_SOURCES.items():
         if source.startswith(text):
             return GBW_SOURCES_SHORT[key]
     return GBW_SOURCES_SHORT["model"] if source else "-"
 
 
-def _heading(comparison):
-    """The header lines: the ranking key, what the yield counts, the GBW method."""
-    spec = comparison.spec
+# SectionComparison.candidates is a bare tuple in placer.compare: this cast is
+# the boundary.
+def _spec(comparison: Comparison) -> Spec:
+    return comparison.spec
+
+
+def _section(s: SectionComparison) -> Section:
+    return s.section
+
+
+def _candidates(s: SectionComparison) -> tuple[CandidateResult, ...]:
+    return cast("tuple[CandidateResult, ...]", s.candidates)
+
+
+def _kinds_present(comparison: Comparison) -> set[str]:
+    """The part kinds (resistor, capacitor, inductor) of the candidates the comparison lists."""
+    kinds: set[str] = set()
+    spec = _spec(comparison)
+    for s in comparison.sections:
+        names = {c.topology for c in _candidates(s)}
+        for topology in candidate_topologies(_section(s), spec).topologies:
+            if topology.id in names:
+                kinds.update(e.kind for e in topology.circuit.elements)
+    return kinds
+
+
+def _heading(comparison: Comparison) -> tuple[str, str, str]:
+    """The header lines: the ranking key, what the yield counts, the GBW method.
+
+    The tolerances listed are those of the part kinds the candidates have
+    (no "inductor 10 %" for a comparison of RC stages); all of them when no
+    candidate's topology is known.
+    """
+    spec = _spec(comparison)
     windows = windows_text(spec.tolerance.windows)
-    tolerances = ", ".join(f"{k} {100 * v:g} %" for k, v in spec.tolerance.tolerances.items())
+    present = _kinds_present(comparison)
+    tolerances = ", ".join(f"{k} {100 * v:g} %" for k, v in spec.tolerance.tolerances.items()
+                           if k in present or not present)
     return (f"ranked by {comparison.rank_by}: {RANK_KEYS[comparison.rank_by]}",
             f"yield: {comparison.samples} Monte Carlo samples per candidate "
             f"({spec.tolerance.distribution}; {tolerances}) within {windows} of the target "
@@ -83,23 +124,23 @@ def _heading(comparison):
             _METHOD_LINES.get(comparison.gbw, f"GBW needed (--gbw {comparison.gbw})"))
 
 
-def _section_line(s):
-    sec = s.section
+def _section_line(s: SectionComparison) -> str:
+    sec = _section(s)
     return (f"Section {s.index}: {sec.kind}, order {sec.order}, f0 "
             f"{format_value(sec.f0_hz, 'Hz', digits=4)}"
             + (f", Q {sec.q:.4g}" if sec.q is not None else "")
             + f", gain {sec.gain_db + 0.0:+.3f} dB".replace("-0.000 ", "+0.000 "))
 
 
-def _rows(s: SectionComparison, gbw: str = "built") -> tuple[list[str], list[list]]:
+def _rows(s: SectionComparison, gbw: str = "built") -> tuple[list[str], list[list[object]]]:
     """(headers, rows) of one section's reachable candidates, in rank order.
 
     With the "model" GBW method a column gives the re-solved design's GBW.
     """
-    notch = any(c.rejection_db is not None for c in s.candidates)
+    notch = any(c.rejection_db is not None for c in _candidates(s))
     resolved = gbw == "model"
-    rows = []
-    for rank, c in enumerate((c for c in s.candidates if c.reachable), start=1):
+    rows: list[list[object]] = []
+    for rank, c in enumerate((c for c in _candidates(s) if c.reachable), start=1):
         rows.append([rank, c.topology, c.parts, c.opamps,
                      fmt_error(c.error_pct, c.error_of, c.gain_error_db),
                      f"{c.yield_pct:.1f}", _number(c.spread.get("resistor")),
@@ -122,7 +163,7 @@ def _notes_lines(s: SectionComparison) -> list[str]:
     return [f"    {c.topology}: {note}" for c in s.candidates for note in c.notes]
 
 
-def _notes(comparison):
+def _notes(comparison: Comparison) -> tuple[list[str], list[str]]:
     """The legend lines that apply, and one line per GBW method used."""
     legend = list(_LEGEND)
     if any(c.rejection_db is not None for s in comparison.sections for c in s.candidates):
@@ -133,7 +174,8 @@ def _notes(comparison):
     return legend, methods
 
 
-def _columns(headers, rows, keep):
+def _columns(headers: Sequence[str], rows: Sequence[Sequence[object]],
+             keep: tuple[int, ...]) -> tuple[list[str], list[list[object]]]:
     """The columns `keep` (indices into _HEADERS) of a table, with the optional ones that go there."""
     names = [_HEADERS[k] for k in keep]
     if keep is _RANKING and "rejection (dB)" in headers:
@@ -146,17 +188,18 @@ def _columns(headers, rows, keep):
 
 def why_first(s: SectionComparison, rank_by: str) -> str | None:
     """One line on why rank 1 is not the lowest-error candidate, from the ranking key; or None."""
-    reachable = [c for c in s.candidates if c.reachable and c.error_pct is not None]
+    reachable = [c for c in _candidates(s) if c.reachable and c.error_pct is not None]
     if len(reachable) < 2:
         return None
     first = reachable[0]
-    lowest = min(reachable, key=lambda c: c.error_pct)
-    if lowest is first or lowest.error_pct >= first.error_pct:
+    # reachable candidates carry their numbers (None only when unreachable)
+    lowest = min(reachable, key=lambda c: cast(float, c.error_pct))
+    if lowest is first or cast(float, lowest.error_pct) >= cast(float, first.error_pct):
         return None
     if rank_by == "yield":
-        if first.yield_pct > lowest.yield_pct:
+        if cast(float, first.yield_pct) > cast(float, lowest.yield_pct):
             reason = f"higher yield ({first.yield_pct:.1f} % against {lowest.yield_pct:.1f} %)"
-        elif first.opamps < lowest.opamps:
+        elif cast(int, first.opamps) < cast(int, lowest.opamps):
             reason = (f"a yield as good within two standard errors ({first.yield_pct:.1f} % "
                       f"against {lowest.yield_pct:.1f} %) with fewer op-amps ({first.opamps} "
                       f"against {lowest.opamps})")
@@ -175,14 +218,14 @@ def why_first(s: SectionComparison, rank_by: str) -> str | None:
             f"({fmt_error(lowest.error_pct, lowest.error_of, lowest.gain_error_db)}): {reason}")
 
 
-def comparison_text(comparison, *, wide=False):
+def comparison_text(comparison: Comparison, *, wide: bool = False) -> str:
     """Per section a ranking table and two detail tables, then the unreachable ones with reasons.
 
     Laid out for :data:`~placer.report.console.WIDTH` columns; `wide` puts
     every column of a candidate on one line instead.
     """
     ranked, counted, method = _heading(comparison)
-    lines = [f"Compare: {comparison.spec.title} — {ranked}", f"  {counted}", f"  {method}"]
+    lines = [f"Compare: {_spec(comparison).title} — {ranked}", f"  {counted}", f"  {method}"]
     for s in comparison.sections:
         lines += ["", _section_line(s)]
         headers, rows = _rows(s, comparison.gbw)
@@ -220,9 +263,10 @@ def comparison_text(comparison, *, wide=False):
     return text if wide else wrap_text(text)
 
 
-def _candidate_schematics(comparison, s, resistor_style):
+def _candidate_schematics(comparison: Comparison, s: SectionComparison,
+                          resistor_style: str) -> list[str]:
     """Each reachable candidate of a section drawn with its preferred values."""
-    pool = {t.id: t for t in candidate_topologies(s.section, comparison.spec).topologies}
+    pool = {t.id: t for t in candidate_topologies(_section(s), _spec(comparison)).topologies}
     out = []
     for rank, c in enumerate((c for c in s.candidates if c.reachable), start=1):
         if c.topology in pool:
@@ -233,8 +277,11 @@ def _candidate_schematics(comparison, s, resistor_style):
     return out
 
 
-def write_comparison_report(comparison, *, html_path=None, plots_dir=None, inputs=(),
-                            resistor_style="iec"):
+def write_comparison_report(comparison: Comparison, *,
+                            html_path: str | os.PathLike[str] | None = None,
+                            plots_dir: str | os.PathLike[str] | None = None,
+                            inputs: Iterable[str | os.PathLike[str]] = (),
+                            resistor_style: str = "iec") -> ReportFiles:
     """Write the HTML report of a topology comparison, and its plots.
 
     One page: the spec, then per section the ranking table, a chart of each
@@ -263,9 +310,9 @@ def write_comparison_report(comparison, *, html_path=None, plots_dir=None, input
     SpecError
         When the plots folder does not exist or an output is an input.
     """
-    spec = comparison.spec
-    inputs = prepare_outputs(html_path, plots_dir, tuple(inputs) + (spec.path,))
-    plots = Plots(plots_dir, inputs)
+    spec = _spec(comparison)
+    shown_inputs = prepare_outputs(html_path, plots_dir, tuple(inputs) + (spec.path,))
+    plots = Plots(plots_dir, shown_inputs)
     ranked, counted, method = _heading(comparison)
     title = f"Topology comparison: {spec.title}"
     parts = [f"<h1>{escape(title)}</h1>",
@@ -312,4 +359,4 @@ def write_comparison_report(comparison, *, html_path=None, plots_dir=None, input
         parts.append("<h3>Where the GBW needed comes from</h3>")
         parts.append("<ul>" + "".join(f"<li>{escape(m)}</li>" for m in methods) + "</ul>")
     parts.append(caution_block())
-    return finish_report(title, parts, html_path, plots, inputs)
+    return finish_report(title, parts, html_path, plots, shown_inputs)

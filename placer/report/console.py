@@ -5,12 +5,20 @@ from __future__ import annotations
 import math
 import sys
 import textwrap
+from collections.abc import Iterable, Mapping, Sequence
+from typing import IO, TYPE_CHECKING, Any
 
 from ..design import ERROR_TIE_PCT
 from ..evidence.tolerance import MAX_REJECTION_DB
 from ..circuit.elements import KIND_UNITS
 from ..units import format_value, plural
 from .prelayout import cascade_lines, section_lines
+
+if TYPE_CHECKING:
+    from ..evidence.gather import Evidence, MaskFigures, MaskVerdict
+    from ..evidence.verify import FrequencyFigures
+    from ..target.mask import Mask
+    from ..target.targets import Section, Target
 
 __all__ = ["inverting_note", "table", "design_text", "target_text", "evidence_text", "Progress", "fmt_pct", "fmt_db",
            "mask_lines", "fmt_hz", "fmt_where", "fmt_edges", "fmt_peak_at", "fmt_gain", "fmt_seconds", "fmt_rejection", "windows_text",
@@ -21,9 +29,9 @@ WIDTH = 100
 
 
 
-def windows_text(windows):
+def windows_text(windows: Mapping[str, float]) -> str:
     """Yield windows in words: "f0 ±2 %, Q ±5 %, gain ±0.5 dB, rejection >= 40 dB"."""
-    words = []
+    words: list[str] = []
     for key, width in windows.items():
         if key == "gain_db":
             words.append(f"gain ±{width:g} dB")
@@ -34,7 +42,8 @@ def windows_text(windows):
     return ", ".join(words)
 
 
-def table(headers, rows, *, indent="  ", width=None, wrap=None):
+def table(headers: Sequence[object], rows: Iterable[Sequence[object]], *, indent: str = "  ",
+          width: int | None = None, wrap: int | None = None) -> str:
     """A plain-text table with columns sized to fit.
 
     With `width`, a table wider than that wraps the text of column `wrap`
@@ -46,7 +55,7 @@ def table(headers, rows, *, indent="  ", width=None, wrap=None):
     if width is not None and total > width and widths:
         column = widths.index(max(widths)) if wrap is None else wrap
         widths[column] = max(8, widths[column] - (total - width))
-        wrapped = []
+        wrapped: list[list[str]] = []
         for row in cells:
             pieces = textwrap.wrap(row[column], widths[column], break_on_hyphens=False) or [""]
             for k, piece in enumerate(pieces):
@@ -66,12 +75,12 @@ def table(headers, rows, *, indent="  ", width=None, wrap=None):
     return "\n".join(lines)
 
 
-def wrap_text(text, width=WIDTH):
+def wrap_text(text: str, width: int = WIDTH) -> str:
     """Lines longer than `width` wrapped at spaces, continued two columns further in.
 
     Tables are laid out to fit; this is for prose lines.
     """
-    out = []
+    out: list[str] = []
     for line in text.split("\n"):
         if len(line) <= width:
             out.append(line)
@@ -83,7 +92,8 @@ def wrap_text(text, width=WIDTH):
     return "\n".join(out)
 
 
-def fmt_error(error_pct, quantity, gain_error_db=None):
+def fmt_error(error_pct: float | None, quantity: str | None,
+              gain_error_db: float | None = None) -> str:
     """A worst error with what it measures: "0.324 % in Q", "+4.02 dB in gain"."""
     if error_pct is None or not math.isfinite(error_pct):
         return "-"
@@ -92,15 +102,15 @@ def fmt_error(error_pct, quantity, gain_error_db=None):
     return f"{error_pct:.3f} % in {quantity}" if quantity else f"{error_pct:.3f} %"
 
 
-def _size(c):
+def _size(c: Mapping[str, Any]) -> str:
     return f"{c['parts']} parts + {c['opamps']} op-amp{'s' if c['opamps'] != 1 else ''}"
 
 
-def _spread(c):
+def _spread(c: Mapping[str, Any]) -> float:
     return math.prod(c.get("spread", {}).values() or [1.0])
 
 
-def why_chosen(candidates):
+def why_chosen(candidates: Sequence[Mapping[str, Any]]) -> str | None:
     """One line on why the first reachable candidate beat a lower-error one, or None.
 
     `candidates`: the JSON dicts of a design section's candidates in rank
@@ -127,33 +137,36 @@ def why_chosen(candidates):
             f"points count as equal, and this one has {reason}")
 
 
-def fmt_pct(x, digits=3):
+def fmt_pct(x: float | None, digits: int = 3) -> str:
+    """A signed percentage, '-' when absent or not finite."""
     if x is None or (isinstance(x, float) and not math.isfinite(x)):
         return "-"
     return f"{x + 0.0:+.{digits}f} %".replace("-0.000 ", "+0.000 ")
 
 
-def fmt_db(x):
+def fmt_db(x: float | None) -> str:
+    """A signed level in dB, '-' when absent or not finite."""
     if x is None or (isinstance(x, float) and not math.isfinite(x)):
         return "-"
     return f"{x + 0.0:+.3f} dB".replace("-0.000 ", "+0.000 ")
 
 
-def fmt_rejection(x):
+def fmt_rejection(x: float | None) -> str:
     """A notch's rejection in dB; the cap of an exact null as "null"."""
     if x is None or not math.isfinite(x):
         return "-"
     return "null" if x >= MAX_REJECTION_DB else f"{x:.1f} dB"
 
 
-def fmt_gain(x):
+def fmt_gain(x: float | None) -> str:
     """A gain in dB with its sign, '-' when absent."""
     if x is None:
         return "-"
     return f"{x:+.3f} dB".replace("-0.000 ", "+0.000 ")
 
 
-def fmt_hz(x):
+def fmt_hz(x: float | None) -> str:
+    """A frequency in engineering notation, '-' when absent."""
     return "-" if x is None else format_value(x, "Hz", digits=4)
 
 
@@ -164,15 +177,16 @@ def fmt_where(frequency_hz: float | None) -> str:
     return "at DC" if frequency_hz == 0 else f"at {fmt_hz(frequency_hz)}"
 
 
-def fmt_q(x):
+def fmt_q(x: float | None) -> str:
+    """A Q to four decimals, '-' when absent."""
     return "-" if x is None else f"{x:.4f}"
 
 
-def target_text(target, sections):
+def target_text(target: Target, sections: Sequence[Section]) -> str:
     """The target's poles, zeros and sections as text."""
     lines = [f"Target: {target.response}" + (f", {target.approximation}" if target.approximation else "")
              + f", order {target.order}, gain {fmt_gain(target.gain_db)}"]
-    rows = []
+    rows: list[list[object]] = []
     for p in sorted(target.poles, key=lambda r: (abs(r), r.imag)):
         rows.append(["pole", f"{p.real:.6g}", f"{p.imag:+.6g}", fmt_hz(abs(p) / (2 * math.pi))])
     for z in sorted(target.zeros, key=lambda r: (abs(r), r.imag)):
@@ -185,18 +199,19 @@ def target_text(target, sections):
         rows.append([i, s.kind, s.order, fmt_hz(s.f0_hz), fmt_q(s.q),
                      fmt_hz(s.zero_f0_hz) if s.zero_omega else "-", fmt_gain(s.gain_db)])
     lines.append(table(["#", "kind", "order", "f0", "Q", "zero f0", "gain"], rows))
-    if getattr(target, "mask", None) is not None:
+    mask: Mask | None = getattr(target, "mask", None)
+    if mask is not None:
         lines.append("")
-        lines.append(f"Mask ({target.mask.source}): {target.mask.describe()}")
+        lines.append(f"Mask ({mask.source}): {mask.describe()}")
     return "\n".join(lines)
 
 
-def inverting_note(title: str, inverting) -> str:
+def inverting_note(title: str, inverting: object) -> str:
     """", inverting" after a section's title, unless the title already says so."""
     return ", inverting" if inverting and "inverting" not in str(title).lower() else ""
 
 
-def design_text(data):
+def design_text(data: Mapping[str, Any]) -> str:
     """A design (as its JSON dict) as console text."""
     lines = [f"Design: {data['title']}"]
     target = data["target"]
@@ -254,7 +269,7 @@ def design_text(data):
     return wrap_text("\n".join(lines))
 
 
-def _amplifier_lines(amp):
+def _amplifier_lines(amp: Mapping[str, Any]) -> list[str]:
     """The op-amp model's effect on one section: ideal vs corrected design."""
     model = amp["amplifier"]
     described = [f"GBW {format_value(model['gbw_hz'], 'Hz')}" if model.get("gbw_hz") else "infinite GBW"]
@@ -278,20 +293,22 @@ def _amplifier_lines(amp):
     return lines
 
 
-def evidence_text(evidence):
+def evidence_text(evidence: Evidence) -> str:
     """A design's evidence as text: responses, then each section's spread."""
     v = evidence.verification
     lines = ["Evidence (python-control, on the designed circuit):"]
-    rows, steps = [], []
+    rows: list[list[object]] = []
+    steps: list[list[object]] = []
     for name, fig in (("target", v.target), ("preferred values", v.design),
                       ("continuous", v.continuous)):
         if fig is None:
             continue
-        f, s = fig.frequency, fig.step
+        f, step = fig.frequency, fig.step
         rows.append([name, fmt_gain(f.gain_db), fmt_edges(f),
                      fmt_gain(f.peak_db), fmt_peak_at(f.peak_hz)])
-        steps.append([name, "n/a" if s.overshoot_pct is None else f"{s.overshoot_pct:.2f} %",
-                      fmt_seconds(s.rise_time_s, absent="n/a"), fmt_seconds(s.settling_time_s)])
+        steps.append([name, "n/a" if step.overshoot_pct is None else f"{step.overshoot_pct:.2f} %",
+                      fmt_seconds(step.rise_time_s, absent="n/a"),
+                      fmt_seconds(step.settling_time_s)])
     lines.append(table(["frequency response", "gain", "-3 dB from the peak", "peak", "peak at"],
                        rows, width=WIDTH, wrap=2))
     lines.append("")
@@ -335,10 +352,10 @@ def evidence_text(evidence):
                          fmt_rejection(rej.mean), f"{rej.std:.2f} dB",
                          f"{fmt_rejection(rej.p01)} – {fmt_rejection(rej.p99)}"])
         lines.append(table(["quantity", "nominal", "mean", "std dev", "1 % – 99 %"], rows))
-        if mc.yield_fraction is not None:
+        if mc.yield_fraction is not None and mc.windows is not None:  # a yield has its windows
             lines.append(f"  yield (builds within {windows_text(mc.windows)} of nominal): "
                          f"{100 * mc.yield_fraction:.1f} %")
-        ranking = mc.ranking.get("f0", [])
+        ranking = mc.ranking.get("f0", ())
         if ranking:
             lines.append("  f0 spread dominated by: " + ", ".join(
                 f"{s.designators.get(p, p)} ({100 * mc.contributions['f0'][p]:.0f} %)" for p in ranking[:3]))
@@ -353,7 +370,7 @@ def evidence_text(evidence):
     return wrap_text("\n".join(lines))
 
 
-def _margin_words(figures: object, mask: object) -> str:
+def _margin_words(figures: MaskFigures, mask: Mask) -> str:
     """ "meets" or "MISSES: stop band 0.135 dB short of 40 dB" for one response."""
     misses = []
     if figures.passband_margin_db is not None and not figures.meets and \
@@ -367,7 +384,7 @@ def _margin_words(figures: object, mask: object) -> str:
     return "meets" if figures.meets else "MISSES: " + "; ".join(misses)
 
 
-def mask_lines(verdict: object) -> list:
+def mask_lines(verdict: MaskVerdict) -> list[str]:
     """The mask verdict as text: the mask, each response's margins, the Monte Carlo yield."""
     mask = verdict.mask
     lines = [f"Mask ({mask.source}"
@@ -411,7 +428,7 @@ def fmt_seconds(x: float | None, *, absent: str = "-") -> str:
     return absent if x is None else format_value(x, "s")
 
 
-def fmt_edges(figures: object) -> str:
+def fmt_edges(figures: FrequencyFigures) -> str:
     """A response's half-power edges: one for a low-/high-pass, both and the width for a band."""
     if figures.band_low_hz is not None and figures.band_high_hz is not None:
         return (f"{fmt_hz(figures.band_low_hz)} – {fmt_hz(figures.band_high_hz)} "
@@ -429,13 +446,13 @@ def fmt_peak_at(peak_hz: float | None) -> str:
 class Progress:
     """A one-line progress bar on a terminal; silent otherwise or when quiet."""
 
-    def __init__(self, label, *, quiet=False, stream=None):
+    def __init__(self, label: str, *, quiet: bool = False, stream: IO[str] | None = None) -> None:
         self.stream = stream or sys.stderr
         self.enabled = not quiet and hasattr(self.stream, "isatty") and self.stream.isatty()
         self.label = label
         self.shown = False
 
-    def __call__(self, done, total, note=""):
+    def __call__(self, done: int, total: int, note: str = "") -> None:
         if not self.enabled or total <= 0:
             return
         width = 30
@@ -445,7 +462,7 @@ class Progress:
         self.stream.flush()
         self.shown = True
 
-    def close(self):
+    def close(self) -> None:
         if self.shown:
             self.stream.write("\r" + " " * 90 + "\r")
             self.stream.flush()

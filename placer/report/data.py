@@ -7,28 +7,36 @@ Every number is a float in SI units; frequencies people read are in hertz
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable
+from typing import TYPE_CHECKING, Any, cast
 
 from ..place.amplifier import amplifier_summary
 from ..place.placement import worst_error_quantity
 from ..spec.target_table import target_to_dict
 from ..units import finite_or_none
 
+if TYPE_CHECKING:
+    from ..design import Design
+    from ..place.placement import Candidate
+    from ..place.solve import Goal, RootErrors
+    from ..target.targets import Section
+
 __all__ = ["roots_to_list", "section_figures", "design_to_dict", "candidate_to_dict"]
 
 
-def roots_to_list(roots):
+def roots_to_list(roots: Iterable[complex]) -> list[list[float]]:
     """Complex roots (rad/s) as sorted ``[re, im]`` pairs."""
     items = sorted((complex(r) for r in roots), key=lambda r: (abs(r), r.imag))
     return [[float(r.real), float(r.imag)] for r in items]
 
 
-def section_figures(errors, goal=None):
+def section_figures(errors: RootErrors, goal: Goal | None = None) -> dict[str, Any]:
     """f0 (Hz), Q, gain (dB) and notch zero f0 of one section, from its RootErrors.
 
     The figures are the ones :func:`placer.place.solve.root_errors` read
     off the section's function (the same gain reading the solver matched).
     """
-    out = {"f0_hz": None, "q": None, "gain_db": None, "zero_f0_hz": None}
+    out: dict[str, Any] = {"f0_hz": None, "q": None, "gain_db": None, "zero_f0_hz": None}
     if errors.omega0 is not None:
         out["f0_hz"] = errors.omega0 / (2 * math.pi)
     elif goal is not None and goal.omega0:
@@ -43,7 +51,8 @@ def section_figures(errors, goal=None):
     return out
 
 
-def _errors(errors):
+def _errors(errors: RootErrors) -> dict[str, float | None]:
+    """The errors of one set of values, percent and dB (None: not defined)."""
     return {
         "f0_pct": finite_or_none(errors.f0_pct),
         "q_pct": finite_or_none(errors.q_pct),
@@ -54,56 +63,63 @@ def _errors(errors):
     }
 
 
-def _section_target(section):
+def _section_target(section: Section) -> dict[str, Any]:
+    """The target figures and roots of one section."""
     return {
         "kind": section.kind,
         "order": section.order,
         "f0_hz": float(section.f0_hz),
         "q": None if section.q is None else float(section.q),
         "gain_db": float(section.gain_db),
-        "zero_f0_hz": None if section.zero_omega is None else float(section.zero_f0_hz),
+        "zero_f0_hz": None if section.zero_f0_hz is None else float(section.zero_f0_hz),
         "poles": roots_to_list(section.poles),
         "zeros": roots_to_list(section.zeros),
     }
 
 
-def candidate_to_dict(candidate):
-    out = {
-        "topology": candidate.topology.id,
+def candidate_to_dict(candidate: Candidate) -> dict[str, Any]:
+    """One candidate of a section, reachable or with the reason it is not."""
+    topology = candidate.topology
+    errors = cast("RootErrors", candidate.errors)
+    out: dict[str, Any] = {
+        "topology": topology.id,
         "reachable": bool(candidate.reachable),
     }
     if candidate.reachable:
         out["error_pct"] = finite_or_none(candidate.error_pct)
         # what the worst error measures ("f0", "Q", "zero f0", "roots", "gain")
-        out["error_of"] = worst_error_quantity(candidate.errors)
-        out["gain_error_db"] = finite_or_none(candidate.errors.gain_db)
-        out["parts"] = int(candidate.topology.part_count)
-        out["opamps"] = int(candidate.topology.opamp_count)
+        out["error_of"] = worst_error_quantity(errors)
+        out["gain_error_db"] = finite_or_none(errors.gain_db)
+        out["parts"] = int(topology.part_count)
+        out["opamps"] = int(topology.opamp_count)
         out["spread"] = {k: float(v) for k, v in candidate.spread.items()}
     else:
         out["reason"] = candidate.reason
     return out
 
 
-def design_to_dict(design, *, evidence=None, prelayout=None):
+def design_to_dict(design: Design, *, evidence: dict[str, Any] | None = None,
+                   prelayout: dict[str, Any] | None = None) -> dict[str, Any]:
     """The whole design as a JSON-ready dict (``prelayout``: placer.evidence.prelayout's to_dict)."""
     target = design.target
-    sections = []
+    sections: list[dict[str, Any]] = []
     for s in design.sections:
         c = s.candidate
-        achieved = section_figures(c.errors, s.goal)
-        continuous = section_figures(c.continuous_errors, s.goal)
-        achieved["poles"] = roots_to_list(c.errors.poles)
-        achieved["zeros"] = roots_to_list(c.errors.zeros)
-        entry = {
+        errors = cast("RootErrors", c.errors)  # typed `object` in placer.place
+        continuous_errors = cast("RootErrors", c.continuous_errors)
+        achieved = section_figures(errors, s.goal)
+        continuous = section_figures(continuous_errors, s.goal)
+        achieved["poles"] = roots_to_list(errors.poles)
+        achieved["zeros"] = roots_to_list(errors.zeros)
+        entry: dict[str, Any] = {
             "index": s.index,
             "topology": s.topology.id,
             "title": s.topology.title,
             "target": _section_target(s.section),
             "achieved": achieved,
             "continuous": continuous,
-            "error": _errors(c.errors),
-            "continuous_error": _errors(c.continuous_errors),
+            "error": _errors(errors),
+            "continuous_error": _errors(continuous_errors),
             "parts": [
                 {"name": p.name, "symbol": p.symbol, "kind": p.kind, "value": float(p.value),
                  "series": p.series, "continuous": float(p.continuous)}

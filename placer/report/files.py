@@ -17,15 +17,23 @@ from __future__ import annotations
 
 import os
 import tempfile
+from collections.abc import Iterable
 from pathlib import Path
+from typing import Union
+
 
 from ..errors import OutputError, brief_path
 
 __all__ = ["check_output_path", "check_output_folder", "input_files", "write_text",
            "write_bytes"]
 
+#: A path as the commands pass it: text or a path object.
+PathLike = Union[str, "os.PathLike[str]"]
+#: The run's inputs: paths, with None or "" for an input that is not a file.
+Inputs = Iterable[Union[str, "os.PathLike[str]", None]]
 
-def _shown(path) -> str:
+
+def _shown(path: PathLike | None) -> str:
     return brief_path(path, quote=True)
 
 
@@ -33,9 +41,9 @@ def _reason(error: OSError) -> str:
     return error.strerror or str(error) or type(error).__name__
 
 
-def input_files(inputs=()) -> list[Path]:
+def input_files(inputs: Inputs = ()) -> list[Path]:
     """The files the inputs name: a folder stands for every entry in it."""
-    files = []
+    files: list[Path] = []
     for item in inputs:
         if not item:
             continue
@@ -59,12 +67,12 @@ def _same_file(a: Path, b: Path) -> bool:
         return False
 
 
-def _check_not_empty(path, option):
+def _check_not_empty(path: PathLike | None, option: str) -> None:
     if path is None or not str(path).strip():
         raise OutputError(f"{option}: give a path, not an empty one")
 
 
-def _check_folder(folder: Path, option: str, path) -> None:
+def _check_folder(folder: Path, option: str, path: PathLike) -> None:
     of = "" if str(folder) == str(path) else f" of {_shown(path)}"
     if not folder.exists():
         raise OutputError(f"{option}: folder {_shown(folder)}{of} does not exist")
@@ -75,7 +83,8 @@ def _check_folder(folder: Path, option: str, path) -> None:
                           f"(no permission to write in it)")
 
 
-def check_output_path(path, *, inputs=(), option="output"):
+def check_output_path(path: PathLike | None, *, inputs: Inputs = (),
+                      option: str = "output") -> Path:
     """Refuse an output file that cannot be written or that is an input.
 
     Refused: an empty path; a folder that is missing, not a folder or
@@ -88,6 +97,7 @@ def check_output_path(path, *, inputs=(), option="output"):
         Naming the option, the path and why.
     """
     _check_not_empty(path, option)
+    assert path is not None  # refused just above
     target = Path(path)
     folder = target.parent if str(target.parent) else Path(".")
     _check_folder(folder, option, path)
@@ -105,7 +115,8 @@ def check_output_path(path, *, inputs=(), option="output"):
     return target
 
 
-def check_output_folder(path, *, inputs=(), option="output"):
+def check_output_folder(path: PathLike | None, *, inputs: Inputs = (),
+                        option: str = "output") -> Path:
     """Refuse an output folder that is missing, not a folder, read-only or an input.
 
     An input folder (a folder of topology files) is refused as a whole;
@@ -118,6 +129,7 @@ def check_output_folder(path, *, inputs=(), option="output"):
         Naming the option, the path and why.
     """
     _check_not_empty(path, option)
+    assert path is not None  # refused just above
     folder = Path(path)
     if folder.exists() and not folder.is_dir():
         raise OutputError(f"{option}: {_shown(path)} is a file, not a folder")
@@ -129,7 +141,8 @@ def check_output_folder(path, *, inputs=(), option="output"):
     return folder
 
 
-def write_bytes(path, data, *, inputs=(), option="output"):
+def write_bytes(path: PathLike | None, data: bytes, *, inputs: Inputs = (),
+                option: str = "output") -> Path:
     """Write `data` to `path` atomically (temporary file, then rename).
 
     Raises
@@ -140,7 +153,7 @@ def write_bytes(path, data, *, inputs=(), option="output"):
     """
     target = check_output_path(path, inputs=inputs, option=option)
     folder = target.parent if str(target.parent) else Path(".")
-    temporary = None
+    temporary: str | None = None
     try:
         handle, temporary = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp",
                                              dir=folder)
@@ -159,7 +172,7 @@ def write_bytes(path, data, *, inputs=(), option="output"):
     return target
 
 
-def _remove(temporary):
+def _remove(temporary: str | None) -> None:
     if temporary is not None and os.path.exists(temporary):
         try:
             os.unlink(temporary)
@@ -167,6 +180,7 @@ def _remove(temporary):
             pass
 
 
-def write_text(path, text, *, inputs=(), option="output"):
+def write_text(path: PathLike | None, text: str, *, inputs: Inputs = (),
+               option: str = "output") -> Path:
     """Write `text` (UTF-8) to `path` atomically."""
     return write_bytes(path, text.encode("utf-8"), inputs=inputs, option=option)

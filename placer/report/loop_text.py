@@ -10,12 +10,17 @@ margins before and after snapping, the parts, the Monte Carlo and notes.
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from ..circuit.elements import KIND_UNITS
 from ..units import format_value
 from .console import table
 from .prelayout import compensator_lines
+
+if TYPE_CHECKING:
+    from ..analysis.return_ratio import OpampLoop
+    from ..place.opamp import AmplifierSpec
+    from ..spec.loop_table import LoopResult
 
 __all__ = ["LOOP_CAUTION", "loop_data", "loop_text"]
 
@@ -32,7 +37,8 @@ _MONTE_CARLO = {"samples": ("builds", ""), "phase_margin_worst_deg": ("worst pha
                 "margin_floor_deg": ("phase-margin floor", "°")}
 
 
-def loop_data(result: Any, amplifier: Any) -> tuple[dict, tuple]:
+def loop_data(result: LoopResult,
+              amplifier: AmplifierSpec) -> tuple[dict[str, Any], tuple[OpampLoop, ...]]:
     """The JSON of a loop result and the compensator op-amp's own loops.
 
     Parameters
@@ -73,7 +79,7 @@ def _hz(value: float | None, absent: str = "-") -> str:
     return format_value(value, "Hz", digits=4) if value else absent
 
 
-def _margin_row(label: str, m: dict) -> list[str]:
+def _margin_row(label: str, m: dict[str, Any]) -> list[str]:
     return [label, _hz(m.get("crossover_hz"), "none"),
             f"{m['phase_margin_deg']:.2f}°" if m.get("phase_margin_deg") is not None else "-",
             f"{m['gain_margin_db']:.2f} dB" if m.get("gain_margin_db") is not None else "none",
@@ -85,7 +91,7 @@ def _frequencies(values: list[float]) -> str:
     return ", ".join(shown) if shown else "none"
 
 
-def root_lines(data: dict) -> list[str]:
+def root_lines(data: dict[str, Any]) -> list[str]:
     """The compensator's zeros and poles (Hz), placed and as built, and a plant's RHP zero."""
     comp, k = data["compensator"], data["k_factor"]
     double = " (double)" if comp["family"] == "type3" else ""
@@ -101,7 +107,7 @@ def root_lines(data: dict) -> list[str]:
     return lines
 
 
-def _monte_carlo_line(mc: dict) -> str:
+def _monte_carlo_line(mc: dict[str, Any]) -> str:
     parts = []
     for key, (label, unit) in _MONTE_CARLO.items():
         if key not in mc:
@@ -119,7 +125,7 @@ def _monte_carlo_line(mc: dict) -> str:
     return "Monte Carlo (" + mc.get("distribution", "") + "): " + ", ".join(parts)
 
 
-def loop_text(data: dict) -> str:
+def loop_text(data: dict[str, Any]) -> str:
     """The console text of a loop result (the data of :func:`loop_data`)."""
     target = data["target"]
     k = data["k_factor"]

@@ -23,6 +23,8 @@ from __future__ import annotations
 import html
 import itertools
 import math
+from collections.abc import Callable, Iterable, Mapping, Sequence
+from typing import TYPE_CHECKING, Any, cast
 
 import numpy as np
 
@@ -30,6 +32,15 @@ from ..units import format_value
 from .page import inline_svg
 from .plots import (bode_figure, figure_svg, histogram_figure, loop_bode_figure,
                     pole_zero_figure, ranking_figure)
+
+if TYPE_CHECKING:
+    from matplotlib.figure import Figure
+
+    from ..compare import CandidateResult, Comparison
+    from ..design import Design
+    from ..evidence.tolerance_results import MonteCarloResult, Statistics
+    from ..evidence.verify import Margins
+    from ..spec.loop_table import LoopResult
 
 __all__ = ["to_html", "plot", "design_html", "comparison_html", "loop_html",
            "monte_carlo_html", "statistics_table", "design_figure", "comparison_figure",
@@ -44,11 +55,12 @@ _FIGURE = 'style="max-width:42em;margin:.4em 0"'
 _COUNTER = itertools.count(1)
 
 
-def _e(text) -> str:
+def _e(text: object) -> str:
     return html.escape(str(text), quote=True)
 
 
-def _table(headers, rows, *, numeric_from=1) -> str:
+def _table(headers: Iterable[object], rows: Iterable[Sequence[object]], *,
+           numeric_from: int = 1) -> str:
     head = "".join(f"<th {_HEAD}>{_e(h)}</th>" for h in headers)
     body = "".join(
         "<tr>" + "".join(
@@ -58,42 +70,42 @@ def _table(headers, rows, *, numeric_from=1) -> str:
     return f"<table {_TABLE}><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"
 
 
-def _number(x, fmt="{:.3g}", absent="-") -> str:
+def _number(x: float | None, fmt: str = "{:.3g}", absent: str = "-") -> str:
     if x is None or not math.isfinite(float(x)):
         return absent
     return fmt.format(float(x))
 
 
-def _hz(x) -> str:
+def _hz(x: float | None) -> str:
     return "-" if x is None or not math.isfinite(float(x)) else format_value(float(x), "Hz", digits=4)
 
 
-def svg_fragment(fig) -> str:
+def svg_fragment(fig: Figure) -> str:
     """A figure as an ``<svg>`` element to sit inside HTML (unique ids, no namespaces)."""
     prefix = f"placer{next(_COUNTER)}-"
     return f"<div {_FIGURE}>{inline_svg(figure_svg(fig), prefix)}</div>"
 
 
-def _wrap(title, parts) -> str:
+def _wrap(title: str, parts: Iterable[str]) -> str:
     return ('<div class="placer-result" style="font-family:system-ui,sans-serif;line-height:1.35">'
             f"<div style=\"font-weight:bold;font-size:1.1em\">{_e(title)}</div>"
             + "".join(parts) + "</div>")
 
 
-def _p(text) -> str:
+def _p(text: object) -> str:
     return f'<p style="margin:.3em 0">{_e(text)}</p>'
 
 
 # -- a design --------------------------------------------------------------------
 
-def _design_grid(design, points=400):
+def _design_grid(design: Design, points: int = 400) -> np.ndarray:
     radii = [abs(r) for r in tuple(design.target.poles) + tuple(design.target.zeros) if abs(r) > 0]
     radii = radii or [2 * math.pi]
     low, high = min(radii) / (2 * math.pi) / 30, max(radii) / (2 * math.pi) * 30
     return np.geomspace(low, high, points)
 
 
-def design_figure(design, *, points=400):
+def design_figure(design: Design, *, points: int = 400) -> Figure:
     """The design's Bode plot: the target and the built cascade with preferred values.
 
     The built curve is the cascade circuit's own response (MNA solve at
@@ -110,7 +122,7 @@ def design_figure(design, *, points=400):
     frequency = _design_grid(design, points)
     omega = 2 * math.pi * frequency
     zeros, poles, k = design.target.zpk()
-    curves = {}
+    curves: dict[str, tuple[np.ndarray, np.ndarray]] = {}
     for label, h in (("target", Response.from_zpk(zeros, poles, k).evaluate(omega)),
                      ("preferred values", circuit_response(design.circuit, omega))):
         with np.errstate(divide="ignore"):
@@ -119,17 +131,18 @@ def design_figure(design, *, points=400):
     return bode_figure(frequency, curves, reference="target", title=title)
 
 
-def _section_rows(design):
-    rows = []
+def _section_rows(design: Design) -> list[list[object]]:
+    rows: list[list[object]] = []
     for s in design.sections:
-        section, errors = s.section, s.candidate.errors
+        # Candidate.errors is typed `object` in placer.place: Any at this boundary
+        section, errors = s.section, cast(Any, s.candidate.errors)
         rows.append([s.index, s.topology.id, section.kind, _hz(section.f0_hz),
                      _number(errors.f0_pct, "{:+.3f}"), _number(section.q, "{:.4f}"),
                      _number(errors.q_pct, "{:+.3f}"), _number(errors.worst_root_pct, "{:.3f}")])
     return rows
 
 
-def design_html(design, *, plots=True) -> str:
+def design_html(design: Design, *, plots: bool = True) -> str:
     """The notebook view of a :class:`placer.design.Design`.
 
     A line of totals, each section's topology with its f0 and Q errors
@@ -157,7 +170,7 @@ def design_html(design, *, plots=True) -> str:
 
 # -- a comparison ----------------------------------------------------------------
 
-def comparison_figure(comparison, section=1):
+def comparison_figure(comparison: Comparison, section: int = 1) -> Figure:
     """One section's ranking chart: each reachable candidate's yield and error.
 
     Parameters
@@ -176,21 +189,25 @@ def comparison_figure(comparison, section=1):
 
         raise SpecError(f"section = {section!r}: the comparison has sections "
                         f"{', '.join(str(s.index) for s in comparison.sections)}")
-    reachable = [c for c in chosen[0].candidates if c.reachable]
+    # candidates are a bare tuple in placer.compare; reachable ones carry every number
+    reachable = [c for c in cast("tuple[CandidateResult, ...]", chosen[0].candidates)
+                 if c.reachable]
     return ranking_figure([c.topology for c in reachable],
-                          [c.yield_pct for c in reachable], [c.error_pct for c in reachable],
+                          [cast(float, c.yield_pct) for c in reachable],
+                          [cast(float, c.error_pct) for c in reachable],
                           title=f"Section {section}: yield and error, best first")
 
 
-def comparison_html(comparison, *, plots=True) -> str:
+def comparison_html(comparison: Comparison, *, plots: bool = True) -> str:
     """The notebook view of a :class:`placer.compare.Comparison`: each section's ranking."""
     spec = comparison.spec
     out = [_p(f"Ranked by {comparison.rank_by}; {comparison.samples} Monte Carlo samples per "
               f"candidate, seed {comparison.seed}.")]
     for s in comparison.sections:
+        section = s.section
         out.append(f'<div style="font-weight:bold;margin-top:.6em">Section {s.index}: '
-                   f"{_e(s.section.kind)}, f0 {_e(_hz(s.section.f0_hz))}"
-                   + (f", Q {s.section.q:.4g}" if s.section.q is not None else "") + "</div>")
+                   f"{_e(section.kind)}, f0 {_e(_hz(section.f0_hz))}"
+                   + (f", Q {section.q:.4g}" if section.q is not None else "") + "</div>")
         reachable = [c for c in s.candidates if c.reachable]
         rows = [[rank, c.topology, c.parts, c.opamps, _number(c.error_pct, "{:.3f}"),
                  _number(c.yield_pct, "{:.1f}"), _hz(c.gbw_hz)]
@@ -212,7 +229,7 @@ def comparison_html(comparison, *, plots=True) -> str:
 
 # -- a loop ----------------------------------------------------------------------
 
-def loop_figure(result):
+def loop_figure(result: LoopResult) -> Figure:
     """The compensated loop gain (preferred values) with its margins marked.
 
     Parameters
@@ -236,13 +253,13 @@ def loop_figure(result):
                             phase_crossover_hz=margins.phase_crossover_hz)
 
 
-def _margin_row(label, m):
+def _margin_row(label: str, m: Margins) -> list[str]:
     return [label, _hz(m.crossover_hz), _number(m.phase_margin_deg, "{:.2f}°"),
             _number(m.gain_margin_db, "{:.2f} dB", absent="unbounded"),
             "yes" if m.stable else "NO"]
 
 
-def loop_html(result, *, plots=True) -> str:
+def loop_html(result: LoopResult, *, plots: bool = True) -> str:
     """The notebook view of a :class:`placer.spec.loop_table.LoopResult`.
 
     Target against achieved margins (continuous and preferred values), the
@@ -279,19 +296,19 @@ _STATISTICS = {"f0_hz": ("f0", "Hz"), "q": ("Q", ""), "gain": ("gain", "V/V"),
                "gain_db": ("gain", "dB"), "rejection_db": ("rejection", "dB")}
 
 
-def statistics_table(statistics: dict) -> str:
+def statistics_table(statistics: Mapping[str, Statistics]) -> str:
     """An HTML table of :class:`placer.evidence.tolerance.Statistics` by figure."""
     rows = []
     for key, st in statistics.items():
         label, unit = _STATISTICS.get(key, (key, ""))
-        shown = (lambda x: format_value(x, "Hz", digits=4)) if unit == "Hz" else \
-            (lambda x: f"{x:.4g}")
+        shown: Callable[[float], str] = (lambda x: format_value(x, "Hz", digits=4)) \
+            if unit == "Hz" else (lambda x: f"{x:.4g}")
         rows.append([f"{label} ({unit})" if unit else label, shown(st.mean), f"{st.std:.3g}",
                      shown(st.p01), shown(st.p99)])
     return _table(["figure", "mean", "std", "1 %", "99 %"], rows)
 
 
-def monte_carlo_figure(result):
+def monte_carlo_figure(result: MonteCarloResult) -> Figure:
     """Histogram of f0 over the builds, the nominal line and the f0 window."""
     window = None
     if result.windows and "f0" in result.windows:
@@ -301,7 +318,7 @@ def monte_carlo_figure(result):
                             window=window)
 
 
-def monte_carlo_html(result, *, plots=True) -> str:
+def monte_carlo_html(result: MonteCarloResult, *, plots: bool = True) -> str:
     """The notebook view of a :class:`placer.evidence.tolerance.MonteCarloResult`."""
     out = [statistics_table(result.statistics)]
     if result.yield_fraction is not None:
@@ -314,7 +331,7 @@ def monte_carlo_html(result, *, plots=True) -> str:
 
 # -- dispatch --------------------------------------------------------------------
 
-def _kind(result):
+def _kind(result: object) -> str:
     from ..compare import Comparison
     from ..design import Design
     from ..evidence.tolerance import MonteCarloResult
@@ -330,18 +347,22 @@ def _kind(result):
                     "LoopResult or MonteCarloResult")
 
 
-def to_html(result, *, plots=True) -> str:
+def to_html(result: Any, *, plots: bool = True) -> str:
     """The notebook HTML of a Design, Comparison, LoopResult or MonteCarloResult."""
-    return {"design": design_html, "comparison": comparison_html, "loop": loop_html,
-            "monte_carlo": monte_carlo_html}[_kind(result)](result, plots=plots)
+    views: dict[str, Callable[..., str]] = {
+        "design": design_html, "comparison": comparison_html, "loop": loop_html,
+        "monte_carlo": monte_carlo_html}
+    return views[_kind(result)](result, plots=plots)
 
 
-def plot(result, **options):
+def plot(result: Any, **options: Any) -> Figure:
     """The main figure of a result, as a matplotlib Figure.
 
     A Design: its Bode plot (target and built); a Comparison: one
     section's ranking (``section=``, default 1); a LoopResult: the loop
     gain with its margins; a MonteCarloResult: the f0 histogram.
     """
-    return {"design": design_figure, "comparison": comparison_figure, "loop": loop_figure,
-            "monte_carlo": monte_carlo_figure}[_kind(result)](result, **options)
+    figures: dict[str, Callable[..., Figure]] = {
+        "design": design_figure, "comparison": comparison_figure, "loop": loop_figure,
+        "monte_carlo": monte_carlo_figure}
+    return figures[_kind(result)](result, **options)

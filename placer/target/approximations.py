@@ -27,7 +27,7 @@ from __future__ import annotations
 import difflib
 import math
 from dataclasses import dataclass
-from collections.abc import Callable, Collection, Sequence
+from collections.abc import Collection
 from typing import Any, NamedTuple, cast
 
 import numpy as np
