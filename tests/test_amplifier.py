@@ -84,7 +84,7 @@ def test_an_output_resistance_for_a_vcvs_only_circuit_is_refused():
     ), name="buffered-rc")
     with pytest.raises(SpecError, match=r"applies to op-amps only.*'buffered-rc'.*'E1'"):
         apply_amplifier(circuit, AmplifierSpec(output_resistance=50.0))
-    with pytest.raises(SpecError, match="output_resistance 50 Ω"):
+    with pytest.raises(SpecError, match="output resistance 50 Ω"):
         apply_amplifier(circuit, AmplifierSpec(output_resistance=50.0))
 
 

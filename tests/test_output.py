@@ -283,7 +283,7 @@ def test_bom_records_the_op_amp_model(outputs):
         assert all(r["opamp_model"].startswith("ideal") for r in opamps)
         assert all(r["opamp_model"] == "" for r in rows if r["kind"] != "opamp")
     model = AmplifierSpec(gbw=1e6, gain=1e5, output_resistance=50.0)
-    assert opamp_model_text(model) == ("single-pole model: GBW 1 MHz, DC gain 100 dB, "
+    assert opamp_model_text(model) == ("single-pole model: GBW 1 MHz, DC gain 100 dB (1e+05 V/V), "
                                        "output resistance 50 Ω")
     text = bom_csv(bom_rows([], opamps=[("U1", "op-amp")], amplifier=model))
     assert "GBW 1 MHz" in text.splitlines()[1]

@@ -112,13 +112,20 @@ def _check_model(amplifier: AmplifierSpec) -> tuple[float | None, float | None, 
 
 
 def describe_amplifier(amplifier: AmplifierSpec) -> str:
+    """The op-amp model in words, as every output shows it.
+
+    >>> describe_amplifier(AmplifierSpec(gbw=10e6, gain=10 ** (110 / 20), output_resistance=50.0))
+    'GBW 10 MHz, DC gain 110 dB (3.16e+05 V/V), output resistance 50 Ω'
+    >>> describe_amplifier(AmplifierSpec())
+    'ideal'
+    """
     words = []
     if amplifier.gbw is not None:
-        words.append(f"gbw {format_value(amplifier.gbw, 'Hz')}")
+        words.append(f"GBW {format_value(amplifier.gbw, 'Hz')}")
     if amplifier.gain is not None:
-        words.append(f"gain {amplifier.gain:.3g} V/V")
+        words.append(f"DC gain {20 * math.log10(amplifier.gain):.0f} dB ({amplifier.gain:.3g} V/V)")
     if amplifier.output_resistance:
-        words.append(f"output_resistance {format_value(amplifier.output_resistance, 'ohm')}")
+        words.append(f"output resistance {format_value(amplifier.output_resistance, 'ohm')}")
     return ", ".join(words) or "ideal"
 
 

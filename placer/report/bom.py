@@ -4,13 +4,13 @@ from __future__ import annotations
 
 import csv
 import io
-import math
 from collections.abc import Iterable, Mapping
 from typing import TYPE_CHECKING, Any
 
 from ..eseries import usual_tolerance
 from ..circuit.elements import KIND_UNITS
 from ..units import format_value
+from ..place.opamp import describe_amplifier
 
 if TYPE_CHECKING:
     from ..design import PartChoice
@@ -25,17 +25,10 @@ BOM_FIELDS: list[str] = ["references", "value", "value_si", "series", "tolerance
 
 
 def opamp_model_text(amplifier: AmplifierSpec | None) -> str:
-    """The op-amp model a design assumed, in words: "GBW 10 MHz, gain 110 dB, ..." or "ideal"."""
+    """The op-amp model a design assumed, in words: "single-pole model: GBW 10 MHz, …" or "ideal"."""
     if amplifier is None or (amplifier.gbw is None and amplifier.gain is None):
         return "ideal (infinite gain and GBW)"
-    words: list[str] = []
-    if amplifier.gbw is not None:
-        words.append(f"GBW {format_value(amplifier.gbw, 'Hz')}")
-    if amplifier.gain is not None:
-        words.append(f"DC gain {20 * math.log10(amplifier.gain):.0f} dB")
-    if amplifier.output_resistance:
-        words.append(f"output resistance {format_value(amplifier.output_resistance, 'ohm')}")
-    return "single-pole model: " + ", ".join(words)
+    return "single-pole model: " + describe_amplifier(amplifier)
 
 
 def bom_rows(parts: Iterable[PartChoice], *, tolerances: Mapping[str, float] | None = None,
