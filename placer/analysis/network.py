@@ -440,25 +440,12 @@ def network_function(circuit: Circuit, *, max_terms: int | None = None) -> Netwo
 
 @dataclass(frozen=True)
 class _Generators:
-    """The symbols of a circuit's symbolic parts and the ring generators they give.
+    """The symbols of a circuit's symbolic parts and the ring generators they give."""
 
-    Attributes
-    ----------
-    parts : dict
-        Part symbol name -> sympy Symbol (the R form, for resistors).
-    generators : list
-        Ring generators: s first, then one per part symbol (a resistor's
-        is its conductance ``_G_name``).
-    generator_of : dict
-        Part symbol name -> its generator.
-    role_of : dict
-        Part symbol name -> "conductance", "capacitance", ... (one per name).
-    """
-
-    parts: dict[str, sympy.Symbol]
-    generators: list[sympy.Symbol]
-    generator_of: dict[str, sympy.Symbol]
-    role_of: dict[str, str]
+    parts: dict[str, sympy.Symbol]          # part symbol -> sympy Symbol (R form for resistors)
+    generators: list[sympy.Symbol]          # s, then one per part (a resistor's: _G_name)
+    generator_of: dict[str, sympy.Symbol]   # part symbol -> its generator
+    role_of: dict[str, str]                 # part symbol -> "conductance", "capacitance", ...
 
 
 def _ring_generators(circuit: Circuit) -> _Generators:
