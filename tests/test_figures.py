@@ -26,7 +26,8 @@ from placer.evidence.gather import Evidence
 from placer.report.console import evidence_text, fmt_edges, fmt_peak_at
 from placer.analysis.response import Response
 from placer.target.targets import design_target
-from placer.evidence.verify import HALF_POWER_DB, frequency_figures, step_figures, verify
+from placer.evidence.figures import HALF_POWER_DB, frequency_figures, step_figures
+from placer.evidence.verify import verify
 
 TWO_PI = 2 * math.pi
 

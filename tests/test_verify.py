@@ -1,4 +1,5 @@
-"""Tests of placer.evidence.verify: step and frequency figures, deviations, margins."""
+"""Tests of placer.evidence.figures (step and frequency figures) and placer.evidence.verify
+(deviations, margins)."""
 
 import math
 
@@ -9,14 +10,8 @@ import scipy.signal
 
 from placer.errors import SpecError
 from placer.analysis.response import Response
-from placer.evidence.verify import (
-    HALF_POWER_DB,
-    deviation,
-    frequency_figures,
-    margins,
-    step_figures,
-    verify,
-)
+from placer.evidence.figures import HALF_POWER_DB, frequency_figures, step_figures
+from placer.evidence.verify import deviation, margins, verify
 
 W0 = 2 * math.pi * 1e3      # rad/s
 

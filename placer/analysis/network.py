@@ -45,7 +45,7 @@ from sympy.polys.domains import QQ, ZZ
 from sympy.polys.domains.domain import Domain
 
 from ..errors import TopologyError
-from .mna import layout, minor_expansion_det, stamps
+from .mna import Layout, layout, minor_expansion_det, stamps
 from .second_order import SecondOrderFigures, omega0_q, passband_gain
 from .pencil import (
     CircuitRoots,
@@ -417,10 +417,42 @@ def network_function(circuit: Circuit, *, max_terms: int | None = None) -> Netwo
     [C1*R1, 1]
     """
     lay = layout(circuit)
-    by_name = {e.name: e for e in circuit.elements}
-    part_symbols: dict[str, sympy.Symbol] = {}  # part symbol name -> sympy Symbol (R form)
-    generators = [S]       # ring generators (conductances as _G_name)
-    generator_of: dict[str, sympy.Symbol] = {}  # part symbol -> generator
+    symbols = _ring_generators(circuit)
+    terms_at, integral = _stamp_terms(circuit, lay, symbols)
+    ring = _flint_ring(len(symbols.generators), integral)
+    numerator, denominator = _transfer_determinants(circuit, lay, _matrix_entries(ring, terms_at),
+                                                    ring.constant(1), max_terms)
+    common, numerator, denominator = _cancel(numerator, denominator)
+    if _leading_sign(denominator) < 0:
+        numerator, denominator = -numerator, -denominator
+    names = list(symbols.generator_of)
+    ground = ZZ if integral else QQ
+    numerator_poly, denominator_poly = _to_resistances(
+        ground, numerator, denominator, names, symbols.role_of, symbols.parts
+    )
+    return NetworkFunction(
+        numerator=numerator_poly,
+        denominator=denominator_poly,
+        symbols=dict(symbols.parts),
+        cancelled=_flint_to_expr(common, symbols.generators, ground),
+    )
+
+
+@dataclass(frozen=True)
+class _Generators:
+    """The symbols of a circuit's symbolic parts and the ring generators they give."""
+
+    parts: dict[str, sympy.Symbol]          # part symbol -> sympy Symbol (R form for resistors)
+    generators: list[sympy.Symbol]          # s, then one per part (a resistor's: _G_name)
+    generator_of: dict[str, sympy.Symbol]   # part symbol -> its generator
+    role_of: dict[str, str]                 # part symbol -> "conductance", "capacitance", ...
+
+
+def _ring_generators(circuit: Circuit) -> _Generators:
+    """One generator per part symbol; a symbol naming parts of two kinds is an error."""
+    part_symbols: dict[str, sympy.Symbol] = {}
+    generators = [S]
+    generator_of: dict[str, sympy.Symbol] = {}
     role_of_symbol: dict[str, str] = {}
     for element in circuit.elements:
         if element.symbol is None or not element.is_symbolic:
@@ -441,8 +473,17 @@ def network_function(circuit: Circuit, *, max_terms: int | None = None) -> Netwo
         generator = sympy.Symbol(f"_G_{element.symbol}", positive=True) if role == "conductance" else part
         generators.append(generator)
         generator_of[element.symbol] = generator
+    return _Generators(part_symbols, generators, generator_of, role_of_symbol)
 
-    # Stamps as (generator index or None, exact number, power of s) terms.
+
+def _stamp_terms(circuit: Circuit, lay: Layout, symbols: _Generators,
+                 ) -> tuple[dict[tuple[int, int], list[_Term]], bool]:
+    """The stamps as (generator index or None, exact number, power of s) terms per entry.
+
+    Returns the terms by (row, column) and whether every number is an
+    integer (then the ring is over ZZ, else QQ).
+    """
+    by_name = {e.name: e for e in circuit.elements}
     terms_at: dict[tuple[int, int], list[_Term]] = {}
     integral = True
     for stamp in stamps(circuit, lay):
@@ -452,16 +493,24 @@ def network_function(circuit: Circuit, *, max_terms: int | None = None) -> Netwo
             name, role = stamp.parameter
             element = by_name[name]
             if element.symbol is not None and element.is_symbolic:
-                generator = generators.index(generator_of[element.symbol])
+                generator = symbols.generators.index(symbols.generator_of[element.symbol])
             else:
                 # a part without a symbol has a number
                 value = _rational(cast(float, element.parameter))
                 number = number / value if role == "conductance" else number * value
         integral = integral and number.is_integer
         terms_at.setdefault((stamp.row, stamp.col), []).append((generator, number, stamp.power))
-    ring = _flint_ring(len(generators), integral)
-    entries = _matrix_entries(ring, terms_at)
-    one = ring.constant(1)
+    return terms_at, integral
+
+
+def _transfer_determinants(circuit: Circuit, lay: Layout,
+                           entries: dict[tuple[int, int], _FlintPoly], one: _FlintPoly,
+                           max_terms: int | None) -> tuple[Any, Any]:
+    """(N, D) by Cramer's rule: D the MNA determinant, N with the output column replaced.
+
+    Raises TopologyError when D is zero (no unique solution) or N is zero
+    (the output does not depend on the input).
+    """
     denominator = minor_expansion_det(entries, lay.size, one, max_terms=max_terms)
     if denominator.is_zero():
         raise TopologyError(
@@ -478,20 +527,7 @@ def network_function(circuit: Circuit, *, max_terms: int | None = None) -> Netwo
             "H(s) = 0 for every part value (check the connections, and for a "
             "controlled source or op-amp gain of 0)"
         )
-    common, numerator, denominator = _cancel(numerator, denominator)
-    if _leading_sign(denominator) < 0:
-        numerator, denominator = -numerator, -denominator
-    names = list(generator_of)
-    ground = ZZ if integral else QQ
-    numerator_poly, denominator_poly = _to_resistances(
-        ground, numerator, denominator, names, role_of_symbol, part_symbols
-    )
-    return NetworkFunction(
-        numerator=numerator_poly,
-        denominator=denominator_poly,
-        symbols=dict(part_symbols),
-        cancelled=_flint_to_expr(common, generators, ground),
-    )
+    return numerator, denominator
 
 
 #: The symbolic path's polynomials (python-flint).

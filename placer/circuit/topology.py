@@ -34,7 +34,7 @@ from __future__ import annotations
 import math
 import re
 import tomllib
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from typing import Any, cast
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -245,66 +245,17 @@ def topology_from_dict(data: Any, *, source: str = "topology") -> Topology:
         type, a missing key, a part value or range in another kind's unit,
         out of bounds or not finite, a constraint on a part that is not free.
     """
-    if not isinstance(data, dict):
-        raise TopologyError(f"{source}: a topology must be a table")
-    for key, value in data.items():
-        if key not in TOPOLOGY_KEYS:
-            raise TopologyError(str(unknown_key(key, TOPOLOGY_KEYS, source)))
-        if key != "elements":
-            try:
-                check_type(value, TOPOLOGY_KEYS[key].type, f"{source}: {key}",
-                           TOPOLOGY_KEYS[key].description)
-            except SpecError as error:
-                raise TopologyError(str(error)) from None
-    for key in ("id", "title", "response", "order", "elements"):
-        if key not in data:
-            raise TopologyError(f"{source}: missing required key {key!r}")
-    topology_id = data["id"]
-    if not isinstance(topology_id, str) or not _ID.fullmatch(topology_id):
-        raise TopologyError(
-            f"{source}: id {brief(topology_id)} must use lowercase letters, digits and '-'"
-        )
-    response = data["response"]
-    if response not in RESPONSES:
-        raise TopologyError(
-            f"{source}: unknown response kind {brief(response)}; accepted: {', '.join(RESPONSES)}"
-        )
-    order = data["order"]
-    if not 0 <= order <= 24:
-        raise TopologyError(f"{source}: order = {order!r} must be a whole number from 0 to 24")
+    _check_keys(data, source)
+    topology_id, response, order = _heading(data, source)
     circuit = circuit_from_dict({k: data[k] for k in CIRCUIT_KEYS if k in data},
                                 source=source, parse=parse_value)
     circuit = replace(circuit, name=topology_id)
     symbols = circuit.symbols
     kinds = {e.symbol: e.kind for e in circuit.elements if e.symbol}
-    values: dict[str, float] = {}
-    for symbol, raw in data.get("values", {}).items():
-        if symbol not in symbols:
-            raise TopologyError(f"{source}: values: {brief(symbol)} is not a part of the topology")
-        values[symbol] = _part_number(raw, kinds[symbol], f"{source}: values.{symbol}")
-    free = data.get("free")
-    if free is None:
-        free = [s for s in symbols if s not in values]
-    for symbol in free:
-        if symbol not in symbols:
-            raise TopologyError(
-                f"{source}: free part {brief(symbol)} is not a symbol of any element"
-            )
-    for symbol in symbols:
-        if symbol not in free and symbol not in values:
-            raise TopologyError(
-                f"{source}: part {symbol!r} is neither free nor given a value in [values]"
-            )
+    values = _part_values(data, symbols, kinds, source)
+    free = _free_parts(data, symbols, values, source)
     ranges = _ranges(data.get("ranges", {}), free, symbols, kinds, source)
-    constraints = []
-    for text in data.get("constraints", []):
-        constraint = parse_constraint(text, where=f"{source}: constraints")
-        for name in (constraint.part, constraint.source):
-            if name not in free:
-                raise TopologyError(
-                    f"{source}: constraint {brief(text)} names {name!r}, which is not a free part"
-                )
-        constraints.append(constraint)
+    constraints = _constraints(data, free, source)
     for key in ("title", "description", "formula", "family"):
         if key in data and not isinstance(data[key], str):
             raise TopologyError(f"{source}: {key!r} must be a string")
@@ -313,11 +264,7 @@ def topology_from_dict(data: Any, *, source: str = "topology") -> Topology:
         drawing = drawing_from_table(data["drawing"], circuit, source=source)
         circuit = replace(circuit, drawing=drawing)
     notch_kinds = _notch_kinds(data, response, source)
-    ratio = data.get("capacitor_ratio_per_q2")
-    if ratio is not None and not (isinstance(ratio, (int, float)) and not isinstance(ratio, bool)
-                                  and math.isfinite(ratio) and ratio > 0):
-        raise TopologyError(f"{source}: capacitor_ratio_per_q2 = {brief(ratio)} must be a "
-                            f"positive number (4 for C1/C2 >= 4Q^2)")
+    ratio = _capacitor_ratio(data, source)
     return Topology(
         id=topology_id,
         title=data["title"],
@@ -335,9 +282,99 @@ def topology_from_dict(data: Any, *, source: str = "topology") -> Topology:
         path="",
         drawing=drawing,
         notch_kinds=notch_kinds,
-        capacitor_ratio_per_q2=None if ratio is None else float(ratio),
+        capacitor_ratio_per_q2=ratio,
         gbw_rule=data.get("gbw_rule", False),
     )
+
+
+def _check_keys(data: Any, source: str) -> None:
+    """A table with known keys only, each of its type, the required ones present."""
+    if not isinstance(data, dict):
+        raise TopologyError(f"{source}: a topology must be a table")
+    for key, value in data.items():
+        if key not in TOPOLOGY_KEYS:
+            raise TopologyError(str(unknown_key(key, TOPOLOGY_KEYS, source)))
+        if key != "elements":
+            try:
+                check_type(value, TOPOLOGY_KEYS[key].type, f"{source}: {key}",
+                           TOPOLOGY_KEYS[key].description)
+            except SpecError as error:
+                raise TopologyError(str(error)) from None
+    for key in ("id", "title", "response", "order", "elements"):
+        if key not in data:
+            raise TopologyError(f"{source}: missing required key {key!r}")
+
+
+def _heading(data: dict[str, Any], source: str) -> tuple[str, str, int]:
+    """(id, response kind, order), each checked."""
+    topology_id = data["id"]
+    if not isinstance(topology_id, str) or not _ID.fullmatch(topology_id):
+        raise TopologyError(
+            f"{source}: id {brief(topology_id)} must use lowercase letters, digits and '-'"
+        )
+    response = data["response"]
+    if response not in RESPONSES:
+        raise TopologyError(
+            f"{source}: unknown response kind {brief(response)}; accepted: {', '.join(RESPONSES)}"
+        )
+    order = data["order"]
+    if not 0 <= order <= 24:
+        raise TopologyError(f"{source}: order = {order!r} must be a whole number from 0 to 24")
+    return topology_id, response, order
+
+
+def _part_values(data: dict[str, Any], symbols: Sequence[str], kinds: Mapping[str, str],
+                 source: str) -> dict[str, float]:
+    """The ``[values]`` table: fixed parts, each a number in its kind's unit."""
+    values: dict[str, float] = {}
+    for symbol, raw in data.get("values", {}).items():
+        if symbol not in symbols:
+            raise TopologyError(f"{source}: values: {brief(symbol)} is not a part of the topology")
+        values[symbol] = _part_number(raw, kinds[symbol], f"{source}: values.{symbol}")
+    return values
+
+
+def _free_parts(data: dict[str, Any], symbols: Sequence[str], values: Mapping[str, float],
+                source: str) -> list[str]:
+    """The ``free`` list (default: every part without a value); every part is one or the other."""
+    free = data.get("free")
+    if free is None:
+        free = [s for s in symbols if s not in values]
+    for symbol in free:
+        if symbol not in symbols:
+            raise TopologyError(
+                f"{source}: free part {brief(symbol)} is not a symbol of any element"
+            )
+    for symbol in symbols:
+        if symbol not in free and symbol not in values:
+            raise TopologyError(
+                f"{source}: part {symbol!r} is neither free nor given a value in [values]"
+            )
+    return free
+
+
+def _constraints(data: dict[str, Any], free: Sequence[str], source: str) -> list[Constraint]:
+    """The ``constraints`` list, parsed; each names free parts only."""
+    constraints = []
+    for text in data.get("constraints", []):
+        constraint = parse_constraint(text, where=f"{source}: constraints")
+        for name in (constraint.part, constraint.source):
+            if name not in free:
+                raise TopologyError(
+                    f"{source}: constraint {brief(text)} names {name!r}, which is not a free part"
+                )
+        constraints.append(constraint)
+    return constraints
+
+
+def _capacitor_ratio(data: dict[str, Any], source: str) -> float | None:
+    """The ``capacitor_ratio_per_q2`` key: a positive number, or None when absent."""
+    ratio = data.get("capacitor_ratio_per_q2")
+    if ratio is not None and not (isinstance(ratio, (int, float)) and not isinstance(ratio, bool)
+                                  and math.isfinite(ratio) and ratio > 0):
+        raise TopologyError(f"{source}: capacitor_ratio_per_q2 = {brief(ratio)} must be a "
+                            f"positive number (4 for C1/C2 >= 4Q^2)")
+    return None if ratio is None else float(ratio)
 
 
 def _notch_kinds(data: dict[str, Any], response: str, source: str) -> tuple[str, ...]:

@@ -10,6 +10,15 @@ import importlib
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
+    from .figures import (
+        HALF_POWER_DB,
+        PEAK_TIE_DB,
+        StepFigures,
+        FrequencyFigures,
+        Figures,
+        step_figures,
+        frequency_figures,
+    )
     from .gather import (
         SectionEvidence,
         Evidence,
@@ -56,16 +65,9 @@ if TYPE_CHECKING:
         CascadeMonteCarloResult,
     )
     from .verify import (
-        HALF_POWER_DB,
-        PEAK_TIE_DB,
-        StepFigures,
-        FrequencyFigures,
-        Figures,
         Deviation,
         Verification,
         Margins,
-        step_figures,
-        frequency_figures,
         deviation,
         verify,
         margins,
@@ -82,6 +84,13 @@ if TYPE_CHECKING:
 
 #: Public name -> the module of this folder that defines it.
 _EXPORTS = {
+    "HALF_POWER_DB": "figures",
+    "PEAK_TIE_DB": "figures",
+    "StepFigures": "figures",
+    "FrequencyFigures": "figures",
+    "Figures": "figures",
+    "step_figures": "figures",
+    "frequency_figures": "figures",
     "SectionEvidence": "gather",
     "Evidence": "gather",
     "MaskFigures": "gather",
@@ -119,16 +128,9 @@ _EXPORTS = {
     "Statistics": "tolerance_results",
     "MonteCarloResult": "tolerance_results",
     "CascadeMonteCarloResult": "tolerance_results",
-    "HALF_POWER_DB": "verify",
-    "PEAK_TIE_DB": "verify",
-    "StepFigures": "verify",
-    "FrequencyFigures": "verify",
-    "Figures": "verify",
     "Deviation": "verify",
     "Verification": "verify",
     "Margins": "verify",
-    "step_figures": "verify",
-    "frequency_figures": "verify",
     "deviation": "verify",
     "verify": "verify",
     "margins": "verify",

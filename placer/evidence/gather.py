@@ -35,7 +35,8 @@ if TYPE_CHECKING:
     from ..place.solve import Problem
     from .tolerance import MonteCarloResult
     from ..spec.reader import Spec
-    from .verify import Deviation, Figures, Verification
+    from .figures import Figures
+    from .verify import Deviation, Verification
 
     Progress = Callable[[int, int, str], object]
 

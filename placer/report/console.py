@@ -16,7 +16,7 @@ from .prelayout import cascade_lines, section_lines
 
 if TYPE_CHECKING:
     from ..evidence.gather import Evidence, MaskFigures, MaskVerdict
-    from ..evidence.verify import FrequencyFigures
+    from ..evidence.figures import FrequencyFigures
     from ..target.mask import Mask
     from ..target.targets import Section, Target
 
