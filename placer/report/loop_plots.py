@@ -20,6 +20,7 @@ from ..units import format_value
 from .plots import magnitude_limits, new_figure
 
 if TYPE_CHECKING:
+    from matplotlib.axes import Axes
     from numpy.typing import ArrayLike
 
 __all__ = ["loop_bode_figure"]
@@ -72,61 +73,100 @@ def loop_bode_figure(frequency_hz: ArrayLike, magnitude_db: ArrayLike, phase_deg
     """
     frequency = np.asarray(frequency_hz, float)
     magnitude = np.asarray(magnitude_db, float)
-    phase = np.asarray(phase_deg, float)
+    phase = _shown_phase(frequency, np.asarray(phase_deg, float), crossover_hz, phase_crossover_hz)
+    fig = new_figure(7.5, 6.0)
+    magnitude_ax, phase_ax = fig.subplots(2, 1, sharex=True)
+    magnitude_ax.semilogx(frequency, magnitude, color="C0", linewidth=1.5, label="loop gain L")
+    phase_ax.semilogx(frequency, phase, color="C0", linewidth=1.5, label="loop gain L")
+    drawn = _draw_components(magnitude_ax, phase_ax, frequency, components or {},
+                             crossover_hz or phase_crossover_hz)
+    magnitude_ax.axhline(0.0, color="0.3", linewidth=0.9, linestyle="--")
+    phase_ax.axhline(-180.0, color="0.3", linewidth=0.9, linestyle="--")
+    notes = [_mark_phase_margin(magnitude_ax, phase_ax, crossover_hz, phase_margin_deg),
+             _mark_gain_margin(magnitude_ax, phase_ax, phase_crossover_hz, gain_margin_db)]
+    _write_notes(magnitude_ax, [note for note in notes if note])
+    _scale_axes(magnitude_ax, phase_ax, frequency, magnitude, phase, drawn)
+    magnitude_ax.set_title(title or ("Loop gain L = Gc·G, plant G and compensator Gc, with the "
+                                     "margins" if drawn else "Loop gain L(s) with its margins"))
+    return fig
+
+
+#: The double arrow that marks a margin.
+_ARROW: dict[str, Any] = dict(arrowstyle="<->", color="C3", linewidth=1.5)
+
+
+def _shown_phase(frequency: np.ndarray, phase: np.ndarray, crossover_hz: float | None,
+                 phase_crossover_hz: float | None) -> np.ndarray:
+    """L's phase shifted by whole turns: 0–360° below 0° at the crossover (else −180° at the
+    phase crossover, else (−270°, 90°] at the low end)."""
     if crossover_hz is not None:
         shift = -360.0 * math.floor(_at(frequency, phase, crossover_hz) / 360.0 + 1.0)
     elif phase_crossover_hz is not None:
         shift = -360.0 * round((_at(frequency, phase, phase_crossover_hz) + 180.0) / 360.0)
     else:
         shift = -360.0 * math.floor((phase[0] + 270.0) / 360.0) if phase.size else 0.0
-    phase = phase + shift
-    fig = new_figure(7.5, 6.0)
-    magnitude_ax, phase_ax = fig.subplots(2, 1, sharex=True)
-    magnitude_ax.semilogx(frequency, magnitude, color="C0", linewidth=1.5, label="loop gain L")
-    phase_ax.semilogx(frequency, phase, color="C0", linewidth=1.5, label="loop gain L")
+    return phase + shift
+
+
+def _draw_components(magnitude_ax: Axes, phase_ax: Axes, frequency: np.ndarray,
+                     components: Mapping[str, tuple[Any, Any]],
+                     at_hz: float | None) -> list[tuple[np.ndarray, np.ndarray]]:
+    """The loop's factors, thin and dashed; returns their (dB, degrees) as drawn."""
     drawn = []
-    for (label, (comp_db, comp_deg)), colour in zip((components or {}).items(), ("C2", "C1", "C5")):
+    for (label, (comp_db, comp_deg)), colour in zip(components.items(), ("C2", "C1", "C5")):
         comp_db = np.asarray(comp_db, float)
-        comp_deg = _component_phase(frequency, np.asarray(comp_deg, float),
-                                    crossover_hz or phase_crossover_hz)
+        comp_deg = _component_phase(frequency, np.asarray(comp_deg, float), at_hz)
         magnitude_ax.semilogx(frequency, comp_db, color=colour, linewidth=1.0, linestyle="--",
                               label=label)
         phase_ax.semilogx(frequency, comp_deg, color=colour, linewidth=1.0, linestyle="--",
                           label=label)
         drawn.append((comp_db, comp_deg))
-    magnitude_ax.axhline(0.0, color="0.3", linewidth=0.9, linestyle="--")
-    phase_ax.axhline(-180.0, color="0.3", linewidth=0.9, linestyle="--")
-    arrow = dict(arrowstyle="<->", color="C3", linewidth=1.5)
-    notes = []
-    if crossover_hz is not None and phase_margin_deg is not None:
-        for ax in (magnitude_ax, phase_ax):
-            ax.axvline(crossover_hz, color="C3", linewidth=0.8, linestyle=":")
-        at = -180.0 + phase_margin_deg
-        phase_ax.annotate("", xy=(crossover_hz, at), xytext=(crossover_hz, -180.0),
-                          arrowprops=arrow)
-        phase_ax.annotate(f"phase margin {phase_margin_deg:.1f}°\nat "
-                          f"{format_value(crossover_hz, 'Hz', digits=4)}",
-                          xy=(crossover_hz, (at - 180.0) / 2), xytext=(8, 0),
-                          textcoords="offset points", color="C3", fontsize=9, va="center")
-    else:
-        notes.append("no gain crossover: |L| never crosses 0 dB, the phase margin is undefined")
-    if phase_crossover_hz is not None and gain_margin_db is not None:
-        for ax in (magnitude_ax, phase_ax):
-            ax.axvline(phase_crossover_hz, color="C4", linewidth=0.8, linestyle=":")
-        gm_arrow = dict(arrow, color="C4")
-        magnitude_ax.annotate("", xy=(phase_crossover_hz, -gain_margin_db),
-                              xytext=(phase_crossover_hz, 0.0), arrowprops=gm_arrow)
-        magnitude_ax.annotate(f"gain margin {gain_margin_db:.1f} dB\nat "
-                              f"{format_value(phase_crossover_hz, 'Hz', digits=4)}",
-                              xy=(phase_crossover_hz, -gain_margin_db / 2), xytext=(8, 0),
-                              textcoords="offset points", color="C4", fontsize=9, va="center")
-    else:
-        notes.append("no phase crossover: the phase never reaches −180°, "
-                     "the gain margin is unbounded")
+    return drawn
+
+
+def _mark_phase_margin(magnitude_ax: Axes, phase_ax: Axes, crossover_hz: float | None,
+                       phase_margin_deg: float | None) -> str | None:
+    """The crossover line and the phase-margin arrow; else the note that there is none."""
+    if crossover_hz is None or phase_margin_deg is None:
+        return "no gain crossover: |L| never crosses 0 dB, the phase margin is undefined"
+    for ax in (magnitude_ax, phase_ax):
+        ax.axvline(crossover_hz, color="C3", linewidth=0.8, linestyle=":")
+    at = -180.0 + phase_margin_deg
+    phase_ax.annotate("", xy=(crossover_hz, at), xytext=(crossover_hz, -180.0),
+                      arrowprops=dict(_ARROW))
+    phase_ax.annotate(f"phase margin {phase_margin_deg:.1f}°\nat "
+                      f"{format_value(crossover_hz, 'Hz', digits=4)}",
+                      xy=(crossover_hz, (at - 180.0) / 2), xytext=(8, 0),
+                      textcoords="offset points", color="C3", fontsize=9, va="center")
+    return None
+
+
+def _mark_gain_margin(magnitude_ax: Axes, phase_ax: Axes, phase_crossover_hz: float | None,
+                      gain_margin_db: float | None) -> str | None:
+    """The phase-crossover line and the gain-margin arrow; else the note that there is none."""
+    if phase_crossover_hz is None or gain_margin_db is None:
+        return "no phase crossover: the phase never reaches −180°, the gain margin is unbounded"
+    for ax in (magnitude_ax, phase_ax):
+        ax.axvline(phase_crossover_hz, color="C4", linewidth=0.8, linestyle=":")
+    magnitude_ax.annotate("", xy=(phase_crossover_hz, -gain_margin_db),
+                          xytext=(phase_crossover_hz, 0.0), arrowprops=dict(_ARROW, color="C4"))
+    magnitude_ax.annotate(f"gain margin {gain_margin_db:.1f} dB\nat "
+                          f"{format_value(phase_crossover_hz, 'Hz', digits=4)}",
+                          xy=(phase_crossover_hz, -gain_margin_db / 2), xytext=(8, 0),
+                          textcoords="offset points", color="C4", fontsize=9, va="center")
+    return None
+
+
+def _write_notes(ax: Axes, notes: list[str]) -> None:
+    """The notes on a missing margin, boxed in the lower left of the magnitude axes."""
     if notes:
-        magnitude_ax.text(0.01, 0.03, "\n".join(notes), transform=magnitude_ax.transAxes,
-                          fontsize=8, color="0.25", va="bottom",
-                          bbox=dict(facecolor="white", edgecolor="0.8", alpha=0.9))
+        ax.text(0.01, 0.03, "\n".join(notes), transform=ax.transAxes, fontsize=8, color="0.25",
+                va="bottom", bbox=dict(facecolor="white", edgecolor="0.8", alpha=0.9))
+
+
+def _scale_axes(magnitude_ax: Axes, phase_ax: Axes, frequency: np.ndarray, magnitude: np.ndarray,
+                phase: np.ndarray, drawn: list[tuple[np.ndarray, np.ndarray]]) -> None:
+    """Limits, phase ticks, labels, legend and grid of both axes."""
     limits = magnitude_limits([magnitude, np.array([0.0])] + [d for d, _ in drawn])
     if limits:
         magnitude_ax.set_ylim(*limits)
@@ -146,6 +186,3 @@ def loop_bode_figure(frequency_hz: ArrayLike, magnitude_db: ArrayLike, phase_deg
         ax.grid(True, which="minor", color="0.94")
     if frequency.size:
         magnitude_ax.set_xlim(frequency.min(), frequency.max())
-    magnitude_ax.set_title(title or ("Loop gain L = Gc·G, plant G and compensator Gc, with the "
-                                     "margins" if drawn else "Loop gain L(s) with its margins"))
-    return fig

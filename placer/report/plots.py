@@ -192,7 +192,7 @@ def _clusters(roots: Iterable[complex], tolerance: float) -> list[tuple[complex,
 
 
 def magnitude_limits(arrays: Iterable[ArrayLike]) -> tuple[float, float] | None:
-    """The dB axis's limits for the finite values: at most 120 dB below the top, padded; None if none."""
+    """Limits of a dB axis for the finite values: 120 dB below the top at most, padded."""
     values = np.concatenate([np.asarray(a, float)[np.isfinite(a)] for a in arrays])
     if not values.size:
         return None
