@@ -1,7 +1,7 @@
 """The loop command as a designer reads it: [parts] shared with design, the
 right-half-plane-zero limit, the compensator's zeros and poles, the plot's
 plant and compensator curves. Tests of placer.spec.loop_table,
-placer.loops.compensator, placer.report.loop_text and placer.report.plots.
+placer.loops.compensator, placer.report.loop_text and placer.report.loop_plots.
 """
 
 import json
@@ -19,7 +19,7 @@ from placer.loops.compensator import RHP_ZERO_FRACTION, design_compensator
 from placer.loops.plants import boost_plant
 from placer.report.html import loop_components
 from placer.report.loop_text import loop_data, loop_text
-from placer.report.plots import loop_bode_figure
+from placer.report.loop_plots import loop_bode_figure
 from placer.spec.loop_table import run_loop
 from placer.spec.reader import load_spec
 

@@ -1,4 +1,4 @@
-"""Tests of placer.report.plots and placer.report.html: figures and HTML reports."""
+"""Tests of placer.report.plots, placer.report.loop_plots and placer.report.html: figures, reports."""
 
 import dataclasses
 import json
@@ -20,13 +20,13 @@ from placer.spec.loop_table import loop_to_dict, run_loop
 from placer.report.data import design_to_dict
 from placer.report.html import write_design_report, write_loop_report
 from placer.report.page import inline_svg
+from placer.report.loop_plots import loop_bode_figure
 from placer.report.plots import (
     bode_figure,
     engineering_scale,
     figure_png,
     figure_svg,
     histogram_figure,
-    loop_bode_figure,
     pole_zero_figure,
     save_figure,
     step_figure,

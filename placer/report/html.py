@@ -25,9 +25,10 @@ from ..circuit.elements import KIND_UNITS
 from ..units import format_value, plural
 from .console import (fmt_db, fmt_edges, fmt_gain, fmt_hz, fmt_pct, fmt_peak_at, fmt_q,
                       fmt_error, fmt_rejection, fmt_where, inverting_note, mask_lines, why_chosen, windows_text)
+from .loop_plots import loop_bode_figure
 from .page import (POWER_CAUTION, Plots, caution_block, escape, finish_report, number_or_dash,
                    paragraph, prepare_outputs, spec_block, table)
-from .plots import bode_figure, histogram_figure, loop_bode_figure, pole_zero_figure, step_figure
+from .plots import bode_figure, histogram_figure, pole_zero_figure, step_figure
 from .prelayout import compensator_html, html_parts
 from .schematic import compensator_schematic, design_schematic_html, schematic_figure
 

@@ -29,9 +29,9 @@ from typing import TYPE_CHECKING, Any, cast
 import numpy as np
 
 from ..units import format_value
+from .loop_plots import loop_bode_figure
 from .page import inline_svg
-from .plots import (bode_figure, figure_svg, histogram_figure, loop_bode_figure,
-                    pole_zero_figure, ranking_figure)
+from .plots import bode_figure, figure_svg, histogram_figure, pole_zero_figure, ranking_figure
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure

@@ -1,11 +1,12 @@
-"""Plots of a design or a loop, from plain arrays.
+"""Plots of a design, from plain arrays, and the canvas every plot is made on.
 
 Every function takes NumPy arrays (or sequences) and returns a
 :class:`matplotlib.figure.Figure` built without pyplot, so nothing here
 touches matplotlib's global figure manager or needs a display; rendering
 goes through the Agg (PNG) and SVG canvases. Frequencies on the axes are
 in hertz, roots in rad/s (scaled to krad/s, Mrad/s … as the numbers
-need), times in seconds with an SI prefix.
+need), times in seconds with an SI prefix. The loop-gain plot with its
+margins is in :mod:`placer.report.loop_plots`.
 
 Examples
 --------
@@ -49,8 +50,9 @@ __all__ = [
     "step_figure",
     "histogram_figure",
     "ranking_figure",
-    "loop_bode_figure",
     "engineering_scale",
+    "new_figure",
+    "magnitude_limits",
     "figure_svg",
     "figure_png",
     "save_figure",
@@ -90,7 +92,8 @@ def engineering_scale(largest: float) -> tuple[float, str]:
     return 10.0 ** power, _PREFIXES[power]
 
 
-def _new_figure(width: float = 7.0, height: float = 4.5) -> Figure:
+def new_figure(width: float = 7.0, height: float = 4.5) -> Figure:
+    """An empty figure of the given size (inches), constrained layout, no pyplot."""
     return Figure(figsize=(width, height), dpi=_DPI, layout="constrained")
 
 
@@ -129,7 +132,7 @@ def pole_zero_figure(target_poles: ArrayLike | None, target_zeros: ArrayLike | N
               "achieved poles": _roots(achieved_poles), "achieved zeros": _roots(achieved_zeros)}
     every = np.concatenate(list(groups.values()))
     factor, prefix = engineering_scale(np.max(np.abs(every)) if every.size else 0.0)
-    fig = _new_figure(6.5, 5.5)
+    fig = new_figure(6.5, 5.5)
     ax = fig.subplots()
     ax.axhline(0.0, color="0.3", linewidth=0.8, zorder=1)
     ax.axvline(0.0, color="0.3", linewidth=0.8, zorder=1)
@@ -188,7 +191,8 @@ def _clusters(roots: Iterable[complex], tolerance: float) -> list[tuple[complex,
     return out
 
 
-def _magnitude_limits(arrays: Iterable[ArrayLike]) -> tuple[float, float] | None:
+def magnitude_limits(arrays: Iterable[ArrayLike]) -> tuple[float, float] | None:
+    """Limits of a dB axis for the finite values: 120 dB below the top at most, padded."""
     values = np.concatenate([np.asarray(a, float)[np.isfinite(a)] for a in arrays])
     if not values.size:
         return None
@@ -294,7 +298,7 @@ def bode_figure(frequency_hz: ArrayLike, curves: Mapping[str, tuple[ArrayLike, A
     if reference is not None and reference not in curves:
         raise SpecError(f"reference must be one of the curves {sorted(curves)}, not {reference!r}")
     rows = 3 if reference is not None else 2
-    fig = _new_figure(7.5, 7.5 if rows == 3 else 6.0)
+    fig = new_figure(7.5, 7.5 if rows == 3 else 6.0)
     axes = fig.subplots(rows, 1, sharex=True, height_ratios=(3, 2, 2)[:rows] if rows == 3
                         else (3, 2))
     magnitude_ax, phase_ax = axes[0], axes[-1]
@@ -313,7 +317,7 @@ def bode_figure(frequency_hz: ArrayLike, curves: Mapping[str, tuple[ArrayLike, A
         shown.append(np.asarray(magnitude, float))
     if reference is not None:
         _difference_panel(axes[1], frequency, branched, reference, envelope)
-    limits = _magnitude_limits(shown + [np.array([level for box in mask_regions
+    limits = magnitude_limits(shown + [np.array([level for box in mask_regions
                                                   for level in box[2:] if level is not None])])\
         if shown else None
     if limits:
@@ -399,7 +403,7 @@ def step_figure(curves: Mapping[str, tuple[ArrayLike, ArrayLike]], *,
     """
     ends = [float(np.max(t)) for t, _ in curves.values() if np.size(t)]
     factor, prefix = engineering_scale(max(ends) if ends else 0.0)
-    fig = _new_figure(7.5, 4.2)
+    fig = new_figure(7.5, 4.2)
     ax = fig.subplots()
     colours = iter(_COLOURS)
     for label, (time, output) in curves.items():
@@ -448,7 +452,7 @@ def histogram_figure(samples: ArrayLike, nominal: float | None, *, label: str, u
                   abs(nominal) if nominal is not None else 0.0)
     factor, prefix = (1.0, "") if plain else engineering_scale(largest)
     shown = {"deg": "degrees", "": ""}.get(unit, f"{prefix}{unit}")
-    fig = _new_figure(6.0, 3.8)
+    fig = new_figure(6.0, 3.8)
     ax = fig.subplots()
     if values.size:
         bins = int(np.clip(round(math.sqrt(values.size)), 10, 60))
@@ -497,7 +501,7 @@ def ranking_figure(names: Sequence[str], yields_pct: Sequence[float],
     matplotlib.figure.Figure
     """
     count = len(names)
-    fig = _new_figure(7.0, 1.2 + 0.42 * max(count, 1))
+    fig = new_figure(7.0, 1.2 + 0.42 * max(count, 1))
     ax_yield, ax_error = fig.subplots(1, 2, sharey=True, width_ratios=(3, 2))
     rows = np.arange(count)
     ax_yield.barh(rows, yields_pct, color="C0", zorder=2)
@@ -543,132 +547,6 @@ def _window_label(window: tuple[float | None, float | None], unit: str,
             inside &= values <= window[1]
         text += f" ({100 * inside.mean():.1f} % inside)"
     return text
-
-
-def _at(frequency: np.ndarray, values: np.ndarray, where: float) -> float:
-    return float(np.interp(math.log(where), np.log(frequency), values))
-
-
-def _component_phase(frequency: np.ndarray, phase: np.ndarray, at_hz: float | None) -> np.ndarray:
-    """A plant's or compensator's phase on the branch where it reads (−270°, 90°] at `at_hz`."""
-    if at_hz is None or not phase.size:
-        return phase
-    return phase - 360.0 * math.floor((_at(frequency, phase, at_hz) + 270.0) / 360.0)
-
-
-def loop_bode_figure(frequency_hz: ArrayLike, magnitude_db: ArrayLike, phase_deg: ArrayLike, *,
-                     crossover_hz: float | None, phase_margin_deg: float | None,
-                     gain_margin_db: float | None, phase_crossover_hz: float | None,
-                     title: str | None = None,
-                     components: Mapping[str, tuple[Any, Any]] | None = None) -> Figure:
-    """Loop gain with its margins marked.
-
-    Parameters
-    ----------
-    frequency_hz, magnitude_db, phase_deg : array_like
-        The loop gain L(j2πf): Hz, dB, degrees (unwrapped). The phase is
-        shifted by whole turns so the mark at the crossover sits 0–360°
-        below 0° (a stable loop's phase at crossover reads −180° + PM).
-    crossover_hz, phase_margin_deg : float or None
-        Gain crossover (|L| = 0 dB) and the phase margin there; None when
-        |L| never crosses 0 dB.
-    gain_margin_db, phase_crossover_hz : float or None
-        Gain margin at the phase crossover (phase −180°); None when the
-        phase never reaches −180°.
-    title : str, optional
-    components : mapping of str to (magnitude_db, phase_deg), optional
-        The loop's factors on the same grid, e.g. ``{"plant G": ...,
-        "compensator Gc": ...}``: drawn thinner and dashed beside |L| and
-        ∠L, each phase on the branch where it reads (−270°, 90°] at the
-        crossover, with a legend.
-
-    Returns
-    -------
-    matplotlib.figure.Figure
-        Magnitude above with the 0 dB line, phase below with the −180°
-        line, the phase margin drawn as an arrow at the crossover and the
-        gain margin as an arrow at the phase crossover, or a note saying
-        there is none.
-    """
-    frequency = np.asarray(frequency_hz, float)
-    magnitude = np.asarray(magnitude_db, float)
-    phase = np.asarray(phase_deg, float)
-    if crossover_hz is not None:
-        shift = -360.0 * math.floor(_at(frequency, phase, crossover_hz) / 360.0 + 1.0)
-    elif phase_crossover_hz is not None:
-        shift = -360.0 * round((_at(frequency, phase, phase_crossover_hz) + 180.0) / 360.0)
-    else:
-        shift = -360.0 * math.floor((phase[0] + 270.0) / 360.0) if phase.size else 0.0
-    phase = phase + shift
-    fig = _new_figure(7.5, 6.0)
-    magnitude_ax, phase_ax = fig.subplots(2, 1, sharex=True)
-    magnitude_ax.semilogx(frequency, magnitude, color="C0", linewidth=1.5, label="loop gain L")
-    phase_ax.semilogx(frequency, phase, color="C0", linewidth=1.5, label="loop gain L")
-    drawn = []
-    for (label, (comp_db, comp_deg)), colour in zip((components or {}).items(), ("C2", "C1", "C5")):
-        comp_db = np.asarray(comp_db, float)
-        comp_deg = _component_phase(frequency, np.asarray(comp_deg, float),
-                                    crossover_hz or phase_crossover_hz)
-        magnitude_ax.semilogx(frequency, comp_db, color=colour, linewidth=1.0, linestyle="--",
-                              label=label)
-        phase_ax.semilogx(frequency, comp_deg, color=colour, linewidth=1.0, linestyle="--",
-                          label=label)
-        drawn.append((comp_db, comp_deg))
-    magnitude_ax.axhline(0.0, color="0.3", linewidth=0.9, linestyle="--")
-    phase_ax.axhline(-180.0, color="0.3", linewidth=0.9, linestyle="--")
-    arrow = dict(arrowstyle="<->", color="C3", linewidth=1.5)
-    notes = []
-    if crossover_hz is not None and phase_margin_deg is not None:
-        for ax in (magnitude_ax, phase_ax):
-            ax.axvline(crossover_hz, color="C3", linewidth=0.8, linestyle=":")
-        at = -180.0 + phase_margin_deg
-        phase_ax.annotate("", xy=(crossover_hz, at), xytext=(crossover_hz, -180.0),
-                          arrowprops=arrow)
-        phase_ax.annotate(f"phase margin {phase_margin_deg:.1f}°\nat "
-                          f"{format_value(crossover_hz, 'Hz', digits=4)}",
-                          xy=(crossover_hz, (at - 180.0) / 2), xytext=(8, 0),
-                          textcoords="offset points", color="C3", fontsize=9, va="center")
-    else:
-        notes.append("no gain crossover: |L| never crosses 0 dB, the phase margin is undefined")
-    if phase_crossover_hz is not None and gain_margin_db is not None:
-        for ax in (magnitude_ax, phase_ax):
-            ax.axvline(phase_crossover_hz, color="C4", linewidth=0.8, linestyle=":")
-        gm_arrow = dict(arrow, color="C4")
-        magnitude_ax.annotate("", xy=(phase_crossover_hz, -gain_margin_db),
-                              xytext=(phase_crossover_hz, 0.0), arrowprops=gm_arrow)
-        magnitude_ax.annotate(f"gain margin {gain_margin_db:.1f} dB\nat "
-                              f"{format_value(phase_crossover_hz, 'Hz', digits=4)}",
-                              xy=(phase_crossover_hz, -gain_margin_db / 2), xytext=(8, 0),
-                              textcoords="offset points", color="C4", fontsize=9, va="center")
-    else:
-        notes.append("no phase crossover: the phase never reaches −180°, "
-                     "the gain margin is unbounded")
-    if notes:
-        magnitude_ax.text(0.01, 0.03, "\n".join(notes), transform=magnitude_ax.transAxes,
-                          fontsize=8, color="0.25", va="bottom",
-                          bbox=dict(facecolor="white", edgecolor="0.8", alpha=0.9))
-    limits = _magnitude_limits([magnitude, np.array([0.0])] + [d for d, _ in drawn])
-    if limits:
-        magnitude_ax.set_ylim(*limits)
-    if drawn:
-        magnitude_ax.legend(loc="upper right", fontsize=8)
-    finite = np.concatenate([phase] + [p for _, p in drawn])
-    finite = finite[np.isfinite(finite)]
-    if finite.size:
-        low, high = min(finite.min(), -180.0), max(finite.max(), -180.0)
-        phase_ax.set_ylim(low - 15.0, high + 15.0)
-        phase_ax.yaxis.set_major_locator(MultipleLocator(90 if high - low > 270 else 45))
-    magnitude_ax.set_ylabel("magnitude (dB)" if drawn else "loop gain |L| (dB)")
-    phase_ax.set_ylabel("phase (degrees)" if drawn else "loop phase ∠L (degrees)")
-    phase_ax.set_xlabel("frequency (Hz)")
-    for ax in (magnitude_ax, phase_ax):
-        ax.grid(True, which="major", color="0.85")
-        ax.grid(True, which="minor", color="0.94")
-    if frequency.size:
-        magnitude_ax.set_xlim(frequency.min(), frequency.max())
-    magnitude_ax.set_title(title or ("Loop gain L = Gc·G, plant G and compensator Gc, with the "
-                                     "margins" if drawn else "Loop gain L(s) with its margins"))
-    return fig
 
 
 def figure_svg(fig: Figure) -> str:

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import re
 from collections.abc import Sequence
+from dataclasses import dataclass, field
 from fractions import Fraction
 from typing import Any
 
@@ -170,27 +171,66 @@ def root_product_text(terms: Sequence[tuple[Any, Fraction]]) -> tuple[str, Any]:
         The text (sympy operators, ``sqrt``) and the expression it writes,
         built alongside it, so that a caller can check the two agree.
     """
-    halves: dict[Any, int] = {}     # factor -> exponent in halves
-    kept: list[tuple[Any, int]] = []  # factors of unknown sign, as the terms put them
-    constant = sympy.Integer(1)       # rational, to the power of its own halves below
-    constant_halves: list[tuple[Any, int]] = []
     symbols = sorted({x for expr, _ in terms for x in sympy.sympify(expr).free_symbols},
                      key=lambda x: symbol_order(x.name))
+    split = _split_terms(terms, symbols)
+    if split.zero is not None:
+        return split.zero
+    constant, inside_constant = _split_constant(split.constant_halves)
+    outside_num, outside_den, inside_num, inside_den = _out_of_root(
+        list(split.halves.items()) + split.kept)
+    constant = sympy.Rational(constant)
+    sign = "-" if constant < 0 else ""
+    constant = abs(constant)
+    inside = sympy.Rational(inside_constant)
+    numerator = ([_number(constant.p)] if constant.p != 1 else []) + _texts(outside_num, symbols)
+    denominator = ([_number(constant.q)] if constant.q != 1 else []) + _texts(outside_den, symbols)
+    root = _root_text(([_number(inside.p)] if inside.p != 1 else []) + _texts(inside_num, symbols),
+                      ([_number(inside.q)] if inside.q != 1 else []) + _texts(inside_den, symbols))
+    if root is not None:
+        (numerator if root[0] else denominator).append(root[1])
+    text = sign + (_product(numerator) or "1")
+    if denominator:
+        text += "/" + (denominator[0] if len(denominator) == 1 else f"({_product(denominator)})")
+    expr = ((-1 if sign else 1) * constant * _value(outside_num) / _value(outside_den)
+            * sympy.sqrt(inside_constant * _value(inside_num) / _value(inside_den)))
+    return text, expr
+
+
+@dataclass
+class _Split:
+    """The terms taken apart: positive factors, the others, the rational constants."""
+
+    halves: dict[Any, int] = field(default_factory=dict)       # factor -> exponent in halves
+    kept: list[tuple[Any, int]] = field(default_factory=list)  # of unknown sign, as given
+    constant_halves: list[tuple[Any, int]] = field(default_factory=list)  # (rational, halves)
+    zero: tuple[str, Any] | None = None     # the whole result when a term is zero
+
+
+def _split_terms(terms: Sequence[tuple[Any, Fraction]], symbols: Sequence[Any]) -> _Split:
+    """Factor each term; a positive factor's halves add up, the others are kept apart."""
+    split = _Split()
     for expr, exponent in terms:
         twice = int(2 * exponent)
         if twice != 2 * exponent:
             raise ValueError(f"exponent {exponent}: a whole or half number only")
         expr = sympy.sympify(expr)
         if expr == 0:
-            return ("0", sympy.Integer(0)) if exponent > 0 else ("zoo", sympy.zoo)
+            split.zero = ("0", sympy.Integer(0)) if exponent > 0 else ("zoo", sympy.zoo)
+            return split
         coefficient, factors = sympy.factor_list(expr, *symbols) if symbols else (expr, [])
-        constant_halves.append((coefficient, twice))
+        split.constant_halves.append((coefficient, twice))
         for factor, power in factors:
             if _positive(factor, symbols):
-                halves[factor] = halves.get(factor, 0) + twice * power
+                split.halves[factor] = split.halves.get(factor, 0) + twice * power
             else:
-                kept.append((factor, twice * power))
-    # the rational constant: a perfect square comes out of the root
+                split.kept.append((factor, twice * power))
+    return split
+
+
+def _split_constant(constant_halves: Sequence[tuple[Any, int]]) -> tuple[Any, Any]:
+    """(outside, inside the root) of the rational constant: a perfect square comes out."""
+    constant = sympy.Integer(1)
     inside_constant = sympy.Integer(1)
     for coefficient, twice in constant_halves:
         if twice % 2 == 0:
@@ -203,57 +243,52 @@ def root_product_text(terms: Sequence[tuple[Any, Fraction]]) -> tuple[str, Any]:
             constant *= coefficient ** ((twice - 1) // 2) if twice > 0 else \
                 coefficient ** ((twice + 1) // 2)
             inside_constant *= coefficient if twice > 0 else 1 / coefficient
-    outside_num: list[tuple[Any, int]] = []
-    outside_den: list[tuple[Any, int]] = []
-    inside_num: list[tuple[Any, int]] = []
-    inside_den: list[tuple[Any, int]] = []
-    for factor, h in list(halves.items()) + kept:
+    return constant, inside_constant
+
+
+_Factors = list[tuple[Any, int]]
+
+
+def _out_of_root(factors: Sequence[tuple[Any, int]]
+                 ) -> tuple[_Factors, _Factors, _Factors, _Factors]:
+    """(outside numerator, outside denominator, inside numerator, inside denominator)
+    of factors with exponents in halves: the whole powers come out of the root."""
+    outside_num: _Factors = []
+    outside_den: _Factors = []
+    inside_num: _Factors = []
+    inside_den: _Factors = []
+    for factor, h in factors:
         whole, odd = divmod(abs(h), 2)
         if whole:
             (outside_num if h > 0 else outside_den).append((factor, whole))
         if odd:
             (inside_num if h > 0 else inside_den).append((factor, 1))
+    return outside_num, outside_den, inside_num, inside_den
 
-    def order(items: list[tuple[Any, int]]) -> list[tuple[Any, int]]:
-        # single parts first, in the R, C, L order, then the sums
-        return sorted(items, key=lambda item: (0, symbol_order(str(item[0]))) if item[0].is_Symbol
-                      else (1, (str(item[0]),)))
 
-    def texts(items: list[tuple[Any, int]]) -> list[str]:
-        return [(_factor_text(f, symbols) if p == 1 else f"{_factor_text(f, symbols)}**{p}")
-                for f, p in order(items)]
+def _order(items: _Factors) -> _Factors:
+    """Single parts first, in the R, C, L order, then the sums."""
+    return sorted(items, key=lambda item: (0, symbol_order(str(item[0]))) if item[0].is_Symbol
+                  else (1, (str(item[0]),)))
 
-    def value(items: list[tuple[Any, int]]) -> Any:
-        return sympy.Mul(*(f ** p for f, p in items))
 
-    numerator: list[str] = []
-    denominator: list[str] = []
-    constant = sympy.Rational(constant)
-    if constant < 0:
-        sign, constant = "-", -constant
-    else:
-        sign = ""
-    if constant.p != 1:
-        numerator.append(_number(constant.p))
-    if constant.q != 1:
-        denominator.append(_number(constant.q))
-    numerator += texts(outside_num)
-    denominator += texts(outside_den)
-    root_num = ([_number(sympy.Rational(inside_constant).p)]
-                if sympy.Rational(inside_constant).p != 1 else []) + texts(inside_num)
-    root_den = ([_number(sympy.Rational(inside_constant).q)]
-                if sympy.Rational(inside_constant).q != 1 else []) + texts(inside_den)
+def _texts(items: _Factors, symbols: Sequence[Any]) -> list[str]:
+    return [(_factor_text(f, symbols) if p == 1 else f"{_factor_text(f, symbols)}**{p}")
+            for f, p in _order(items)]
+
+
+def _value(items: _Factors) -> Any:
+    return sympy.Mul(*(f ** p for f, p in items))
+
+
+def _root_text(root_num: list[str], root_den: list[str]) -> tuple[bool, str] | None:
+    """The square root of the factors left inside, and whether it goes above the line."""
     if root_num and root_den:
         below = _product(root_den)
-        numerator.append(f"sqrt({_product(root_num)}/"
-                         + (below if len(root_den) == 1 else f"({below})") + ")")
-    elif root_num:
-        numerator.append(f"sqrt({_product(root_num)})")
-    elif root_den:
-        denominator.append(f"sqrt({_product(root_den)})")
-    text = sign + (_product(numerator) or "1")
-    if denominator:
-        text += "/" + (denominator[0] if len(denominator) == 1 else f"({_product(denominator)})")
-    expr = ((-1 if sign else 1) * constant * value(outside_num) / value(outside_den)
-            * sympy.sqrt(inside_constant * value(inside_num) / value(inside_den)))
-    return text, expr
+        return True, (f"sqrt({_product(root_num)}/"
+                      + (below if len(root_den) == 1 else f"({below})") + ")")
+    if root_num:
+        return True, f"sqrt({_product(root_num)})"
+    if root_den:
+        return False, f"sqrt({_product(root_den)})"
+    return None

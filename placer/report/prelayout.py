@@ -15,8 +15,8 @@ import numpy as np
 from matplotlib.figure import Figure
 
 from ..units import format_value
+from .loop_plots import loop_bode_figure
 from .page import escape, paragraph, table
-from .plots import loop_bode_figure
 
 if TYPE_CHECKING:
     from numpy.typing import ArrayLike
