@@ -102,6 +102,7 @@ def drive(path: Path, drags: int) -> dict:
     cold = time.perf_counter() - started
     reply.raise_for_status()
     times = []
+    replaced_counts = []
     for k in range(1, drags + 1):
         sections = [dict(s) for s in base]
         sections[0].update(f0=round(5000.0 * 1.02 ** k, 1), q=round(0.56 * 1.03 ** k, 4))
@@ -112,9 +113,12 @@ def drive(path: Path, drags: int) -> dict:
         if reply.status_code != 200 or not data.get("ok"):
             raise SystemExit(f"{path.name}: drag {k} failed: {data}")
         replaced = sorted(s["slot"] for s in data["sections"] if s["replaced"])
-        if replaced != [0]:
-            raise SystemExit(f"{path.name}: drag {k} re-placed sections {replaced}, not [0]")
-    return {"cold": cold, "times": times}
+        if 0 not in replaced:
+            raise SystemExit(f"{path.name}: drag {k} did not re-place section 1 ({replaced})")
+        # A later section is placed again too when its impedance-level rule
+        # changed: the default noise band spans the whole target's poles.
+        replaced_counts.append(len(replaced))
+    return {"cold": cold, "times": times, "replaced": replaced_counts}
 
 
 def cli_design(path: Path) -> float:
@@ -136,7 +140,7 @@ def main() -> int:
     print(f"{args.drags} drags of section 1 each; seconds from request to decoded reply\n")
     names = lowpass_topologies()
     header = (f"{'candidates':34s} {'median':>7s} {'p90':>7s} {'max':>7s}  "
-              f"{'cold 1st':>8s} {'CLI design':>10s}  bar {BAR_S} s")
+              f"{'cold 1st':>8s} {'CLI design':>10s} {'placed':>6s}  bar {BAR_S} s")
     print(header)
     print("-" * len(header))
     failed = []
@@ -153,9 +157,12 @@ def main() -> int:
             verdict = ("ok" if median < BAR_S else "OVER") if single else "(not barred)"
             if single and median >= BAR_S:
                 failed.append(label)
+            placed = statistics.median(result["replaced"])
             print(f"{label:34s} {median:7.3f} {p90:7.3f} {times[-1]:7.3f}  "
-                  f"{result['cold']:8.2f} {cli:>10s}  {verdict}")
+                  f"{result['cold']:8.2f} {cli:>10s} {placed:6.0f}  {verdict}")
     print()
+    print("placed: sections placed again per drag (median); a drag moves section 1's f0, which "
+          "moves the\ndefault noise band, so section 2's impedance level is chosen again too")
     print("over the bar: " + (", ".join(failed) if failed else "none"))
     return 1 if failed else 0
 
