@@ -41,9 +41,14 @@ CASES = [  # name, arguments, progress marker, baseline arguments
     ("compare, all low-pass candidates",
      ["compare", str(EXAMPLES / "compare-lowpass.toml")], "compare [",
      ["compare", str(EXAMPLES / "compare-lowpass.toml")]),
-    ("design, 10^6 Monte Carlo samples",
-     ["design", str(EXAMPLES / "adc-antialias.toml"), "--samples", "1000000"], "evidence [",
+    ("design, while placing",
+     ["design", str(EXAMPLES / "adc-antialias.toml")], "designing [",
      ["design", str(EXAMPLES / "adc-antialias.toml")]),
+    # (design's Monte Carlo is capped at 10^6 samples, which this spec's two
+    # sections run in about 0.5 s: a signal half a second after it starts
+    # lands after the run, in the interpreter's teardown, and the status is
+    # death by SIGINT, -2, not 130. Interrupting the placement measures the
+    # command's own handling.)
 ]
 
 
