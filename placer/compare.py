@@ -203,7 +203,7 @@ class SectionComparison:
 
     index: int
     section: Section
-    candidates: tuple      # of CandidateResult, in rank order
+    candidates: tuple[CandidateResult, ...]   # in rank order
 
     @property
     def reachable(self) -> bool:

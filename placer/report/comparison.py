@@ -75,8 +75,6 @@ def _short_source(source: str) -> str:
     return GBW_SOURCES_SHORT["model"] if source else "-"
 
 
-# SectionComparison.candidates is a bare tuple in placer.compare: this cast is
-# the boundary.
 def _spec(comparison: Comparison) -> Spec:
     return comparison.spec
 
@@ -86,7 +84,7 @@ def _section(s: SectionComparison) -> Section:
 
 
 def _candidates(s: SectionComparison) -> tuple[CandidateResult, ...]:
-    return cast("tuple[CandidateResult, ...]", s.candidates)
+    return s.candidates
 
 
 def _kinds_present(comparison: Comparison) -> set[str]:
@@ -332,8 +330,10 @@ def write_comparison_report(comparison: Comparison, *,
             reachable = [c for c in s.candidates if c.reachable]
             parts.append(plots.block(
                 f"section{s.index}-ranking",
-                ranking_figure([c.topology for c in reachable], [c.yield_pct for c in reachable],
-                               [c.error_pct for c in reachable],
+                # a reachable candidate carries its yield and error
+                ranking_figure([c.topology for c in reachable],
+                               [cast(float, c.yield_pct) for c in reachable],
+                               [cast(float, c.error_pct) for c in reachable],
                                title=f"Section {s.index}: yield and error, best first"),
                 f"Section {s.index}: Monte Carlo yield (%) and worst error with preferred values "
                 "(%, log scale) of each candidate, in rank order."))

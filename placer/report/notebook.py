@@ -36,7 +36,7 @@ from .plots import bode_figure, figure_svg, histogram_figure, pole_zero_figure, 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
 
-    from ..compare import CandidateResult, Comparison
+    from ..compare import Comparison
     from ..design import Design
     from ..evidence.tolerance_results import MonteCarloResult, Statistics
     from ..evidence.verify import Margins
@@ -189,9 +189,8 @@ def comparison_figure(comparison: Comparison, section: int = 1) -> Figure:
 
         raise SpecError(f"section = {section!r}: the comparison has sections "
                         f"{', '.join(str(s.index) for s in comparison.sections)}")
-    # candidates are a bare tuple in placer.compare; reachable ones carry every number
-    reachable = [c for c in cast("tuple[CandidateResult, ...]", chosen[0].candidates)
-                 if c.reachable]
+    # a reachable candidate carries every number (the casts below)
+    reachable = [c for c in chosen[0].candidates if c.reachable]
     return ranking_figure([c.topology for c in reachable],
                           [cast(float, c.yield_pct) for c in reachable],
                           [cast(float, c.error_pct) for c in reachable],
