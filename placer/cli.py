@@ -293,14 +293,7 @@ def _check_early(args: argparse.Namespace) -> None:
     for name in _EARLY_TABLES:
         if name in data:
             check_table(data[name], name, source=str(spec))
-    for option in _FILE_OUTPUTS:
-        path = getattr(args, option, None)
-        if path is not None and path != "-":
-            check_output_path(path, inputs=(spec,), option=f"--{option}")
-    for option in _FOLDER_OUTPUTS:
-        folder = getattr(args, option, None)
-        if folder is not None:
-            check_output_folder(folder, inputs=(spec,), option=f"--{option}")
+    _check_outputs(args, (spec,))  # again with every input once the spec is read
     if args.command in ("design", "loop"):  # compare leaves its counts to compare()
         _check_counts(("--samples", args.samples if args.command == "design" else None, 1),
                       ("--seed", args.seed, 0), ("--workers", args.workers, 1))

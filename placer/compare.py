@@ -359,22 +359,19 @@ class _GBWFigure:
     resolved_hz: float | None = None
 
 
-# Candidate's fields problem, snapped and errors (and AmplifiedCandidate's ideal_snapped and
-# ideal_errors) are typed `object` in place/ for now: these read them as what they hold.
+# A candidate that reached its section has its problem, preferred values and
+# errors (they are None only on an unreachable one): these read them so.
 
 def _problem(candidate: Candidate) -> Problem:
-    problem: Any = candidate.problem
-    return problem
+    return cast("Problem", candidate.problem)
 
 
-def _snapped(candidate: Candidate, *, ideal: bool = False) -> SnapResult:
-    snapped: Any = cast(AmplifiedCandidate, candidate).ideal_snapped if ideal else candidate.snapped
-    return snapped
+def _snapped(candidate: Candidate) -> SnapResult:
+    return cast("SnapResult", candidate.snapped)
 
 
-def _errors(candidate: Candidate, *, ideal: bool = False) -> RootErrors:
-    errors: Any = cast(AmplifiedCandidate, candidate).ideal_errors if ideal else candidate.errors
-    return errors
+def _errors(candidate: Candidate) -> RootErrors:
+    return cast("RootErrors", candidate.errors)
 
 
 def _ideal_design(candidate: Candidate) -> tuple[dict[str, float], float]:
@@ -386,8 +383,8 @@ def _ideal_design(candidate: Candidate) -> tuple[dict[str, float], float]:
     and without ``[amplifier]``.
     """
     if isinstance(candidate, AmplifiedCandidate):
-        return (_snapped(candidate, ideal=True).values,
-                _errors(candidate, ideal=True).worst_error_with_gain_pct)
+        return (cast("SnapResult", candidate.ideal_snapped).values,
+                cast("RootErrors", candidate.ideal_errors).worst_error_with_gain_pct)
     return _snapped(candidate).values, candidate.error_pct
 
 
