@@ -578,12 +578,6 @@ def _cmd_loop(args: argparse.Namespace) -> int:
     return 0
 
 
-def _plain(value: object) -> str:
-    if isinstance(value, float):
-        return f"{value:.4g}"
-    return str(value)
-
-
 # -- topologies ----------------------------------------------------------------
 
 def _cmd_topologies(args: argparse.Namespace) -> int:

@@ -564,16 +564,6 @@ def _key(point: tuple) -> tuple:
     return (round(point[0], 6), round(point[1], 6))
 
 
-def _on_interior(point: tuple, segment: tuple) -> bool:
-    (x0, y0), (x1, y1) = segment
-    x, y = point
-    if abs(x0 - x1) < _EPS:
-        return abs(x - x0) < _EPS and min(y0, y1) + _EPS < y < max(y0, y1) - _EPS
-    if abs(y0 - y1) < _EPS:
-        return abs(y - y0) < _EPS and min(x0, x1) + _EPS < x < max(x0, x1) - _EPS
-    return False
-
-
 def _split(wires: list, ends: list) -> tuple:
     """Drop empty and repeated wires (every junction is built end to end)."""
     unique: dict[tuple[tuple, ...], tuple[tuple, tuple]] = {}
